@@ -1,0 +1,121 @@
+// `chaosweep check`: validate a spec and print the plan, sizes and a calibrated cost estimate.
+#include <chrono>
+#include <cstdio>
+#include <string>
+
+#include "app/commands.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "spec/load.hpp"
+
+namespace chaosweep::app {
+namespace {
+
+std::string bytes_text(double bytes) {
+  const char* units[] = {"B", "KiB", "MiB", "GiB", "TiB", "PiB"};
+  int u = 0;
+  while (bytes >= 1024 && u < 5) {
+    bytes /= 1024;
+    ++u;
+  }
+  char text[32];
+  std::snprintf(text, sizeof text, "%.1f %s", bytes, units[u]);
+  return text;
+}
+
+std::string hours_text(double seconds) {
+  char text[48];
+  if (seconds < 120) {
+    std::snprintf(text, sizeof text, "%.1f s", seconds);
+  } else if (seconds < 7200) {
+    std::snprintf(text, sizeof text, "%.1f min", seconds / 60);
+  } else {
+    std::snprintf(text, sizeof text, "%.1f h", seconds / 3600);
+  }
+  return text;
+}
+
+/// Per-member values kept until the archive is written (doubles): initial state, time mean and
+/// variance per observable, regime fraction and residence, transitions and status.
+double per_member_doubles(const plan::Plan& plan) {
+  const double n_obs = static_cast<double>(plan.observables.size());
+  const double n_reg = static_cast<double>(plan.regime_labels.size());
+  return plan.state_dim + 2 * n_obs + 2 * n_reg + 2;
+}
+
+double trajectory_doubles(const plan::Plan& plan) {
+  return static_cast<double>(plan.cases.size()) * plan.trajectory_members *
+         plan.trajectory_samples * plan.state_dim;
+}
+
+/// Member-steps per second of one core, measured on one batch of the first case.
+double calibrate(const spec::Spec& spec, const plan::Plan& plan) {
+  plan::Plan probe = plan;
+  probe.spinup_steps = 0;
+  probe.accumulate_steps = std::min<std::int64_t>(plan.accumulate_steps, 4000);
+  probe.trajectory_members = 0;
+  probe.trajectory_every_steps = 0;
+  probe.trajectory_samples = 0;
+  const run::CaseRunner runner(spec, probe, probe.cases.front());
+  const auto start = std::chrono::steady_clock::now();
+  runner.run(probe.batches.front());
+  const double s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  return static_cast<double>(probe.batch_size) * probe.accumulate_steps / s;
+}
+
+void print_sweep(const spec::Spec& spec) {
+  if (spec.sweep.empty()) std::printf("  sweep          none (one case)\n");
+  for (const spec::SweepAxis& axis : spec.sweep) {
+    std::printf("  sweep          %s: %zu values from %g to %g\n", axis.parameter.c_str(),
+                axis.values.size(), axis.values.front(), axis.values.back());
+  }
+}
+
+}  // namespace
+
+int check_command(const CheckOptions& options) {
+  const spec::Spec spec = spec::load_spec(options.spec_path);
+  const plan::Plan plan = plan::make_plan(spec);
+  const double cases = static_cast<double>(plan.cases.size());
+  const double members = static_cast<double>(plan.member_count());
+  const double member_steps = members * plan.total_steps();
+  const std::int64_t n_batches = static_cast<std::int64_t>(plan.batches.size());
+  const plan::Range widest = plan::share(n_batches, 0, options.ranks);
+  const double share = static_cast<double>(widest.last - widest.first);
+
+  std::printf("%s: valid\n", spec.source_path.c_str());
+  std::printf("  campaign       %s\n", spec.name.c_str());
+  std::printf("  model          %s (%d state variables, %zu observables)\n", spec.model.c_str(),
+              plan.state_dim, plan.observables.size());
+  print_sweep(spec);
+  std::printf("  cases          %.0f\n", cases);
+  std::printf("  members        %lld per case, %.0f in all\n",
+              static_cast<long long>(plan.members), members);
+  std::printf("  steps          %lld spin-up + %lld accumulated per member (dt %g)\n",
+              static_cast<long long>(plan.spinup_steps),
+              static_cast<long long>(plan.accumulate_steps), spec.integration.dt);
+  std::printf("  member-steps   %.3g\n", member_steps);
+  std::printf("  batches        %lld of %d members; at most %.0f per rank on %d ranks\n",
+              static_cast<long long>(n_batches), plan.batch_size, share, options.ranks);
+
+  const double per_rank_bytes =
+      8.0 * (share * plan.batch_size * per_member_doubles(plan) +
+             trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim);
+  const double archive_bytes =
+      8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan)) + 65536.0;
+  std::printf("  memory         about %s per rank\n", bytes_text(per_rank_bytes).c_str());
+  std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());
+
+  if (options.calibrate) {
+    const double rate = calibrate(spec, plan);
+    const double core_seconds = member_steps / rate;
+    std::printf("  cost           %.3g member-steps/s per core (measured) -> %.3g core-hours, "
+                "about %s on %d ranks\n",
+                rate, core_seconds / 3600, hours_text(share * plan.batch_size *
+                                                      plan.total_steps() / rate).c_str(),
+                options.ranks);
+  }
+  return 0;
+}
+
+}  // namespace chaosweep::app

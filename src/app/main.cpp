@@ -1,0 +1,85 @@
+// chaosweep: command-line entry point. The one place that catches errors: every failure is
+// printed as one line and mapped to the exit status of the command-line contract.
+#include <CLI/CLI.hpp>
+
+#include <cstdio>
+#include <exception>
+
+#include "app/commands.hpp"
+#include "app/logging.hpp"
+#include "core/error.hpp"
+#include "core/version.hpp"
+#include "parallel/communicator.hpp"
+
+namespace {
+
+using namespace chaosweep;
+
+/// Runs a command that needs MPI; on failure prints one line and takes every rank down.
+int run_with_mpi(int argc, char** argv, const app::RunOptions& options) {
+  parallel::Session session(&argc, &argv);
+  parallel::Communicator comm;
+  try {
+    return app::run_command(options);
+  } catch (const Error& e) {
+    app::print_error(e.what(), comm.rank(), comm.size());
+    if (comm.size() > 1) comm.abort(e.exit_code());
+    return e.exit_code();
+  } catch (const std::exception& e) {
+    app::print_error(e.what(), comm.rank(), comm.size());
+    if (comm.size() > 1) comm.abort(kExitFailure);
+    return kExitFailure;
+  }
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  CLI::App cli{"chaosweep: forced-response ensemble campaigns for low-order chaotic models"};
+  cli.set_version_flag("--version", kToolVersion);
+  cli.require_subcommand(1);
+
+  app::CheckOptions check;
+  CLI::App* check_cmd = cli.add_subcommand("check", "Validate a campaign spec and print its plan and cost");
+  check_cmd->add_option("SPEC", check.spec_path, "Campaign spec (YAML)")->required();
+  check_cmd->add_option("--ranks", check.ranks, "Plan the share of work for this many MPI ranks")
+      ->check(CLI::Range(1, 1 << 24));
+  check_cmd->add_flag("!--no-calibrate", check.calibrate,
+                      "Skip the short timing run used for the cost estimate");
+
+  app::RunOptions run;
+  CLI::App* run_cmd = cli.add_subcommand("run", "Run a campaign (under mpirun for several ranks)");
+  run_cmd->add_option("SPEC", run.spec_path, "Campaign spec (YAML)")->required();
+  run_cmd->add_option("--archive", run.archive, "Write the archive here instead of output.archive");
+  run_cmd->add_flag("--overwrite", run.overwrite, "Replace an existing archive");
+  run_cmd->add_option("--progress", run.progress, "Progress display: auto, bar, log or none")
+      ->check(CLI::IsMember({"auto", "bar", "log", "none"}));
+  run_cmd->add_flag("-v,--verbose", run.verbose, "Log more detail");
+
+  app::SummaryOptions summary;
+  CLI::App* summary_cmd = cli.add_subcommand("summary", "Print the response tables of an archive");
+  summary_cmd->add_option("ARCHIVE", summary.archive, "Archive written by `chaosweep run`")->required();
+  summary_cmd->add_option("--format", summary.format, "table, csv or json")
+      ->check(CLI::IsMember({"table", "csv", "json"}));
+
+  try {
+    cli.parse(argc, argv);
+  } catch (const CLI::ParseError& e) {
+    if (e.get_exit_code() == 0) return cli.exit(e);  // --help, --version
+    app::print_error(e.what());
+    return kExitInvalid;
+  }
+
+  if (*run_cmd) return run_with_mpi(argc, argv, run);
+  try {
+    if (*check_cmd) return app::check_command(check);
+    if (*summary_cmd) return app::summary_command(summary);
+  } catch (const Error& e) {
+    app::print_error(e.what());
+    return e.exit_code();
+  } catch (const std::exception& e) {
+    app::print_error(e.what());
+    return kExitFailure;
+  }
+  return kExitInvalid;
+}

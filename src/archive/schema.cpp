@@ -1,0 +1,98 @@
+// The archive schema table (see schema.hpp). All models here are nondimensional: time is in
+// model time units and every state variable in the model's own scale, hence units "1".
+#include "archive/schema.hpp"
+
+#include <stdexcept>
+
+namespace chaosweep::archive {
+namespace {
+
+using T = ElementType;
+
+std::vector<DatasetDef> make_table() {
+  return {
+      {"/observable", {"observable"}, T::text, "1", "name of each observable", "always"},
+      {"/case/case", {"case"}, T::int64, "1", "case index (point of the sweep grid)", "always"},
+      {"/case/<parameter>", {"case"}, T::float64, "1", "swept value of this model parameter",
+       "sweep"},
+      {"/member/initial_state", {"case", "member", "state"}, T::float64, "1",
+       "state the member started from (after the base spin-up and perturbation)", "always"},
+      {"/member/status", {"case", "member"}, T::uint8, "1",
+       "member status: 0 valid, 1 non-finite (excluded from every estimate)", "always"},
+      {"/member/time_mean", {"case", "member", "observable"}, T::float64, "1",
+       "time mean of the observable over the accumulation window", "always"},
+      {"/member/time_variance", {"case", "member", "observable"}, T::float64, "1",
+       "time variance of the observable over the accumulation window (n-1 denominator)",
+       "always"},
+      {"/member/regime_fraction", {"case", "member", "regime"}, T::float64, "1",
+       "share of accumulated steps spent in the regime", "statistics.regimes"},
+      {"/member/regime_mean_residence", {"case", "member", "regime"}, T::float64, "1",
+       "mean length of an episode in the regime, in model time units (NaN if never visited)",
+       "statistics.regimes"},
+      {"/member/regime_transitions", {"case", "member"}, T::int64, "1",
+       "number of regime changes during accumulation", "statistics.regimes"},
+      {"/ensemble/time_mean", {"case", "observable"}, T::float64, "1",
+       "ensemble mean of the members' time means", "always"},
+      {"/ensemble/time_mean_std", {"case", "observable"}, T::float64, "1",
+       "standard deviation of the members' time means across members", "always"},
+      {"/ensemble/time_mean_ci95", {"case", "observable", "bound"}, T::float64, "1",
+       "95% confidence interval of the ensemble mean (Student t)", "always"},
+      {"/ensemble/regime_fraction", {"case", "regime"}, T::float64, "1",
+       "ensemble mean of the members' regime fractions", "statistics.regimes"},
+      {"/ensemble/regime_fraction_std", {"case", "regime"}, T::float64, "1",
+       "standard deviation of the regime fraction across members", "statistics.regimes"},
+      {"/ensemble/regime_fraction_ci95", {"case", "regime", "bound"}, T::float64, "1",
+       "95% confidence interval of the ensemble-mean regime fraction (Student t)",
+       "statistics.regimes"},
+      {"/ensemble/valid_members", {"case"}, T::int64, "1",
+       "members with finite states throughout", "always"},
+      {"/ensemble/effective_members", {"case"}, T::float64, "1",
+       "independent samples behind each ensemble estimate (valid members)", "always"},
+      {"/response/slope", {"axis", "observable"}, T::float64, "1",
+       "least-squares slope of the ensemble time mean against the swept parameter", "sweep"},
+      {"/response/slope_stderr", {"axis", "observable"}, T::float64, "1",
+       "standard error of the slope from the ensemble sampling error", "sweep"},
+      {"/histogram/edges", {"edges"}, T::float64, "1", "bin edges of the histogram",
+       "statistics.histogram"},
+      {"/histogram/counts", {"case", "bin"}, T::int64, "1",
+       "member-steps of valid members with the observable in each bin",
+       "statistics.histogram"},
+      {"/trajectory/time", {"step"}, T::float64, "1", "model time of each stored sample",
+       "output.trajectories"},
+      {"/trajectory/state", {"case", "sample", "step", "variable"}, T::float64, "1",
+       "full state of the stored members (the first members of each case); the dimension `variable` runs over the state variables",
+       "output.trajectories"},
+  };
+}
+
+std::string dims_text(const DatasetDef& d) {
+  std::string text;
+  for (const std::string& dim : d.dims) text += (text.empty() ? "" : ", ") + dim;
+  return text;
+}
+
+}  // namespace
+
+const std::vector<DatasetDef>& datasets() {
+  static const std::vector<DatasetDef> table = make_table();
+  return table;
+}
+
+const DatasetDef& dataset(const std::string& path) {
+  for (const DatasetDef& d : datasets()) {
+    if (d.path == path) return d;
+  }
+  if (path.rfind("/case/", 0) == 0) return dataset("/case/<parameter>");
+  throw std::logic_error("archive schema has no dataset " + path);
+}
+
+std::string markdown_table() {
+  std::string text = "| path | dimensions | units | content | present |\n|---|---|---|---|---|\n";
+  for (const DatasetDef& d : datasets()) {
+    text += "| `" + d.path + "` | " + dims_text(d) + " | " + d.units + " | " + d.long_name +
+            " | " + d.present + " |\n";
+  }
+  return text;
+}
+
+}  // namespace chaosweep::archive

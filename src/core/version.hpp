@@ -1,0 +1,10 @@
+// Tool and archive format versions.
+#pragma once
+
+namespace chaosweep {
+
+inline constexpr const char* kToolVersion = "0.1.0";
+/// Version of the archive layout; a reader refuses archives with a newer major number.
+inline constexpr int kArchiveFormatVersion = 1;
+
+}  // namespace chaosweep

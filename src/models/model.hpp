@@ -1,0 +1,101 @@
+// The model interface: every chaotic model the tool integrates implements this.
+// Pure numerics: no MPI, no HDF5, no YAML, no logging, no allocation in the hot calls.
+//
+// Batch layout (structure of arrays). A batch holds `width` members; component i of member m
+// is stored at x[i * width + m]. Every batched call treats members independently: the value
+// computed for member m depends only on column m, never on m or on width, so a member's result
+// does not depend on where it sits in a batch. Callers pass full-width batches (padding if
+// needed), so every member takes the same vectorised path.
+#pragma once
+
+#include <functional>
+#include <map>
+#include <memory>
+#include <string>
+#include <vector>
+
+namespace chaosweep::models {
+
+/// Parameter values by name. Every parameter is a vector; scalars have length 1.
+using ParameterValues = std::map<std::string, std::vector<double>>;
+
+/// Description of one model parameter.
+struct ParameterInfo {
+  std::string name;
+  std::vector<double> default_value;  // length = number of components (1 for scalars)
+  double min = -1e300;                // inclusive bounds, applied to every component
+  double max = 1e300;
+  bool integer = false;     // must hold an integer value (e.g. lorenz96 n)
+  bool structural = false;  // changes the state dimension: may not be swept or scheduled
+  std::string long_name;    // one line, for --help, archives and errors
+};
+
+/// A named quantity computed from the state: the state variables first, then derived ones.
+struct ObservableInfo {
+  std::string name;
+  std::string long_name;
+};
+
+/// One model instance with fixed parameter values.
+class Model {
+ public:
+  virtual ~Model() = default;
+
+  /// Number of state variables per member.
+  virtual int state_dim() const = 0;
+
+  /// Observables: the first state_dim() entries are the state variables in order, the rest
+  /// are derived quantities computed by derived().
+  virtual const std::vector<ObservableInfo>& observables() const = 0;
+
+  /// Right-hand side dx/dt over a batch: x and dxdt are [state_dim][width] (SoA).
+  /// No allocation, no I/O, deterministic; dxdt must not alias x.
+  virtual void rhs(const double* x, double* dxdt, int width) const = 0;
+
+  /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
+  virtual void derived(const double* x, double* out, int width) const {
+    (void)x; (void)out; (void)width;
+  }
+
+  /// Largest time step for which classical RK4 is clearly stable on this model's attractor
+  /// (a generous bound: a step above it is refused as a spec error).
+  virtual double max_stable_dt() const = 0;
+
+  /// A state from which the model reaches its attractor (for initial_state: {from: attractor}).
+  virtual std::vector<double> default_initial_state() const = 0;
+};
+
+/// Registry entry: a model's name, documentation, parameters and factory.
+struct ModelInfo {
+  std::string name;
+  std::string description;  // one line, with the equations' source
+  std::vector<ParameterInfo> parameters;
+  /// Builds an instance. `values` holds every parameter (defaults filled in) already checked
+  /// against ParameterInfo bounds; the factory may throw std::invalid_argument for
+  /// inconsistent combinations (message: one sentence).
+  std::function<std::unique_ptr<Model>(const ParameterValues& values)> make;
+  /// State dimension for the given complete parameter values (without building the model).
+  std::function<int(const ParameterValues& values)> state_dim;
+};
+
+/// All models compiled into the program. Models add themselves from their own file with a
+/// static Registrar, so adding a model is one file (plus its line in models/CMakeLists.txt).
+class Registry {
+ public:
+  static Registry& instance();
+  void add(ModelInfo info);
+  const ModelInfo* find(const std::string& name) const;  // nullptr if unknown
+  std::vector<std::string> names() const;                 // sorted
+
+ private:
+  std::map<std::string, ModelInfo> models_;
+};
+
+struct Registrar {
+  explicit Registrar(ModelInfo info) { Registry::instance().add(std::move(info)); }
+};
+
+/// The default values of every parameter of `info`, overridden by `overrides`.
+ParameterValues complete_parameters(const ModelInfo& info, const ParameterValues& overrides);
+
+}  // namespace chaosweep::models

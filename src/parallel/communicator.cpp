@@ -1,0 +1,100 @@
+// MPI wrapper: every call is checked; a failure becomes chaosweep::IoError with MPI's message.
+#include "parallel/communicator.hpp"
+
+#include <mpi.h>
+
+#include <cstdlib>
+
+#include "core/error.hpp"
+
+namespace chaosweep::parallel {
+namespace {
+
+void check(int rc, const char* what) {
+  if (rc == MPI_SUCCESS) return;
+  char text[MPI_MAX_ERROR_STRING];
+  int len = 0;
+  MPI_Error_string(rc, text, &len);
+  throw IoError(std::string("MPI ") + what + " failed: " + std::string(text, len));
+}
+
+template <typename T>
+std::vector<T> allgather(const std::vector<T>& local, MPI_Datatype type, int size) {
+  const int n = static_cast<int>(local.size());
+  std::vector<int> counts(size), displs(size);
+  check(MPI_Allgather(&n, 1, MPI_INT, counts.data(), 1, MPI_INT, MPI_COMM_WORLD), "Allgather");
+  std::int64_t total = 0;
+  for (int r = 0; r < size; ++r) {
+    displs[r] = static_cast<int>(total);
+    total += counts[r];
+  }
+  if (total > INT32_MAX) throw IoError("MPI Allgatherv: more than 2^31 values to gather");
+  std::vector<T> all(static_cast<std::size_t>(total));
+  check(MPI_Allgatherv(local.data(), n, type, all.data(), counts.data(), displs.data(), type,
+                       MPI_COMM_WORLD),
+        "Allgatherv");
+  return all;
+}
+
+}  // namespace
+
+Session::Session(int* argc, char*** argv) {
+  int provided = 0;
+  check(MPI_Init_thread(argc, argv, MPI_THREAD_FUNNELED, &provided), "Init");
+  MPI_Comm_set_errhandler(MPI_COMM_WORLD, MPI_ERRORS_RETURN);
+}
+
+Session::~Session() {
+  int finalized = 0;
+  MPI_Finalized(&finalized);
+  if (!finalized) MPI_Finalize();
+}
+
+Communicator::Communicator() {
+  check(MPI_Comm_rank(MPI_COMM_WORLD, &rank_), "Comm_rank");
+  check(MPI_Comm_size(MPI_COMM_WORLD, &size_), "Comm_size");
+}
+
+std::vector<double> Communicator::allgather_in_rank_order(const std::vector<double>& local) const {
+  return allgather(local, MPI_DOUBLE, size_);
+}
+
+std::vector<std::int64_t> Communicator::allgather_in_rank_order(
+    const std::vector<std::int64_t>& local) const {
+  return allgather(local, MPI_INT64_T, size_);
+}
+
+bool Communicator::any(bool flag) const {
+  int in = flag ? 1 : 0, out = 0;
+  check(MPI_Allreduce(&in, &out, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
+  return out != 0;
+}
+
+double Communicator::max(double value) const {
+  double out = 0;
+  check(MPI_Allreduce(&value, &out, 1, MPI_DOUBLE, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
+  return out;
+}
+
+std::int64_t Communicator::sum(std::int64_t value) const {
+  std::int64_t out = 0;
+  check(MPI_Allreduce(&value, &out, 1, MPI_INT64_T, MPI_SUM, MPI_COMM_WORLD), "Allreduce");
+  return out;
+}
+
+std::string Communicator::broadcast(const std::string& value) const {
+  std::int64_t n = static_cast<std::int64_t>(value.size());
+  check(MPI_Bcast(&n, 1, MPI_INT64_T, 0, MPI_COMM_WORLD), "Bcast");
+  std::string out = rank_ == 0 ? value : std::string(static_cast<std::size_t>(n), '\0');
+  check(MPI_Bcast(out.data(), static_cast<int>(n), MPI_CHAR, 0, MPI_COMM_WORLD), "Bcast");
+  return out;
+}
+
+void Communicator::barrier() const { check(MPI_Barrier(MPI_COMM_WORLD), "Barrier"); }
+
+void Communicator::abort(int code) const {
+  MPI_Abort(MPI_COMM_WORLD, code);
+  std::_Exit(code);
+}
+
+}  // namespace chaosweep::parallel

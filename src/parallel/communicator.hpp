@@ -1,0 +1,51 @@
+// The only user of <mpi.h> outside h5/: a thin, checked wrapper of the MPI calls the campaign
+// needs (rank and size, fixed-order gathers of per-batch partial results, agreement on stop,
+// aborting every rank together). Every call is collective unless said otherwise.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace chaosweep::parallel {
+
+/// Initialises MPI on construction and finalises it on destruction (RAII for main()).
+class Session {
+ public:
+  Session(int* argc, char*** argv);
+  ~Session();
+  Session(const Session&) = delete;
+  Session& operator=(const Session&) = delete;
+};
+
+/// The world communicator.
+class Communicator {
+ public:
+  Communicator();
+  int rank() const { return rank_; }
+  int size() const { return size_; }
+
+  /// Gathers every rank's `local` values, concatenated in rank order, on every rank.
+  /// Used with contiguous batch shares, so the result is in batch order.
+  std::vector<double> allgather_in_rank_order(const std::vector<double>& local) const;
+  std::vector<std::int64_t> allgather_in_rank_order(const std::vector<std::int64_t>& local) const;
+
+  /// True on every rank when `flag` is true on any rank.
+  bool any(bool flag) const;
+  /// Largest of the ranks' values.
+  double max(double value) const;
+  /// Sum over ranks.
+  std::int64_t sum(std::int64_t value) const;
+  /// Broadcasts rank 0's string to every rank.
+  std::string broadcast(const std::string& value) const;
+  void barrier() const;
+
+  /// Not collective: terminates every rank with `code` (used after a fatal error on one rank).
+  [[noreturn]] void abort(int code) const;
+
+ private:
+  int rank_ = 0;
+  int size_ = 1;
+};
+
+}  // namespace chaosweep::parallel

@@ -1,0 +1,142 @@
+// Fixed-order reduction of per-batch results (see reduce.hpp).
+#include "parallel/reduce.hpp"
+
+#include <cmath>
+
+#include "stats/ensemble.hpp"
+
+namespace chaosweep::parallel {
+namespace {
+
+/// Per-batch summary layout: for each observable (n, mean, m2), then for each regime
+/// (n, mean, m2) of the regime fraction. Histogram counts travel separately (integers).
+constexpr int kMomentWidth = 3;
+
+void append(std::vector<double>& out, const stats::Moments& m) {
+  out.push_back(m.n);
+  out.push_back(m.mean);
+  out.push_back(m.m2);
+}
+
+stats::Moments read_moments(const double* p) {
+  stats::Moments m;
+  m.n = p[0];
+  m.mean = p[1];
+  m.m2 = p[2];
+  return m;
+}
+
+/// Moments across the valid members of one batch of a quantity stored [count][width].
+stats::Moments batch_moments(const run::BatchResult& b, const std::vector<double>& values,
+                             int width, int column) {
+  stats::Moments m;
+  for (int i = 0; i < b.count; ++i) {
+    if (b.status[i] != run::kValid) continue;
+    m.add(values[static_cast<std::size_t>(i) * width + column]);
+  }
+  return m;
+}
+
+std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs, int n_reg) {
+  std::vector<double> out;
+  out.reserve(local.size() * kMomentWidth * (n_obs + n_reg));
+  for (const run::BatchResult& b : local) {
+    for (int o = 0; o < n_obs; ++o) append(out, batch_moments(b, b.time_mean, n_obs, o));
+    for (int r = 0; r < n_reg; ++r) append(out, batch_moments(b, b.regime_fraction, n_reg, r));
+  }
+  return out;
+}
+
+void store(const stats::EnsembleEstimate& e, std::size_t i, std::vector<double>& mean,
+           std::vector<double>& std, std::vector<double>& ci) {
+  mean[i] = e.mean;
+  std[i] = e.std;
+  ci[2 * i] = e.ci_low;
+  ci[2 * i + 1] = e.ci_high;
+}
+
+/// Response slopes of every observable's ensemble time mean against the sweep axes.
+void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) {
+  const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
+  r.slope.assign(n_axes * n_obs, NAN);
+  r.slope_stderr.assign(n_axes * n_obs, NAN);
+  if (n_axes == 0) return;
+  std::vector<std::vector<double>> x(n_cases);
+  for (std::size_t c = 0; c < n_cases; ++c) x[c] = plan.cases[c].axis_values;
+  for (std::size_t o = 0; o < n_obs; ++o) {
+    std::vector<double> y(n_cases), se(n_cases);
+    for (std::size_t c = 0; c < n_cases; ++c) {
+      y[c] = r.time_mean[c * n_obs + o];
+      const double n = static_cast<double>(r.valid_members[c]);
+      se[c] = r.time_mean_std[c * n_obs + o] / std::sqrt(n);
+    }
+    const std::vector<stats::Slope> fits = stats::response_slopes(x, y, se);
+    for (std::size_t a = 0; a < n_axes; ++a) {
+      r.slope[a * n_obs + o] = fits[a].slope;
+      r.slope_stderr[a * n_obs + o] = fits[a].stderr_;
+    }
+  }
+}
+
+}  // namespace
+
+EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                       const std::vector<run::BatchResult>& local) {
+  const int n_obs = static_cast<int>(plan.observables.size());
+  const int n_reg = static_cast<int>(plan.regime_labels.size());
+  const int bins = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
+  const std::size_t n_cases = plan.cases.size();
+  const std::size_t per_batch = static_cast<std::size_t>(kMomentWidth * (n_obs + n_reg));
+
+  const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, n_obs, n_reg));
+  std::vector<std::int64_t> local_counts;
+  std::int64_t local_bad = 0;
+  for (const run::BatchResult& b : local) {
+    local_counts.insert(local_counts.end(), b.histogram.begin(), b.histogram.end());
+    for (int i = 0; i < b.count; ++i) local_bad += b.status[i] != run::kValid ? 1 : 0;
+  }
+  const std::vector<std::int64_t> counts = comm.allgather_in_rank_order(local_counts);
+
+  // Merge per case in batch order.
+  std::vector<stats::Moments> obs(n_cases * n_obs), reg(n_cases * n_reg);
+  EnsembleResults r;
+  r.histogram.assign(n_cases * bins, 0);
+  for (const plan::Batch& b : plan.batches) {
+    const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
+    const std::size_t c = static_cast<std::size_t>(b.case_index);
+    for (int o = 0; o < n_obs; ++o, p += kMomentWidth) obs[c * n_obs + o].merge(read_moments(p));
+    for (int k = 0; k < n_reg; ++k, p += kMomentWidth) reg[c * n_reg + k].merge(read_moments(p));
+    for (int k = 0; k < bins; ++k)
+      r.histogram[c * bins + k] += counts[static_cast<std::size_t>(b.index) * bins + k];
+  }
+
+  r.valid_members.assign(n_cases, 0);
+  r.effective_members.assign(n_cases, 0.0);
+  r.time_mean.assign(n_cases * n_obs, NAN);
+  r.time_mean_std.assign(n_cases * n_obs, NAN);
+  r.time_mean_ci95.assign(n_cases * n_obs * 2, NAN);
+  r.regime_fraction.assign(n_cases * n_reg, NAN);
+  r.regime_fraction_std.assign(n_cases * n_reg, NAN);
+  r.regime_fraction_ci95.assign(n_cases * n_reg * 2, NAN);
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    for (int o = 0; o < n_obs; ++o) {
+      const std::size_t i = c * n_obs + o;
+      store(stats::estimate(obs[i]), i, r.time_mean, r.time_mean_std, r.time_mean_ci95);
+    }
+    for (int k = 0; k < n_reg; ++k) {
+      const std::size_t i = c * n_reg + k;
+      store(stats::estimate(reg[i]), i, r.regime_fraction, r.regime_fraction_std,
+            r.regime_fraction_ci95);
+    }
+    // Members are independent draws (distinct perturbations, decorrelated after spin-up), so
+    // every valid member counts as one independent sample of the case's time-mean statistics.
+    const std::int64_t valid = n_obs > 0 ? static_cast<std::int64_t>(obs[c * n_obs].n) : 0;
+    r.valid_members[c] = valid;
+    r.effective_members[c] = static_cast<double>(valid);
+  }
+  r.non_finite_members = comm.sum(local_bad);
+  fit_slopes(plan, spec.sweep.size(), r);
+  return r;
+}
+
+}  // namespace chaosweep::parallel

@@ -1,0 +1,39 @@
+// Reduction of per-batch results into per-case ensemble estimates, identical on every rank.
+//
+// Each rank summarises its own batches (moments across the batch's valid members, histogram
+// counts); the summaries are gathered in batch order and every rank merges them per case in
+// that order. The merge order is therefore fixed by the plan, not by the rank count, and the
+// estimates are bitwise the same for any number of ranks.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+#include "parallel/communicator.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::parallel {
+
+struct EnsembleResults {
+  std::vector<std::int64_t> valid_members;      // [case]
+  std::vector<double> effective_members;        // [case]
+  std::vector<double> time_mean;                // [case][observable]
+  std::vector<double> time_mean_std;            // [case][observable]
+  std::vector<double> time_mean_ci95;           // [case][observable][2]
+  std::vector<double> regime_fraction;          // [case][regime]
+  std::vector<double> regime_fraction_std;      // [case][regime]
+  std::vector<double> regime_fraction_ci95;     // [case][regime][2]
+  std::vector<std::int64_t> histogram;          // [case][bin]
+  std::vector<double> slope;                    // [axis][observable]
+  std::vector<double> slope_stderr;             // [axis][observable]
+  std::int64_t non_finite_members = 0;          // over the whole campaign
+};
+
+/// Reduces the batches this rank ran (`local`, in batch order, a contiguous share of the plan's
+/// batches) into campaign-wide estimates on every rank. Collective.
+EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                       const std::vector<run::BatchResult>& local);
+
+}  // namespace chaosweep::parallel

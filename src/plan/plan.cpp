@@ -1,0 +1,113 @@
+// Spec -> cases x members -> batches. Pure: no MPI, no HDF5, no YAML.
+#include "plan/plan.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <memory>
+
+#include "core/error.hpp"
+
+namespace chaosweep::plan {
+namespace {
+
+/// Number of whole steps of length dt in `span` time units (rounded to the nearest).
+std::int64_t whole_steps(double span, double dt) {
+  return static_cast<std::int64_t>(std::llround(span / dt));
+}
+
+/// Cartesian product of the sweep axes, the last axis varying fastest.
+std::vector<Case> make_cases(const spec::Spec& spec) {
+  std::vector<Case> cases(1);
+  cases[0].parameters = spec.parameters;
+  for (const spec::SweepAxis& axis : spec.sweep) {
+    std::vector<Case> grown;
+    grown.reserve(cases.size() * axis.values.size());
+    for (const Case& base : cases) {
+      for (double value : axis.values) {
+        Case c = base;
+        c.axis_values.push_back(value);
+        c.parameters[axis.parameter] = {value};
+        grown.push_back(std::move(c));
+      }
+    }
+    cases = std::move(grown);
+  }
+  for (std::size_t i = 0; i < cases.size(); ++i) cases[i].index = static_cast<std::int64_t>(i);
+  return cases;
+}
+
+std::vector<Batch> make_batches(std::int64_t n_cases, std::int64_t members, int batch_size) {
+  std::vector<Batch> batches;
+  const std::int64_t per_case = (members + batch_size - 1) / batch_size;
+  batches.reserve(static_cast<std::size_t>(n_cases * per_case));
+  for (std::int64_t c = 0; c < n_cases; ++c) {
+    for (std::int64_t b = 0; b < per_case; ++b) {
+      Batch batch;
+      batch.index = static_cast<std::int64_t>(batches.size());
+      batch.case_index = c;
+      batch.first_member = b * batch_size;
+      batch.count = static_cast<int>(std::min<std::int64_t>(batch_size, members - batch.first_member));
+      batches.push_back(batch);
+    }
+  }
+  return batches;
+}
+
+void select_observables(const spec::Spec& spec, const models::Model& model, Plan& plan) {
+  const auto& all = model.observables();
+  for (int i = 0; i < model.state_dim(); ++i) plan.state_names.push_back(all[i].name);
+  for (const std::string& name : spec.statistics.observables) {
+    for (std::size_t i = 0; i < all.size(); ++i) {
+      if (all[i].name == name) {
+        plan.observables.push_back(name);
+        plan.observable_index.push_back(static_cast<int>(i));
+      }
+    }
+  }
+  if (plan.observables.empty()) {
+    for (std::size_t i = 0; i < all.size(); ++i) {
+      plan.observables.push_back(all[i].name);
+      plan.observable_index.push_back(static_cast<int>(i));
+    }
+  }
+}
+
+}  // namespace
+
+Plan make_plan(const spec::Spec& spec) {
+  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
+  if (!info) throw Error("unknown model `" + spec.model + "`");
+  const std::unique_ptr<models::Model> model = info->make(spec.parameters);
+
+  Plan plan;
+  plan.cases = make_cases(spec);
+  plan.members = spec.ensemble.members;
+  plan.batch_size = spec.run.batch_size;
+  plan.batches = make_batches(static_cast<std::int64_t>(plan.cases.size()), plan.members,
+                              plan.batch_size);
+  plan.state_dim = model->state_dim();
+  select_observables(spec, *model, plan);
+  plan.regime_labels = spec.statistics.regimes.labels;
+
+  const double dt = spec.integration.dt;
+  plan.spinup_steps = whole_steps(spec.integration.spinup, dt);
+  plan.accumulate_steps = whole_steps(spec.integration.duration, dt);
+  const spec::Trajectories& traj = spec.output.trajectories;
+  if (traj.members > 0) {
+    plan.trajectory_members = static_cast<int>(std::min<std::int64_t>(traj.members, plan.members));
+    plan.trajectory_every_steps = std::max<std::int64_t>(1, whole_steps(traj.every, dt));
+    plan.trajectory_samples = plan.total_steps() / plan.trajectory_every_steps + 1;
+  }
+  return plan;
+}
+
+Range share(std::int64_t n, int rank, int size) {
+  const std::int64_t base = n / size;
+  const std::int64_t extra = n % size;
+  Range r;
+  r.first = rank * base + std::min<std::int64_t>(rank, extra);
+  r.last = r.first + base + (rank < extra ? 1 : 0);
+  return r;
+}
+
+}  // namespace chaosweep::plan

@@ -1,0 +1,60 @@
+// Spec -> cases x members -> batches. Pure: no MPI, no HDF5, no YAML.
+//
+// A case is one point of the sweep grid (cartesian product of the axes, the last axis varying
+// fastest). A batch is a block of at most batch_size consecutive members of one case; batches
+// are numbered case-major, and are the unit of scheduling, checkpointing and reduction.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "models/model.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::plan {
+
+struct Case {
+  std::int64_t index = 0;
+  std::vector<double> axis_values;     // one per sweep axis
+  models::ParameterValues parameters;  // complete parameters of this case
+};
+
+struct Batch {
+  std::int64_t index = 0;         // global batch number
+  std::int64_t case_index = 0;
+  std::int64_t first_member = 0;  // member index within the case
+  int count = 0;                  // real members in the batch (<= batch_size); the rest is padding
+};
+
+struct Plan {
+  std::vector<Case> cases;
+  std::vector<Batch> batches;
+  std::int64_t members = 0;  // per case
+  int batch_size = 0;        // width every batch is integrated at
+  int state_dim = 0;
+  std::vector<std::string> state_names;      // the model's state variables
+  std::vector<std::string> observables;      // selected observables, in archive order
+  std::vector<int> observable_index;         // index of each into the model's observables()
+  std::vector<std::string> regime_labels;    // empty when no regimes
+  std::int64_t spinup_steps = 0;             // integration.spinup / dt, rounded
+  std::int64_t accumulate_steps = 0;         // integration.duration / dt, rounded
+  std::int64_t trajectory_every_steps = 0;   // 0 when no trajectories
+  std::int64_t trajectory_samples = 0;       // samples per stored member, t = 0 included
+  int trajectory_members = 0;                // stored members per case (<= members)
+
+  std::int64_t total_steps() const { return spinup_steps + accumulate_steps; }
+  std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }
+};
+
+/// Builds the plan; throws SpecError for inconsistent combinations the loader cannot see.
+Plan make_plan(const spec::Spec& spec);
+
+/// Contiguous share [first, last) of `n` items for `rank` of `size` (first ranks get one more).
+struct Range {
+  std::int64_t first = 0;
+  std::int64_t last = 0;
+};
+Range share(std::int64_t n, int rank, int size);
+
+}  // namespace chaosweep::plan

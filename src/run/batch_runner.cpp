@@ -1,0 +1,185 @@
+// One batch of one case: initial states, RK4 spin-up and accumulation, per-member statistics.
+// Pure numerics: no MPI, no HDF5, no YAML, no logging.
+//
+// Time line of a run (dt = spec.integration.dt, S = plan.spinup_steps, A = plan.accumulate_steps):
+//   step 0            initial states (base + perturbation); trajectory sample 0
+//   steps 1 .. S      spin-up: integrated, not accumulated
+//   steps S+1 .. S+A  after each step the selected observables feed the accumulators (A samples)
+//   every k steps     (k = plan.trajectory_every_steps) the stored members' states are sampled
+// Every 32 steps and at the end each member's state is checked for finiteness; a non-finite
+// member is flagged, its column reset to the base state (so the batch arithmetic stays finite)
+// and all its statistics reported as NaN (transition count 0, no histogram counts).
+#include "run/batch_runner.hpp"
+
+#include <cmath>
+#include <memory>
+#include <string>
+#include <utility>
+
+#include "core/error.hpp"
+#include "integrators/rk4.hpp"
+#include "run/batch_work.hpp"
+#include "run/member_noise.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+/// Index of observable `name` in the model's observables(); throws if there is none.
+int observable_index(const models::Model& model, const std::string& name) {
+  const auto& all = model.observables();
+  for (std::size_t i = 0; i < all.size(); ++i) {
+    if (all[i].name == name) return static_cast<int>(i);
+  }
+  throw Error("the model has no observable `" + name + "`");
+}
+
+void resolve_regimes(const spec::Regimes& r, const plan::Plan& plan, const models::Model& model,
+                     Setup& s) {
+  s.n_regimes = static_cast<int>(plan.regime_labels.size());
+  s.regime_kind = s.n_regimes == 0 ? spec::RegimeKind::none : r.kind;
+  if (s.regime_kind == spec::RegimeKind::sign) {
+    if (s.n_regimes != 2) throw Error("sign regimes need exactly two labels");
+    s.regime_coordinates = {observable_index(model, r.observable)};
+  } else if (s.regime_kind == spec::RegimeKind::nearest) {
+    for (const std::string& name : r.coordinates) {
+      s.regime_coordinates.push_back(observable_index(model, name));
+    }
+    if (r.coordinates.empty()) {
+      for (int i = 0; i < model.state_dim(); ++i) s.regime_coordinates.push_back(i);
+    }
+    s.centroids = r.centroids;
+    if (static_cast<int>(s.centroids.size()) != s.n_regimes) {
+      throw Error("nearest regimes need one centroid per label");
+    }
+    for (const auto& c : s.centroids) {
+      if (c.size() != s.regime_coordinates.size()) {
+        throw Error("every regime centroid needs one value per coordinate");
+      }
+    }
+  }
+}
+
+Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const models::Model& model) {
+  Setup s;
+  s.width = plan.batch_size;
+  s.state_dim = model.state_dim();
+  s.n_model_observables = static_cast<int>(model.observables().size());
+  if (s.width < 1) throw Error("the plan's batch size must be at least 1");
+  if (plan.state_dim != 0 && plan.state_dim != s.state_dim) {
+    throw Error("the plan's state dimension does not match the model");
+  }
+  s.dt = spec.integration.dt;
+  s.spinup_steps = plan.spinup_steps;
+  s.total_steps = plan.total_steps();
+  s.trajectory_every = plan.trajectory_every_steps;
+  s.trajectory_samples = s.trajectory_every > 0 ? plan.trajectory_samples : 0;
+  s.trajectory_members = s.trajectory_every > 0 ? plan.trajectory_members : 0;
+  s.observables = plan.observable_index;
+  resolve_regimes(spec.statistics.regimes, plan, model, s);
+  if (spec.statistics.histogram.enabled) {
+    s.histogram = spec.statistics.histogram;
+    s.histogram_observable = observable_index(model, spec.statistics.histogram.observable);
+  }
+  std::vector<int> used = s.observables;
+  used.insert(used.end(), s.regime_coordinates.begin(), s.regime_coordinates.end());
+  if (s.histogram) used.push_back(s.histogram_observable);
+  for (int i : used) {
+    if (i < 0 || i >= s.n_model_observables) throw Error("observable index out of range");
+    if (i >= s.state_dim) s.needs_derived = true;
+  }
+  return s;
+}
+
+/// Base state reached on the attractor: the model's default initial state integrated for
+/// `spinup` time units with the batch stepper at full width (every column identical), so the
+/// result is the same on every rank that computes it.
+std::vector<double> attractor_state(const models::Model& model, int width, double spinup,
+                                    double dt) {
+  const int d = model.state_dim();
+  const std::vector<double> start = model.default_initial_state();
+  std::vector<double> x(static_cast<std::size_t>(d) * width);
+  for (int i = 0; i < d; ++i) {
+    for (int m = 0; m < width; ++m) x[static_cast<std::size_t>(i) * width + m] = start[i];
+  }
+  integrators::Rk4Batch stepper(model, width);
+  const std::int64_t steps = std::llround(spinup / dt);
+  for (std::int64_t k = 0; k < steps; ++k) stepper.step(x.data(), dt);
+  std::vector<double> base(static_cast<std::size_t>(d));
+  for (int i = 0; i < d; ++i) {
+    base[i] = x[static_cast<std::size_t>(i) * width];
+    if (!std::isfinite(base[i])) {
+      throw Error("the spin-up to the attractor diverged; reduce integration.dt");
+    }
+  }
+  return base;
+}
+
+std::vector<double> perturbed_state(const spec::Ensemble& ensemble,
+                                    const std::vector<double>& base, std::int64_t case_index,
+                                    std::int64_t member) {
+  const MemberNoise noise(ensemble.seed, case_index, member);
+  const double scale = ensemble.perturbation.scale;
+  const bool gaussian = ensemble.perturbation.distribution == spec::Distribution::gaussian;
+  std::vector<double> x(base.size());
+  for (std::size_t i = 0; i < base.size(); ++i) {
+    x[i] = base[i] + scale * (gaussian ? noise.gaussian(i) : noise.uniform(i));
+  }
+  return x;
+}
+
+}  // namespace
+
+std::vector<double> member_initial_state(const spec::Spec& spec, const std::vector<double>& base,
+                                         std::int64_t case_index, std::int64_t member) {
+  return perturbed_state(spec.ensemble, base, case_index, member);
+}
+
+struct CaseRunner::Impl {
+  std::int64_t case_index = 0;
+  spec::Ensemble ensemble;
+  std::unique_ptr<models::Model> model;
+  Setup setup;
+  std::vector<double> base;
+};
+
+CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c)
+    : impl_(std::make_unique<Impl>()) {
+  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
+  if (!info) throw Error("unknown model `" + spec.model + "`");
+  impl_->case_index = c.index;
+  impl_->ensemble = spec.ensemble;
+  impl_->model = info->make(c.parameters);
+  impl_->setup = make_setup(spec, plan, *impl_->model);
+  const spec::InitialState& initial = spec.ensemble.initial;
+  if (initial.kind == spec::InitialKind::attractor) {
+    impl_->base = attractor_state(*impl_->model, impl_->setup.width, initial.spinup,
+                                  spec.integration.dt);
+  } else {
+    impl_->base = initial.state;
+  }
+  if (static_cast<int>(impl_->base.size()) != impl_->setup.state_dim) {
+    throw Error("the initial state needs " + std::to_string(impl_->setup.state_dim) +
+                " components");
+  }
+}
+
+CaseRunner::~CaseRunner() = default;
+
+const std::vector<double>& CaseRunner::base_state() const { return impl_->base; }
+
+BatchResult CaseRunner::run(const plan::Batch& batch) const {
+  const Impl& p = *impl_;
+  if (batch.case_index != p.case_index) throw Error("a batch was given to another case's runner");
+  if (batch.count < 1 || batch.count > p.setup.width) throw Error("batch count out of range");
+  std::vector<double> initial;
+  initial.reserve(static_cast<std::size_t>(batch.count) * p.setup.state_dim);
+  for (int j = 0; j < batch.count; ++j) {
+    const std::vector<double> x =
+        perturbed_state(p.ensemble, p.base, p.case_index, batch.first_member + j);
+    initial.insert(initial.end(), x.begin(), x.end());
+  }
+  BatchWork work(p.setup, *p.model, p.base, batch, std::move(initial));
+  return work.run();
+}
+
+}  // namespace chaosweep::run

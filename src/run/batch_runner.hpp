@@ -1,0 +1,64 @@
+// Integrates one batch of members from its initial states to the end of the run and returns
+// every per-member statistic. Pure numerics: no MPI, no HDF5, no YAML, no logging.
+//
+// The result for a member depends only on (spec, case, member index): the initial
+// perturbation comes from a counter-based generator keyed by (seed, case, member), batches are
+// always integrated at full width (padding members are copies that are discarded), and the
+// order of floating-point operations per member is fixed. Hence the numbers are bitwise the
+// same whichever rank runs the batch and in whatever order.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <vector>
+
+#include "models/model.hpp"
+#include "plan/plan.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::run {
+
+/// Per-member status codes (archive /member/status).
+enum MemberStatus : std::uint8_t { kValid = 0, kNonFinite = 1 };
+
+/// Everything one batch produced, for its `count` real members (padding dropped).
+/// Arrays are member-major: [count][...].
+struct BatchResult {
+  std::int64_t batch_index = 0;
+  std::int64_t case_index = 0;
+  std::int64_t first_member = 0;
+  int count = 0;
+  std::vector<double> initial_state;           // [count][state_dim]
+  std::vector<std::uint8_t> status;            // [count]
+  std::vector<double> time_mean;               // [count][n_observables], NaN if not valid
+  std::vector<double> time_variance;           // [count][n_observables] (n-1 denominator)
+  std::vector<double> regime_fraction;         // [count][n_regimes]
+  std::vector<double> regime_mean_residence;   // [count][n_regimes], time units; NaN if never
+  std::vector<std::int64_t> regime_transitions;  // [count]
+  std::vector<std::int64_t> histogram;         // [bins], summed over the valid members
+  std::vector<double> trajectory;              // [stored members in this batch][samples][state_dim]
+  int trajectory_members = 0;                  // members of this batch among the stored ones
+};
+
+/// Runs the batches of one case. Construct once per case (it builds the model and the case's
+/// base state), then call run() for each batch of that case.
+class CaseRunner {
+ public:
+  CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c);
+  ~CaseRunner();
+  BatchResult run(const plan::Batch& batch) const;
+
+  /// The base state members are perturbed from (given, or reached on the attractor).
+  const std::vector<double>& base_state() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+/// The initial state of member (case, member): base + scale * noise from the counter-based
+/// generator keyed by (seed, case, member). Exposed for tests.
+std::vector<double> member_initial_state(const spec::Spec& spec, const std::vector<double>& base,
+                                         std::int64_t case_index, std::int64_t member);
+
+}  // namespace chaosweep::run

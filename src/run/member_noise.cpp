@@ -1,0 +1,42 @@
+// SplitMix64 stream per member and the two noise distributions; see member_noise.hpp.
+#include "run/member_noise.hpp"
+
+#include <cmath>
+
+namespace chaosweep::run {
+namespace {
+
+constexpr std::uint64_t kGolden = 0x9e3779b97f4a7c15ULL;  // 2^64 / golden ratio, odd
+constexpr double kTwoPi = 6.283185307179586476925286766559;
+constexpr double kTwoPow53 = 9007199254740992.0;
+
+/// SplitMix64 output mixing function (a bijection of 64-bit integers).
+std::uint64_t mix64(std::uint64_t z) {
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ULL;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebULL;
+  return z ^ (z >> 31);
+}
+
+/// Top 53 bits as a double in [0, 1), a multiple of 2^-53.
+double unit(std::uint64_t bits) { return static_cast<double>(bits >> 11) / kTwoPow53; }
+
+}  // namespace
+
+MemberNoise::MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member) {
+  std::uint64_t k = mix64(seed + kGolden);
+  k = mix64(k ^ (static_cast<std::uint64_t>(case_index) + 2 * kGolden));
+  key_ = mix64(k ^ (static_cast<std::uint64_t>(member) + 3 * kGolden));
+}
+
+std::uint64_t MemberNoise::bits(std::uint64_t j) const { return mix64(key_ + (j + 1) * kGolden); }
+
+double MemberNoise::uniform(std::uint64_t i) const { return 2.0 * unit(bits(i)) - 1.0; }
+
+// Box-Muller: z = sqrt(-2 ln u1) cos(2 pi u2) with u1 in (0, 1] and u2 in [0, 1).
+double MemberNoise::gaussian(std::uint64_t i) const {
+  const double u1 = 1.0 - unit(bits(2 * i));
+  const double u2 = unit(bits(2 * i + 1));
+  return std::sqrt(-2.0 * std::log(u1)) * std::cos(kTwoPi * u2);
+}
+
+}  // namespace chaosweep::run

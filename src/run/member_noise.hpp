@@ -1,0 +1,31 @@
+// Counter-based noise for member perturbations. Pure: no state beyond the key.
+//
+// Draw j of member (seed, case, member) is a pure function of those four integers, so a
+// member's perturbation never depends on the batch, the rank or the order of evaluation.
+#pragma once
+
+#include <cstdint>
+
+namespace chaosweep::run {
+
+/// The noise stream of one member. Bits come from the SplitMix64 sequence started at a key
+/// mixed from (seed, case, member) (Steele, Lea & Flood (2014) OOPSLA, "Fast splittable
+/// pseudorandom number generators"); draw j is mix(key + (j + 1) * golden), computed directly.
+class MemberNoise {
+ public:
+  MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member);
+
+  /// 64 random bits of draw j.
+  std::uint64_t bits(std::uint64_t j) const;
+
+  /// Noise for state component i, uniform on [-1, 1) (from draw i).
+  double uniform(std::uint64_t i) const;
+
+  /// Noise for state component i, standard normal (Box-Muller from draws 2i and 2i + 1).
+  double gaussian(std::uint64_t i) const;
+
+ private:
+  std::uint64_t key_;
+};
+
+}  // namespace chaosweep::run

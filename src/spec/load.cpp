@@ -1,0 +1,103 @@
+// Strict loading of a campaign spec: YAML text -> validated, complete Spec.
+#include "spec/load.hpp"
+
+#include <cerrno>
+#include <cstdio>
+#include <cstring>
+
+#include <yaml-cpp/yaml.h>
+
+#include "core/error.hpp"
+#include "core/sha256.hpp"
+#include "spec/reader.hpp"
+#include "spec/sections.hpp"
+
+namespace chaosweep::spec {
+namespace {
+
+/// YAML forbids tabs in indentation; a tab in the leading whitespace of any line with content
+/// (comment lines aside) is refused up front with a clear message. This also covers lines of a
+/// block scalar (`description: |`), where a leading tab would be content: use spaces there.
+void refuse_tab_indentation(const std::string& text, const std::string& source) {
+  int line = 1;
+  std::size_t start = 0;
+  while (start < text.size()) {
+    std::size_t end = text.find('\n', start);
+    if (end == std::string::npos) end = text.size();
+    const std::size_t content = text.find_first_not_of(" \t\r", start);
+    if (content < end && text[content] != '#') {
+      const std::size_t tab = text.find('\t', start);
+      if (tab < content) {
+        fail_at(source, Location{line, static_cast<int>(tab - start) + 1}, "",
+                "tab character in indentation; YAML indentation must use spaces");
+      }
+    }
+    start = end + 1;
+    ++line;
+  }
+}
+
+/// The one YAML document of the spec; syntax errors, an empty file and a second document are
+/// SpecErrors.
+YAML::Node parse_document(const std::string& text, const std::string& source) {
+  std::vector<YAML::Node> documents;
+  try {
+    documents = YAML::LoadAll(text);
+  } catch (const YAML::Exception& e) {
+    const Location where{e.mark.line < 0 ? 0 : e.mark.line + 1,
+                         e.mark.column < 0 ? 0 : e.mark.column + 1};
+    fail_at(source, where, "", "YAML syntax error: " + e.msg);
+  }
+  if (documents.empty()) fail_at(source, Location{1, 1}, "", "the spec is empty");
+  if (documents.size() > 1) {
+    fail_at(source, location_of(documents[1], Location{1, 1}), "",
+            "a spec holds one YAML document; a second one starts here");
+  }
+  return documents[0];
+}
+
+}  // namespace
+
+Spec parse_spec(const std::string& text, const std::string& source_name) {
+  Spec spec;
+  spec.source_path = source_name;
+  spec.text = text;
+  spec.sha256 = sha256_hex(text);
+  refuse_tab_indentation(text, source_name);
+  const YAML::Node root = parse_document(text, source_name);
+  const Field top_field(&source_name, root, "", location_of(root, Location{1, 1}));
+  if (!root.IsMap()) top_field.fail("the top level must be a map of sections, got " + top_field.kind());
+  const Map top(top_field, {{"campaign", "model", "sweep", "ensemble", "integration",
+                             "statistics", "output", "run"},
+                            {"schedule", "checkpoint"}, "key", ""});
+  read_campaign(top.required("campaign"), spec);
+  ModelFacts facts = read_model(top.required("model"), spec);
+  if (top.has("sweep")) read_sweep(top.get("sweep"), facts, spec);
+  read_integration(top.required("integration"), facts, spec);
+  read_ensemble(top.required("ensemble"), facts, spec);
+  if (top.has("statistics")) read_statistics(top.get("statistics"), facts, spec);
+  if (spec.statistics.observables.empty()) spec.statistics.observables = facts.observables;
+  read_output(top.required("output"), spec);
+  if (top.has("run")) read_run(top.get("run"), spec);
+  return spec;
+}
+
+Spec load_spec(const std::string& path) {
+  std::FILE* file = std::fopen(path.c_str(), "rb");
+  if (!file) {
+    fail_at(path, Location{}, "", std::string("cannot read spec: ") + std::strerror(errno));
+  }
+  std::string text;
+  char buffer[65536];
+  std::size_t n = 0;
+  while ((n = std::fread(buffer, 1, sizeof buffer, file)) > 0) text.append(buffer, n);
+  int error = 0;
+  if (std::ferror(file) != 0) error = errno != 0 ? errno : EIO;
+  if (std::fclose(file) != 0 && error == 0) error = errno != 0 ? errno : EIO;
+  if (error != 0) {
+    fail_at(path, Location{}, "", std::string("cannot read spec: ") + std::strerror(error));
+  }
+  return parse_spec(text, path);
+}
+
+}  // namespace chaosweep::spec

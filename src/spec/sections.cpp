@@ -1,0 +1,202 @@
+// The campaign, integration, ensemble, statistics, output and run sections.
+#include <climits>
+#include <algorithm>
+#include <limits>
+
+#include "spec/sections.hpp"
+#include "spec/suggest.hpp"
+
+namespace chaosweep::spec {
+namespace {
+
+/// Largest number of members per case (an absurd-size guard; the product with the number of
+/// cases and the state dimension is checked separately against int64).
+constexpr std::int64_t kMaxMembers = 1000000000;
+/// Most steps of dt in one run: step counts stay exact in double arithmetic below 2^53.
+constexpr double kMaxSteps = 9007199254740992.0;
+
+std::string non_empty_string(const Field& f) {
+  const std::string s = f.string();
+  if (s.find_first_not_of(" \t") == std::string::npos) f.fail("must not be empty");
+  return s;
+}
+
+/// A time that is either 0 (none) or at least one step dt.
+void check_zero_or_step(const Field& f, double value, double dt) {
+  if (value > 0.0 && value < dt) {
+    f.fail("must be 0 or at least integration.dt (" + format_number(dt) + "), got " +
+           format_number(value));
+  }
+}
+
+/// Comma-separated state variable names for messages ("x, y, z"), abbreviated when long.
+std::string state_names(const ModelFacts& facts) {
+  std::string out;
+  const int shown = std::min(facts.state_dim, 6);
+  for (int i = 0; i < shown; ++i) out += (i ? ", " : "") + facts.observables[i];
+  if (facts.state_dim > shown) out += ", ...";
+  return out;
+}
+
+void read_initial_state(const Field& f, const ModelFacts& facts, double dt,
+                        InitialState& out) {
+  if (f.is_list()) {
+    out.kind = InitialKind::given;
+    out.state = f.numbers();
+    if (static_cast<int>(out.state.size()) != facts.state_dim) {
+      f.fail("has " + std::to_string(out.state.size()) + " values; " + facts.info->name +
+             " has " + std::to_string(facts.state_dim) + " state variables (" +
+             state_names(facts) + ")");
+    }
+    return;
+  }
+  if (!f.is_map()) {
+    f.fail("expected a list of " + std::to_string(facts.state_dim) +
+           " numbers or {from: attractor, spinup: T}, got " + f.kind());
+  }
+  const Map map(f, {{"from", "spinup"}, {}, "key", ""});
+  out.kind = InitialKind::attractor;
+  map.required("from").choice({"attractor"}, "initial state source");
+  if (map.has("spinup")) {
+    const Field spinup = map.get("spinup");
+    out.spinup = spinup.number_at_least(0.0);
+    check_zero_or_step(spinup, out.spinup, dt);
+  }
+}
+
+void read_perturbation(const Field& f, Perturbation& out) {
+  const Map map(f, {{"distribution", "scale"}, {}, "key", ""});
+  if (map.has("distribution")) {
+    const std::string d = map.get("distribution").choice({"gaussian", "uniform"}, "distribution");
+    out.distribution = d == "gaussian" ? Distribution::gaussian : Distribution::uniform;
+  }
+  if (map.has("scale")) out.scale = map.get("scale").number_at_least(0.0);
+}
+
+void read_histogram(const Field& f, const ModelFacts& facts, Histogram& out) {
+  const Map map(f, {{"observable", "bins", "range"}, {}, "key", ""});
+  out.enabled = true;
+  out.observable = read_observable(map.required("observable"), facts);
+  out.bins = static_cast<int>(map.required("bins").integer_in(1, 1000000));
+  const Field range = map.required("range");
+  const auto bounds = range.numbers();
+  if (bounds.size() != 2) {
+    range.fail("expected [low, high], got " + std::to_string(bounds.size()) + " numbers");
+  }
+  out.low = bounds[0];
+  out.high = bounds[1];
+  if (!(out.low < out.high)) {
+    range.fail("low must be below high, got [" + format_number(out.low) + ", " +
+               format_number(out.high) + "]");
+  }
+}
+
+void read_trajectories(const Field& f, const Spec& spec, Trajectories& out) {
+  const Map map(f, {{"members", "every"}, {}, "key", ""});
+  const Field members = map.required("members");
+  const std::int64_t m = members.integer_in(0, INT_MAX);
+  if (m > spec.ensemble.members) {
+    members.fail("must be at most ensemble.members (" + std::to_string(spec.ensemble.members) +
+                 "), got " + std::to_string(m));
+  }
+  out.members = static_cast<int>(m);
+  if (out.members == 0 && !map.has("every")) return;
+  const Field every = map.required("every");
+  out.every = every.number_above(0.0);
+  if (out.every < spec.integration.dt) {
+    every.fail("must be at least integration.dt (" + format_number(spec.integration.dt) +
+               "), got " + format_number(out.every));
+  }
+}
+
+/// members * cases and state_dim * members * cases must fit in int64 (the sweep has already
+/// checked that the number of cases does).
+void check_sizes(const Field& members, const Spec& spec, const ModelFacts& facts) {
+  constexpr std::int64_t kMax = std::numeric_limits<std::int64_t>::max();
+  std::int64_t cases = 1;
+  for (const auto& axis : spec.sweep) cases *= static_cast<std::int64_t>(axis.values.size());
+  const std::int64_t m = spec.ensemble.members;
+  if (m > kMax / cases || m * cases > kMax / facts.state_dim) {
+    members.fail(std::to_string(m) + " members x " + std::to_string(cases) + " cases x " +
+                 std::to_string(facts.state_dim) +
+                 " state variables is more than a 64-bit count holds");
+  }
+}
+
+}  // namespace
+
+void read_campaign(const Field& campaign, Spec& spec) {
+  const Map map(campaign, {{"name", "description"}, {}, "key", ""});
+  spec.name = non_empty_string(map.required("name"));
+  if (map.has("description")) spec.description = map.get("description").string();
+}
+
+void read_integration(const Field& integration, const ModelFacts& facts, Spec& spec) {
+  const Map map(integration, {{"method", "dt", "spinup", "duration"}, {}, "key", ""});
+  Integration& out = spec.integration;
+  if (map.has("method")) out.method = map.get("method").choice({"rk4"}, "method");
+  const Field dt = map.required("dt");
+  out.dt = dt.number_above(0.0);
+  check_stable_dt(dt, facts, spec);
+  if (map.has("spinup")) {
+    const Field spinup = map.get("spinup");
+    out.spinup = spinup.number_at_least(0.0);
+    check_zero_or_step(spinup, out.spinup, out.dt);
+  }
+  const Field duration = map.required("duration");
+  out.duration = duration.number_above(0.0);
+  if (out.duration < out.dt) {
+    duration.fail("must be at least integration.dt (" + format_number(out.dt) + "), got " +
+                  format_number(out.duration));
+  }
+  if ((out.spinup + out.duration) / out.dt > kMaxSteps) {
+    duration.fail("spinup + duration is more than 2^53 steps of dt");
+  }
+}
+
+void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
+  const Map map(ensemble, {{"members", "initial_state", "perturbation", "seed"}, {}, "key", ""});
+  Ensemble& out = spec.ensemble;
+  const Field members = map.required("members");
+  out.members = members.integer_in(1, kMaxMembers);
+  check_sizes(members, spec, facts);
+  if (map.has("initial_state")) {
+    read_initial_state(map.get("initial_state"), facts, spec.integration.dt, out.initial);
+  }
+  if (map.has("perturbation")) read_perturbation(map.get("perturbation"), out.perturbation);
+  out.seed = map.required("seed").unsigned_integer();
+}
+
+void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {
+  const Map map(statistics, {{"observables", "regimes", "histogram"},
+                             {"snapshots", "lyapunov", "twins"}, "key", ""});
+  Statistics& out = spec.statistics;
+  if (map.has("observables")) out.observables = read_observable_names(map.get("observables"), facts);
+  if (map.has("regimes")) read_regimes(map.get("regimes"), facts, out.regimes);
+  if (map.has("histogram")) read_histogram(map.get("histogram"), facts, out.histogram);
+}
+
+void read_output(const Field& output, Spec& spec) {
+  const Map map(output, {{"archive", "trajectories"}, {}, "key", ""});
+  const Field archive = map.required("archive");
+  spec.output.archive = archive.string();
+  if (spec.output.archive.empty()) archive.fail("must be a non-empty path");
+  spec.output.archive_where = archive.where();
+  if (map.has("trajectories")) {
+    read_trajectories(map.get("trajectories"), spec, spec.output.trajectories);
+  }
+}
+
+void read_run(const Field& run, Spec& spec) {
+  const Map map(run, {{"batch_size"}, {}, "key", ""});
+  if (!map.has("batch_size")) return;
+  const Field batch = map.get("batch_size");
+  const std::int64_t size = batch.integer();
+  if (size <= 0 || size % 8 != 0) {
+    batch.fail("must be a positive multiple of 8 (the SIMD width), got " + std::to_string(size));
+  }
+  if (size > INT_MAX) batch.fail("is out of range, got " + std::to_string(size));
+  spec.run.batch_size = static_cast<int>(size);
+}
+
+}  // namespace chaosweep::spec

@@ -1,0 +1,119 @@
+// The campaign spec as plain structs: what spec/ produces from YAML and every later stage reads.
+// Values here are complete (defaults filled in) and validated; see spec/load.hpp.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "models/model.hpp"
+
+namespace chaosweep::spec {
+
+/// Position of a key or value in the spec file (1-based; 0 when unknown).
+struct Location {
+  int line = 0;
+  int column = 0;
+};
+
+/// One sweep axis: a scalar model parameter and the values it takes.
+struct SweepAxis {
+  std::string parameter;
+  std::vector<double> values;  // at least one, all finite, no duplicates
+  Location where;
+};
+
+enum class InitialKind { given, attractor };
+
+/// Where members start: a given state, or a point on the attractor reached by integrating the
+/// model's default initial state for `spinup` time units (per case, before perturbation).
+struct InitialState {
+  InitialKind kind = InitialKind::attractor;
+  std::vector<double> state;  // given: length state_dim
+  double spinup = 50.0;       // attractor: time units
+};
+
+enum class Distribution { gaussian, uniform };
+
+/// Each member's initial state is the base state plus scale * noise, componentwise; gaussian
+/// noise has unit standard deviation, uniform noise lies in [-1, 1).
+struct Perturbation {
+  Distribution distribution = Distribution::gaussian;
+  double scale = 1e-3;
+};
+
+struct Ensemble {
+  std::int64_t members = 0;  // per case, >= 1
+  InitialState initial;
+  Perturbation perturbation;
+  std::uint64_t seed = 0;
+};
+
+struct Integration {
+  std::string method = "rk4";  // only rk4 for now
+  double dt = 0.01;            // > 0
+  double spinup = 0.0;         // >= 0, time units discarded before accumulation
+  double duration = 0.0;       // > 0, time units accumulated
+};
+
+enum class RegimeKind { none, sign, nearest };
+
+/// Regime classification of every step of every member.
+/// sign: regime 0 while observable >= 0, regime 1 while observable < 0.
+/// nearest: the regime whose centroid is nearest (Euclidean) in the space of `coordinates`.
+struct Regimes {
+  RegimeKind kind = RegimeKind::none;
+  std::string observable;                    // sign
+  std::vector<std::string> coordinates;      // nearest: observables the centroids are given in
+  std::vector<std::vector<double>> centroids;  // nearest: one per regime
+  std::vector<std::string> labels;           // one per regime (defaults: sign: positive,
+                                             // negative; nearest: regime0, regime1, ...)
+};
+
+struct Histogram {
+  bool enabled = false;
+  std::string observable;
+  int bins = 0;  // >= 1
+  double low = 0.0, high = 0.0;  // low < high; values outside are not counted
+};
+
+struct Statistics {
+  std::vector<std::string> observables;  // default: every observable of the model
+  Regimes regimes;
+  Histogram histogram;
+};
+
+/// Full state paths of the first `members` members of every case, sampled every `every` time
+/// units from t = 0 (spin-up included) to the end of the run.
+struct Trajectories {
+  int members = 0;
+  double every = 0.0;
+};
+
+struct Output {
+  std::string archive;  // path as written in the spec (relative to the working directory)
+  Location archive_where;
+  Trajectories trajectories;
+};
+
+struct Run {
+  int batch_size = 64;  // members per work unit, a multiple of 8
+};
+
+struct Spec {
+  std::string source_path;  // as given on the command line
+  std::string text;         // the file verbatim
+  std::string sha256;       // of text
+  std::string name;
+  std::string description;
+  std::string model;                    // registry name
+  models::ParameterValues parameters;   // complete: defaults with the spec's overrides
+  std::vector<SweepAxis> sweep;         // may be empty: one case with the base parameters
+  Ensemble ensemble;
+  Integration integration;
+  Statistics statistics;
+  Output output;
+  Run run;
+};
+
+}  // namespace chaosweep::spec

@@ -1,0 +1,51 @@
+// Ensemble estimates across members, built from per-batch partial results merged in a fixed
+// order. Pure: no communication. parallel/ moves partials between ranks; the merge here is
+// associative (Chan et al. pairwise update) and the caller fixes the order (batch order), so
+// the result does not depend on the number of ranks.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+namespace chaosweep::stats {
+
+/// Count, mean and sum of squared deviations of a set of values (mergeable).
+struct Moments {
+  double n = 0.0;
+  double mean = 0.0;
+  double m2 = 0.0;
+
+  void add(double x);                 // Welford's one-pass update
+  void merge(const Moments& other);   // Chan's pairwise update; exact for n == 0 on either side
+  double variance() const;            // m2 / (n - 1), NaN when n < 2
+  double stddev() const;
+};
+
+/// Across-member summary of one quantity for one case.
+struct EnsembleEstimate {
+  double mean = 0.0;
+  double std = 0.0;      // sample standard deviation across members
+  double ci_low = 0.0;   // 95% interval of the ensemble mean, Student t with n-1 d.o.f.
+  double ci_high = 0.0;
+  std::int64_t n = 0;
+};
+
+/// Two-sided 95% Student-t quantile t_{0.975, dof}; NaN for dof < 1.
+double student_t975(double dof);
+
+/// Turns merged moments into an estimate (NaN std/interval when n < 2, NaN mean when n == 0).
+EnsembleEstimate estimate(const Moments& m);
+
+/// Least-squares fit of y_c (case values) on the case's axis values (plus an intercept).
+/// x is [cases][axes]; y and y_se are [cases]. The slope for each axis is a fixed linear
+/// combination a_c of the y_c; its standard error propagates the ensemble sampling error,
+/// sqrt(sum a_c^2 y_se_c^2). Axes with a single distinct value give NaN. Cases with non-finite
+/// y are left out.
+struct Slope {
+  double slope = 0.0;
+  double stderr_ = 0.0;
+};
+std::vector<Slope> response_slopes(const std::vector<std::vector<double>>& x,
+                                   const std::vector<double>& y, const std::vector<double>& y_se);
+
+}  // namespace chaosweep::stats

@@ -1,0 +1,47 @@
+// Per-member time statistics: running mean and variance of several observables for every
+// member of a batch, fed once per time step. Pure numerics: no communication, no I/O.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+#include "stats/ensemble.hpp"
+
+namespace chaosweep::stats {
+
+/// Time moments of `series` observables x `width` members (SoA: value of series s, member m at
+/// [s * width + m]). Two shifts keep every sum small: the member's first sample K0 (its origin
+/// for the whole series) and, within each short block, the block's first sample Kb:
+///   S1 = sum (v - Kb),  S2 = sum (v - Kb)^2            (plain sums over the block)
+///   block mean - K0 = (Kb - K0) + S1 / nb,  block m2 = S2 - S1^2 / nb,
+/// and each full block is merged into the running moments (kept relative to K0) with Chan's
+/// update (Moments::merge). So a large offset never enters a square or a merged mean, the short
+/// block bounds the growth of rounding error, and the per-step loop over members is a plain
+/// vectorisable loop. Every member (column) sees the same operations, so its result does not
+/// depend on its column.
+class TimeMoments {
+ public:
+  TimeMoments(int series, int width, int block_length = 256);
+
+  /// Adds one time step: columns[s] points to `width` values of series s.
+  void add(const double* const* columns);
+
+  /// Moments of series s for member m over every sample added so far.
+  Moments moments(int series, int member) const;
+
+  std::int64_t count() const { return merged_count_ + in_block_; }
+
+ private:
+  void flush();
+  Moments block_moments(long index) const;
+
+  int series_, width_, block_length_;
+  int in_block_ = 0;                 // samples in the current block (same for every member)
+  std::int64_t merged_count_ = 0;    // samples already merged into running_
+  std::vector<double> origin_;       // [series][width], first sample of the series (K0)
+  std::vector<double> shift_;        // [series][width], first sample of the current block (Kb)
+  std::vector<double> s1_, s2_;      // [series][width], shifted sums of the current block
+  std::vector<Moments> running_;     // [series][width], merged full blocks, mean relative to K0
+};
+
+}  // namespace chaosweep::stats

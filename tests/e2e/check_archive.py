@@ -1,0 +1,230 @@
+#!/usr/bin/python3
+"""End-to-end checks of chaosweep archives, read as a user would: with h5py and xarray.
+
+Usage: check_archive.py CHECK ARGS...   (see the functions below; each exits non-zero on failure)
+"""
+import json
+import math
+import subprocess
+import sys
+
+import h5py
+import numpy as np
+
+# Root attributes that legitimately differ between two runs of the same spec.
+RUN_ATTRIBUTES = {"created_utc", "ranks"}
+
+
+def fail(message):
+    print("FAIL: " + message)
+    sys.exit(1)
+
+
+def datasets(path):
+    """Every dataset of an HDF5 file as {path: (dtype, shape, raw bytes)}."""
+    out = {}
+    with h5py.File(path, "r") as f:
+        def visit(name, obj):
+            if isinstance(obj, h5py.Dataset):
+                data = obj[()]
+                if obj.dtype.kind == "O":
+                    raw = repr([d.decode() if isinstance(d, bytes) else d for d in np.ravel(data)])
+                else:
+                    raw = np.ascontiguousarray(data).tobytes()
+                out["/" + name] = (str(obj.dtype), obj.shape, raw)
+        f.visititems(visit)
+    return out
+
+
+def root_attributes(path):
+    with h5py.File(path, "r") as f:
+        return {k: f.attrs[k] for k in f.attrs}
+
+
+def check_bitwise(reference, *others):
+    """Every dataset (and every root attribute but the run's own) is bitwise identical."""
+    ref = datasets(reference)
+    ref_attrs = root_attributes(reference)
+    if len(ref) < 10:
+        fail(f"{reference}: only {len(ref)} datasets")
+    for other in others:
+        got = datasets(other)
+        if sorted(got) != sorted(ref):
+            fail(f"{other}: datasets differ from {reference}: {sorted(set(got) ^ set(ref))}")
+        for name, value in ref.items():
+            if got[name] != value:
+                fail(f"{other}: {name} differs from {reference}")
+        attrs = root_attributes(other)
+        for key, value in ref_attrs.items():
+            if key not in RUN_ATTRIBUTES and str(attrs.get(key)) != str(value):
+                fail(f"{other}: root attribute {key} differs")
+        print(f"ok: {other} == {reference} bitwise ({len(ref)} datasets)")
+
+
+def member_arrays(path):
+    with h5py.File(path, "r") as f:
+        names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+        return (names, f["member/time_mean"][()], f["member/time_variance"][()],
+                f["member/status"][()], f.attrs)
+
+
+def check_l63_identities(path, sigma, beta, forcing_csv, d0, d2, duration, dt):
+    """Time-mean identities of forced Lorenz-63, per member (exact: the time mean of a derivative
+    over a window of length T is (end - start) / T)."""
+    sigma, beta, d0, d2, duration, dt = map(float, (sigma, beta, d0, d2, duration, dt))
+    forcing = [float(v) for v in forcing_csv.split(",")]
+    names, mean, var, status, _ = member_arrays(path)
+    ix, iy, iz = names.index("x"), names.index("y"), names.index("z")
+    n = round(duration / dt)
+    second = var * (n - 1) / n + mean ** 2      # <q^2> from the stored mean and variance
+    # Bound on the attractor: |x|, |y| < 30 and 0 < z < 60 for these parameters (from memory:
+    # the Lorenz-63 attractor at rho = 28 spans |x| < 20, |y| < 27, z < 50; margins added).
+    # Mean of dx/dt: sigma(<y> - <x>) + f d0 = (x(T) - x(0)) / T, so |...| <= 60 / T.
+    # Mean of dz/dt and d(x^2/2)/dt combined: <x^2> - beta<z> + f d2 - f d0 <x>/sigma
+    #   = (z(T) - z(0)) / T - (x(T)^2 - x(0)^2) / (2 sigma T), so |...| <= 60/T + 900/(2 sigma T).
+    tol_x = 60.0 / duration
+    tol_z = 60.0 / duration + 900.0 / (2 * sigma * duration)
+    checked = 0
+    for c, f in enumerate(forcing):
+        for m in range(mean.shape[1]):
+            if status[c, m] != 0:
+                fail(f"member ({c},{m}) not valid")
+            x, y, z = mean[c, m, ix], mean[c, m, iy], mean[c, m, iz]
+            r1 = sigma * (y - x) + f * d0
+            r2 = second[c, m, ix] - beta * z + f * d2 - f * d0 * x / sigma
+            if abs(r1) > tol_x:
+                fail(f"case {c} member {m}: sigma(<y>-<x>) + f d0 = {r1:.3g} exceeds {tol_x:.3g}")
+            if abs(r2) > tol_z:
+                fail(f"case {c} member {m}: <x^2> - beta<z> + ... = {r2:.3g} exceeds {tol_z:.3g}")
+            checked += 1
+    print(f"ok: L63 identities hold for {checked} members (tolerances {tol_x:.3g}, {tol_z:.3g})")
+
+
+def check_l96_identity(path, n_sites, forcing_csv, duration):
+    """Lorenz-96 climate identity, site-averaged: <x^2> = F<x> up to (E(T) - E(0)) / (n T)
+    (exact, from d(sum x^2/2)/dt = -sum x^2 + F sum x). The energy stays below n F^2 / 2 on the
+    absorbing ball (exact: dE/dt <= -2E + F sqrt(2 n E)), so the residual is at most F^2 / (2T)."""
+    n_sites, duration = int(n_sites), float(duration)
+    forcing = [float(v) for v in forcing_csv.split(",")]
+    names, mean, _, status, _ = member_arrays(path)
+    im, ie = names.index("mean"), names.index("energy")
+    for c, F in enumerate(forcing):
+        tol = F * F / (2 * duration)
+        for m in range(mean.shape[1]):
+            residual = 2 * mean[c, m, ie] / n_sites - F * mean[c, m, im]
+            if status[c, m] != 0 or abs(residual) > tol:
+                fail(f"case {c} member {m}: <x^2> - F<x> = {residual:.3g}, bound {tol:.3g}")
+        print(f"ok: F = {F}: <x^2> = F<x> within {tol:.3g} for {mean.shape[1]} members")
+
+
+def ensemble(path):
+    with h5py.File(path, "r") as f:
+        names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+        return {
+            "names": names,
+            "mean": f["ensemble/time_mean"][()],
+            "se": f["ensemble/time_mean_std"][()] / np.sqrt(f["ensemble/valid_members"][()])[:, None],
+            "regime": f["ensemble/regime_fraction"][()],
+            "regime_se": f["ensemble/regime_fraction_std"][()]
+            / np.sqrt(f["ensemble/valid_members"][()])[:, None],
+        }
+
+
+def check_mirror(plus, minus):
+    """(f, d) and (f, -d) give mirror-image statistics (exact symmetry (x, y, z) -> (-x, -y, z)
+    of the equations): <x>, <y> change sign, <z> is unchanged, the sign-regime fractions swap.
+    The two ensembles are independent samples, so equality is tested within 5 combined standard
+    errors (common practice for a test that must not fail by chance)."""
+    a, b = ensemble(plus), ensemble(minus)
+    for name, sign in (("x", -1), ("y", -1), ("z", 1)):
+        i = a["names"].index(name)
+        diff = a["mean"][0, i] - sign * b["mean"][0, i]
+        se = math.hypot(a["se"][0, i], b["se"][0, i])
+        if abs(diff) > 5 * se:
+            fail(f"<{name}>: {a['mean'][0, i]:.4g} vs {b['mean'][0, i]:.4g} (se {se:.3g})")
+    diff = a["regime"][0, 0] - b["regime"][0, 1]
+    se = math.hypot(a["regime_se"][0, 0], b["regime_se"][0, 1])
+    if abs(diff) > 5 * se:
+        fail(f"regime fractions do not swap: {a['regime'][0]} vs {b['regime'][0]}")
+    # The forcing must visibly break the symmetry of each run on its own, or the test is empty.
+    ix = a["names"].index("x")
+    if abs(a["mean"][0, ix]) < 5 * a["se"][0, ix]:
+        fail(f"forced <x> = {a['mean'][0, ix]:.3g} is not distinguishable from 0")
+    print(f"ok: mirror symmetry: <x> {a['mean'][0, ix]:.4g} vs {b['mean'][0, ix]:.4g}, "
+          f"fractions {a['regime'][0]} vs {b['regime'][0]}")
+
+
+def check_summary_json(path, program):
+    """`summary --format json` round-trips through json and equals the archive's datasets."""
+    out = subprocess.run([program, "summary", path, "--format", "json"], check=True,
+                         capture_output=True, text=True).stdout
+    doc = json.loads(out)
+    with h5py.File(path, "r") as f:
+        names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+        mean = f["ensemble/time_mean"][()]
+        ci = f["ensemble/time_mean_ci95"][()]
+        valid = f["ensemble/valid_members"][()]
+        frac = f["ensemble/regime_fraction"][()] if "ensemble/regime_fraction" in f else None
+        slope = f["response/slope"][()] if "response/slope" in f else None
+    if len(doc["cases"]) != mean.shape[0]:
+        fail("summary has the wrong number of cases")
+    for c, case in enumerate(doc["cases"]):
+        if case["valid_members"] != int(valid[c]):
+            fail(f"case {c}: valid_members {case['valid_members']} != {valid[c]}")
+        for o, name in enumerate(names):
+            entry = case["time_mean"][name]
+            if entry["mean"] != float(mean[c, o]) or entry["ci95"] != [float(v) for v in ci[c, o]]:
+                fail(f"case {c} {name}: summary {entry} != archive {mean[c, o]} {ci[c, o]}")
+        if frac is not None:
+            for k, label in enumerate(doc["regimes"]):
+                if case["regime_fraction"][label]["mean"] != float(frac[c, k]):
+                    fail(f"case {c} regime {label}: summary differs from archive")
+    if slope is not None:
+        for row in doc["response"]:
+            a, o = doc["axes"].index(row["axis"]), names.index(row["observable"])
+            if row["slope"] != float(slope[a, o]):
+                fail(f"slope {row} differs from archive {slope[a, o]}")
+    print(f"ok: summary json equals the archive for {len(doc['cases'])} cases")
+
+
+def check_xarray(path):
+    """The archive opens with xarray (h5netcdf engine) with named dimensions in every group."""
+    import xarray as xr
+    expected = {
+        "member": {"time_mean": ("case", "member", "observable"),
+                   "initial_state": ("case", "member", "state"),
+                   "status": ("case", "member")},
+        "ensemble": {"time_mean": ("case", "observable"),
+                     "time_mean_ci95": ("case", "observable", "bound"),
+                     "valid_members": ("case",)},
+        "case": {"case": ("case",)},
+    }
+    for group, variables in expected.items():
+        with xr.open_dataset(path, engine="h5netcdf", group=group) as ds:
+            for name, dims in variables.items():
+                if ds[name].dims != dims:
+                    fail(f"{group}/{name}: dims {ds[name].dims}, expected {dims}")
+                if "units" not in ds[name].attrs or "long_name" not in ds[name].attrs:
+                    fail(f"{group}/{name}: missing units or long_name")
+            if group == "ensemble":
+                obs = [str(v) for v in ds["observable"].values]
+                x = ds.time_mean.sel(observable=obs[0])
+                if x.shape != (ds.sizes["case"],):
+                    fail("selecting an observable by name failed")
+    with xr.open_dataset(path, engine="h5netcdf") as ds:
+        if "spec_yaml" not in ds.attrs or ds.attrs.get("status") != "complete":
+            fail(f"root attributes: {sorted(ds.attrs)}")
+    print(f"ok: {path} opens in xarray with named dimensions")
+
+
+CHECKS = {
+    "bitwise": check_bitwise,
+    "l63-identities": check_l63_identities,
+    "l96-identity": check_l96_identity,
+    "mirror": check_mirror,
+    "summary-json": check_summary_json,
+    "xarray": check_xarray,
+}
+
+if __name__ == "__main__":
+    CHECKS[sys.argv[1]](*sys.argv[2:])

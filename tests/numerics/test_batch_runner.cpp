@@ -1,0 +1,384 @@
+// Batch runner tests: determinism (batch position, batch width, noise keys), non-finite
+// members, and time-mean identities of Lorenz-63 and Lorenz-96 per member.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <cstdio>
+#include <cstdint>
+#include <type_traits>
+#include <vector>
+
+#include "integrators/reference.hpp"
+#include "numerics_fixtures.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::testing {
+namespace {
+
+/// A small forced Lorenz-63 campaign, filled in directly (no YAML): one case, 16 members in
+/// batches of 8, attractor start, sign regimes and a histogram of x, trajectories of 8 members.
+spec::Spec l63_spec() {
+  spec::Spec s;
+  s.name = "runner-test";
+  s.model = "lorenz63";
+  s.parameters = models::complete_parameters(
+      model_info("lorenz63"), {{"forcing", {2.0}}, {"forcing_direction", {0.6, 0.3, 0.8}}});
+  s.ensemble.members = 16;
+  s.ensemble.initial.kind = spec::InitialKind::attractor;
+  s.ensemble.initial.spinup = 10.0;
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-3};
+  s.ensemble.seed = 20261202;
+  s.integration.dt = 0.005;
+  s.integration.spinup = 2.0;
+  s.integration.duration = 10.0;
+  s.statistics.regimes.kind = spec::RegimeKind::sign;
+  s.statistics.regimes.observable = "x";
+  s.statistics.regimes.labels = {"positive", "negative"};
+  s.statistics.histogram = {true, "x", 20, -30.0, 30.0};
+  s.output.trajectories = {8, 0.5};
+  s.run.batch_size = 8;
+  return s;
+}
+
+plan::Batch batch(std::int64_t case_index, std::int64_t first, int count) {
+  plan::Batch b;
+  b.index = 1000 + first;  // any number: results must not depend on it
+  b.case_index = case_index;
+  b.first_member = first;
+  b.count = count;
+  return b;
+}
+
+/// Row j of a member-major array with `per` entries per member.
+template <typename T>
+std::vector<T> row(const std::vector<T>& a, int j, std::size_t per) {
+  return std::vector<T>(a.begin() + j * per, a.begin() + (j + 1) * per);
+}
+
+template <typename T>
+bool same_row(const std::vector<T>& a, const std::vector<T>& b) {
+  if (a.size() != b.size()) return false;
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    if constexpr (std::is_floating_point_v<T>) {
+      if (!same_bits(a[i], b[i])) return false;
+    } else if (a[i] != b[i]) {
+      return false;
+    }
+  }
+  return true;
+}
+
+/// Every per-member array of member `ja` of result a equals that of member `jb` of result b.
+void expect_same_member(const run::BatchResult& a, int ja, const run::BatchResult& b, int jb,
+                        const plan::Plan& plan) {
+  const std::size_t d = plan.state_dim, o = plan.observables.size(), r = plan.regime_labels.size();
+  const std::size_t traj = static_cast<std::size_t>(plan.trajectory_samples) * d;
+  EXPECT_TRUE(same_row(row(a.initial_state, ja, d), row(b.initial_state, jb, d)));
+  EXPECT_EQ(a.status[ja], b.status[jb]);
+  EXPECT_TRUE(same_row(row(a.time_mean, ja, o), row(b.time_mean, jb, o)));
+  EXPECT_TRUE(same_row(row(a.time_variance, ja, o), row(b.time_variance, jb, o)));
+  EXPECT_TRUE(same_row(row(a.regime_fraction, ja, r), row(b.regime_fraction, jb, r)));
+  EXPECT_TRUE(same_row(row(a.regime_mean_residence, ja, r), row(b.regime_mean_residence, jb, r)));
+  EXPECT_EQ(a.regime_transitions[ja], b.regime_transitions[jb]);
+  if (ja < a.trajectory_members && jb < b.trajectory_members) {
+    EXPECT_TRUE(same_row(row(a.trajectory, ja, traj), row(b.trajectory, jb, traj)));
+  }
+}
+
+// ---- determinism ----------------------------------------------------------------------------
+
+// Exact by design (batch_runner.hpp): members 5, 6, 7 sit at columns 5-7 of batch [0, 8), at
+// columns 0-2 of batch [5, 13) (other neighbours) and of the padded batch [5, 8); with a batch
+// width of 16 they sit in a wider SoA array. Every per-member number must be bitwise the same.
+TEST(BatchRunner, MemberResultsIndependentOfBatchPositionAndWidth) {
+  const spec::Spec spec = l63_spec();
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult a = runner.run(batch(0, 0, 8));
+  const run::BatchResult b = runner.run(batch(0, 5, 8));
+  const run::BatchResult c = runner.run(batch(0, 5, 3));
+  spec::Spec wide_spec = spec;
+  wide_spec.run.batch_size = 16;
+  const plan::Plan wide_plan = plan::make_plan(wide_spec);
+  const run::CaseRunner wide_runner(wide_spec, wide_plan, wide_plan.cases[0]);
+  const run::BatchResult w = wide_runner.run(batch(0, 0, 16));
+  EXPECT_TRUE(same_row(runner.base_state(), wide_runner.base_state()));
+  for (int k = 0; k < 3; ++k) {
+    SCOPED_TRACE("member " + std::to_string(5 + k));
+    expect_same_member(a, 5 + k, b, k, plan);
+    expect_same_member(a, 5 + k, c, k, plan);
+    expect_same_member(a, 5 + k, w, 5 + k, plan);
+  }
+  for (int j = 0; j < 8; ++j) EXPECT_EQ(a.status[j], run::kValid);
+}
+
+// Exact by construction: the batch histogram is the sum of its members' histograms, so two
+// half batches add up to the full one; with range [-30, 30) every x sample is counted.
+TEST(BatchRunner, HistogramIsAdditiveOverMembers) {
+  const spec::Spec spec = l63_spec();
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult full = runner.run(batch(0, 0, 8));
+  const run::BatchResult lo = runner.run(batch(0, 0, 4));
+  const run::BatchResult hi = runner.run(batch(0, 4, 4));
+  ASSERT_EQ(full.histogram.size(), 20u);
+  std::int64_t total = 0;
+  for (std::size_t i = 0; i < full.histogram.size(); ++i) {
+    EXPECT_EQ(full.histogram[i], lo.histogram[i] + hi.histogram[i]);
+    total += full.histogram[i];
+  }
+  EXPECT_EQ(total, 8 * plan.accumulate_steps);
+}
+
+// Exact by construction of the regime accounting: per valid member the fractions sum to 1,
+// and the episodes (fraction * steps * dt / mean residence, summed over visited regimes) number
+// one more than the transitions (every episode but the first starts with a transition).
+TEST(BatchRunner, RegimeAccountingIsConsistent) {
+  const spec::Spec spec = l63_spec();
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult res = runner.run(batch(0, 0, 8));
+  const double dt = spec.integration.dt, steps = static_cast<double>(plan.accumulate_steps);
+  for (int j = 0; j < 8; ++j) {
+    double fractions = 0.0, episodes = 0.0;
+    for (int r = 0; r < 2; ++r) {
+      const double f = res.regime_fraction[j * 2 + r];
+      fractions += f;
+      if (f > 0) episodes += f * steps * dt / res.regime_mean_residence[j * 2 + r];
+    }
+    EXPECT_NEAR(fractions, 1.0, 1e-15);
+    EXPECT_NEAR(episodes, res.regime_transitions[j] + 1.0, 1e-9);
+  }
+}
+
+// Exact by design: a member's initial state depends on (seed, case, member) only, not on the
+// batch size, the number of members, the step or the model parameters; the runner uses it.
+TEST(BatchRunner, InitialStateDependsOnSeedCaseMemberOnly) {
+  const spec::Spec spec = l63_spec();
+  spec::Spec other = spec;
+  other.run.batch_size = 64;
+  other.ensemble.members = 1000;
+  other.integration.dt = 0.001;
+  const std::vector<double> base = {1.0, -2.0, 20.0};
+  for (std::int64_t c : {0, 3}) {
+    for (std::int64_t m : {0, 7, 999}) {
+      EXPECT_TRUE(same_row(run::member_initial_state(spec, base, c, m),
+                           run::member_initial_state(other, base, c, m)));
+    }
+  }
+  const auto x = run::member_initial_state(spec, base, 1, 2);
+  EXPECT_FALSE(same_row(x, run::member_initial_state(spec, base, 2, 1)));
+  EXPECT_FALSE(same_row(x, run::member_initial_state(spec, base, 1, 3)));
+  spec::Spec reseeded = spec;
+  reseeded.ensemble.seed += 1;
+  EXPECT_FALSE(same_row(x, run::member_initial_state(reseeded, base, 1, 2)));
+
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult res = runner.run(batch(0, 8, 8));
+  for (int j = 0; j < 8; ++j) {
+    EXPECT_TRUE(same_row(row(res.initial_state, j, 3),
+                         run::member_initial_state(spec, runner.base_state(), 0, 8 + j)));
+  }
+}
+
+/// Noise of `n` members x 3 components: (base 0, scale 1) so the state is the noise itself.
+std::vector<double> noise_sample(spec::Distribution dist, int n) {
+  spec::Spec spec = l63_spec();
+  spec.ensemble.perturbation = {dist, 1.0};
+  std::vector<double> all;
+  for (int m = 0; m < n; ++m) {
+    const auto x = run::member_initial_state(spec, {0.0, 0.0, 0.0}, 0, m);
+    all.insert(all.end(), x.begin(), x.end());
+  }
+  return all;
+}
+
+// Common practice (5-sigma bounds on the sample mean and variance of n iid draws): gaussian
+// noise has mean 0 and variance 1 (sd of the sample variance sqrt(2/n)); uniform noise lies in
+// [-1, 1) with mean 0 and variance 1/3 (sd of the sample variance sqrt(4/45/n)).
+TEST(BatchRunner, NoiseDistributions) {
+  const int n = 20000;
+  for (auto dist : {spec::Distribution::gaussian, spec::Distribution::uniform}) {
+    const std::vector<double> v = noise_sample(dist, n);
+    const double count = static_cast<double>(v.size());
+    double sum = 0.0, sq = 0.0;
+    for (double x : v) {
+      sum += x;
+      sq += x * x;
+      if (dist == spec::Distribution::uniform) {
+        EXPECT_GE(x, -1.0);
+        EXPECT_LT(x, 1.0);
+      }
+    }
+    const double mean = sum / count, var = sq / count - mean * mean;
+    const bool g = dist == spec::Distribution::gaussian;
+    const double true_var = g ? 1.0 : 1.0 / 3.0;
+    const double var_sd = g ? std::sqrt(2.0 / count) : std::sqrt(4.0 / 45.0 / count);
+    EXPECT_NEAR(mean, 0.0, 5.0 * std::sqrt(true_var / count));
+    EXPECT_NEAR(var, true_var, 5.0 * var_sd);
+  }
+}
+
+// Exact by design: the attractor base state is the default initial state integrated for
+// initial.spinup time units at dt, which the scalar reference integrator reproduces bitwise.
+TEST(BatchRunner, AttractorBaseStateIsTheSpunUpDefaultState) {
+  const spec::Spec spec = l63_spec();
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const auto model = make_model("lorenz63", spec.parameters);
+  std::vector<double> x = model->default_initial_state();
+  integrators::rk4_scalar_reference(*model, x.data(), spec.integration.dt,
+                                    std::llround(spec.ensemble.initial.spinup / spec.integration.dt));
+  EXPECT_TRUE(same_row(x, runner.base_state()));
+}
+
+
+// ---- non-finite members ---------------------------------------------------------------------
+
+/// Lorenz-63 members started far off the attractor: with perturbation scale 300 and dt = 0.01,
+/// members whose start has a component of a few hundred leave RK4's stability region
+/// (dt |lambda| > 2.8 with |lambda| ~ |x|) and overflow, while the others fall back onto the
+/// attractor.
+spec::Spec blow_up_spec() {
+  spec::Spec s = l63_spec();
+  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
+  s.ensemble.initial.kind = spec::InitialKind::given;
+  s.ensemble.initial.state = {1.0, 1.0, 20.0};
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
+  s.integration.dt = 0.01;
+  s.integration.spinup = 1.0;
+  s.integration.duration = 5.0;
+  s.output.trajectories = {8, 0.5};
+  return s;
+}
+
+// Exact by design: a non-finite member is flagged, its statistics are NaN (0 transitions), its
+// trajectory is NaN once flagged, it adds nothing to the histogram, and the valid members of
+// the same batch are bitwise what they are when run alone.
+TEST(BatchRunner, NonFiniteMembersAreFlaggedAndIsolated) {
+  const spec::Spec spec = blow_up_spec();
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult res = runner.run(batch(0, 0, 8));
+  const std::size_t o = plan.observables.size();
+  int flagged = 0;
+  std::vector<std::int64_t> histogram(20, 0);
+  for (int j = 0; j < 8; ++j) {
+    SCOPED_TRACE("member " + std::to_string(j));
+    const run::BatchResult alone = runner.run(batch(0, j, 1));
+    expect_same_member(res, j, alone, 0, plan);
+    if (res.status[j] == run::kNonFinite) {
+      ++flagged;
+      for (std::size_t k = 0; k < o; ++k) {
+        EXPECT_TRUE(std::isnan(res.time_mean[j * o + k]));
+        EXPECT_TRUE(std::isnan(res.time_variance[j * o + k]));
+      }
+      for (int r = 0; r < 2; ++r) {
+        EXPECT_TRUE(std::isnan(res.regime_fraction[j * 2 + r]));
+        EXPECT_TRUE(std::isnan(res.regime_mean_residence[j * 2 + r]));
+      }
+      EXPECT_EQ(res.regime_transitions[j], 0);
+      const std::size_t last = (j * plan.trajectory_samples + plan.trajectory_samples - 1) * 3;
+      EXPECT_TRUE(std::isnan(res.trajectory[last]));
+      for (std::int64_t v : alone.histogram) EXPECT_EQ(v, 0);
+    } else {
+      for (std::size_t k = 0; k < o; ++k) EXPECT_TRUE(std::isfinite(res.time_variance[j * o + k]));
+      for (std::size_t i = 0; i < histogram.size(); ++i) histogram[i] += alone.histogram[i];
+    }
+  }
+  EXPECT_GE(flagged, 1) << "the test needs at least one member that blows up";
+  EXPECT_LE(flagged, 7) << "the test needs at least one member that stays finite";
+  EXPECT_EQ(res.histogram, histogram);
+}
+
+
+// ---- time-mean identities -------------------------------------------------------------------
+
+/// State of stored member j at trajectory sample k.
+std::vector<double> sample(const run::BatchResult& r, const plan::Plan& p, int j, std::int64_t k) {
+  const std::size_t d = p.state_dim;
+  const auto first = r.trajectory.begin() + (j * p.trajectory_samples + k) * d;
+  return std::vector<double>(first, first + d);
+}
+
+/// The sampled mean over steps n = 1..N of g = dQ/dt (samples at the end of each step) obeys,
+/// by the Euler-Maclaurin formula for the trapezoid rule,
+///   mean g = (Q_N - Q_0) / T + (g_N - g_0) / (2N) + dt^2 / (12 T) (g'_N - g'_0) + R,
+/// T = N dt, with R = O(dt^4 / T) plus the sum of RK4's local errors over T (O(dt^4)). This
+/// returns the right-hand side without R, from the endpoint values (Q, g, g').
+struct Endpoint {
+  double q, g, dg;
+};
+double predicted_mean(Endpoint a, Endpoint b, double dt, double steps) {
+  const double T = dt * steps;
+  return (b.q - a.q) / T + (b.g - a.g) / (2.0 * steps) + dt * dt / (12.0 * T) * (b.dg - a.dg);
+}
+
+/// <v^2> over the N samples from the member's mean and (n-1) variance.
+double mean_square(double mean, double variance, double n) {
+  return variance * (n - 1.0) / n + mean * mean;
+}
+
+
+/// Forced Lorenz-63 for the identity checks: dt and the window are set by the caller; the
+/// trajectory is sampled at the start and the end of the accumulation window.
+spec::Spec identity_spec_l63(double dt, double duration) {
+  spec::Spec s = l63_spec();
+  s.ensemble.members = 8;
+  s.integration.dt = dt;
+  s.integration.spinup = 5.0;
+  s.integration.duration = duration;
+  s.output.trajectories = {8, 5.0};
+  return s;
+}
+
+// Exact (time means of the equations, Lorenz 1963 with forcing f d; REFERENCES.md): averaging
+// dx/dt and d(sigma z - x^2/2)/dt over the window gives, per member,
+//   sigma (<y> - <x>) + f d0                        = (x(T) - x(0)) / T
+//   sigma (<x^2> - beta <z> + f d2) - f d0 <x>      = (Q(T) - Q(0)) / T,  Q = sigma z - x^2/2
+// for exact time averages. The accumulated means are sample means at the end of each step, so
+// the endpoint and dt^2 corrections of predicted_mean() are added; the remainder R is bounded
+// by the sum of RK4's local errors over the window, |R| <= max|x^(5)| dt^4 / 120 ~ 1e-6 at
+// dt = 0.002 (x^(5) ~ |lambda|^5 |x| with |lambda| ~ 20), so 1e-5 is used (identity terms
+// are O(1): (x(T) - x(0)) / T ~ 0.4 and an off-by-one in the window would shift them by ~1e-2).
+TEST(BatchRunner, Lorenz63TimeMeanIdentitiesPerMember) {
+  const double dt = 0.001, duration = 50.0;
+  const spec::Spec spec = identity_spec_l63(dt, duration);
+  const plan::Plan plan = plan::make_plan(spec);
+  ASSERT_EQ(plan.spinup_steps % plan.trajectory_every_steps, 0);
+  ASSERT_EQ(plan.total_steps() % plan.trajectory_every_steps, 0);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const run::BatchResult res = runner.run(batch(0, 0, 8));
+  const double s = 10.0, b = 8.0 / 3.0, f = 2.0, d0 = 0.6, d2 = 0.8;
+  const double n = static_cast<double>(plan.accumulate_steps);
+  const auto model = make_model("lorenz63", spec.parameters);
+  for (int j = 0; j < 8; ++j) {
+    ASSERT_EQ(res.status[j], run::kValid);
+    const double* mean = &res.time_mean[j * 3];
+    const double* var = &res.time_variance[j * 3];
+    auto ends = [&](std::int64_t k, int which) {
+      const std::vector<double> x = sample(res, plan, j, k);
+      std::vector<double> v(3);
+      model->rhs(x.data(), v.data(), 1);
+      if (which == 0) return Endpoint{x[0], v[0], s * (v[1] - v[0])};
+      const double g = s * x[0] * x[0] - s * b * x[2] + s * f * d2 - f * d0 * x[0];
+      const double dg = 2 * s * x[0] * v[0] - s * b * v[2] - f * d0 * v[0];
+      return Endpoint{s * x[2] - x[0] * x[0] / 2, g, dg};
+    };
+    const std::int64_t k0 = plan.spinup_steps / plan.trajectory_every_steps;
+    const std::int64_t k1 = plan.total_steps() / plan.trajectory_every_steps;
+    const double lhs1 = s * (mean[1] - mean[0]) + f * d0;
+    const double lhs2 = s * (mean_square(mean[0], var[0], n) - b * mean[2] + f * d2) - f * d0 * mean[0];
+    const double rhs1 = predicted_mean(ends(k0, 0), ends(k1, 0), dt, n);
+    const double rhs2 = predicted_mean(ends(k0, 1), ends(k1, 1), dt, n);
+    std::printf("m%d: %.3e %.3e   (%.3e %.3e)\n", j, lhs1 - rhs1, lhs2 - rhs2, lhs1, lhs2);
+    EXPECT_NEAR(lhs1, rhs1, 1e-5) << "member " << j;
+    EXPECT_NEAR(lhs2, rhs2, 1e-5) << "member " << j;
+  }
+}
+
+}  // namespace
+}  // namespace chaosweep::testing

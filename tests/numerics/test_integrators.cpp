@@ -1,0 +1,190 @@
+// Integrator tests: RK4 convergence order on a problem with a known solution, agreement with
+// GSL's high-order adaptive integrator on Lorenz-63, and batch == scalar reference.
+#include <gsl/gsl_errno.h>
+#include <gsl/gsl_odeiv2.h>
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <vector>
+
+#include "integrators/reference.hpp"
+#include "integrators/rk4.hpp"
+#include "numerics_fixtures.hpp"
+
+namespace chaosweep::testing {
+namespace {
+
+/// The harmonic oscillator x'' = -x as a first-order system: state (x, v), x' = v, v' = -x.
+/// Exact solution from (cos phi, -sin phi): x = cos(t + phi), v = -sin(t + phi).
+class Oscillator final : public models::Model {
+ public:
+  int state_dim() const override { return 2; }
+  const std::vector<models::ObservableInfo>& observables() const override { return obs_; }
+  void rhs(const double* x, double* dxdt, int width) const override {
+    for (int m = 0; m < width; ++m) {
+      dxdt[m] = x[width + m];
+      dxdt[width + m] = -x[m];
+    }
+  }
+  double max_stable_dt() const override { return 2.8; }
+  std::vector<double> default_initial_state() const override { return {1.0, 0.0}; }
+
+ private:
+  std::vector<models::ObservableInfo> obs_ = {{"x", "position"}, {"v", "velocity"}};
+};
+
+/// Largest Euclidean error over `width` members started at phases phi_m = 0.3 m, after
+/// integrating to T = 10 with step h, using the batch stepper.
+double oscillator_error(double h) {
+  const Oscillator model;
+  const int w = 8;
+  const double T = 10.0;
+  std::vector<double> x(2 * w);
+  for (int m = 0; m < w; ++m) {
+    x[m] = std::cos(0.3 * m);
+    x[w + m] = -std::sin(0.3 * m);
+  }
+  integrators::Rk4Batch stepper(model, w);
+  const long steps = std::lround(T / h);
+  for (long k = 0; k < steps; ++k) stepper.step(x.data(), h);
+  double worst = 0.0;
+  for (int m = 0; m < w; ++m) {
+    const double ex = x[m] - std::cos(T + 0.3 * m), ev = x[w + m] + std::sin(T + 0.3 * m);
+    worst = std::max(worst, std::hypot(ex, ev));
+  }
+  return worst;
+}
+
+// Published (Hairer, Norsett & Wanner 1993, Solving ODEs I, Springer): classical RK4 has order
+// 4. On x'' = -x (exact solution cos t), T = 10, h = 0.2 .. 0.0125, the observed order
+// log2(e(h) / e(h/2)) lies in [3.95, 4.05] (bounds from REFERENCES.md). At h = 0.0125 the error
+// is ~2e-9, far above rounding (~1e-13), so the order is not polluted.
+TEST(Rk4, ObservedOrderOnTheHarmonicOscillator) {
+  double previous = oscillator_error(0.2);
+  for (double h : {0.1, 0.05, 0.025, 0.0125}) {
+    const double e = oscillator_error(h);
+    const double order = std::log2(previous / e);
+    EXPECT_GE(order, 3.95) << "h = " << h;
+    EXPECT_LE(order, 4.05) << "h = " << h;
+    previous = e;
+  }
+}
+
+// Exact (from RK4's stability function R(z) = 1 + z + z^2/2 + z^3/6 + z^4/24 at z = i h):
+// arg R(ih) = h - h^5/120 + O(h^7) and |R(ih)| = 1 - h^6/72 + ..., so after T/h steps the
+// error is the phase lag T h^4 / 120 to leading order. Tolerance: the next term is relatively
+// O(h^2), below 1% for h <= 0.05.
+TEST(Rk4, GlobalErrorMatchesTheLeadingPhaseLag) {
+  for (double h : {0.05, 0.025, 0.0125}) {
+    const double predicted = 10.0 * std::pow(h, 4) / 120.0;
+    EXPECT_NEAR(oscillator_error(h) / predicted, 1.0, 0.01) << "h = " << h;
+  }
+}
+
+// ---- Lorenz-63 against GSL ------------------------------------------------------------------
+
+struct L63Parameters {
+  double sigma, rho, beta, f, d[3];
+};
+
+/// Lorenz (1963) with forcing f*d, written here from the equations in DESIGN.md, for GSL.
+int l63_gsl(double, const double y[], double dydt[], void* params) {
+  const auto* p = static_cast<const L63Parameters*>(params);
+  dydt[0] = p->sigma * (y[1] - y[0]) + p->f * p->d[0];
+  dydt[1] = y[0] * (p->rho - y[2]) - y[1] + p->f * p->d[1];
+  dydt[2] = y[0] * y[1] - p->beta * y[2] + p->f * p->d[2];
+  return GSL_SUCCESS;
+}
+
+/// GSL's Runge-Kutta-Prince-Dormand (8, 9) driver to t1 at absolute and relative tolerance 1e-13.
+std::vector<double> l63_by_gsl(L63Parameters p, std::vector<double> y, double t1) {
+  gsl_odeiv2_system sys = {l63_gsl, nullptr, 3, &p};
+  gsl_odeiv2_driver* driver =
+      gsl_odeiv2_driver_alloc_y_new(&sys, gsl_odeiv2_step_rk8pd, 1e-4, 1e-13, 1e-13);
+  double t = 0.0;
+  const int status = gsl_odeiv2_driver_apply(driver, &t, t1, y.data());
+  gsl_odeiv2_driver_free(driver);
+  EXPECT_EQ(status, GSL_SUCCESS);
+  return y;
+}
+
+std::vector<double> l63_by_rk4(const models::Model& model, std::vector<double> y, double t1,
+                               double dt) {
+  integrators::Rk4Batch stepper(model, 1);
+  const long steps = std::lround(t1 / dt);
+  for (long k = 0; k < steps; ++k) stepper.step(y.data(), dt);
+  return y;
+}
+
+double distance(const std::vector<double>& a, const std::vector<double>& b) {
+  double s = 0.0;
+  for (std::size_t i = 0; i < a.size(); ++i) s += (a[i] - b[i]) * (a[i] - b[i]);
+  return std::sqrt(s);
+}
+
+// General-purpose reference library (GSL 2.7, gsl_odeiv2 rk8pd at tolerance 1e-13) on
+// Lorenz-63, t = 0..2 from (1, 1, 20), RK4 at dt = 0.001. Bound: RK4's global error is
+// estimated from the run itself by Richardson extrapolation, E(h) ~ 16/15 |x_h - x_{h/2}|
+// (order 4); we require |x_h - x_gsl| <= 2 E(h) + 1e-9 (1e-9 covers GSL's own accumulated
+// error at tolerance 1e-13 over the growth e^(0.9 * 2) of this interval), and that the
+// extrapolated value (16 x_{h/2} - x_h) / 15 is at least 10 times closer to GSL than x_h.
+TEST(Rk4, Lorenz63AgreesWithGslWithinRk4GlobalError) {
+  const double t1 = 2.0, dt = 0.001;
+  const std::vector<double> start = {1.0, 1.0, 20.0};
+  const std::vector<L63Parameters> cases = {{10.0, 28.0, 8.0 / 3.0, 0.0, {1.0, 0.0, 0.0}},
+                                            {10.0, 28.0, 8.0 / 3.0, 3.0, {0.8, 0.6, 0.5}}};
+  for (const L63Parameters& p : cases) {
+    const auto model = make_model(
+        "lorenz63", {{"forcing", {p.f}}, {"forcing_direction", {p.d[0], p.d[1], p.d[2]}}});
+    const std::vector<double> ref = l63_by_gsl(p, start, t1);
+    const std::vector<double> coarse = l63_by_rk4(*model, start, t1, dt);
+    const std::vector<double> fine = l63_by_rk4(*model, start, t1, dt / 2);
+    const double estimate = 16.0 / 15.0 * distance(coarse, fine);
+    std::vector<double> extrapolated(3);
+    for (int i = 0; i < 3; ++i) extrapolated[i] = (16.0 * fine[i] - coarse[i]) / 15.0;
+    EXPECT_LE(distance(coarse, ref), 2.0 * estimate + 1e-9) << "forcing " << p.f;
+    EXPECT_LE(distance(extrapolated, ref), 0.1 * distance(coarse, ref)) << "forcing " << p.f;
+  }
+}
+
+// ---- batch integrator == scalar reference ---------------------------------------------------
+
+// Bitwise, by design: Rk4Batch::step and rk4_scalar_reference perform the same IEEE-754
+// operations in the same order for every member, and the right-hand sides compute each column
+// independently (no reassociation: the build has no -ffast-math). Any difference would mean a
+// member's result depends on its column or on the batch width.
+TEST(Rk4, BatchEqualsScalarReferenceBitwise) {
+  for (const std::string name : {"lorenz63", "lorenz96"}) {
+    const auto model = make_model(name);
+    const int d = model->state_dim(), w = 8;
+    const double dt = 0.01;
+    std::vector<double> x = random_batch(model->default_initial_state(), 3.0, w, 77);
+    const std::vector<double> x0 = x;
+    integrators::Rk4Batch stepper(*model, w);
+    for (int k = 0; k < 1000; ++k) stepper.step(x.data(), dt);
+    for (int m = 0; m < w; ++m) {
+      std::vector<double> xm = column(x0, d, w, m);
+      integrators::rk4_scalar_reference(*model, xm.data(), dt, 1000);
+      for (int i = 0; i < d; ++i) {
+        EXPECT_TRUE(same_bits(xm[i], x[static_cast<std::size_t>(i) * w + m]))
+            << name << " member " << m << " component " << i;
+      }
+    }
+  }
+}
+
+// The reference integrator is itself fourth order (same oscillator, published order 4).
+TEST(Rk4, ScalarReferenceObservedOrder) {
+  const Oscillator model;
+  auto error = [&](double h) {
+    std::vector<double> x = {1.0, 0.0};
+    integrators::rk4_scalar_reference(model, x.data(), h, std::lround(10.0 / h));
+    return std::hypot(x[0] - std::cos(10.0), x[1] + std::sin(10.0));
+  };
+  const double order = std::log2(error(0.05) / error(0.025));
+  EXPECT_GE(order, 3.95);
+  EXPECT_LE(order, 4.05);
+}
+
+}  // namespace
+}  // namespace chaosweep::testing

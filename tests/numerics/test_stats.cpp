@@ -1,0 +1,352 @@
+// Statistics tests: one-pass and merged moments, the blocked time-moment accumulator, regime
+// accounting, histograms, Student-t quantiles, ensemble estimates and response slopes.
+#include <gtest/gtest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numeric>
+#include <random>
+#include <vector>
+
+#include "stats/ensemble.hpp"
+#include "stats/histogram.hpp"
+#include "stats/regimes.hpp"
+#include "stats/time_moments.hpp"
+
+namespace chaosweep::stats {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+/// Corrected two-pass mean and sum of squared deviations in extended precision: the accurate
+/// reference (common practice; Chan, Golub & LeVeque 1983 discuss the corrected form
+/// m2 = sum d^2 - (sum d)^2 / n with d = x - mean).
+Moments two_pass(const std::vector<double>& v) {
+  const long double n = static_cast<long double>(v.size());
+  long double sum = 0.0L;
+  for (double x : v) sum += x;
+  long double mean = sum / n;
+  long double sd = 0.0L, sd2 = 0.0L;
+  for (double x : v) {
+    sd += x - mean;
+    sd2 += (x - mean) * (x - mean);
+  }
+  Moments m;
+  m.n = static_cast<double>(v.size());
+  m.mean = static_cast<double>(mean + sd / n);
+  m.m2 = static_cast<double>(sd2 - sd * sd / n);
+  return m;
+}
+
+// ---- moments --------------------------------------------------------------------------------
+
+// Exact: {4, 7, 13, 16} has mean 10 and squared deviations 36 + 9 + 9 + 36 = 90, so s^2 = 30;
+// a shift by 1e9 leaves it unchanged. The one-pass update is Welford (1962) Technometrics 4,
+// 419. Every input and every Welford intermediate is exactly representable here, so 1e-12
+// relative is generous. The naive sum-of-squares formula, in the same test, loses everything:
+// sum x^2 ~ 4e18 has an ulp of 512.
+TEST(Moments, WelfordSurvivesALargeOffset) {
+  Moments m;
+  double sum = 0.0, sum_sq = 0.0;
+  for (double x : {4.0, 7.0, 13.0, 16.0}) {
+    m.add(1e9 + x);
+    sum += 1e9 + x;
+    sum_sq += (1e9 + x) * (1e9 + x);
+  }
+  EXPECT_NEAR(m.variance(), 30.0, 30.0 * 1e-12);
+  EXPECT_NEAR(m.mean, 1e9 + 10.0, 1e-6);
+  const double naive = (sum_sq - sum * sum / 4.0) / 3.0;
+  EXPECT_GT(std::abs(naive - 30.0), 1.0) << "the naive formula should fail here";
+}
+
+TEST(Moments, SmallCountsGiveNaN) {
+  Moments m;
+  EXPECT_TRUE(std::isnan(m.variance()));
+  m.add(3.0);
+  EXPECT_TRUE(std::isnan(m.variance()));
+  EXPECT_EQ(m.mean, 3.0);
+}
+
+// Published (Chan, Golub & LeVeque 1983, Am. Stat. 37, 242): merging partial moments with
+// M2 = M2a + M2b + delta^2 na nb / n gives the moments of the union, for any split and any
+// merge order; equal to the two-pass result to 1e-12 relative (REFERENCES.md). The data have
+// condition number kappa = |mean| / sd ~ 33, so the error bound of the updating formulas in
+// that paper, about n eps kappa = 200 * 1.1e-16 * 33 = 7e-13, lies within the tolerance.
+TEST(Moments, ChanMergeEqualsTwoPassForAnySplitAndOrder) {
+  std::mt19937_64 gen(2024);
+  std::normal_distribution<double> noise(0.0, 3.0);
+  std::vector<double> data(200);
+  for (double& x : data) x = 100.0 + noise(gen);
+  const Moments ref = two_pass(data);
+  for (int trial = 0; trial < 50; ++trial) {
+    // random cut points -> parts, each accumulated with add(), merged in a random order
+    std::vector<std::size_t> cuts = {0, data.size()};
+    for (int c = 0; c < 1 + trial % 7; ++c) cuts.push_back(gen() % data.size());
+    std::sort(cuts.begin(), cuts.end());
+    std::vector<Moments> parts;
+    for (std::size_t p = 0; p + 1 < cuts.size(); ++p) {
+      Moments part;
+      for (std::size_t i = cuts[p]; i < cuts[p + 1]; ++i) part.add(data[i]);
+      parts.push_back(part);  // may be empty: merge must handle n == 0
+    }
+    std::shuffle(parts.begin(), parts.end(), gen);
+    Moments total;
+    for (const Moments& p : parts) total.merge(p);
+    EXPECT_EQ(total.n, ref.n);
+    EXPECT_NEAR(total.mean, ref.mean, 1e-12 * std::abs(ref.mean));
+    EXPECT_NEAR(total.m2, ref.m2, 1e-12 * ref.m2);
+  }
+}
+
+// ---- time moments accumulator ---------------------------------------------------------------
+
+// Common practice (corrected two-pass reference in extended precision): the blocked
+// shifted-sum accumulator equals the two-pass mean and variance of a long series (400 000
+// steps, 2 series x 4 members) riding on a large offset 1e8 (kappa = |mean| / sd ~ 3e7).
+// Tolerances: the mean is returned as K0 + (mean - K0), so one rounding to the ulp of the mean
+// remains (the relative part is an O(5) number known to ~1e-14): 2 ulp, 4.4e-16 relative.
+// The deviations from the shifts are exact (Sterbenz), so the variance sees only the rounding
+// of O(1) sums over blocks of 256 merged 1563 times: 1e-12 relative. The naive formula on the
+// same data is off by more than 1e-3 relative.
+TEST(TimeMoments, MatchesTwoPassOnALongOffsetSeries) {
+  const int series = 2, width = 4;
+  const long steps = 400000;
+  std::mt19937_64 gen(7);
+  std::normal_distribution<double> noise(0.0, 1.0);
+  std::vector<std::vector<double>> history(series * width);
+  TimeMoments acc(series, width);
+  std::vector<double> values(series * width);
+  std::vector<const double*> columns(series);
+  for (int s = 0; s < series; ++s) columns[s] = values.data() + s * width;
+  for (long t = 0; t < steps; ++t) {
+    for (int s = 0; s < series; ++s) {
+      for (int m = 0; m < width; ++m) {
+        const double v = 1e8 * (s + 1) + 5.0 * std::sin(1e-3 * t * (m + 1)) + noise(gen);
+        values[s * width + m] = v;
+        history[s * width + m].push_back(v);
+      }
+    }
+    acc.add(columns.data());
+  }
+  EXPECT_EQ(acc.count(), steps);
+  for (int s = 0; s < series; ++s) {
+    for (int m = 0; m < width; ++m) {
+      const std::vector<double>& h = history[s * width + m];
+      const Moments ref = two_pass(h);
+      const Moments got = acc.moments(s, m);
+      EXPECT_EQ(got.n, ref.n);
+      EXPECT_NEAR(got.mean, ref.mean, 4.4e-16 * std::abs(ref.mean));
+      EXPECT_NEAR(got.variance(), ref.m2 / (ref.n - 1), 1e-12 * ref.m2 / (ref.n - 1));
+      double sum = 0.0, sum_sq = 0.0;
+      for (double v : h) {
+        sum += v;
+        sum_sq += v * v;
+      }
+      const double naive = (sum_sq - sum * sum / ref.n) / (ref.n - 1);
+      EXPECT_GT(std::abs(naive / (ref.m2 / (ref.n - 1)) - 1.0), 1e-3) << "naive should fail";
+    }
+  }
+}
+
+// Exact by construction: a partial block is included; one sample gives n = 1 and NaN variance.
+TEST(TimeMoments, PartialBlocksAndSingleSamples) {
+  TimeMoments acc(1, 2, 4);
+  const double a[2] = {1.0, 10.0}, b[2] = {3.0, 10.0};
+  const double* ca[1] = {a};
+  const double* cb[1] = {b};
+  acc.add(ca);
+  EXPECT_EQ(acc.moments(0, 0).n, 1.0);
+  EXPECT_TRUE(std::isnan(acc.moments(0, 0).variance()));
+  for (int i = 0; i < 3; ++i) acc.add(cb);  // completes a block of 4
+  acc.add(ca);                               // starts the next one
+  // member 0: {1, 3, 3, 3, 1}: mean 11/5, m2 = sum (x - 2.2)^2 = 2*1.44 + 3*0.64 = 4.8
+  EXPECT_NEAR(acc.moments(0, 0).mean, 2.2, 1e-15);
+  EXPECT_NEAR(acc.moments(0, 0).m2, 4.8, 1e-14);
+  EXPECT_EQ(acc.moments(0, 1).m2, 0.0);  // member 1 constant: exactly 0
+}
+
+// ---- regimes --------------------------------------------------------------------------------
+
+// Exact by construction (hand-counted series, dt = 0.1). Member 0 values
+//   +1 +2 -1 -1 +3 0 -2 -2 -2 +1   -> regimes 0 0 1 1 0 0 1 1 1 0
+// regime 0: 5 steps in 3 episodes ({0,1}, {4,5}, {9}: first and last counted);
+// regime 1: 5 steps in 2 episodes; 4 transitions; mean residence 5/3 * 0.1 and 5/2 * 0.1.
+// Member 1 never leaves regime 0: fraction 1, one episode of 10 steps, regime 1 never visited
+// (NaN residence), no transition.
+TEST(Regimes, HandCountedSignSeries) {
+  const std::vector<double> m0 = {1, 2, -1, -1, 3, 0, -2, -2, -2, 1};
+  const double dt = 0.1;
+  RegimeCounter counter(2, 2);
+  for (std::size_t t = 0; t < m0.size(); ++t) {
+    const double v[2] = {m0[t], 4.0};
+    int regime[2];
+    classify_sign(v, 2, regime);
+    counter.add(regime);
+  }
+  EXPECT_EQ(counter.steps(), 10);
+  EXPECT_EQ(counter.fraction(0, 0), 0.5);
+  EXPECT_EQ(counter.fraction(1, 0), 0.5);
+  EXPECT_EQ(counter.episodes(0, 0), 3);
+  EXPECT_EQ(counter.episodes(1, 0), 2);
+  EXPECT_EQ(counter.transitions(0), 4);
+  EXPECT_DOUBLE_EQ(counter.mean_residence(0, 0, dt), 5.0 / 3.0 * dt);
+  EXPECT_DOUBLE_EQ(counter.mean_residence(1, 0, dt), 5.0 / 2.0 * dt);
+  EXPECT_EQ(counter.fraction(0, 1), 1.0);
+  EXPECT_EQ(counter.fraction(1, 1), 0.0);
+  EXPECT_EQ(counter.episodes(0, 1), 1);
+  EXPECT_DOUBLE_EQ(counter.mean_residence(0, 1, dt), 10 * dt);
+  EXPECT_TRUE(std::isnan(counter.mean_residence(1, 1, dt)));
+  EXPECT_EQ(counter.transitions(1), 0);
+}
+
+// Exact by construction: nearest centroid in the plane, ties to the lower index.
+TEST(Regimes, NearestCentroid) {
+  const std::vector<std::vector<double>> centroids = {{-1.0, 0.0}, {1.0, 0.0}, {0.0, 5.0}};
+  const double xs[4] = {-0.9, 2.0, 0.0, 0.0};
+  const double ys[4] = {0.1, 0.0, 3.0, 0.0};
+  int regime[4];
+  classify_nearest({xs, ys}, centroids, 4, regime);
+  EXPECT_EQ(regime[0], 0);
+  EXPECT_EQ(regime[1], 1);
+  EXPECT_EQ(regime[2], 2);
+  EXPECT_EQ(regime[3], 0);  // equidistant from centroids 0 and 1
+}
+
+// ---- histogram ------------------------------------------------------------------------------
+
+// Exact by construction (the convention of histogram.hpp): bin i holds edge_i <= v < edge_i+1;
+// low is counted, high is not, values outside [low, high) and NaN are not counted.
+TEST(Histogram, EdgeHandling) {
+  MemberHistogram h(4, -2.0, 2.0, 1);  // edges -2 -1 0 1 2
+  for (double v : {-2.0, -1.0, -0.5, 0.0, 1.9999999, 2.0, -2.0000001, 5.0, kNaN}) h.add(&v);
+  EXPECT_EQ(h.count(0, 0), 1);  // -2
+  EXPECT_EQ(h.count(0, 1), 2);  // -1, -0.5
+  EXPECT_EQ(h.count(0, 2), 1);  // 0
+  EXPECT_EQ(h.count(0, 3), 1);  // 1.9999999; 2.0 and the rest not counted
+  std::vector<std::int64_t> total(4, 0);
+  h.add_member_to(0, total.data());
+  EXPECT_EQ(std::accumulate(total.begin(), total.end(), std::int64_t{0}), 5);
+}
+
+// Exact by construction: with edges that are not representable (0.1, 0.2, ...) every edge value
+// lands in the bin it opens and the double just below it in the previous bin; the double just
+// below high is in the last bin and high itself is not counted. So every bin holds exactly 2.
+TEST(Histogram, EveryEdgeOpensItsBin) {
+  const int bins = 30;
+  const double low = 0.0, high = 3.0;
+  MemberHistogram h(bins, low, high, 1);
+  for (int i = 0; i <= bins; ++i) {
+    const double edge = histogram_edge(low, high, bins, i);
+    const double below = std::nextafter(edge, -1e300);
+    h.add(&edge);
+    if (i > 0) h.add(&below);
+  }
+  EXPECT_EQ(histogram_edge(low, high, bins, bins), high);
+  for (int i = 0; i < bins; ++i) EXPECT_EQ(h.count(0, i), 2) << "bin " << i;
+}
+
+// ---- Student t and estimates ----------------------------------------------------------------
+
+// Published (standard t tables; the values are those of Abramowitz & Stegun 1964, ch. 26, as
+// recalled from memory): t_{0.975, 10} = 2.228139 and the normal quantile 1.959964 as
+// dof -> infinity. Exact: with 1 dof the t distribution is Cauchy, quantile tan(pi (p - 1/2));
+// with 2 dof the quantile is (2p - 1) / sqrt(2 p (1 - p)). Tolerances: half a unit of the last
+// quoted decimal; at dof = 1e6 the t quantile exceeds the normal one by about
+// (z^3 + z) / (4 dof) = 2.4e-6, so 5e-6 there; the closed forms to 1e-9 relative (GSL's
+// inversion accuracy is far better).
+TEST(StudentT, QuantilesMatchTablesAndClosedForms) {
+  EXPECT_NEAR(student_t975(10), 2.228139, 5e-7);
+  EXPECT_NEAR(student_t975(1e6), 1.959964, 5e-6);
+  const double pi = std::acos(-1.0);
+  EXPECT_NEAR(student_t975(1), std::tan(pi * 0.475), 1e-9 * 12.7);
+  EXPECT_NEAR(student_t975(2), 0.95 / std::sqrt(2 * 0.975 * 0.025), 1e-9 * 4.3);
+  EXPECT_TRUE(std::isnan(student_t975(0.0)));
+}
+
+// Exact (definition): mean +- t_{0.975, n-1} s / sqrt(n).
+TEST(Estimate, IntervalFromMoments) {
+  Moments m;
+  for (double x : {2.0, 4.0, 4.0, 5.0, 7.0, 9.0}) m.add(x);
+  const EnsembleEstimate e = estimate(m);
+  const double half = student_t975(5) * m.stddev() / std::sqrt(6.0);
+  EXPECT_EQ(e.n, 6);
+  EXPECT_DOUBLE_EQ(e.mean, 31.0 / 6.0);
+  EXPECT_DOUBLE_EQ(e.ci_low, e.mean - half);
+  EXPECT_DOUBLE_EQ(e.ci_high, e.mean + half);
+  Moments one;
+  one.add(3.0);
+  EXPECT_TRUE(std::isnan(estimate(one).std));
+  EXPECT_TRUE(std::isnan(estimate(one).ci_low));
+  EXPECT_TRUE(std::isnan(estimate(Moments{}).mean));
+}
+
+// ---- response slopes ------------------------------------------------------------------------
+
+/// A 3 x 4 cartesian grid over axes (a, b) plus a constant third axis.
+std::vector<std::vector<double>> grid() {
+  std::vector<std::vector<double>> x;
+  for (double a : {0.0, 0.5, 2.0}) {
+    for (double b : {-1.0, 0.0, 1.0, 3.0}) x.push_back({a, b, 7.0});
+  }
+  return x;
+}
+
+/// Independent slope operator for a single regressor: a_c = (x_c - mean x) / sum (x - mean x)^2
+/// (exact: the normal equations of y = b0 + b1 x). On a cartesian grid the centred axes are
+/// orthogonal, so the same formula holds per axis of the joint fit.
+std::vector<double> simple_operator(const std::vector<double>& x) {
+  const double mean = std::accumulate(x.begin(), x.end(), 0.0) / x.size();
+  double sxx = 0.0;
+  for (double v : x) sxx += (v - mean) * (v - mean);
+  std::vector<double> a;
+  for (double v : x) a.push_back((v - mean) / sxx);
+  return a;
+}
+
+// Exact: on data y = 2 + 3 a - 0.5 b the least-squares fit recovers the slopes (rounding only,
+// 1e-12); the constant axis gives NaN; the standard error equals sqrt(sum a_c^2 se_c^2) with a_c
+// computed independently above (1e-12 relative).
+TEST(ResponseSlopes, ExactLinearDataAndPropagatedError) {
+  const auto x = grid();
+  std::vector<double> y, se;
+  for (std::size_t c = 0; c < x.size(); ++c) {
+    y.push_back(2.0 + 3.0 * x[c][0] - 0.5 * x[c][1]);
+    se.push_back(0.1 + 0.05 * c);
+  }
+  const std::vector<Slope> s = response_slopes(x, y, se);
+  ASSERT_EQ(s.size(), 3u);
+  EXPECT_NEAR(s[0].slope, 3.0, 1e-12);
+  EXPECT_NEAR(s[1].slope, -0.5, 1e-12);
+  EXPECT_TRUE(std::isnan(s[2].slope));
+  EXPECT_TRUE(std::isnan(s[2].stderr_));
+  for (int k = 0; k < 2; ++k) {
+    std::vector<double> axis;
+    for (const auto& row : x) axis.push_back(row[k]);
+    const std::vector<double> a = simple_operator(axis);
+    double var = 0.0;
+    for (std::size_t c = 0; c < a.size(); ++c) var += a[c] * a[c] * se[c] * se[c];
+    EXPECT_NEAR(s[k].stderr_, std::sqrt(var), 1e-12 * std::sqrt(var)) << "axis " << k;
+  }
+}
+
+// Exact: a case with non-finite y is left out; with one axis the fit is simple regression on the
+// remaining cases, whose operator is the closed form above.
+TEST(ResponseSlopes, NonFiniteCasesAreLeftOut) {
+  const std::vector<std::vector<double>> x = {{0.0}, {1.0}, {2.0}, {3.0}, {4.0}};
+  const std::vector<double> y = {1.0, 2.5, kNaN, 4.0, 7.0};
+  const std::vector<double> se = {0.1, 0.2, 0.3, 0.4, 0.5};
+  const std::vector<double> a = simple_operator({0.0, 1.0, 3.0, 4.0});
+  const std::vector<double> yk = {1.0, 2.5, 4.0, 7.0}, sek = {0.1, 0.2, 0.4, 0.5};
+  double slope = 0.0, var = 0.0;
+  for (int c = 0; c < 4; ++c) {
+    slope += a[c] * yk[c];
+    var += a[c] * a[c] * sek[c] * sek[c];
+  }
+  const std::vector<Slope> s = response_slopes(x, y, se);
+  EXPECT_NEAR(s[0].slope, slope, 1e-12);
+  EXPECT_NEAR(s[0].stderr_, std::sqrt(var), 1e-12);
+}
+
+}  // namespace
+}  // namespace chaosweep::stats

@@ -1,0 +1,180 @@
+// Valid fixtures parse to the values written in them, with every default filled in.
+// Expected values are read off the fixture files (tests/fixtures/specs/valid/); defaults are
+// those of the public spec contract (DESIGN.md, "The campaign spec").
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+#include <string>
+
+#include "core/sha256.hpp"
+#include "models/model.hpp"
+#include "spec/load.hpp"
+
+namespace {
+
+using namespace chaosweep::spec;
+
+std::string valid(const std::string& name) {
+  return std::string(CHAOSWEEP_FIXTURES) + "/specs/valid/" + name;
+}
+
+std::string file_bytes(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+TEST(ValidSpec, Lorenz63SweepValues) {
+  const std::string path = valid("lorenz63_sweep.yaml");
+  const Spec s = load_spec(path);
+  EXPECT_EQ(s.source_path, path);
+  EXPECT_EQ(s.text, file_bytes(path));
+  EXPECT_EQ(s.sha256, chaosweep::sha256_hex(s.text));
+  EXPECT_EQ(s.name, "thermosyphon-bias-sweep");
+  EXPECT_EQ(s.description, "forcing along x from 0 to 8");
+  EXPECT_EQ(s.model, "lorenz63");
+
+  // Overrides as written; forcing keeps its registry default (0) as the base value.
+  ASSERT_EQ(s.parameters.size(), 5u);
+  EXPECT_EQ(s.parameters.at("sigma"), std::vector<double>{10.0});
+  EXPECT_EQ(s.parameters.at("rho"), std::vector<double>{28.0});
+  EXPECT_EQ(s.parameters.at("beta"), std::vector<double>{2.6666666666666667});
+  EXPECT_EQ(s.parameters.at("forcing"), std::vector<double>{0.0});
+  EXPECT_EQ(s.parameters.at("forcing_direction"), (std::vector<double>{1.0, 0.0, 0.0}));
+
+  // exact: range {start 0, stop 8, count 17} is inclusive, spacing 8/16 = 0.5; every value
+  // i/2 is a dyadic rational, so it is represented exactly.
+  ASSERT_EQ(s.sweep.size(), 1u);
+  EXPECT_EQ(s.sweep[0].parameter, "forcing");
+  ASSERT_EQ(s.sweep[0].values.size(), 17u);
+  for (int i = 0; i < 17; ++i) EXPECT_EQ(s.sweep[0].values[i], 0.5 * i) << i;
+  EXPECT_EQ(s.sweep[0].where.line, 7);
+
+  EXPECT_EQ(s.ensemble.members, 512);
+  EXPECT_EQ(s.ensemble.initial.kind, InitialKind::given);
+  EXPECT_EQ(s.ensemble.initial.state, (std::vector<double>{1.0, 1.0, 20.0}));
+  EXPECT_EQ(s.ensemble.perturbation.distribution, Distribution::gaussian);
+  EXPECT_EQ(s.ensemble.perturbation.scale, 1.0e-3);
+  EXPECT_EQ(s.ensemble.seed, 20261202u);
+
+  EXPECT_EQ(s.integration.method, "rk4");
+  EXPECT_EQ(s.integration.dt, 0.005);
+  EXPECT_EQ(s.integration.spinup, 50.0);
+  EXPECT_EQ(s.integration.duration, 1000.0);
+
+  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"x", "y", "z"}));
+  EXPECT_EQ(s.statistics.regimes.kind, RegimeKind::sign);
+  EXPECT_EQ(s.statistics.regimes.observable, "x");
+  EXPECT_EQ(s.statistics.regimes.labels,
+            (std::vector<std::string>{"counterclockwise", "clockwise"}));
+  EXPECT_TRUE(s.statistics.histogram.enabled);
+  EXPECT_EQ(s.statistics.histogram.observable, "x");
+  EXPECT_EQ(s.statistics.histogram.bins, 80);
+  EXPECT_EQ(s.statistics.histogram.low, -25.0);
+  EXPECT_EQ(s.statistics.histogram.high, 25.0);
+
+  EXPECT_EQ(s.output.archive, "results/thermosyphon.h5");
+  EXPECT_EQ(s.output.archive_where.line, 19);
+  EXPECT_EQ(s.output.archive_where.column, 12);
+  EXPECT_EQ(s.output.trajectories.members, 4);
+  EXPECT_EQ(s.output.trajectories.every, 0.05);
+  EXPECT_EQ(s.run.batch_size, 64);
+}
+
+TEST(ValidSpec, Lorenz96Defaults) {
+  const Spec s = load_spec(valid("lorenz96_defaults.yaml"));
+  EXPECT_EQ(s.name, "l96-forcing");
+  EXPECT_EQ(s.description, "");
+  EXPECT_EQ(s.model, "lorenz96");
+  EXPECT_EQ(s.parameters.at("n"), std::vector<double>{8.0});
+  EXPECT_EQ(s.parameters.at("F"), std::vector<double>{8.0});  // registry default
+  ASSERT_EQ(s.sweep.size(), 1u);
+  EXPECT_EQ(s.sweep[0].parameter, "F");
+  EXPECT_EQ(s.sweep[0].values, (std::vector<double>{6.0, 8.0, 10.0}));
+
+  // Defaults of the spec contract.
+  EXPECT_EQ(s.ensemble.members, 16);
+  EXPECT_EQ(s.ensemble.seed, 0u);
+  EXPECT_EQ(s.ensemble.initial.kind, InitialKind::attractor);
+  EXPECT_EQ(s.ensemble.initial.spinup, 50.0);
+  EXPECT_EQ(s.ensemble.perturbation.distribution, Distribution::gaussian);
+  EXPECT_EQ(s.ensemble.perturbation.scale, 1e-3);
+  EXPECT_EQ(s.integration.method, "rk4");
+  EXPECT_EQ(s.integration.spinup, 0.0);
+  EXPECT_EQ(s.statistics.regimes.kind, RegimeKind::none);
+  EXPECT_FALSE(s.statistics.histogram.enabled);
+  EXPECT_EQ(s.output.trajectories.members, 0);
+  EXPECT_EQ(s.run.batch_size, 64);
+
+  // Default observables: every observable of the model, in its order (state variables
+  // x0..x7, then mean and energy, per the lorenz96 contract).
+  const std::vector<std::string> expected = {"x0", "x1", "x2", "x3", "x4",
+                                             "x5", "x6", "x7", "mean", "energy"};
+  EXPECT_EQ(s.statistics.observables, expected);
+}
+
+TEST(ValidSpec, Lorenz63NearestRegimes) {
+  const Spec s = load_spec(valid("lorenz63_nearest.yaml"));
+  EXPECT_EQ(s.description, "Two regimes, one around each fixed point C+ and C-.\n");
+  EXPECT_EQ(s.parameters.at("forcing_direction"), (std::vector<double>{0.0, 1.0, 0.0}));
+  ASSERT_EQ(s.sweep.size(), 2u);
+  EXPECT_EQ(s.sweep[0].parameter, "rho");
+  EXPECT_EQ(s.sweep[0].values, (std::vector<double>{24.0, 28.0, 32.0}));
+  EXPECT_EQ(s.sweep[1].parameter, "forcing");
+  EXPECT_EQ(s.sweep[1].values, (std::vector<double>{-1.5, 0.0, 1.5}));
+  EXPECT_EQ(s.ensemble.initial.kind, InitialKind::attractor);
+  EXPECT_EQ(s.ensemble.initial.spinup, 20.0);
+  EXPECT_EQ(s.ensemble.perturbation.distribution, Distribution::uniform);
+  EXPECT_EQ(s.ensemble.perturbation.scale, 0.5);
+  EXPECT_EQ(s.ensemble.seed, 18446744073709551615u);  // largest uint64 seed
+  EXPECT_EQ(s.integration.spinup, 10.0);
+
+  const Regimes& r = s.statistics.regimes;
+  EXPECT_EQ(r.kind, RegimeKind::nearest);
+  EXPECT_EQ(r.coordinates, (std::vector<std::string>{"x", "y", "z"}));  // default: the state
+  ASSERT_EQ(r.centroids.size(), 2u);
+  // exact: C+- = (+-sqrt(beta (rho - 1)), +-sqrt(beta (rho - 1)), rho - 1) with beta 8/3,
+  // rho 28 (Lorenz 1963); the fixture writes sqrt(72) to 15 significant digits.
+  EXPECT_NEAR(r.centroids[0][0], std::sqrt(72.0), 1e-13);
+  EXPECT_NEAR(r.centroids[1][1], -std::sqrt(72.0), 1e-13);
+  EXPECT_EQ(r.centroids[0][2], 27.0);
+  EXPECT_EQ(r.labels, (std::vector<std::string>{"regime0", "regime1"}));
+  EXPECT_EQ(s.output.trajectories.members, 0);
+  EXPECT_EQ(s.run.batch_size, 128);
+}
+
+TEST(ValidSpec, Lorenz96RegimesInDerivedObservables) {
+  const Spec s = load_spec(valid("lorenz96_observable_regimes.yaml"));
+  EXPECT_EQ(s.parameters.at("n"), std::vector<double>{40.0});  // registry default
+  EXPECT_TRUE(s.sweep.empty());
+  EXPECT_EQ(s.ensemble.initial.kind, InitialKind::attractor);
+  EXPECT_EQ(s.ensemble.initial.spinup, 50.0);
+  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"mean", "energy", "x0"}));
+  const Regimes& r = s.statistics.regimes;
+  EXPECT_EQ(r.kind, RegimeKind::nearest);
+  EXPECT_EQ(r.coordinates, (std::vector<std::string>{"mean", "energy"}));
+  ASSERT_EQ(r.centroids.size(), 3u);
+  EXPECT_EQ(r.centroids[2], (std::vector<double>{3.0, 500.0}));
+  EXPECT_EQ(r.labels, (std::vector<std::string>{"low", "middle", "high"}));
+  EXPECT_EQ(s.statistics.histogram.observable, "energy");
+  EXPECT_EQ(s.statistics.histogram.bins, 1);
+  EXPECT_EQ(s.output.archive, "out dir/l96 energy.h5");
+}
+
+// Every valid fixture loads (so a fixture added later is at least parsed).
+TEST(ValidSpec, EveryValidFixtureLoads) {
+  int count = 0;
+  for (const auto& entry :
+       std::filesystem::directory_iterator(std::string(CHAOSWEEP_FIXTURES) + "/specs/valid")) {
+    if (entry.path().extension() != ".yaml") continue;
+    EXPECT_NO_THROW(load_spec(entry.path().string())) << entry.path();
+    ++count;
+  }
+  EXPECT_GE(count, 4);
+}
+
+}  // namespace
