@@ -7,6 +7,7 @@
 
 #include "app/commands.hpp"
 #include "app/logging.hpp"
+#include "archive/schema.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "parallel/communicator.hpp"
@@ -62,6 +63,9 @@ int main(int argc, char** argv) {
   summary_cmd->add_option("--format", summary.format, "table, csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
 
+  CLI::App* schema_cmd =
+      cli.add_subcommand("schema", "Print the archive's dataset table (Markdown)");
+
   try {
     cli.parse(argc, argv);
   } catch (const CLI::ParseError& e) {
@@ -74,6 +78,10 @@ int main(int argc, char** argv) {
   try {
     if (*check_cmd) return app::check_command(check);
     if (*summary_cmd) return app::summary_command(summary);
+    if (*schema_cmd) {
+      std::fputs(archive::markdown_table().c_str(), stdout);
+      return kExitComplete;
+    }
   } catch (const Error& e) {
     app::print_error(e.what());
     return e.exit_code();
