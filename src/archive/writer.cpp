@@ -13,6 +13,7 @@
 #include "core/version.hpp"
 #include "h5/h5.hpp"
 #include "parallel/communicator.hpp"
+#include "stats/histogram.hpp"
 
 namespace chaosweep::archive {
 namespace {
@@ -271,8 +272,9 @@ void write_histogram(h5::File& file, const spec::Spec& spec, const plan::Plan& p
   GroupWriter g(file, "histogram");
   const std::uint64_t bins = static_cast<std::uint64_t>(h.bins);
   std::vector<double> edges(bins + 1), centres(bins);
-  const double width = (h.high - h.low) / h.bins;
-  for (std::uint64_t k = 0; k <= bins; ++k) edges[k] = h.low + width * static_cast<double>(k);
+  for (std::uint64_t k = 0; k <= bins; ++k) {
+    edges[k] = stats::histogram_edge(h.low, h.high, h.bins, static_cast<int>(k));
+  }
   for (std::uint64_t k = 0; k < bins; ++k) centres[k] = 0.5 * (edges[k] + edges[k + 1]);
   g.coordinate("case", iota(static_cast<std::int64_t>(plan.cases.size())), "case index");
   g.coordinate("bin", centres, "bin centre of " + h.observable);

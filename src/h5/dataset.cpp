@@ -30,8 +30,7 @@ ElementType Dataset::element_type() const {
 void Dataset::require_type(ElementType type, const char* doing) const {
   const ElementType stored = element_type();
   if (stored != type) {
-    detail::fail(doing, where(),
-                 "dataset holds " + to_string(stored) + ", not " + to_string(type));
+    detail::fail(doing, where(), "dataset holds " + to_string(stored) + ", not " + to_string(type));
   }
 }
 
@@ -39,9 +38,9 @@ void Dataset::require_block(const Dims& start, const Dims& count, const char* do
   const Dims extents = shape();
   if (start.size() != extents.size() || count.size() != extents.size()) {
     detail::fail(doing, where(),
-                 "block has " + std::to_string(start.size()) + "/" +
-                     std::to_string(count.size()) + " start/count entries for a dataset of " +
-                     std::to_string(extents.size()) + " dimensions");
+                 "block has " + std::to_string(start.size()) + "/" + std::to_string(count.size()) +
+                     " start/count entries for a dataset of " + std::to_string(extents.size()) +
+                     " dimensions");
   }
   for (std::size_t d = 0; d < extents.size(); ++d) {
     if (count[d] > 0 && (start[d] > extents[d] || count[d] > extents[d] - start[d])) {
@@ -62,8 +61,8 @@ void Dataset::make_scale(const std::string& dimension_name) {
 }
 
 void Dataset::attach_scale(const Dataset& scale, unsigned axis) {
-  const std::string what = "attaching dimension scale " + scale.path() + " to axis " +
-                           std::to_string(axis);
+  const std::string what =
+      "attaching dimension scale " + scale.path() + " to axis " + std::to_string(axis);
   const Dims extents = shape();
   const Dims scale_extents = scale.shape();
   if (axis >= extents.size()) {

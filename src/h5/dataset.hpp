@@ -37,6 +37,7 @@ class Dataset : public Object {
   /// Collective: writes the block starting at `start` with extents `count` from `data`, which
   /// holds element_count(count) values in row-major order. A count with a zero selects nothing
   /// (data may then be null). Throws if the block leaves the dataset or the type differs.
+  /// A dataset with no elements at all is not written (every rank returns at once).
   template <class T>
   void write(const Dims& start, const Dims& count, const T* data);
   /// As above; `values` must hold exactly element_count(count) values.
@@ -60,7 +61,8 @@ class Dataset : public Object {
   /// Collective: makes this 1-D dataset a dimension scale (HDF5 H5DS) for the dimension named
   /// `dimension_name`, by default the dataset's own name. A reader such as
   /// xarray.open_dataset(engine="h5netcdf") names the dimension after the dataset and uses its
-  /// values as the coordinate.
+  /// values as the coordinate. Opened with group=G, xarray shows coordinate values only for
+  /// scales inside G; a scale in another group still names the dimension, without values.
   void make_scale(const std::string& dimension_name = "");
   /// Collective: attaches `scale` (a 1-D dimension scale of this file, in any group, whose size
   /// equals shape()[axis]) to dimension `axis` of this dataset.

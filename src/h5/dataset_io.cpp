@@ -21,8 +21,8 @@ Selection select_block(hid_t dataset, const Dims& start, const Dims& count, bool
   } else {
     const std::vector<hsize_t> first = to_hsize(start);
     const std::vector<hsize_t> extents = to_hsize(count);
-    check(H5Sselect_hyperslab(file_space, H5S_SELECT_SET, first.data(), nullptr,
-                              extents.data(), nullptr),
+    check(H5Sselect_hyperslab(file_space, H5S_SELECT_SET, first.data(), nullptr, extents.data(),
+                              nullptr),
           what, where);
     selection.memory_space = make_space(count, what, where);
   }
@@ -56,13 +56,17 @@ void Dataset::require_writable(const char* doing) const {
   if (!file()->writable) detail::fail(doing, where(), "the file is open read-only");
 }
 
-void Dataset::write_raw(ElementType type, const Dims& start, const Dims& count,
-                        const void* data, bool select_nothing) {
+void Dataset::write_raw(ElementType type, const Dims& start, const Dims& count, const void* data,
+                        bool select_nothing) {
   const char* what = "writing dataset";
   require_writable(what);
   require_type(type, what);
   if (!select_nothing) require_block(start, count, what);
-  detail::Selection selection = detail::select_block(id(), start, count, select_nothing, what, where());
+  // A dataset without elements has no storage, and HDF5 1.10 fails a collective write to it
+  // even with nothing selected; every rank sees the same shape, so every rank returns here.
+  if (element_count(shape()) == 0) return;
+  detail::Selection selection =
+      detail::select_block(id(), start, count, select_nothing, what, where());
   Handle transfer = detail::transfer_list(*file(), true, where());
   static const char kNoData = 0;  // HDF5 wants a buffer even when nothing is selected
   if (data == nullptr) data = &kNoData;
@@ -107,8 +111,8 @@ void Dataset::write_strings_from_rank0(const std::vector<std::string>& values) {
   const std::size_t needed = element_count(shape());
   if (state.rank == 0 && values.size() != needed) {
     detail::fail(what, where(),
-                 std::to_string(values.size()) + " strings given for " +
-                     std::to_string(needed) + " elements");
+                 std::to_string(values.size()) + " strings given for " + std::to_string(needed) +
+                     " elements");
   }
   if (!state.parallel) {
     detail::write_all_strings(id(), values, where());
@@ -118,8 +122,7 @@ void Dataset::write_strings_from_rank0(const std::vector<std::string>& values) {
   if (state.rank == 0) state.deferred.push_back({path(), values});
 }
 
-void Dataset::read_raw(ElementType type, const Dims& start, const Dims& count,
-                       void* data) const {
+void Dataset::read_raw(ElementType type, const Dims& start, const Dims& count, void* data) const {
   const char* what = "reading dataset";
   require_type(type, what);
   require_block(start, count, what);

@@ -41,8 +41,8 @@ void check_mpi(int code, const std::string& what, const std::string& where);
 
 /// String datasets whose values rank 0 writes when a parallel file closes.
 struct DeferredStrings {
-  std::string dataset;               // absolute path inside the file
-  std::vector<std::string> values;   // row-major; kept on rank 0 only
+  std::string dataset;              // absolute path inside the file
+  std::vector<std::string> values;  // row-major; kept on rank 0 only
 };
 
 /// What every Group and Dataset of an open file shares with its File.
@@ -54,9 +54,9 @@ struct FileState {
   MPI_Comm comm = MPI_COMM_NULL;
   int rank = 0;
   int ranks = 1;
-  int uncaught_at_open = 0;              // std::uncaught_exceptions() when opened
-  std::size_t deferred_string_calls = 0; // counted on every rank, so all agree
-  std::vector<DeferredStrings> deferred; // rank 0 only
+  int uncaught_at_open = 0;               // std::uncaught_exceptions() when opened
+  std::size_t deferred_string_calls = 0;  // counted on every rank, so all agree
+  std::vector<DeferredStrings> deferred;  // rank 0 only
   TransferCounts transfers;
 };
 
@@ -68,11 +68,14 @@ inline constexpr char kDimensionWithoutCoordinates[] =
 hid_t file_type(ElementType type);
 /// Native in-memory datatype of a numeric element type.
 hid_t memory_type(ElementType type);
+/// Checked H5Tget_class, H5Tget_size and H5Tget_sign.
+H5T_class_t type_class(hid_t type, const std::string& what, const std::string& where);
+std::size_t type_size(hid_t type, const std::string& what, const std::string& where);
+H5T_sign_t type_sign(hid_t type, const std::string& what, const std::string& where);
 /// A new variable-length UTF-8 string datatype.
 Handle string_type();
 /// The element type of the datatype `type`, or fail(what, where) if it is none of ours.
-ElementType element_type_of_datatype(hid_t type, const std::string& what,
-                                     const std::string& where);
+ElementType element_type_of_datatype(hid_t type, const std::string& what, const std::string& where);
 
 /// A new dataset-transfer property list: MPI-IO collective (or independent) on a parallel
 /// file, the defaults on a serial one.

@@ -1,7 +1,8 @@
 // Checked HDF5 and MPI calls: failures become IoError carrying the library's own message.
+#include "core/error.hpp"
+
 #include <mutex>
 
-#include "core/error.hpp"
 #include "h5/detail.hpp"
 
 namespace chaosweep::h5::detail {
@@ -21,26 +22,25 @@ herr_t keep_innermost(unsigned, const H5E_error2_t* entry, void* data) {
 
 void silence_hdf5_errors() {
   static std::once_flag once;
+  // An exception leaves the flag unset, so the next file operation tries again.
   std::call_once(once, [] {
-    H5open();
-    H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
+    if (H5open() < 0 || H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr) < 0) {
+      fail("starting the HDF5 library", "HDF5", "H5open or H5Eset_auto2 failed");
+    }
   });
 }
 
 std::string hdf5_message() {
   std::string message;
   // Walking downward starts at the API call and ends where the error was first detected.
-  if (H5Ewalk2(H5E_DEFAULT, H5E_WALK_DOWNWARD, keep_innermost, &message) < 0 ||
-      message.empty()) {
+  if (H5Ewalk2(H5E_DEFAULT, H5E_WALK_DOWNWARD, keep_innermost, &message) < 0 || message.empty()) {
     message = kNoMessage;
   }
   H5Eclear2(H5E_DEFAULT);
   return message;
 }
 
-void fail(const std::string& what, const std::string& where) {
-  fail(what, where, hdf5_message());
-}
+void fail(const std::string& what, const std::string& where) { fail(what, where, hdf5_message()); }
 
 void fail(const std::string& what, const std::string& where, const std::string& reason) {
   throw IoError(what + ": " + where + ": " + reason);

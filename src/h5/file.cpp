@@ -60,8 +60,8 @@ File File::create_serial(const std::string& path) {
 File File::open_read(const std::string& path) {
   const std::string what = "opening file for reading";
   auto state = new_state(path, false, false);
-  state->id = Handle(
-      detail::check_id(H5Fopen(path.c_str(), H5F_ACC_RDONLY, H5P_DEFAULT), what, path));
+  state->id =
+      Handle(detail::check_id(H5Fopen(path.c_str(), H5F_ACC_RDONLY, H5P_DEFAULT), what, path));
   return File(std::move(state));
 }
 
@@ -70,8 +70,8 @@ File File::open_read_parallel(const std::string& path, MPI_Comm comm) {
   auto state = new_state(path, true, false);
   join(*state, comm, what);
   Handle access = mpio_access(comm, what, path);
-  state->id = Handle(
-      detail::check_id(H5Fopen(path.c_str(), H5F_ACC_RDONLY, access.get()), what, path));
+  state->id =
+      Handle(detail::check_id(H5Fopen(path.c_str(), H5F_ACC_RDONLY, access.get()), what, path));
   return File(std::move(state));
 }
 
@@ -105,8 +105,8 @@ File::~File() {
 Group File::root() const {
   const std::string where = path() + ":/";
   if (!is_open()) detail::fail("opening root group", where, "the file is closed");
-  Handle id(detail::check_id(H5Gopen2(state_->id.get(), "/", H5P_DEFAULT),
-                             "opening root group", where));
+  Handle id(
+      detail::check_id(H5Gopen2(state_->id.get(), "/", H5P_DEFAULT), "opening root group", where));
   return Group(state_, std::move(id), "/");
 }
 

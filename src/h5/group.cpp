@@ -14,8 +14,7 @@ namespace chaosweep::h5 {
 namespace {
 
 /// Member paths are relative to the group: not empty, no leading or trailing '/'.
-void require_relative(const std::string& path, const std::string& what,
-                      const std::string& where) {
+void require_relative(const std::string& path, const std::string& what, const std::string& where) {
   if (path.empty() || path.front() == '/' || path.back() == '/') {
     detail::fail(what, where, "member path must be relative and name a member");
   }
@@ -100,8 +99,8 @@ std::vector<std::string> Group::members() const {
   detail::check(H5Gget_info(id(), &info), what, where());
   std::vector<std::string> names;
   for (hsize_t i = 0; i < info.nlinks; ++i) {
-    const ssize_t length = H5Lget_name_by_idx(id(), ".", H5_INDEX_NAME, H5_ITER_INC, i,
-                                              nullptr, 0, H5P_DEFAULT);
+    const ssize_t length =
+        H5Lget_name_by_idx(id(), ".", H5_INDEX_NAME, H5_ITER_INC, i, nullptr, 0, H5P_DEFAULT);
     if (length < 0) detail::fail(what, where());
     std::string name(static_cast<std::size_t>(length) + 1, '\0');
     if (H5Lget_name_by_idx(id(), ".", H5_INDEX_NAME, H5_ITER_INC, i, name.data(), name.size(),
@@ -125,9 +124,9 @@ Dataset Group::create_dataset(const std::string& path, ElementType type, const D
   Handle links = with_intermediate_groups(what, where);
   Handle creation(detail::check_id(H5Pcreate(H5P_DATASET_CREATE), what, where));
   if (fill) set_fill(creation.get(), type, *fill, what, where);
-  Handle dataset(detail::check_id(H5Dcreate2(id(), path.c_str(), stored, space.get(),
-                                             links.get(), creation.get(), H5P_DEFAULT),
-                                  what, where));
+  Handle dataset(detail::check_id(
+      H5Dcreate2(id(), path.c_str(), stored, space.get(), links.get(), creation.get(), H5P_DEFAULT),
+      what, where));
   return Dataset(file(), std::move(dataset), child_path(path));
 }
 

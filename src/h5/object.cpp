@@ -11,8 +11,8 @@ namespace {
 
 /// Opens attribute `name` of object `id` for reading.
 Handle open_attribute(hid_t id, const std::string& name, const std::string& where) {
-  return Handle(detail::check_id(H5Aopen(id, name.c_str(), H5P_DEFAULT),
-                                 "opening attribute " + name, where));
+  return Handle(
+      detail::check_id(H5Aopen(id, name.c_str(), H5P_DEFAULT), "opening attribute " + name, where));
 }
 
 /// H5Aiterate2 visitor: appends each attribute name to a std::vector<std::string>.
@@ -88,8 +88,7 @@ void Object::set_attribute(const std::string& name, std::int64_t value) {
 }
 
 bool Object::has_attribute(const std::string& name) const {
-  return detail::check_tri(H5Aexists(id(), name.c_str()), "looking for attribute " + name,
-                           where());
+  return detail::check_tri(H5Aexists(id(), name.c_str()), "looking for attribute " + name, where());
 }
 
 std::vector<std::string> Object::attribute_names() const {
@@ -104,7 +103,9 @@ std::string Object::string_attribute(const std::string& name) const {
   const std::string what = "reading string attribute " + name;
   Handle attribute = open_single(id(), name, what, where());
   Handle type(detail::check_id(H5Aget_type(attribute.get()), what, where()));
-  if (H5Tget_class(type.get()) != H5T_STRING) detail::fail(what, where(), "not a string");
+  if (detail::type_class(type.get(), what, where()) != H5T_STRING) {
+    detail::fail(what, where(), "not a string");
+  }
   if (detail::check_tri(H5Tis_variable_str(type.get()), what, where())) {
     char* text = nullptr;
     detail::check(H5Aread(attribute.get(), type.get(), &text), what, where());
@@ -112,7 +113,7 @@ std::string Object::string_attribute(const std::string& name) const {
     H5free_memory(text);
     return value;
   }
-  std::string value(H5Tget_size(type.get()), '\0');
+  std::string value(detail::type_size(type.get(), what, where()), '\0');
   detail::check(H5Aread(attribute.get(), type.get(), value.data()), what, where());
   return trim_padding(std::move(value));
 }
@@ -121,7 +122,9 @@ double Object::double_attribute(const std::string& name) const {
   const std::string what = "reading floating-point attribute " + name;
   Handle attribute = open_single(id(), name, what, where());
   Handle type(detail::check_id(H5Aget_type(attribute.get()), what, where()));
-  if (H5Tget_class(type.get()) != H5T_FLOAT) detail::fail(what, where(), "not floating-point");
+  if (detail::type_class(type.get(), what, where()) != H5T_FLOAT) {
+    detail::fail(what, where(), "not floating-point");
+  }
   double value = 0.0;
   detail::check(H5Aread(attribute.get(), H5T_NATIVE_DOUBLE, &value), what, where());
   return value;
@@ -131,7 +134,9 @@ std::int64_t Object::int64_attribute(const std::string& name) const {
   const std::string what = "reading integer attribute " + name;
   Handle attribute = open_single(id(), name, what, where());
   Handle type(detail::check_id(H5Aget_type(attribute.get()), what, where()));
-  if (H5Tget_class(type.get()) != H5T_INTEGER) detail::fail(what, where(), "not an integer");
+  if (detail::type_class(type.get(), what, where()) != H5T_INTEGER) {
+    detail::fail(what, where(), "not an integer");
+  }
   std::int64_t value = 0;
   detail::check(H5Aread(attribute.get(), H5T_NATIVE_INT64, &value), what, where());
   return value;

@@ -39,7 +39,8 @@ class Object {
   void set_attribute(const std::string& name, std::int64_t value);
   /// Any other integer type is stored as a 64-bit signed integer.
   template <class T, std::enable_if_t<std::is_integral_v<T> && !std::is_same_v<T, bool> &&
-                                          !std::is_same_v<T, std::int64_t>, int> = 0>
+                                          !std::is_same_v<T, std::int64_t>,
+                                      int> = 0>
   void set_attribute(const std::string& name, T value) {
     set_attribute(name, static_cast<std::int64_t>(value));
   }

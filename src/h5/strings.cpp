@@ -37,12 +37,12 @@ std::vector<std::string> split_fixed(const std::vector<char>& buffer, std::size_
 /// Rank 0's part of the deferred writes: reopen serially, write each kept dataset, close.
 void write_deferred_serially(const detail::FileState& state) {
   const std::string what = "writing string datasets after the parallel close";
-  Handle file(detail::check_id(H5Fopen(state.path.c_str(), H5F_ACC_RDWR, H5P_DEFAULT), what,
-                               state.path));
+  Handle file(
+      detail::check_id(H5Fopen(state.path.c_str(), H5F_ACC_RDWR, H5P_DEFAULT), what, state.path));
   for (const detail::DeferredStrings& kept : state.deferred) {
     const std::string where = state.path + ":" + kept.dataset;
-    Handle dataset(detail::check_id(H5Dopen2(file.get(), kept.dataset.c_str(), H5P_DEFAULT),
-                                    what, where));
+    Handle dataset(
+        detail::check_id(H5Dopen2(file.get(), kept.dataset.c_str(), H5P_DEFAULT), what, where));
     detail::write_all_strings(dataset.get(), kept.values, where);
     dataset.close(what, where);
   }
@@ -56,8 +56,8 @@ std::string broadcast(std::string message, MPI_Comm comm, const std::string& whe
   detail::check_mpi(MPI_Bcast(&length, 1, MPI_UNSIGNED_LONG_LONG, 0, comm), what, where);
   message.resize(static_cast<std::size_t>(length));
   if (length > 0) {
-    detail::check_mpi(MPI_Bcast(message.data(), static_cast<int>(length), MPI_CHAR, 0, comm),
-                      what, where);
+    detail::check_mpi(MPI_Bcast(message.data(), static_cast<int>(length), MPI_CHAR, 0, comm), what,
+                      where);
   }
   return message;
 }
@@ -77,16 +77,15 @@ std::vector<std::string> Dataset::read_strings(const Dims& start, const Dims& co
   const hid_t memory_space = selection.memory_space.get();
   const hid_t file_space = selection.file_space.get();
   if (!detail::check_tri(H5Tis_variable_str(memory.get()), what, where())) {
-    const std::size_t size = H5Tget_size(memory.get());
+    const std::size_t size = detail::type_size(memory.get(), what, where());
     std::vector<char> buffer(n * size);
-    detail::check(H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(),
-                          buffer.data()),
-                  what, where());
+    detail::check(
+        H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(), buffer.data()), what,
+        where());
     return split_fixed(buffer, n, size);
   }
   std::vector<char*> texts(n, nullptr);
-  detail::check(H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(),
-                        texts.data()),
+  detail::check(H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(), texts.data()),
                 what, where());
   std::vector<std::string> values;
   values.reserve(n);

@@ -51,37 +51,51 @@ Handle string_type() {
   return type;
 }
 
+H5T_class_t type_class(hid_t type, const std::string& what, const std::string& where) {
+  const H5T_class_t value = H5Tget_class(type);
+  if (value == H5T_NO_CLASS) fail(what, where);
+  return value;
+}
+
+std::size_t type_size(hid_t type, const std::string& what, const std::string& where) {
+  const std::size_t value = H5Tget_size(type);
+  if (value == 0) fail(what, where);
+  return value;
+}
+
+H5T_sign_t type_sign(hid_t type, const std::string& what, const std::string& where) {
+  const H5T_sign_t value = H5Tget_sign(type);
+  if (value == H5T_SGN_ERROR) fail(what, where);
+  return value;
+}
+
 ElementType element_type_of_datatype(hid_t type, const std::string& what,
                                      const std::string& where) {
-  const H5T_class_t type_class = H5Tget_class(type);
-  const std::size_t size = H5Tget_size(type);
-  if (type_class == H5T_STRING) return ElementType::String;
-  if (type_class == H5T_FLOAT && size == 8) return ElementType::Float64;
-  if (type_class == H5T_INTEGER && size == 8 && H5Tget_sign(type) == H5T_SGN_2) {
-    return ElementType::Int64;
+  const H5T_class_t kind = type_class(type, what, where);
+  const std::size_t size = type_size(type, what, where);
+  if (kind == H5T_STRING) return ElementType::String;
+  if (kind == H5T_FLOAT && size == 8) return ElementType::Float64;
+  if (kind == H5T_INTEGER) {
+    const H5T_sign_t sign = type_sign(type, what, where);
+    if (size == 8 && sign == H5T_SGN_2) return ElementType::Int64;
+    if (size == 1 && sign == H5T_SGN_NONE) return ElementType::UInt8;
   }
-  if (type_class == H5T_INTEGER && size == 1 && H5Tget_sign(type) == H5T_SGN_NONE) {
-    return ElementType::UInt8;
-  }
-  fail(what, where, "element type is not float64, int64, uint8 or string (HDF5 class " +
-                        std::to_string(static_cast<int>(type_class)) + ", " +
-                        std::to_string(size) + " bytes)");
+  fail(what, where,
+       "element type is not float64, int64, uint8 or string (HDF5 class " +
+           std::to_string(static_cast<int>(kind)) + ", " + std::to_string(size) + " bytes)");
 }
 
 std::vector<hsize_t> to_hsize(const Dims& dims) {
   return std::vector<hsize_t>(dims.begin(), dims.end());
 }
 
-Dims to_dims(const std::vector<hsize_t>& extents) {
-  return Dims(extents.begin(), extents.end());
-}
+Dims to_dims(const std::vector<hsize_t>& extents) { return Dims(extents.begin(), extents.end()); }
 
 Handle make_space(const Dims& dims, const std::string& what, const std::string& where) {
   if (dims.empty()) return Handle(check_id(H5Screate(H5S_SCALAR), what, where));
   const std::vector<hsize_t> extents = to_hsize(dims);
-  return Handle(check_id(H5Screate_simple(static_cast<int>(extents.size()), extents.data(),
-                                          nullptr),
-                         what, where));
+  return Handle(check_id(
+      H5Screate_simple(static_cast<int>(extents.size()), extents.data(), nullptr), what, where));
 }
 
 }  // namespace detail

@@ -29,13 +29,21 @@ std::string to_string(ElementType type);
 template <class T>
 constexpr ElementType element_type_of();
 template <>
-constexpr ElementType element_type_of<double>() { return ElementType::Float64; }
+constexpr ElementType element_type_of<double>() {
+  return ElementType::Float64;
+}
 template <>
-constexpr ElementType element_type_of<std::int64_t>() { return ElementType::Int64; }
+constexpr ElementType element_type_of<std::int64_t>() {
+  return ElementType::Int64;
+}
 template <>
-constexpr ElementType element_type_of<std::uint8_t>() { return ElementType::UInt8; }
+constexpr ElementType element_type_of<std::uint8_t>() {
+  return ElementType::UInt8;
+}
 template <>
-constexpr ElementType element_type_of<std::string>() { return ElementType::String; }
+constexpr ElementType element_type_of<std::string>() {
+  return ElementType::String;
+}
 
 /// A block of values read from a dataset: `values` holds element_count(shape) values in
 /// row-major order, so element (i, j, k) of a 3-D block sits at (i*shape[1] + j)*shape[2] + k.

@@ -15,6 +15,7 @@
 // Pure numerics: no allocation in rhs() or derived(), no I/O.
 #include <cmath>
 #include <memory>
+#include <stdexcept>
 #include <string>
 #include <vector>
 

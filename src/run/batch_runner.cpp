@@ -37,6 +37,9 @@ void resolve_regimes(const spec::Regimes& r, const plan::Plan& plan, const model
                      Setup& s) {
   s.n_regimes = static_cast<int>(plan.regime_labels.size());
   s.regime_kind = s.n_regimes == 0 ? spec::RegimeKind::none : r.kind;
+  if (s.n_regimes > 0 && r.kind == spec::RegimeKind::none) {
+    throw Error("regime labels are given without a regime kind");
+  }
   if (s.regime_kind == spec::RegimeKind::sign) {
     if (s.n_regimes != 2) throw Error("sign regimes need exactly two labels");
     s.regime_coordinates = {observable_index(model, r.observable)};

@@ -28,9 +28,9 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
       moments_(static_cast<int>(setup.observables.size()), setup.width),
       regime_(static_cast<std::size_t>(setup.width), 0) {
   const int w = setup.width;
-  for (int i = 0; i < setup.n_model_observables; ++i) {
-    column_.push_back(i < setup.state_dim ? x_.data() + static_cast<long>(i) * w
-                                          : derived_.data() + static_cast<long>(i - setup.state_dim) * w);
+  for (int i = 0; i < setup.n_model_observables; ++i) {  // state rows, then derived rows
+    const long offset = static_cast<long>(i < setup.state_dim ? i : i - setup.state_dim) * w;
+    column_.push_back((i < setup.state_dim ? x_.data() : derived_.data()) + offset);
   }
   for (int i : setup.observables) selected_.push_back(column_[i]);
   for (int i : setup.regime_coordinates) regime_columns_.push_back(column_[i]);

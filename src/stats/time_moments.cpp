@@ -21,17 +21,19 @@ TimeMoments::TimeMoments(int series, int width, int block_length)
 void TimeMoments::add(const double* const* columns) {
   const int w = width_;
   for (int s = 0; s < series_; ++s) {
-    const double* __restrict v = columns[s];
-    double* __restrict k0 = origin_.data() + static_cast<long>(s) * w;
-    double* __restrict k = shift_.data() + static_cast<long>(s) * w;
-    double* __restrict s1 = s1_.data() + static_cast<long>(s) * w;
-    double* __restrict s2 = s2_.data() + static_cast<long>(s) * w;
+    const double* v = columns[s];
+    double* k0 = origin_.data() + static_cast<long>(s) * w;
+    double* k = shift_.data() + static_cast<long>(s) * w;
+    double* s1 = s1_.data() + static_cast<long>(s) * w;
+    double* s2 = s2_.data() + static_cast<long>(s) * w;
     if (count() == 0) {
       for (int m = 0; m < w; ++m) k0[m] = v[m];  // the series' origin
     }
     if (in_block_ == 0) {
       for (int m = 0; m < w; ++m) k[m] = v[m];  // the block's shift; its deviation is 0
     }
+    // members are independent and the accumulator's rows never alias the caller's values
+#pragma GCC ivdep
     for (int m = 0; m < w; ++m) {
       const double d = v[m] - k[m];
       s1[m] += d;

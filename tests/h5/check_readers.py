@@ -90,8 +90,8 @@ def check_xarray(path):
         require(ds["transitions"].dims == ("case", "member"), "transitions dims")
         require(ds["status"].dims == ("case", "member"), "status dims")
         require(ds["lyapunov"].dims == ("case", "member", "exponent"), "lyapunov dims")
-        require(dict(ds.sizes) == {"case": CASES, "member": MEMBERS, "exponent": 0,
-                                   "observable": len(OBSERVABLES)}, f"member sizes {dict(ds.sizes)}")
+        sizes = {"case": CASES, "member": MEMBERS, "exponent": 0, "observable": len(OBSERVABLES)}
+        require(dict(ds.sizes) == sizes, f"member sizes {dict(ds.sizes)}")
         for name in ["case", "member", "exponent"]:
             require(name not in ds.variables, f"dimension {name} shows up as a variable")
         require(np.array_equal(ds["time_mean"].values, expected["member/time_mean"]), "time_mean")

@@ -97,10 +97,16 @@ TEST(H5Errors, MisuseOfAParallelFileThrowsQuietly) {
     expect_quiet_io_error([&] { root.open_dataset("absent"); },
                           {"opening dataset: " + path + ":/absent: "});
     expect_quiet_io_error([&] { root.open_group("values"); }, {"opening group", where});
-    expect_quiet_io_error([&] { values.write<double>({3, 0}, {2, 3}, nullptr); },
-                          {"writing dataset: " + where, "leaves dimension 0 of extent 4"});
-    expect_quiet_io_error([&] { values.write({0, 0}, {1, 3}, std::vector<double>(2)); },
-                          {"buffer holds 2 values, block needs 3"});
+    expect_quiet_io_error(
+        [&] {
+          values.write<double>({3, 0}, {2, 3}, nullptr);
+        },
+        {"writing dataset: " + where, "leaves dimension 0 of extent 4"});
+    expect_quiet_io_error(
+        [&] {
+          values.write({0, 0}, {1, 3}, std::vector<double>(2));
+        },
+        {"buffer holds 2 values, block needs 3"});
     expect_quiet_io_error([&] { values.write_from_rank0(std::vector<std::int64_t>(12)); },
                           {"dataset holds float64, not int64"});
     expect_quiet_io_error([&] { values.read<std::string>(); }, {"not string"});
@@ -122,8 +128,11 @@ TEST(H5Errors, ReadOnlyFilesRefuseWrites) {
   }  // closed by the destructor
   h5::File file = h5::File::open_read_parallel(path, MPI_COMM_WORLD);
   h5::Dataset names = file.root().open_dataset("names");
-  expect_quiet_io_error([&] { names.write_strings_from_rank0({"a", "b"}); },
-                        {"writing string dataset", "read-only"});
+  expect_quiet_io_error(
+      [&] {
+        names.write_strings_from_rank0({"a", "b"});
+      },
+      {"writing string dataset", "read-only"});
   h5::Group root = file.root();
   expect_quiet_io_error([&] { root.set_attribute("title", "x"); }, {"writing attribute title"});
   // Strings never written read back empty.
@@ -131,8 +140,7 @@ TEST(H5Errors, ReadOnlyFilesRefuseWrites) {
 }
 
 TEST(H5Errors, SerialFilesWriteStringsAtOnce) {
-  const std::string path =
-      output_path("serial.rank" + std::to_string(world_rank()), ".h5");
+  const std::string path = output_path("serial.rank" + std::to_string(world_rank()), ".h5");
   h5::File file = h5::File::create_serial(path);
   EXPECT_EQ(file.ranks(), 1);
   h5::Group root = file.root();

@@ -1,12 +1,12 @@
 // main() of the MPI GoogleTest executables: every rank runs every test. Rank 0 prints the
 // usual report; the other ranks print only their own failures, prefixed with their rank. The
 // exit status is non-zero on every rank if any rank failed a test.
+#include "mpi_test_main.hpp"
+
 #include <gtest/gtest.h>
 
 #include <cstdio>
 #include <filesystem>
-
-#include "mpi_test_main.hpp"
 
 namespace chaosweep::test {
 

@@ -94,9 +94,12 @@ inline Rows time_rows(int rank, int ranks) {
   const int slot = ranks - 1 - rank;
   Rows rows;
   for (int s = 0; s <= slot; ++s) {
-    const std::uint64_t count = kTimes / ranks + (static_cast<std::uint64_t>(s) < kTimes % ranks ? 1 : 0);
-    if (s == slot) rows.count = count;
-    else rows.first += count;
+    const std::uint64_t count =
+        kTimes / ranks + (static_cast<std::uint64_t>(s) < kTimes % ranks ? 1 : 0);
+    if (s == slot)
+      rows.count = count;
+    else
+      rows.first += count;
   }
   return rows;
 }

@@ -37,9 +37,9 @@ void check_root(const h5::Group& root, int writer_ranks) {
   EXPECT_EQ(root.int64_attribute("ranks"), writer_ranks);
   EXPECT_EQ(root.double_attribute("dt"), 0.005);
   EXPECT_EQ(root.attribute_names(), (std::vector<std::string>{"dt", "format_version", "ranks",
-                                                               "spec_yaml", "status", "title"}));
-  EXPECT_EQ(root.members(), (std::vector<std::string>{"case", "ensemble", "member",
-                                                       "observable", "snapshot"}));
+                                                              "spec_yaml", "status", "title"}));
+  EXPECT_EQ(root.members(),
+            (std::vector<std::string>{"case", "ensemble", "member", "observable", "snapshot"}));
   EXPECT_TRUE(root.has_group("member"));
   EXPECT_TRUE(root.has_dataset("member/time_mean"));
   EXPECT_FALSE(root.has_dataset("member"));
@@ -71,13 +71,14 @@ void check_case_group(const h5::Group& root) {
 void check_member_group(const h5::Group& root) {
   const h5::Group group = root.open_group("member");
   EXPECT_EQ(group.members(), (std::vector<std::string>{"case", "exponent", "lyapunov", "member",
-                                                        "status", "time_mean", "transitions"}));
+                                                       "status", "time_mean", "transitions"}));
   const h5::Array<double> mean = group.open_dataset("time_mean").read<double>();
   EXPECT_EQ(mean.shape, (Dims{s::kCases, s::kMembers, s::observables()}));
   std::vector<double> expected;
   for (std::uint64_t c = 0; c < s::kCases; ++c)
     for (std::uint64_t m = 0; m < s::kMembers; ++m)
-      for (std::uint64_t o = 0; o < s::observables(); ++o) expected.push_back(s::time_mean(c, m, o));
+      for (std::uint64_t o = 0; o < s::observables(); ++o)
+        expected.push_back(s::time_mean(c, m, o));
   expect_values(mean.values, expected, "member/time_mean");
 
   std::vector<std::int64_t> changes;
@@ -87,7 +88,8 @@ void check_member_group(const h5::Group& root) {
       changes.push_back(s::transitions(c, m));
       status.push_back(s::status(c, m));
     }
-  expect_values(group.open_dataset("transitions").read<std::int64_t>().values, changes, "transitions");
+  expect_values(group.open_dataset("transitions").read<std::int64_t>().values, changes,
+                "transitions");
   expect_values(group.open_dataset("status").read<std::uint8_t>().values, status, "status");
   EXPECT_EQ(group.open_dataset("lyapunov").shape(), (Dims{s::kCases, s::kMembers, 0}));
   EXPECT_TRUE(group.open_dataset("lyapunov").read<double>().values.empty());
@@ -109,7 +111,8 @@ void check_ensemble_group(const h5::Group& root) {
   expect_values(group.open_dataset("time_mean_ci95").read<double>().values, ci, "ci95");
   EXPECT_EQ(group.open_dataset("observable").read<std::string>().values, s::kObservableNames);
   // One row out of the middle, as a hyperslab.
-  const h5::Array<double> row = group.open_dataset("time_mean").read<double>({1, 0}, {1, s::observables()});
+  const h5::Array<double> row =
+      group.open_dataset("time_mean").read<double>({1, 0}, {1, s::observables()});
   EXPECT_EQ(row.shape, (Dims{1, s::observables()}));
   EXPECT_EQ(row.values[2], s::ensemble_mean(1, 2));
 }
@@ -149,14 +152,17 @@ void check_sample_in_parallel(const std::string& path) {
   {
     const h5::Group member = file.group("member");
     const s::Rows mine = s::member_rows(rank, world_size());
-    const h5::Array<double> mean = member.open_dataset("time_mean").read<double>(
-        {0, mine.first, 0}, {s::kCases, mine.count, s::observables()});
+    const h5::Array<double> mean =
+        member.open_dataset("time_mean")
+            .read<double>({0, mine.first, 0}, {s::kCases, mine.count, s::observables()});
     std::vector<double> expected;
     for (std::uint64_t c = 0; c < s::kCases; ++c)
       for (std::uint64_t m = mine.first; m < mine.first + mine.count; ++m)
-        for (std::uint64_t o = 0; o < s::observables(); ++o) expected.push_back(s::time_mean(c, m, o));
+        for (std::uint64_t o = 0; o < s::observables(); ++o)
+          expected.push_back(s::time_mean(c, m, o));
     expect_values(mean.values, expected, "own rows of member/time_mean");
-    EXPECT_EQ(file.root().open_dataset("observable").read<std::string>().values, s::kObservableNames);
+    EXPECT_EQ(file.root().open_dataset("observable").read<std::string>().values,
+              s::kObservableNames);
     EXPECT_EQ(file.root().string_attribute("title"), s::kTitle);
   }
   file.close();

@@ -4,9 +4,12 @@
 
 #include <Eigen/Dense>
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <limits>
 #include <set>
+#include <string>
+#include <tuple>
 
 #include "integrators/rk4.hpp"
 #include "numerics_fixtures.hpp"
@@ -145,14 +148,15 @@ Eigen::MatrixXd jacobian(const models::Model& model, const std::vector<double>& 
 TEST(Lorenz63, FixedPointsAreStationary) {
   for (const auto& [sigma, rho, beta] : {std::tuple{10.0, 28.0, 8.0 / 3.0},
                                          std::tuple{16.0, 45.92, 4.0}}) {
-    const auto model = make_model("lorenz63", {{"sigma", {sigma}}, {"rho", {rho}}, {"beta", {beta}}});
+    const auto model =
+        make_model("lorenz63", {{"sigma", {sigma}}, {"rho", {rho}}, {"beta", {beta}}});
     const double c = std::sqrt(beta * (rho - 1.0));
     for (const std::vector<double>& p : {std::vector<double>{0.0, 0.0, 0.0},
                                          std::vector<double>{c, c, rho - 1.0},
                                          std::vector<double>{-c, -c, rho - 1.0}}) {
       const std::vector<double> f = rhs_of(*model, p);
       const double tol = 8.0 * kEps * beta * rho;
-      for (double v : f) EXPECT_NEAR(v, 0.0, tol) << "at (" << p[0] << ", " << p[1] << ", " << p[2] << ")";
+      for (double v : f) EXPECT_NEAR(v, 0.0, tol) << "at x = " << p[0] << ", z = " << p[2];
     }
   }
 }
@@ -186,7 +190,8 @@ TEST(Lorenz63, EigenvaluesAtTheOrigin) {
 // quotients, eps |f| / h with |f| <~ 1e3 and h = 1e-3, summed over 3 entries: 1e-9.
 TEST(Lorenz63, DivergenceIsConstant) {
   const double sigma = 10.0, beta = 8.0 / 3.0;
-  const auto model = make_model("lorenz63", {{"forcing", {4.0}}, {"forcing_direction", {0.3, 1.0, -2.0}}});
+  const auto model =
+      make_model("lorenz63", {{"forcing", {4.0}}, {"forcing_direction", {0.3, 1.0, -2.0}}});
   const std::vector<double> states = random_batch({0.0, 0.0, 25.0}, 20.0, 10, 5);
   for (int m = 0; m < 10; ++m) {
     const Eigen::MatrixXd j = jacobian(*model, column(states, 3, 10, m), 1e-3);

@@ -24,6 +24,9 @@ struct Expected {
   std::string fragment;
 };
 
+// Shown by GoogleTest instead of the raw bytes of the struct.
+void PrintTo(const Expected& e, std::ostream* os) { *os << e.file; }
+
 std::vector<Expected> read_table() {
   std::vector<Expected> rows;
   std::ifstream in(kInvalidDir + "/EXPECTED.tsv");
