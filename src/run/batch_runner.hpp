@@ -10,6 +10,8 @@
 
 #include <cstdint>
 #include <memory>
+#include <string>
+#include <utility>
 #include <vector>
 
 #include "models/model.hpp"
@@ -40,13 +42,47 @@ struct BatchResult {
   int trajectory_members = 0;                  // members of this batch among the stored ones
 };
 
+/// Complete state of a batch in progress: everything needed to continue it and obtain bitwise
+/// the same BatchResult as an uninterrupted run. Arrays are named (names are stable: they are
+/// stored in checkpoints) and hold raw values; the checkpoint layer treats them as opaque.
+struct BatchState {
+  std::int64_t batch_index = 0;
+  std::int64_t step = 0;  // steps already taken, 0 .. plan.total_steps()
+  std::vector<std::pair<std::string, std::vector<double>>> reals;
+  std::vector<std::pair<std::string, std::vector<std::int64_t>>> integers;
+};
+
+/// A batch being integrated, which can stop after any step and continue later (in this
+/// process, or in another from a saved BatchState). Advancing in chunks of any sizes gives
+/// bitwise the same result as advancing in one go.
+class BatchProgress {
+ public:
+  virtual ~BatchProgress() = default;
+  virtual std::int64_t step() const = 0;         // steps taken so far
+  virtual std::int64_t total_steps() const = 0;  // plan.total_steps()
+  bool done() const { return step() >= total_steps(); }
+  /// Integrates at most `max_steps` further steps (fewer at the end of the run).
+  virtual void advance(std::int64_t max_steps) = 0;
+  /// The complete state after the steps taken so far.
+  virtual BatchState save() const = 0;
+  /// The batch's result; only when done().
+  virtual BatchResult finish() = 0;
+};
+
 /// Runs the batches of one case. Construct once per case (it builds the model and the case's
-/// base state), then call run() for each batch of that case.
+/// base state), then call run() for each batch of that case, or start()/resume() to integrate
+/// a batch in chunks.
 class CaseRunner {
  public:
   CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c);
   ~CaseRunner();
+  /// start(batch), advanced to the end, finished.
   BatchResult run(const plan::Batch& batch) const;
+  /// A batch at step 0 (initial states drawn). The CaseRunner must outlive it.
+  std::unique_ptr<BatchProgress> start(const plan::Batch& batch) const;
+  /// A batch continued from `state` (saved by BatchProgress::save() for the same spec, plan and
+  /// batch). Throws chaosweep::Error if the state does not fit the batch (wrong names/sizes).
+  std::unique_ptr<BatchProgress> resume(const plan::Batch& batch, const BatchState& state) const;
 
   /// The base state members are perturbed from (given, or reached on the attractor).
   const std::vector<double>& base_state() const;
