@@ -16,6 +16,8 @@ struct RunOptions {
   std::string spec_path;
   std::string archive;  // overrides output.archive when not empty
   bool overwrite = false;
+  bool resume = false;                 // continue from the campaign's checkpoints
+  bool restart_from_scratch = false;   // with resume: start over if no checkpoint is usable
   std::string progress = "auto";
   bool verbose = false;
 };
@@ -25,8 +27,24 @@ struct SummaryOptions {
   std::string format = "table";
 };
 
+/// `chaosweep slurm`: options of the batch-script generator (see slurm/README.md).
+struct SlurmOptions {
+  std::string spec_path;
+  int nodes = 1;
+  int tasks_per_node = 1;
+  std::string time;             // [D-]HH:MM:SS
+  std::string partition;        // empty: the cluster's default
+  std::string account;          // empty: the user's default
+  int max_requeues = 10;        // requeues after a stop with a checkpoint (status 3)
+  std::string launcher = "srun";  // srun (--mpi=pmix) or mpirun
+  std::string env_file;         // slurm/env/<machine>.sh sourced by the script; may be empty
+  std::string output;           // write the script here; empty: standard output
+  int signal_margin = -1;       // seconds of warning before the time limit; -1: estimated
+};
+
 int check_command(const CheckOptions& options);
 int run_command(const RunOptions& options);  // needs MPI initialised
 int summary_command(const SummaryOptions& options);
+int slurm_command(const SlurmOptions& options);
 
 }  // namespace chaosweep::app

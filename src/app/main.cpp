@@ -2,6 +2,7 @@
 // printed as one line and mapped to the exit status of the command-line contract.
 #include <CLI/CLI.hpp>
 
+#include <csignal>
 #include <cstdio>
 #include <exception>
 
@@ -36,6 +37,9 @@ int run_with_mpi(int argc, char** argv, const app::RunOptions& options) {
 }  // namespace
 
 int main(int argc, char** argv) {
+  // A file-size limit then makes a write fail with EFBIG (reported as one error line) instead
+  // of killing the process.
+  std::signal(SIGXFSZ, SIG_IGN);
   CLI::App cli{"chaosweep: forced-response ensemble campaigns for low-order chaotic models"};
   cli.set_version_flag("--version", kToolVersion);
   cli.require_subcommand(1);
@@ -53,6 +57,9 @@ int main(int argc, char** argv) {
   run_cmd->add_option("SPEC", run.spec_path, "Campaign spec (YAML)")->required();
   run_cmd->add_option("--archive", run.archive, "Write the archive here instead of output.archive");
   run_cmd->add_flag("--overwrite", run.overwrite, "Replace an existing archive");
+  run_cmd->add_flag("--resume", run.resume, "Continue from the campaign's checkpoints");
+  run_cmd->add_flag("--restart-from-scratch", run.restart_from_scratch,
+                    "With --resume: start over when no checkpoint can be used");
   run_cmd->add_option("--progress", run.progress, "Progress display: auto, bar, log or none")
       ->check(CLI::IsMember({"auto", "bar", "log", "none"}));
   run_cmd->add_flag("-v,--verbose", run.verbose, "Log more detail");
@@ -62,6 +69,28 @@ int main(int argc, char** argv) {
   summary_cmd->add_option("ARCHIVE", summary.archive, "Archive written by `chaosweep run`")->required();
   summary_cmd->add_option("--format", summary.format, "table, csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
+
+  app::SlurmOptions slurm;
+  CLI::App* slurm_cmd = cli.add_subcommand(
+      "slurm", "Write a Slurm batch script that checkpoints, requeues and resumes the campaign");
+  slurm_cmd->add_option("SPEC", slurm.spec_path, "Campaign spec (YAML)")->required();
+  slurm_cmd->add_option("--nodes", slurm.nodes, "Nodes to ask for")
+      ->required()->check(CLI::Range(1, 1 << 20));
+  slurm_cmd->add_option("--tasks-per-node", slurm.tasks_per_node, "MPI ranks per node")
+      ->required()->check(CLI::Range(1, 1 << 16));
+  slurm_cmd->add_option("--time", slurm.time, "Time limit of each attempt, HH:MM:SS or D-HH:MM:SS")
+      ->required();
+  slurm_cmd->add_option("--partition", slurm.partition, "Slurm partition");
+  slurm_cmd->add_option("--account", slurm.account, "Slurm account to charge");
+  slurm_cmd->add_option("--max-requeues", slurm.max_requeues,
+                        "Requeue at most this many times after a stop with a checkpoint")
+      ->check(CLI::Range(0, 100000));
+  slurm_cmd->add_option("--launcher", slurm.launcher, "srun (with --mpi=pmix) or mpirun")
+      ->check(CLI::IsMember({"srun", "mpirun"}));
+  slurm_cmd->add_option("--env", slurm.env_file, "Machine settings to source, slurm/env/<machine>.sh");
+  slurm_cmd->add_option("--output", slurm.output, "Write the script to this file (default: stdout)");
+  slurm_cmd->add_option("--signal-margin", slurm.signal_margin,
+                        "Seconds between the warning signal and the time limit (default: estimated)");
 
   CLI::App* schema_cmd =
       cli.add_subcommand("schema", "Print the archive's dataset table (Markdown)");
@@ -78,6 +107,7 @@ int main(int argc, char** argv) {
   try {
     if (*check_cmd) return app::check_command(check);
     if (*summary_cmd) return app::summary_command(summary);
+    if (*slurm_cmd) return app::slurm_command(slurm);
     if (*schema_cmd) {
       std::fputs(archive::markdown_table().c_str(), stdout);
       return kExitComplete;

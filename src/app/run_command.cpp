@@ -1,4 +1,5 @@
-// `chaosweep run`: spec -> plan -> this rank's batches -> reduction -> archive.
+// `chaosweep run`: spec -> plan -> this rank's batches in collective rounds (progress, stop
+// agreement, checkpoints) -> reduction -> archive.
 #include <spdlog/spdlog.h>
 #include <unistd.h>
 
@@ -6,30 +7,43 @@
 #include <ctime>
 #include <filesystem>
 #include <functional>
-#include <map>
 #include <memory>
+#include <sstream>
 
 #include "app/commands.hpp"
+#include "app/local_work.hpp"
 #include "app/logging.hpp"
 #include "app/progress.hpp"
+#include "app/signals.hpp"
+#include "app/test_hooks.hpp"
+#include "archive/reader.hpp"
 #include "archive/writer.hpp"
+#include "checkpoint/store.hpp"
 #include "core/error.hpp"
 #include "parallel/communicator.hpp"
 #include "parallel/reduce.hpp"
 #include "plan/plan.hpp"
-#include "run/batch_runner.hpp"
 #include "spec/load.hpp"
 
 namespace chaosweep::app {
 namespace {
 
 namespace fs = std::filesystem;
+using Clock = std::chrono::steady_clock;
+
+/// Wall time of one round of work between two collective agreements (bounds how long a stop
+/// signal waits).
+constexpr double kRoundSeconds = 0.5;
 
 std::string utc_now() {
   const std::time_t now = std::time(nullptr);
   char text[32];
   std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&now));
   return text;
+}
+
+double seconds_since(Clock::time_point start) {
+  return std::chrono::duration<double>(Clock::now() - start).count();
 }
 
 /// Runs `step` on every rank; if it throws an Error on any rank, every rank returns the same
@@ -50,15 +64,18 @@ int agree(const parallel::Communicator& comm, const std::function<void()>& step)
   return static_cast<int>(comm.max(code != 0 ? code : 0));
 }
 
+std::string spec_where(const spec::Spec& spec, spec::Location at, const std::string& key) {
+  return spec.source_path + ":" + std::to_string(at.line) + ":" + std::to_string(at.column) +
+         ": " + key + ": ";
+}
+
 /// The archive path the run writes, checked before any work: its directory must exist and be
 /// writable, and an existing archive is replaced only with --overwrite.
 std::string checked_archive_path(const spec::Spec& spec, const RunOptions& options) {
   const bool from_spec = options.archive.empty();
   const std::string path = from_spec ? spec.output.archive : options.archive;
   const std::string where =
-      from_spec ? spec.source_path + ":" + std::to_string(spec.output.archive_where.line) + ":" +
-                      std::to_string(spec.output.archive_where.column) + ": output.archive: "
-                : "--archive: ";
+      from_spec ? spec_where(spec, spec.output.archive_where, "output.archive") : "--archive: ";
   fs::path dir = fs::path(path).parent_path();
   if (dir.empty()) dir = ".";
   std::error_code ec;
@@ -75,25 +92,135 @@ std::string checked_archive_path(const spec::Spec& spec, const RunOptions& optio
   return path;
 }
 
-/// Integrates this rank's share of batches, in batch order.
-std::vector<run::BatchResult> run_share(const spec::Spec& spec, const plan::Plan& plan,
-                                        plan::Range share, Progress& progress) {
-  std::vector<run::BatchResult> results;
-  results.reserve(static_cast<std::size_t>(share.last - share.first));
-  std::unique_ptr<run::CaseRunner> runner;
-  std::int64_t runner_case = -1;
-  for (std::int64_t b = share.first; b < share.last; ++b) {
-    const plan::Batch& batch = plan.batches[static_cast<std::size_t>(b)];
-    if (batch.case_index != runner_case) {
-      runner = std::make_unique<run::CaseRunner>(
-          spec, plan, plan.cases[static_cast<std::size_t>(batch.case_index)]);
-      runner_case = batch.case_index;
-    }
-    results.push_back(runner->run(batch));
-    progress.advance(b - share.first + 1);
+std::string checkpoint_directory(const spec::Spec& spec, const std::string& archive_path) {
+  return spec.checkpoint.directory.empty() ? archive_path + ".checkpoints"
+                                           : spec.checkpoint.directory;
+}
+
+/// "line N: `old` is now `new`" for the first line where two spec texts differ.
+std::string first_difference(const std::string& before, const std::string& now) {
+  std::istringstream a(before), b(now);
+  std::string la, lb;
+  for (int line = 1;; ++line) {
+    const bool ha = static_cast<bool>(std::getline(a, la));
+    const bool hb = static_cast<bool>(std::getline(b, lb));
+    if (!ha && !hb) return "only whitespace at the ends of lines differs";
+    if (!ha) return "line " + std::to_string(line) + " was added: `" + lb + "`";
+    if (!hb) return "line " + std::to_string(line) + " was removed: `" + la + "`";
+    if (la != lb) return "line " + std::to_string(line) + ": `" + la + "` is now `" + lb + "`";
   }
-  progress.finish();
-  return results;
+}
+
+/// Checks the checkpoint directory against --resume before any work.
+void check_checkpoints(const spec::Spec& spec, const RunOptions& options,
+                       const checkpoint::Store& store) {
+  const std::string dir = store.directory();
+  if (!options.resume) {
+    if (store.has_content()) {
+      throw UsageError("checkpoints of an earlier run exist in " + dir +
+                       "; pass --resume to continue it, or remove the directory to start over");
+    }
+    return;
+  }
+  if (!store.has_content()) {
+    if (options.restart_from_scratch) return;
+    throw UsageError("--resume: no checkpoint in " + dir +
+                     "; pass --restart-from-scratch to start the campaign from the beginning");
+  }
+  const std::string stored = store.stored_spec();
+  if (!stored.empty() && stored != spec.text) {
+    throw UsageError("--resume: the checkpoints in " + dir + " were written for another version of " +
+                     spec.source_path + " (" + first_difference(stored, spec.text) +
+                     "); restore that spec, or remove the directory to start over");
+  }
+}
+
+/// A campaign whose archive is already complete (a requeued job finishing a second time).
+bool already_complete(const spec::Spec& spec, const std::string& archive_path,
+                      const RunOptions& options, const checkpoint::Store& store) {
+  std::error_code ec;
+  if (!options.resume || options.overwrite || store.has_content() ||
+      !fs::exists(archive_path, ec)) {
+    return false;
+  }
+  try {
+    const archive::ArchiveSummary s = archive::read_summary(archive_path);
+    return s.status == "complete" && s.spec_sha256 == spec.sha256;
+  } catch (const Error&) {
+    return false;
+  }
+}
+
+/// Writes one checkpoint generation collectively: every rank saves its batch in progress,
+/// then rank 0 commits the generation (manifest, rename, pruning).
+void write_generation(const parallel::Communicator& comm, const checkpoint::Store& store,
+                      const LocalWork& work, std::int64_t generation, int keep) {
+  const Clock::time_point start = Clock::now();
+  store.begin_generation(generation);
+  store.sync_done();
+  const std::int64_t mine = work.save_in_progress(generation);
+  test_hooks::checkpoint_delay();
+  std::vector<std::int64_t> batches;
+  for (std::int64_t b : comm.allgather_in_rank_order(std::vector<std::int64_t>{mine})) {
+    if (b >= 0) batches.push_back(b);
+  }
+  std::string failure;
+  if (comm.rank() == 0) {
+    try {
+      store.commit_generation(generation, batches, keep);
+    } catch (const Error& e) {
+      failure = e.what();
+    }
+  }
+  failure = comm.broadcast(failure);
+  if (!failure.empty()) throw IoError(failure);
+  if (comm.rank() == 0) {
+    spdlog::info("checkpoint generation {}: {} batches in progress saved in {:.3f} s", generation,
+                 batches.size(), seconds_since(start));
+  }
+}
+
+struct Outcome {
+  bool stopped = false;
+  int signal = 0;
+};
+
+/// Collective rounds of work until every rank is done or a stop is agreed.
+Outcome run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
+                   const checkpoint::Store& store, LocalWork& work, Progress& progress,
+                   std::int64_t generation) {
+  Clock::time_point last_checkpoint = Clock::now();
+  const double round_seconds = test_hooks::round_seconds(kRoundSeconds);
+  bool done = work.done();
+  for (long round = 1;; ++round) {
+    if (!done) done = work.work(round_seconds);
+    test_hooks::maybe_stop(comm.rank(), round);
+    test_hooks::maybe_throw(comm.rank(), round);
+    test_hooks::round_delay();
+    progress.advance(work.finished_count());
+    const bool due = comm.rank() == 0 &&
+                     seconds_since(last_checkpoint) >= spec.checkpoint.every_seconds;
+    const parallel::Communicator::RoundAgreement a = comm.agree(stop_signal() != 0, due, done);
+    if (a.all_done) return {};
+    if (a.checkpoint || a.stop) {
+      write_generation(comm, store, work, generation++, spec.checkpoint.keep);
+      last_checkpoint = Clock::now();
+    }
+    if (a.stop) return {true, static_cast<int>(comm.max(stop_signal()))};
+  }
+}
+
+/// Checkpoint files written by all ranks, their size and the share of the run they cost.
+void log_checkpoint_cost(const parallel::Communicator& comm, const checkpoint::Store& store,
+                         double run_seconds) {
+  const checkpoint::Store::WriteStats& w = store.write_stats();
+  const std::int64_t files = comm.sum(w.files);
+  const std::int64_t bytes = comm.sum(static_cast<std::int64_t>(w.bytes));
+  const double slowest = comm.max(w.seconds);
+  if (comm.rank() == 0 && files > 0) {
+    spdlog::info("checkpoints: {} files, {:.2f} MiB, {:.2f} s on the slowest rank ({:.1f}% of "
+                 "the run)", files, bytes / 1048576.0, slowest, 100.0 * slowest / run_seconds);
+  }
 }
 
 void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks) {
@@ -102,51 +229,108 @@ void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks) {
                plan.batch_size, ranks);
 }
 
+/// Restores checkpointed batches on every rank and applies --restart-from-scratch.
+std::int64_t restore(const parallel::Communicator& comm, const RunOptions& options,
+                     const checkpoint::Store& store, LocalWork& work) {
+  const LocalWork::Restored r = work.restore();
+  const std::int64_t finished = comm.sum(r.finished), running = comm.sum(r.in_progress);
+  const std::int64_t problems = comm.sum(r.problems);
+  if (finished + running == 0 && problems > 0 && !options.restart_from_scratch) {
+    throw UsageError("--resume: no usable checkpoint in " + store.directory() + " (" +
+                     std::to_string(problems) +
+                     " damaged files); pass --restart-from-scratch to start over");
+  }
+  if (comm.rank() == 0) {
+    spdlog::info("resuming from {}: {} batches finished, {} in progress, {} damaged files "
+                 "skipped (those batches are recomputed)",
+                 store.directory(), finished, running, problems);
+  }
+  std::int64_t newest = 0;
+  for (std::int64_t g : store.generations()) newest = std::max(newest, g);
+  return static_cast<std::int64_t>(comm.max(static_cast<double>(newest))) + 1;
+}
+
 }  // namespace
 
 int run_command(const RunOptions& options) {
   const parallel::Communicator comm;
   setup_logging(comm.rank(), comm.size(), options.verbose);
-  const auto start = std::chrono::steady_clock::now();
+  install_stop_handlers();
+  const Clock::time_point start = Clock::now();
 
   spec::Spec spec;
   std::string archive_path;
+  std::unique_ptr<checkpoint::Store> store;
+  bool complete = false;
   const ProgressMode mode = parse_progress_mode(options.progress);
   if (int code = agree(comm, [&] { spec = spec::load_spec(options.spec_path); })) return code;
-  if (int code = agree(comm, [&] { archive_path = checked_archive_path(spec, options); })) {
+  if (int code = agree(comm, [&] {
+        archive_path = checked_archive_path(spec, options);
+        store = std::make_unique<checkpoint::Store>(checkpoint_directory(spec, archive_path),
+                                                    spec.sha256);
+        complete = already_complete(spec, archive_path, options, *store);
+        if (!complete) check_checkpoints(spec, options, *store);
+      })) {
     return code;
+  }
+  if (complete) {
+    if (comm.rank() == 0) spdlog::info("archive {} is already complete", archive_path);
+    return kExitComplete;
   }
 
   const plan::Plan plan = plan::make_plan(spec);
   if (comm.rank() == 0) log_plan(spec, plan, comm.size());
   const plan::Range share = plan::share(static_cast<std::int64_t>(plan.batches.size()),
                                         comm.rank(), comm.size());
-  Progress progress(mode, comm.rank() == 0, share.last - share.first,
-                    static_cast<double>(plan.batch_size) * plan.total_steps(), comm.size());
-  const std::vector<run::BatchResult> local = run_share(spec, plan, share, progress);
+  LocalWork work(spec, plan, share, store.get());
+  std::int64_t generation = 1;
+  if (options.resume && store->has_content()) {
+    if (int code = agree(comm, [&] { generation = restore(comm, options, *store, work); })) {
+      return code;
+    }
+  }
+  if (comm.rank() == 0) {
+    store->remove_leftovers();
+    store->initialise(spec.text);
+  }
+  comm.barrier();
 
+  Progress progress(mode, comm.rank() == 0, work.batch_count(),
+                    static_cast<double>(plan.batch_size) * plan.total_steps(), comm.size());
+  const Outcome outcome = run_rounds(comm, spec, *store, work, progress, generation);
+  progress.finish();
+  if (outcome.stopped) {
+    if (comm.rank() == 0) {
+      spdlog::warn("stopped on signal {} with a checkpoint in {}; continue with: chaosweep run {} "
+                   "--resume", outcome.signal, store->directory(), spec.source_path);
+    }
+    return kExitStopped;
+  }
+
+  log_checkpoint_cost(comm, *store, seconds_since(start));
+  const std::vector<run::BatchResult> local = work.take_results();
   const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, local);
   if (ensemble.non_finite_members > 0 && comm.rank() == 0) {
     spdlog::warn("{} of {} members became non-finite (dt too large?); they are excluded from every "
                  "estimate and marked in /member/status",
                  ensemble.non_finite_members, plan.member_count());
   }
-  const auto integrated = std::chrono::steady_clock::now();
+  const Clock::time_point integrated = Clock::now();
 
   archive::RunInfo info;
   info.ranks = comm.size();
   info.rank = comm.rank();
   info.created_utc = comm.broadcast(utc_now());
   archive::write_archive(archive_path, spec, plan, local, ensemble, info);
+  comm.barrier();
+  if (comm.rank() == 0) store->remove_all();
 
   if (comm.rank() == 0) {
-    const auto end = std::chrono::steady_clock::now();
     const double run_s = std::chrono::duration<double>(integrated - start).count();
-    const double write_s = std::chrono::duration<double>(end - integrated).count();
     const double member_steps = static_cast<double>(plan.member_count()) * plan.total_steps();
     spdlog::info("integrated {:.3g} member-steps in {:.2f} s ({:.3g} member-steps/s on {} ranks)",
                  member_steps, run_s, member_steps / run_s, comm.size());
-    spdlog::info("archive {} written in {:.2f} s", archive_path, write_s);
+    spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
   }
   return kExitComplete;
 }

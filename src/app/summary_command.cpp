@@ -1,7 +1,9 @@
 // `chaosweep summary`: the response tables of an archive as an aligned table, CSV or JSON.
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <string>
+#include <vector>
 
 #include "app/commands.hpp"
 #include "archive/reader.hpp"
@@ -48,6 +50,14 @@ void print_json(const ArchiveSummary& s) {
               json_string(s.status).c_str());
   std::printf("  \"format_version\": %d,\n  \"members_per_case\": %lld,\n", s.format_version,
               static_cast<long long>(s.members));
+  std::printf("  \"tool_version\": %s,\n  \"created_utc\": %s,\n",
+              json_string(s.tool_version).c_str(), json_string(s.created_utc).c_str());
+  std::printf("  \"units\": {\"parameters\": \"model units\", \"time_mean\": \"model units\", "
+              "\"regime_fraction\": \"fraction of time (0-1)\", "
+              "\"slope\": \"model units per unit of the parameter\", "
+              "\"time\": \"model time units\"},\n");
+  std::printf("  \"interval\": \"ci95: 95%% confidence interval of the ensemble mean, "
+              "mean +- t(0.975, n-1) s / sqrt(n), n = valid members\",\n");
   auto list = [](const std::vector<std::string>& v) {
     std::string out = "[";
     for (std::size_t i = 0; i < v.size(); ++i) out += (i ? ", " : "") + json_string(v[i]);
@@ -60,9 +70,9 @@ void print_json(const ArchiveSummary& s) {
     for (std::size_t a = 0; a < s.axes.size(); ++a) {
       params += (a ? ", " : "") + json_string(s.axes[a]) + ": " + json_number(s.axis_values[a][c]);
     }
-    std::printf("    {\"index\": %lld, \"parameters\": {%s}, \"valid_members\": %lld, "
-                "\"effective_members\": %s,\n     \"time_mean\": {",
-                static_cast<long long>(c), params.c_str(),
+    std::printf("    {\"index\": %lld, \"parameters\": {%s}, \"members\": %lld, "
+                "\"valid_members\": %lld, \"effective_members\": %s,\n     \"time_mean\": {",
+                static_cast<long long>(c), params.c_str(), static_cast<long long>(s.members),
                 static_cast<long long>(s.valid_members[c]),
                 json_number(s.effective_members[c]).c_str());
     for (std::size_t o = 0; o < n_obs; ++o) {
@@ -98,25 +108,25 @@ void print_csv(const ArchiveSummary& s) {
   const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
   std::printf("case");
   for (const std::string& a : s.axes) std::printf(",%s", a.c_str());
-  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members\n");
+  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members,units\n");
   auto row = [&](std::int64_t c, const char* quantity, const std::string& name, double mean,
-                 double std, const double* ci) {
+                 double std, const double* ci, const char* units) {
     std::printf("%lld", static_cast<long long>(c));
     for (std::size_t a = 0; a < s.axes.size(); ++a) std::printf(",%.17g", s.axis_values[a][c]);
-    std::printf(",%s,%s,%.17g,%.17g,%.17g,%.17g,%lld,%lld\n", quantity, name.c_str(), mean, std,
+    std::printf(",%s,%s,%.17g,%.17g,%.17g,%.17g,%lld,%lld,%s\n", quantity, name.c_str(), mean, std,
                 ci[0], ci[1], static_cast<long long>(s.valid_members[c]),
-                static_cast<long long>(s.members));
+                static_cast<long long>(s.members), units);
   };
   for (std::int64_t c = 0; c < s.cases; ++c) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(c, n_obs, o);
       row(c, "time_mean", s.observables[o], s.time_mean[i], s.time_mean_std[i],
-          &s.time_mean_ci95[2 * i]);
+          &s.time_mean_ci95[2 * i], "model units");
     }
     for (std::size_t k = 0; k < n_reg; ++k) {
       const std::size_t i = idx(c, n_reg, k);
       row(c, "regime_fraction", s.regimes[k], s.regime_fraction[i], s.regime_fraction_std[i],
-          &s.regime_fraction_ci95[2 * i]);
+          &s.regime_fraction_ci95[2 * i], "fraction");
     }
   }
 }
@@ -138,48 +148,111 @@ std::string estimate_text(double mean, const double* ci) {
   return text;
 }
 
-void print_block(const ArchiveSummary& s, const char* title, const std::vector<std::string>& names,
-                 const std::vector<double>& mean, const std::vector<double>& ci) {
-  std::printf("\n%s (ensemble mean [95%% interval of the mean])\n", title);
-  std::printf("%5s", "case");
-  for (const std::string& a : s.axes) std::printf(" %10s", a.c_str());
-  std::printf(" %11s", "valid");
-  for (const std::string& n : names) std::printf(" %28s", n.c_str());
-  std::printf("\n");
+std::string number_text(const char* format, double v) {
+  char text[48];
+  std::snprintf(text, sizeof text, format, v);
+  return text;
+}
+
+/// Rows of cells printed with every column right-aligned to its widest cell (header included),
+/// two spaces apart.
+void print_aligned(const std::vector<std::vector<std::string>>& rows) {
+  std::vector<std::size_t> width;
+  for (const auto& row : rows) {
+    if (width.size() < row.size()) width.resize(row.size(), 0);
+    for (std::size_t i = 0; i < row.size(); ++i) width[i] = std::max(width[i], row[i].size());
+  }
+  for (const auto& row : rows) {
+    std::string line;
+    for (std::size_t i = 0; i < row.size(); ++i) {
+      line += (i ? "  " : "") + std::string(width[i] - row[i].size(), ' ') + row[i];
+    }
+    std::printf("%s\n", line.c_str());
+  }
+}
+
+/// One block of the table: a row per case with its swept values, valid/total members and
+/// "mean [95% interval]" for each name. Many names are split over several aligned sub-tables
+/// (each repeating the case columns) so that a line stays about kLineWidth characters wide.
+void print_block(const ArchiveSummary& s, const std::string& title,
+                 const std::vector<std::string>& names, const std::vector<double>& mean,
+                 const std::vector<double>& ci) {
+  constexpr std::size_t kLineWidth = 120;
+  std::printf("\n%s\n", title.c_str());
+  std::vector<std::vector<std::string>> lead(1), cells(1);
+  lead[0].push_back("case");
+  for (const std::string& a : s.axes) lead[0].push_back(a);
+  lead[0].push_back("valid/total");
+  cells[0] = names;
   for (std::int64_t c = 0; c < s.cases; ++c) {
-    std::printf("%5lld", static_cast<long long>(c));
-    for (std::size_t a = 0; a < s.axes.size(); ++a) std::printf(" %10.4g", s.axis_values[a][c]);
-    const std::string valid = std::to_string(s.valid_members[c]) + "/" + std::to_string(s.members);
-    std::printf(" %11s", valid.c_str());
+    std::vector<std::string> row{std::to_string(c)};
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      row.push_back(number_text("%.6g", s.axis_values[a][c]));
+    }
+    row.push_back(std::to_string(s.valid_members[c]) + "/" + std::to_string(s.members));
+    lead.push_back(row);
+    std::vector<std::string> values;
     for (std::size_t o = 0; o < names.size(); ++o) {
       const std::size_t i = idx(c, names.size(), o);
-      std::printf(" %28s", estimate_text(mean[i], &ci[2 * i]).c_str());
+      values.push_back(estimate_text(mean[i], &ci[2 * i]));
     }
-    std::printf("\n");
+    cells.push_back(values);
+  }
+  auto column_width = [](const std::vector<std::vector<std::string>>& rows, std::size_t i) {
+    std::size_t w = 0;
+    for (const auto& row : rows) w = std::max(w, row[i].size());
+    return w + 2;
+  };
+  std::size_t lead_width = 0;
+  for (std::size_t i = 0; i < lead[0].size(); ++i) lead_width += column_width(lead, i);
+  std::size_t first = 0;
+  while (first < names.size()) {
+    std::size_t last = first, width = lead_width;
+    while (last < names.size() &&
+           (last == first || width + column_width(cells, last) <= kLineWidth)) {
+      width += column_width(cells, last++);
+    }
+    std::vector<std::vector<std::string>> rows = lead;
+    for (std::size_t r = 0; r < rows.size(); ++r) {
+      rows[r].insert(rows[r].end(), cells[r].begin() + static_cast<std::ptrdiff_t>(first),
+                     cells[r].begin() + static_cast<std::ptrdiff_t>(last));
+    }
+    if (first > 0) std::printf("\n");
+    print_aligned(rows);
+    first = last;
   }
 }
 
 void print_table(const ArchiveSummary& s) {
   std::int64_t valid = 0;
   for (std::int64_t v : s.valid_members) valid += v;
-  std::printf("campaign %s: model %s, %lld cases x %lld members, %lld valid, archive %s\n",
+  std::printf("campaign %s: model %s, %lld case%s x %lld members, %lld of %lld members valid, "
+              "archive %s\n",
               s.campaign.c_str(), s.model.c_str(), static_cast<long long>(s.cases),
-              static_cast<long long>(s.members), static_cast<long long>(valid), s.status.c_str());
-  print_block(s, "time mean", s.observables, s.time_mean, s.time_mean_ci95);
+              s.cases == 1 ? "" : "s",
+              static_cast<long long>(s.members), static_cast<long long>(valid),
+              static_cast<long long>(s.cases * s.members), s.status.c_str());
+  print_block(s, "time mean, model units: ensemble mean [95% confidence interval of the mean]",
+              s.observables, s.time_mean, s.time_mean_ci95);
   if (!s.regimes.empty()) {
-    print_block(s, "regime fraction", s.regimes, s.regime_fraction, s.regime_fraction_ci95);
+    print_block(s, "regime fraction, share of time (0-1): ensemble mean [95% confidence "
+                "interval of the mean]", s.regimes, s.regime_fraction, s.regime_fraction_ci95);
   }
   if (!s.axes.empty()) {
-    std::printf("\nresponse slope of the ensemble time mean (least squares, +- standard error)\n");
+    std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
+                "parameter (least squares over the cases)\n");
+    std::vector<std::vector<std::string>> rows{{"observable", "parameter", "slope", "std error"}};
     for (std::size_t a = 0; a < s.axes.size(); ++a) {
       for (std::size_t o = 0; o < s.observables.size(); ++o) {
         const std::size_t i = idx(a, s.observables.size(), o);
-        std::printf("  d<%s>/d%s = %.4g +- %.2g\n", s.observables[o].c_str(), s.axes[a].c_str(),
-                    s.slope[i], s.slope_stderr[i]);
+        rows.push_back({s.observables[o], s.axes[a], number_text("%.4g", s.slope[i]),
+                        number_text("%.2g", s.slope_stderr[i])});
       }
     }
+    print_aligned(rows);
   }
-  std::printf("\nunits: nondimensional model units; time in model time units\n");
+  std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
+              "mean +- t(0.975, n-1) s / sqrt(n), n = valid members.\n");
 }
 
 }  // namespace

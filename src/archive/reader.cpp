@@ -36,6 +36,7 @@ void read_identity(const h5::Group& root, ArchiveSummary& s) {
   s.status = root.string_attribute("status");
   s.tool_version = root.string_attribute("tool_version");
   s.created_utc = root.string_attribute("created_utc");
+  s.spec_sha256 = root.string_attribute("spec_sha256");
   s.ranks = root.int64_attribute("ranks");
   s.members = root.int64_attribute("members_per_case");
 }

@@ -15,6 +15,7 @@ struct ArchiveSummary {
   std::string status;
   std::string tool_version;
   std::string created_utc;
+  std::string spec_sha256;
   int format_version = 0;
   std::int64_t ranks = 0;
   std::int64_t cases = 0;

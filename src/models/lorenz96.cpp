@@ -19,6 +19,7 @@
 #include <string>
 #include <vector>
 
+#include "models/lorenz96_equations.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
 
@@ -30,7 +31,9 @@ constexpr double kRk4RealAxisLimit = 2.785;  // classical RK4: |h lambda| <= 2.7
 class Lorenz96 final : public Model {
  public:
   explicit Lorenz96(const ParameterValues& v)
-      : n_(static_cast<int>(scalar_parameter(v, "n"))), forcing_(scalar_parameter(v, "F")) {
+      : n_(static_cast<int>(scalar_parameter(v, "n"))),
+        forcing_(scalar_parameter(v, "F")),
+        equations_(Lorenz96Equations::from(v)) {
     if (static_cast<double>(n_) != scalar_parameter(v, "n") || n_ < 4) {
       throw std::invalid_argument("lorenz96 needs an integer n >= 4.");
     }
@@ -46,37 +49,40 @@ class Lorenz96 final : public Model {
 
   // x, dxdt: [n][width]. For each site k the neighbour rows are fixed, so the inner loop over
   // members is a plain streaming loop; ivdep states that dxdt does not alias x (interface).
+  // The cyclic neighbours are resolved per site with compares, not a division per site. The
+  // arithmetic is Lorenz96Equations::site, shared with the fused ring kernel.
   void rhs(const double* x, double* dxdt, int width) const override {
     const int n = n_;
-    const double F = forcing_;
+    const Lorenz96Equations e = equations_;
     for (int k = 0; k < n; ++k) {
-      const double* xp1 = x + static_cast<long>((k + 1) % n) * width;
-      const double* xm1 = x + static_cast<long>((k + n - 1) % n) * width;
-      const double* xm2 = x + static_cast<long>((k + n - 2) % n) * width;
+      const int kp1 = k + 1 < n ? k + 1 : k + 1 - n;
+      const int km1 = k >= 1 ? k - 1 : k - 1 + n;
+      const int km2 = k >= 2 ? k - 2 : k - 2 + n;
+      const double* xp1 = x + static_cast<long>(kp1) * width;
+      const double* xm1 = x + static_cast<long>(km1) * width;
+      const double* xm2 = x + static_cast<long>(km2) * width;
       const double* xk = x + static_cast<long>(k) * width;
       double* out = dxdt + static_cast<long>(k) * width;
 #pragma GCC ivdep
-      for (int m = 0; m < width; ++m) out[m] = (xp1[m] - xm2[m]) * xm1[m] - xk[m] + F;
+      for (int m = 0; m < width; ++m) out[m] = e.site(xm2[m], xm1[m], xk[m], xp1[m]);
     }
   }
 
-  // out: [2][width]: row 0 the domain mean, row 1 the energy; sites summed in order 0..n-1.
+  // out: [2][width]: row 0 the domain mean, row 1 the energy; sites summed in order 0..n-1
+  // with Lorenz96Equations' derived-observable arithmetic (shared with the ring kernel).
   void derived(const double* x, double* out, int width) const override {
+    const Lorenz96Equations e = equations_;
     double* mean = out;
     double* energy = out + width;
     for (int m = 0; m < width; ++m) mean[m] = energy[m] = 0.0;
     for (int k = 0; k < n_; ++k) {
       const double* xk = x + static_cast<long>(k) * width;
 #pragma GCC ivdep
-      for (int m = 0; m < width; ++m) {
-        mean[m] += xk[m];
-        energy[m] += xk[m] * xk[m];
-      }
+      for (int m = 0; m < width; ++m) e.add_site(xk[m], mean[m], energy[m]);
     }
-    const double n = n_;
     for (int m = 0; m < width; ++m) {
-      mean[m] /= n;
-      energy[m] *= 0.5;
+      mean[m] = e.mean(mean[m]);
+      energy[m] = e.energy(energy[m]);
     }
   }
 
@@ -100,6 +106,7 @@ class Lorenz96 final : public Model {
  private:
   int n_;
   double forcing_;
+  Lorenz96Equations equations_;
   std::vector<ObservableInfo> observables_;
 };
 

@@ -64,6 +64,16 @@ std::vector<std::int64_t> Communicator::allgather_in_rank_order(
   return allgather(local, MPI_INT64_T, size_);
 }
 
+Communicator::RoundAgreement Communicator::agree(bool stop, bool checkpoint, bool done) const {
+  int in[3] = {stop ? 1 : 0, checkpoint ? 1 : 0, done ? 0 : 1}, out[3] = {0, 0, 0};
+  check(MPI_Allreduce(in, out, 3, MPI_INT, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
+  RoundAgreement a;
+  a.stop = out[0] != 0;
+  a.checkpoint = out[1] != 0;
+  a.all_done = out[2] == 0;
+  return a;
+}
+
 bool Communicator::any(bool flag) const {
   int in = flag ? 1 : 0, out = 0;
   check(MPI_Allreduce(&in, &out, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD), "Allreduce");

@@ -30,6 +30,15 @@ class Communicator {
   std::vector<double> allgather_in_rank_order(const std::vector<double>& local) const;
   std::vector<std::int64_t> allgather_in_rank_order(const std::vector<std::int64_t>& local) const;
 
+  /// What the ranks agree on at the end of a round of work (see app/run_command.cpp).
+  struct RoundAgreement {
+    bool stop = false;        // some rank received a stop signal
+    bool checkpoint = false;  // some rank (rank 0's clock) asks for a checkpoint now
+    bool all_done = false;    // every rank has finished its batches
+  };
+  /// One collective per round: combines every rank's flags.
+  RoundAgreement agree(bool stop, bool checkpoint, bool done) const;
+
   /// True on every rank when `flag` is true on any rank.
   bool any(bool flag) const;
   /// Largest of the ranks' values.

@@ -62,8 +62,11 @@ void resolve_regimes(const spec::Regimes& r, const plan::Plan& plan, const model
   }
 }
 
-Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const models::Model& model) {
+Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
+                 const models::Model& model) {
   Setup s;
+  s.model = spec.model;
+  s.parameters = c.parameters;
   s.width = plan.batch_size;
   s.state_dim = model.state_dim();
   s.n_model_observables = static_cast<int>(model.observables().size());
@@ -90,6 +93,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const models::M
     if (i < 0 || i >= s.n_model_observables) throw Error("observable index out of range");
     if (i >= s.state_dim) s.needs_derived = true;
   }
+  s.kernel = choose_kernel(s);
   return s;
 }
 
@@ -152,7 +156,7 @@ CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const pla
   impl_->case_index = c.index;
   impl_->ensemble = spec.ensemble;
   impl_->model = info->make(c.parameters);
-  impl_->setup = make_setup(spec, plan, *impl_->model);
+  impl_->setup = make_setup(spec, plan, c, *impl_->model);
   const spec::InitialState& initial = spec.ensemble.initial;
   if (initial.kind == spec::InitialKind::attractor) {
     impl_->base = attractor_state(*impl_->model, impl_->setup.width, initial.spinup,
@@ -170,10 +174,24 @@ CaseRunner::~CaseRunner() = default;
 
 const std::vector<double>& CaseRunner::base_state() const { return impl_->base; }
 
+namespace {
+
+void check_batch(const plan::Batch& batch, std::int64_t case_index, const Setup& setup) {
+  if (batch.case_index != case_index) throw Error("a batch was given to another case's runner");
+  if (batch.count < 1 || batch.count > setup.width) throw Error("batch count out of range");
+}
+
+}  // namespace
+
 BatchResult CaseRunner::run(const plan::Batch& batch) const {
+  const std::unique_ptr<BatchProgress> progress = start(batch);
+  progress->advance(progress->total_steps());
+  return progress->finish();
+}
+
+std::unique_ptr<BatchProgress> CaseRunner::start(const plan::Batch& batch) const {
   const Impl& p = *impl_;
-  if (batch.case_index != p.case_index) throw Error("a batch was given to another case's runner");
-  if (batch.count < 1 || batch.count > p.setup.width) throw Error("batch count out of range");
+  check_batch(batch, p.case_index, p.setup);
   std::vector<double> initial;
   initial.reserve(static_cast<std::size_t>(batch.count) * p.setup.state_dim);
   for (int j = 0; j < batch.count; ++j) {
@@ -181,8 +199,14 @@ BatchResult CaseRunner::run(const plan::Batch& batch) const {
         perturbed_state(p.ensemble, p.base, p.case_index, batch.first_member + j);
     initial.insert(initial.end(), x.begin(), x.end());
   }
-  BatchWork work(p.setup, *p.model, p.base, batch, std::move(initial));
-  return work.run();
+  return std::make_unique<BatchWork>(p.setup, *p.model, p.base, batch, std::move(initial));
+}
+
+std::unique_ptr<BatchProgress> CaseRunner::resume(const plan::Batch& batch,
+                                                  const BatchState& state) const {
+  const Impl& p = *impl_;
+  check_batch(batch, p.case_index, p.setup);
+  return std::make_unique<BatchWork>(p.setup, *p.model, p.base, batch, state);
 }
 
 }  // namespace chaosweep::run

@@ -4,7 +4,11 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <string>
 #include <utility>
+
+#include "core/error.hpp"
+#include "stats/saved_state.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -12,37 +16,39 @@ namespace {
 constexpr std::int64_t kFiniteCheckEvery = 32;  // steps between finiteness checks
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
+/// Series of the moments accumulator: every state variable for the fused kernel (which keeps
+/// them all in registers), the selected observables otherwise.
+int moment_series_count(const Setup& s) {
+  return s.kernel == KernelKind::fused ? s.state_dim : static_cast<int>(s.observables.size());
+}
+
 }  // namespace
 
 BatchWork::BatchWork(const Setup& setup, const models::Model& model,
-                     const std::vector<double>& base, const plan::Batch& batch,
-                     std::vector<double> initial)
+                     const std::vector<double>& base, const plan::Batch& batch)
     : setup_(setup),
       model_(model),
       base_(base),
       count_(batch.count),
-      stepper_(model, setup.width),
       x_(static_cast<std::size_t>(setup.state_dim) * setup.width),
-      derived_(static_cast<std::size_t>(setup.n_model_observables - setup.state_dim) * setup.width),
       non_finite_(static_cast<std::size_t>(setup.width), 0),
-      moments_(static_cast<int>(setup.observables.size()), setup.width),
-      regime_(static_cast<std::size_t>(setup.width), 0) {
+      moments_(moment_series_count(setup), setup.width) {
   const int w = setup.width;
-  for (int i = 0; i < setup.n_model_observables; ++i) {  // state rows, then derived rows
-    const long offset = static_cast<long>(i < setup.state_dim ? i : i - setup.state_dim) * w;
-    column_.push_back((i < setup.state_dim ? x_.data() : derived_.data()) + offset);
+  for (std::size_t o = 0; o < setup.observables.size(); ++o) {
+    moment_series_.push_back(setup.kernel == KernelKind::fused ? setup.observables[o]
+                                                               : static_cast<int>(o));
   }
-  for (int i : setup.observables) selected_.push_back(column_[i]);
-  for (int i : setup.regime_coordinates) regime_columns_.push_back(column_[i]);
   if (setup.regime_kind != spec::RegimeKind::none) regimes_.emplace(setup.n_regimes, w);
   if (setup.histogram) {
     histogram_.emplace(setup.histogram->bins, setup.histogram->low, setup.histogram->high, w);
   }
+  kernel_ = make_kernel(setup, model,
+                        {&moments_, regimes_ ? &*regimes_ : nullptr,
+                         histogram_ ? &*histogram_ : nullptr});
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;
   result_.first_member = batch.first_member;
   result_.count = batch.count;
-  result_.initial_state = std::move(initial);
   const std::int64_t stored = setup.trajectory_members - batch.first_member;
   result_.trajectory_members = static_cast<int>(std::clamp<std::int64_t>(stored, 0, count_));
   result_.trajectory.assign(static_cast<std::size_t>(result_.trajectory_members) *
@@ -51,25 +57,120 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
                             kNaN);
 }
 
-BatchResult BatchWork::run() {
-  const Setup& s = setup_;
+BatchWork::BatchWork(const Setup& setup, const models::Model& model,
+                     const std::vector<double>& base, const plan::Batch& batch,
+                     std::vector<double> initial)
+    : BatchWork(setup, model, base, batch) {
+  result_.initial_state = std::move(initial);
   load_initial_states();
   check_finite();
   sample_trajectory(0);
-  for (std::int64_t step = 1; step <= s.total_steps; ++step) {
-    stepper_.step(x_.data(), s.dt);
-    if (step % kFiniteCheckEvery == 0 || step == s.total_steps) check_finite();
-    if (step > s.spinup_steps) accumulate();
-    if (s.trajectory_every > 0 && step % s.trajectory_every == 0) {
-      sample_trajectory(step / s.trajectory_every);
+}
+
+BatchWork::BatchWork(const Setup& setup, const models::Model& model,
+                     const std::vector<double>& base, const plan::Batch& batch,
+                     const BatchState& state)
+    : BatchWork(setup, model, base, batch) {
+  restore(state);
+}
+
+// Steps step_+1 .. step_+max_steps (at most to the end), in segments that end wherever
+// something happens: a finiteness check (every 32 steps), a trajectory sample, the end of the
+// spin-up, the end of a moments block. Every event is keyed to the absolute step number, so
+// chunking changes nothing.
+void BatchWork::advance(std::int64_t max_steps) {
+  if (finished_) throw Error("a finished batch cannot be advanced");
+  const std::int64_t last =
+      max_steps <= 0 ? step_ : std::min(setup_.total_steps, step_ + max_steps);
+  while (step_ < last) {
+    const std::int64_t end = segment_end(last);
+    const int steps = static_cast<int>(end - step_);
+    if (step_ < setup_.spinup_steps) {
+      kernel_->spin(x_.data(), steps);
+    } else {
+      kernel_->accumulate(x_.data(), steps);
     }
+    step_ = end;
+    after_step(end);
   }
+}
+
+// The last step of the segment that starts after step_: no event strictly inside it.
+std::int64_t BatchWork::segment_end(std::int64_t last) const {
+  const Setup& s = setup_;
+  std::int64_t end = std::min(last, (step_ / kFiniteCheckEvery + 1) * kFiniteCheckEvery);
+  if (s.trajectory_every > 0) {
+    end = std::min(end, (step_ / s.trajectory_every + 1) * s.trajectory_every);
+  }
+  if (step_ < s.spinup_steps) return std::min(end, s.spinup_steps);
+  end = std::min(end, step_ + kMaxSegment);
+  return std::min(end, step_ + moments_.block_room());
+}
+
+// Events at the end of step `step`: finiteness check, trajectory sample.
+void BatchWork::after_step(std::int64_t step) {
+  const Setup& s = setup_;
+  if (step % kFiniteCheckEvery == 0 || step == s.total_steps) check_finite();
+  if (s.trajectory_every > 0 && step % s.trajectory_every == 0) {
+    sample_trajectory(step / s.trajectory_every);
+  }
+}
+
+BatchResult BatchWork::finish() {
+  if (!done()) throw Error("a batch was finished before its last step");
+  if (finished_) throw Error("a batch was finished twice");
+  finished_ = true;
   result_.status.resize(static_cast<std::size_t>(count_));
   for (int j = 0; j < count_; ++j) result_.status[j] = non_finite_[j] ? kNonFinite : kValid;
   collect_moments();
   collect_regimes();
   collect_histogram();
   return std::move(result_);
+}
+
+// Names of the saved arrays (stable: checkpoints store them). Member states and flags are
+// full width (padding columns included), so a resumed batch is bitwise the uninterrupted one.
+BatchState BatchWork::save() const {
+  if (finished_) throw Error("a finished batch has no state to save");
+  stats::SavedState out;
+  out.put("state", x_);
+  out.put("initial_state", result_.initial_state);
+  out.put("trajectory", result_.trajectory);
+  out.put("non_finite", std::vector<std::int64_t>(non_finite_.begin(), non_finite_.end()));
+  moments_.save("moments.", out);
+  if (regimes_) regimes_->save("regimes.", out);
+  if (histogram_) histogram_->save("histogram.", out);
+  BatchState state;
+  state.batch_index = result_.batch_index;
+  state.step = step_;
+  state.reals = std::move(out.reals);
+  state.integers = std::move(out.integers);
+  return state;
+}
+
+void BatchWork::restore(const BatchState& state) {
+  const std::size_t w = static_cast<std::size_t>(setup_.width);
+  const std::size_t d = static_cast<std::size_t>(setup_.state_dim);
+  if (state.batch_index != result_.batch_index) {
+    throw Error("the saved state belongs to batch " + std::to_string(state.batch_index) +
+                ", not to batch " + std::to_string(result_.batch_index));
+  }
+  if (state.step < 0 || state.step > setup_.total_steps) {
+    throw Error("the saved state of batch " + std::to_string(state.batch_index) +
+                " is at step " + std::to_string(state.step) + ", outside 0 .. " +
+                std::to_string(setup_.total_steps));
+  }
+  stats::SavedStateReader in(state.reals, state.integers);
+  x_ = in.reals("state", d * w);
+  result_.initial_state = in.reals("initial_state", static_cast<std::size_t>(count_) * d);
+  result_.trajectory = in.reals("trajectory", result_.trajectory.size());
+  const std::vector<std::int64_t>& flags = in.integers("non_finite", w);
+  for (std::size_t m = 0; m < w; ++m) non_finite_[m] = flags[m] != 0;
+  moments_.load("moments.", in);
+  if (regimes_) regimes_->load("regimes.", in);
+  if (histogram_) histogram_->load("histogram.", in);
+  in.finish();
+  step_ = state.step;
 }
 
 // Column j < count gets member j's initial state; padding columns copy member 0.
@@ -97,22 +198,6 @@ void BatchWork::check_finite() {
   }
 }
 
-// One accumulation step: derived observables (if used), time moments, regimes, histogram.
-void BatchWork::accumulate() {
-  const int w = setup_.width;
-  if (setup_.needs_derived) model_.derived(x_.data(), derived_.data(), w);
-  moments_.add(selected_.data());
-  if (regimes_) {
-    if (setup_.regime_kind == spec::RegimeKind::sign) {
-      stats::classify_sign(column_[setup_.regime_coordinates[0]], w, regime_.data());
-    } else {
-      stats::classify_nearest(regime_columns_, setup_.centroids, w, regime_.data());
-    }
-    regimes_->add(regime_.data());
-  }
-  if (histogram_) histogram_->add(column_[setup_.histogram_observable]);
-}
-
 // trajectory[j][sample][i] = state of stored member j (NaN once the member is flagged).
 void BatchWork::sample_trajectory(std::int64_t sample) {
   if (sample >= setup_.trajectory_samples) return;
@@ -133,7 +218,7 @@ void BatchWork::collect_moments() {
   for (int j = 0; j < count_; ++j) {
     if (non_finite_[j]) continue;
     for (int o = 0; o < n; ++o) {
-      const stats::Moments m = moments_.moments(o, j);
+      const stats::Moments m = moments_.moments(moment_series_[o], j);
       result_.time_mean[static_cast<std::size_t>(j) * n + o] = m.n > 0.0 ? m.mean : kNaN;
       result_.time_variance[static_cast<std::size_t>(j) * n + o] = m.variance();
     }

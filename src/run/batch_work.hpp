@@ -3,13 +3,15 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <optional>
+#include <string>
 #include <vector>
 
-#include "integrators/rk4.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
+#include "run/kernels.hpp"
 #include "spec/spec.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
@@ -19,6 +21,9 @@ namespace chaosweep::run {
 
 /// What every batch of one case needs, resolved against the model once per case.
 struct Setup {
+  std::string model;                   // registry name
+  models::ParameterValues parameters;  // the case's complete parameters
+  KernelKind kernel = KernelKind::generic;
   int width = 0;                 // batch_size: every batch is integrated at this width
   int state_dim = 0;
   int n_model_observables = 0;   // model.observables().size()
@@ -36,19 +41,34 @@ struct Setup {
   bool needs_derived = false;  // some used observable is a derived one
 };
 
-/// One batch from its initial states to its BatchResult. The state is a full-width SoA array
-/// [state_dim][width]; columns count .. width-1 are padding copies of the first member.
-class BatchWork {
+/// One batch from its initial states to its BatchResult, advanced in chunks of any size.
+/// The state is a full-width SoA array [state_dim][width]; columns count .. width-1 are padding
+/// copies of the first member. The CaseRunner's Setup, model and base state must outlive it.
+class BatchWork final : public BatchProgress {
  public:
   /// `initial` is [count][state_dim], the real members' initial states in member order.
+  /// The batch is at step 0: initial states loaded, checked, trajectory sample 0 taken.
   BatchWork(const Setup& setup, const models::Model& model, const std::vector<double>& base,
             const plan::Batch& batch, std::vector<double> initial);
-  BatchResult run();
+  /// A batch continued from a saved state (same setup and batch); throws chaosweep::Error when
+  /// the state's names or sizes do not fit.
+  BatchWork(const Setup& setup, const models::Model& model, const std::vector<double>& base,
+            const plan::Batch& batch, const BatchState& state);
+
+  std::int64_t step() const override { return step_; }
+  std::int64_t total_steps() const override { return setup_.total_steps; }
+  void advance(std::int64_t max_steps) override;
+  BatchState save() const override;
+  BatchResult finish() override;
 
  private:
+  BatchWork(const Setup& setup, const models::Model& model, const std::vector<double>& base,
+            const plan::Batch& batch);
+  void restore(const BatchState& state);
   void load_initial_states();
+  std::int64_t segment_end(std::int64_t last) const;
+  void after_step(std::int64_t step);
   void check_finite();
-  void accumulate();
   void sample_trajectory(std::int64_t sample);
   void collect_moments();
   void collect_regimes();
@@ -58,18 +78,16 @@ class BatchWork {
   const models::Model& model_;
   const std::vector<double>& base_;
   int count_;
-  integrators::Rk4Batch stepper_;
   std::vector<double> x_;                 // [state_dim][width]
-  std::vector<double> derived_;           // [derived observables][width]
-  std::vector<const double*> column_;     // every model observable -> its row of `width` values
-  std::vector<const double*> selected_;   // the selected observables' rows
-  std::vector<const double*> regime_columns_;  // the regime coordinates' rows
   std::vector<std::uint8_t> non_finite_;  // [width]
-  stats::TimeMoments moments_;
+  stats::TimeMoments moments_;            // fused kernel: every state variable; else selected
+  std::vector<int> moment_series_;        // selected observable -> its series in moments_
   std::optional<stats::RegimeCounter> regimes_;
-  std::vector<int> regime_;               // [width], scratch
   std::optional<stats::MemberHistogram> histogram_;
+  std::unique_ptr<Kernel> kernel_;
   BatchResult result_;
+  std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
+  bool finished_ = false;
 };
 
 }  // namespace chaosweep::run

@@ -68,8 +68,8 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
   const Field top_field(&source_name, root, "", location_of(root, Location{1, 1}));
   if (!root.IsMap()) top_field.fail("the top level must be a map of sections, got " + top_field.kind());
   const Map top(top_field, {{"campaign", "model", "sweep", "ensemble", "integration",
-                             "statistics", "output", "run"},
-                            {"schedule", "checkpoint"}, "key", ""});
+                             "statistics", "output", "checkpoint", "run"},
+                            {"schedule"}, "key", ""});
   read_campaign(top.required("campaign"), spec);
   ModelFacts facts = read_model(top.required("model"), spec);
   if (top.has("sweep")) read_sweep(top.get("sweep"), facts, spec);
@@ -78,6 +78,7 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
   if (top.has("statistics")) read_statistics(top.get("statistics"), facts, spec);
   if (spec.statistics.observables.empty()) spec.statistics.observables = facts.observables;
   read_output(top.required("output"), spec);
+  if (top.has("checkpoint")) read_checkpoint(top.get("checkpoint"), spec);
   if (top.has("run")) read_run(top.get("run"), spec);
   return spec;
 }

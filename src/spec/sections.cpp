@@ -187,6 +187,19 @@ void read_output(const Field& output, Spec& spec) {
   }
 }
 
+void read_checkpoint(const Field& checkpoint, Spec& spec) {
+  const Map map(checkpoint, {{"directory", "every_seconds", "keep"}, {}, "key", ""});
+  Checkpoint& out = spec.checkpoint;
+  if (map.has("directory")) {
+    const Field directory = map.get("directory");
+    out.directory = directory.string();
+    if (out.directory.empty()) directory.fail("must be a non-empty path");
+    out.directory_where = directory.where();
+  }
+  if (map.has("every_seconds")) out.every_seconds = map.get("every_seconds").number_above(0.0);
+  if (map.has("keep")) out.keep = static_cast<int>(map.get("keep").integer_in(1, 1000));
+}
+
 void read_run(const Field& run, Spec& spec) {
   const Map map(run, {{"batch_size"}, {}, "key", ""});
   if (!map.has("batch_size")) return;

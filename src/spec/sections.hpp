@@ -37,6 +37,7 @@ void read_integration(const Field& integration, const ModelFacts& facts, Spec& s
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec);
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec);
 void read_output(const Field& output, Spec& spec);
+void read_checkpoint(const Field& checkpoint, Spec& spec);
 void read_run(const Field& run, Spec& spec);
 
 // regimes.cpp

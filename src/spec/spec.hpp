@@ -96,6 +96,14 @@ struct Output {
   Trajectories trajectories;
 };
 
+/// Checkpoints of a run in progress (see README, "Interruptions and resume").
+struct Checkpoint {
+  std::string directory;      // empty: "<archive>.checkpoints" beside the archive
+  Location directory_where;
+  double every_seconds = 300.0;  // wall-clock seconds between checkpoints of batches in progress
+  int keep = 2;                  // checkpoint generations kept (>= 1)
+};
+
 struct Run {
   int batch_size = 64;  // members per work unit, a multiple of 8
 };
@@ -113,6 +121,7 @@ struct Spec {
   Integration integration;
   Statistics statistics;
   Output output;
+  Checkpoint checkpoint;
   Run run;
 };
 

@@ -2,12 +2,16 @@
 #pragma once
 
 #include <cstdint>
+#include <string>
 #include <vector>
+
+#include "stats/saved_state.hpp"
 
 namespace chaosweep::stats {
 
 /// Bin edge i (0 <= i <= bins) of `bins` equal bins on [low, high):
-///   edge_i = low + (high - low) * i / bins   (edge_0 = low and edge_bins = high exactly).
+///   edge_i = low + i * ((high - low) / bins)   for i < bins,   edge_bins = high,
+/// evaluated exactly as MemberHistogram's vectorised bin loop evaluates it (edge_0 = low).
 double histogram_edge(double low, double high, int bins, int i);
 
 /// Counts [width][bins]: a value v of member m falls in bin i when edge_i <= v < edge_{i+1},
@@ -19,6 +23,8 @@ class MemberHistogram {
 
   /// One time step: values[m] for each member.
   void add(const double* values);
+  /// `steps` time steps: values is [steps][width].
+  void add_steps(const double* values, int steps);
 
   std::int64_t count(int member, int bin) const;
   /// total[bin] += this member's count, for every bin (total has `bins` entries).
@@ -26,13 +32,21 @@ class MemberHistogram {
 
   int bins() const { return bins_; }
 
+  /// The complete state: integer array `<prefix>counts` [width][bins].
+  void save(const std::string& prefix, SavedState& out) const;
+  /// Restores counts saved by a histogram of the same shape; throws chaosweep::Error if not.
+  void load(const std::string& prefix, SavedStateReader& in);
+
  private:
-  int bin_of(double v) const;  // -1 when not counted
+  /// slot[m] = m * (bins + 1) + the bin of values[m], or + bins (a discard slot) when the
+  /// value is not counted. A branch-free loop over members.
+  void slots(const double* values, std::int32_t* slot) const;
 
   int bins_, width_;
   double low_, high_, scale_;   // scale_ = bins / (high - low)
-  std::vector<double> edges_;   // [bins + 1]
-  std::vector<std::int64_t> counts_;  // [width][bins]
+  double bin_width_;            // (high - low) / bins
+  std::vector<std::int64_t> counts_;  // [width][bins + 1]: the last entry of a row discards
+  std::vector<std::int32_t> slot_;    // [width], scratch
 };
 
 }  // namespace chaosweep::stats

@@ -4,6 +4,8 @@
 #include <limits>
 #include <stdexcept>
 
+#include "core/error.hpp"
+
 namespace chaosweep::stats {
 
 void classify_sign(const double* value, int width, int* regime) {
@@ -44,11 +46,14 @@ RegimeCounter::RegimeCounter(int regimes, int width) : regimes_(regimes), width_
 // a transition is a run start that is not the first step.
 void RegimeCounter::add(const int* regime) {
   const int w = width_;
+  std::int64_t* __restrict current = current_.data();
+  std::int64_t* __restrict changed = changed_.data();
+  std::int64_t* __restrict transitions = transitions_.data();
   for (int m = 0; m < w; ++m) {
-    const std::int64_t starts = regime[m] != current_[m];
-    changed_[m] = starts;
-    transitions_[m] += starts & (current_[m] >= 0);
-    current_[m] = regime[m];
+    const std::int64_t starts = regime[m] != current[m];
+    changed[m] = starts;
+    transitions[m] += starts & (current[m] >= 0);
+    current[m] = regime[m];
   }
   for (int r = 0; r < regimes_; ++r) {
     std::int64_t* __restrict in = steps_in_.data() + static_cast<long>(r) * w;
@@ -79,6 +84,31 @@ double RegimeCounter::mean_residence(int r, int member, double dt) const {
   const std::int64_t e = episodes(r, member);
   if (e == 0) return std::numeric_limits<double>::quiet_NaN();
   return static_cast<double>(steps_in(r, member)) / static_cast<double>(e) * dt;
+}
+
+void RegimeCounter::save(const std::string& prefix, SavedState& out) const {
+  out.put(prefix + "steps", std::vector<std::int64_t>{steps_});
+  out.put(prefix + "steps_in", steps_in_);
+  out.put(prefix + "episodes", episodes_);
+  out.put(prefix + "transitions", transitions_);
+  out.put(prefix + "current", current_);
+}
+
+void RegimeCounter::load(const std::string& prefix, SavedStateReader& in) {
+  const std::size_t w = static_cast<std::size_t>(width_);
+  const std::int64_t steps = in.integers(prefix + "steps", 1)[0];
+  const std::vector<std::int64_t>& current = in.integers(prefix + "current", w);
+  for (std::int64_t c : current) {
+    if (c < -1 || c >= regimes_) {
+      throw Error("the saved batch state's `" + prefix + "current` holds an unknown regime");
+    }
+  }
+  if (steps < 0) throw Error("the saved batch state's `" + prefix + "steps` is negative");
+  steps_ = steps;
+  steps_in_ = in.integers(prefix + "steps_in", steps_in_.size());
+  episodes_ = in.integers(prefix + "episodes", episodes_.size());
+  transitions_ = in.integers(prefix + "transitions", w);
+  current_ = current;
 }
 
 }  // namespace chaosweep::stats

@@ -3,6 +3,8 @@
 
 #include <stdexcept>
 
+#include "core/error.hpp"
+
 namespace chaosweep::stats {
 
 TimeMoments::TimeMoments(int series, int width, int block_length)
@@ -34,13 +36,17 @@ void TimeMoments::add(const double* const* columns) {
     }
     // members are independent and the accumulator's rows never alias the caller's values
 #pragma GCC ivdep
-    for (int m = 0; m < w; ++m) {
-      const double d = v[m] - k[m];
-      s1[m] += d;
-      s2[m] += d * d;
-    }
+    for (int m = 0; m < w; ++m) add_sample(v[m], k[m], s1[m], s2[m]);
   }
-  if (++in_block_ == block_length_) flush();
+  added(1);
+}
+
+void TimeMoments::added(int samples) {
+  if (samples < 1 || samples > block_room()) {
+    throw std::invalid_argument("TimeMoments: a run of samples crosses a block boundary.");
+  }
+  in_block_ += samples;
+  if (in_block_ == block_length_) flush();
 }
 
 Moments TimeMoments::block_moments(long index) const {
@@ -72,6 +78,41 @@ Moments TimeMoments::moments(int series, int member) const {
   total.merge(block_moments(index));
   total.mean += origin_[index];
   return total;
+}
+
+void TimeMoments::save(const std::string& prefix, SavedState& out) const {
+  std::vector<double> n(running_.size()), mean(running_.size()), m2(running_.size());
+  for (std::size_t i = 0; i < running_.size(); ++i) {
+    n[i] = running_[i].n;
+    mean[i] = running_[i].mean;
+    m2[i] = running_[i].m2;
+  }
+  out.put(prefix + "origin", origin_);
+  out.put(prefix + "shift", shift_);
+  out.put(prefix + "s1", s1_);
+  out.put(prefix + "s2", s2_);
+  out.put(prefix + "n", std::move(n));
+  out.put(prefix + "mean", std::move(mean));
+  out.put(prefix + "m2", std::move(m2));
+  out.put(prefix + "counts", std::vector<std::int64_t>{in_block_, merged_count_});
+}
+
+void TimeMoments::load(const std::string& prefix, SavedStateReader& in) {
+  const std::size_t size = running_.size();
+  const std::vector<std::int64_t>& counts = in.integers(prefix + "counts", 2);
+  if (counts[0] < 0 || counts[0] >= block_length_ || counts[1] < 0) {
+    throw Error("the saved batch state's `" + prefix + "counts` are out of range");
+  }
+  origin_ = in.reals(prefix + "origin", size);
+  shift_ = in.reals(prefix + "shift", size);
+  s1_ = in.reals(prefix + "s1", size);
+  s2_ = in.reals(prefix + "s2", size);
+  const std::vector<double>& n = in.reals(prefix + "n", size);
+  const std::vector<double>& mean = in.reals(prefix + "mean", size);
+  const std::vector<double>& m2 = in.reals(prefix + "m2", size);
+  for (std::size_t i = 0; i < size; ++i) running_[i] = Moments{n[i], mean[i], m2[i]};
+  in_block_ = static_cast<int>(counts[0]);
+  merged_count_ = counts[1];
 }
 
 }  // namespace chaosweep::stats

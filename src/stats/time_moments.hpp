@@ -3,9 +3,11 @@
 #pragma once
 
 #include <cstdint>
+#include <string>
 #include <vector>
 
 #include "stats/ensemble.hpp"
+#include "stats/saved_state.hpp"
 
 namespace chaosweep::stats {
 
@@ -19,6 +21,9 @@ namespace chaosweep::stats {
 /// block bounds the growth of rounding error, and the per-step loop over members is a plain
 /// vectorisable loop. Every member (column) sees the same operations, so its result does not
 /// depend on its column.
+///
+/// Fused batch kernels may update the rows directly (rows(), add_sample(), then added()); they
+/// must do exactly what add() does.
 class TimeMoments {
  public:
   TimeMoments(int series, int width, int block_length = 256);
@@ -26,10 +31,40 @@ class TimeMoments {
   /// Adds one time step: columns[s] points to `width` values of series s.
   void add(const double* const* columns);
 
+  /// The per-sample update of one member's (or a Lanes of members') shifted sums.
+  template <typename T>
+  static void add_sample(T value, T shift, T& s1, T& s2) {
+    const T d = value - shift;
+    s1 += d;
+    s2 += d * d;
+  }
+
+  /// The rows a fused kernel updates, each [series][width]. A sample that opens a block
+  /// (block_starts()) first sets shift = value, and the very first sample (count() == 0) also
+  /// origin = value; then every sample goes through add_sample(value, shift, s1, s2).
+  struct Rows {
+    double* origin;
+    double* shift;
+    double* s1;
+    double* s2;
+  };
+  Rows rows() { return {origin_.data(), shift_.data(), s1_.data(), s2_.data()}; }
+  bool block_starts() const { return in_block_ == 0; }
+  /// Samples the current block can still take (a kernel's run of samples must not cross it).
+  int block_room() const { return block_length_ - in_block_; }
+  /// Records `samples` samples added through rows(); 1 <= samples <= block_room().
+  void added(int samples);
+
   /// Moments of series s for member m over every sample added so far.
   Moments moments(int series, int member) const;
 
   std::int64_t count() const { return merged_count_ + in_block_; }
+
+  /// The complete state as arrays `<prefix>origin`, `shift`, `s1`, `s2`, `n`, `mean`, `m2`
+  /// ([series][width] each) and `<prefix>counts` {samples in the block, samples merged}.
+  void save(const std::string& prefix, SavedState& out) const;
+  /// Restores a state saved by an accumulator of the same shape; throws chaosweep::Error if not.
+  void load(const std::string& prefix, SavedStateReader& in);
 
  private:
   void flush();

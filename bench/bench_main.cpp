@@ -1,0 +1,192 @@
+// chaosweep-bench: member-steps per second per core of the production batch kernel and of the
+// scalar reference integrator, measured side by side in one run, for forced Lorenz-63 and
+// Lorenz-96 (n 40) with time moments and sign regimes on (and with a histogram on as well),
+// the rate at several batch widths, and the core's FMA throughput for scale.
+//
+//   chaosweep-bench [--model lorenz63|lorenz96|all] [--members N] [--steps S]
+//                   [--widths 16,32,64,...] [--repeats R] [--json]
+//
+// Every rate is the median of R repetitions (minimum and maximum shown) of CPU time of the
+// benchmark's thread, so other processes on a busy machine do not count against it.
+#include <CLI/CLI.hpp>
+
+#include <cstdio>
+#include <fstream>
+#include <iostream>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "campaigns.hpp"
+#include "core/error.hpp"
+#include "measure.hpp"
+#include "peak.hpp"
+
+namespace chaosweep::bench {
+namespace {
+
+struct Options {
+  std::string model = "all";
+  long members = 2048;
+  long steps = 4000;
+  std::vector<int> widths = {16, 32, 64, 128, 256};
+  int width = 64;
+  int repeats = 5;
+  long scalar_members = 64;
+  bool json = false;
+};
+
+/// One line of results.
+struct Row {
+  std::string model, statistics;
+  int width = 0;
+  double flops = 0.0;  // per member-step, counted
+  Summary production, scalar;
+};
+
+std::string first_line_of(const std::string& path, const std::string& key) {
+  std::ifstream in(path);
+  std::string line;
+  while (std::getline(in, line)) {
+    if (key.empty() || line.rfind(key, 0) == 0) {
+      const auto colon = line.find(':');
+      return key.empty() || colon == std::string::npos ? line : line.substr(colon + 2);
+    }
+  }
+  return "unknown";
+}
+
+Summary repeat(int n, const std::function<double()>& f) {
+  std::vector<double> v;
+  for (int i = 0; i < n; ++i) v.push_back(f());
+  return summarise(v);
+}
+
+Row measure(const Options& o, const std::string& model, bool histogram, int width, bool scalar) {
+  const spec::Spec s = bench_campaign(model, o.members, width, 0, o.steps, histogram);
+  Row row{model, histogram ? "moments+regimes+histogram" : "moments+regimes", width,
+          flops_per_member_step(s), {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  if (scalar) {
+    const spec::Spec small = bench_campaign(model, o.scalar_members, width, 0, o.steps, histogram);
+    row.scalar = repeat(o.repeats, [&] { return scalar_rate(small, o.scalar_members); });
+  }
+  return row;
+}
+
+void print_text(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
+                const Summary& peak) {
+  std::printf("chaosweep-bench\n");
+  std::printf("  CPU           %s\n", first_line_of("/proc/cpuinfo", "model name").c_str());
+  std::printf("  load average  %s\n", first_line_of("/proc/loadavg", "").c_str());
+  std::printf("  built for     %s\n", simd_level().c_str());
+  std::printf("  compiler      %s\n", __VERSION__);
+  std::printf("  FMA loop      %.1f GFLOP/s per core (median of %d; %.1f-%.1f)\n", peak.median,
+              o.repeats, peak.min, peak.max);
+  std::printf("  campaign      %ld members, %ld accumulated steps, median of %d runs "
+              "(min-max), member-steps per CPU second\n\n",
+              o.members, o.steps, o.repeats);
+  std::printf("%-9s %-26s %5s  %-27s %-27s %6s  %s\n", "model", "statistics", "width",
+              "production kernel", "scalar reference", "ratio", "GFLOP/s (of FMA loop)");
+  for (const Row& r : main) {
+    const double gflops = r.production.median * r.flops / 1e9;
+    std::printf("%-9s %-26s %5d  %9.3g (%8.3g-%8.3g)  %9.3g (%8.3g-%8.3g)  %5.1fx  %5.1f "
+                "(%2.0f%%)\n",
+                r.model.c_str(), r.statistics.c_str(), r.width, r.production.median,
+                r.production.min, r.production.max, r.scalar.median, r.scalar.min, r.scalar.max,
+                r.production.median / r.scalar.median, gflops, 100.0 * gflops / peak.median);
+  }
+  std::printf("\n(flops per member-step, counted in bench/campaigns.cpp:");
+  for (const Row& r : main) {
+    std::printf(" %s %s %.0f;", r.model.c_str(), r.statistics.c_str(), r.flops);
+  }
+  std::printf(")\n");
+  if (widths.empty()) return;
+  std::printf("\nbatch width (production kernel, moments+regimes+histogram)\n");
+  for (const Row& r : widths) {
+    std::printf("%-9s width %4d  %9.3g (%8.3g-%8.3g)\n", r.model.c_str(), r.width,
+                r.production.median, r.production.min, r.production.max);
+  }
+}
+
+std::string json_summary(const Summary& s) {
+  std::ostringstream out;
+  out.precision(6);
+  out << "{\"median\": " << s.median << ", \"min\": " << s.min << ", \"max\": " << s.max << "}";
+  return out.str();
+}
+
+void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
+                const Summary& peak) {
+  std::ostringstream out;
+  out << "{\n  \"cpu\": \"" << first_line_of("/proc/cpuinfo", "model name") << "\",\n"
+      << "  \"load_average\": \"" << first_line_of("/proc/loadavg", "") << "\",\n"
+      << "  \"simd_level\": \"" << simd_level() << "\",\n"
+      << "  \"compiler\": \"" << __VERSION__ << "\",\n"
+      << "  \"fma_gflops\": " << json_summary(peak) << ",\n"
+      << "  \"members\": " << o.members << ", \"steps\": " << o.steps
+      << ", \"repeats\": " << o.repeats << ",\n  \"results\": [";
+  const char* sep = "\n";
+  for (const Row& r : main) {
+    out << sep << "    {\"model\": \"" << r.model << "\", \"statistics\": \"" << r.statistics
+        << "\", \"width\": " << r.width << ", \"production\": " << json_summary(r.production)
+        << ", \"scalar\": " << json_summary(r.scalar)
+        << ", \"ratio\": " << r.production.median / r.scalar.median
+        << ", \"flops_per_member_step\": " << r.flops << "}";
+    sep = ",\n";
+  }
+  out << "\n  ],\n  \"widths\": [";
+  sep = "\n";
+  for (const Row& r : widths) {
+    out << sep << "    {\"model\": \"" << r.model << "\", \"width\": " << r.width
+        << ", \"production\": " << json_summary(r.production) << "}";
+    sep = ",\n";
+  }
+  out << "\n  ]\n}\n";
+  std::cout << out.str();
+}
+
+int run(const Options& o) {
+  std::vector<std::string> models = {"lorenz63", "lorenz96"};
+  if (o.model != "all") models = {o.model};
+  const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
+  std::vector<Row> main, widths;
+  for (const std::string& m : models) {
+    for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
+  }
+  for (const std::string& m : models) {
+    for (int w : o.widths) widths.push_back(measure(o, m, true, w, false));
+  }
+  if (o.json) {
+    print_json(o, main, widths, peak);
+  } else {
+    print_text(o, main, widths, peak);
+  }
+  return 0;
+}
+
+}  // namespace
+}  // namespace chaosweep::bench
+
+int main(int argc, char** argv) {
+  chaosweep::bench::Options o;
+  CLI::App app{"Throughput of the production batch kernel against the scalar reference"};
+  app.add_option("--model", o.model, "lorenz63, lorenz96 or all")
+      ->check(CLI::IsMember({"lorenz63", "lorenz96", "all"}));
+  app.add_option("--members", o.members, "members per measurement")->check(CLI::PositiveNumber);
+  app.add_option("--steps", o.steps, "accumulated steps per member")->check(CLI::PositiveNumber);
+  app.add_option("--width", o.width, "batch width of the main table (a multiple of 8)");
+  app.add_option("--widths", o.widths, "batch widths to compare")->delimiter(',');
+  app.add_option("--repeats", o.repeats, "repetitions per figure (median reported)")
+      ->check(CLI::PositiveNumber);
+  app.add_option("--scalar-members", o.scalar_members, "members run by the scalar reference")
+      ->check(CLI::PositiveNumber);
+  app.add_flag("--json", o.json, "print JSON instead of a table");
+  CLI11_PARSE(app, argc, argv);
+  try {
+    return chaosweep::bench::run(o);
+  } catch (const chaosweep::Error& e) {
+    std::fprintf(stderr, "chaosweep-bench: %s\n", e.what());
+    return e.exit_code();
+  }
+}

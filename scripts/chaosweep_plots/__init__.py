@@ -1,0 +1,1 @@
+"""Figures and a one-page report from a chaosweep archive (used by scripts/plot-archive)."""

@@ -1,0 +1,109 @@
+"""Reads a chaosweep archive into plain numpy arrays (h5py), one attribute per dataset used.
+
+Groups that an archive does not hold (no sweep, no regimes, no histogram, no stored
+trajectories, and the snapshot / twin / Lyapunov / horizon datasets) read as None, so each
+figure can decide for itself whether it applies.
+"""
+import h5py
+import numpy as np
+
+
+def _text(value):
+    return value.decode() if isinstance(value, bytes) else str(value)
+
+
+def _names(dataset):
+    return [_text(v) for v in dataset[()]]
+
+
+def _get(f, path):
+    return f[path][()] if path in f else None
+
+
+class Archive:
+    def __init__(self, path):
+        self.path = path
+        with h5py.File(path, "r") as f:
+            attrs = f.attrs
+            self.campaign = _text(attrs.get("campaign", attrs.get("title", path)))
+            self.description = _text(attrs.get("description", ""))
+            self.model = _text(attrs.get("model", ""))
+            self.status = _text(attrs.get("status", "unknown"))
+            self.spec_yaml = _text(attrs.get("spec_yaml", ""))
+            self.tool_version = _text(attrs.get("tool_version", ""))
+            self.created_utc = _text(attrs.get("created_utc", ""))
+            self.ranks = int(attrs.get("ranks", 0))
+            self.spinup = float(attrs.get("spinup", np.nan))
+            self.duration = float(attrs.get("duration", np.nan))
+            self.observables = _names(f["observable"])
+
+            # Swept axes in spec order (the order of /response/axis), each a value per case.
+            self.axes = _names(f["response/axis"]) if "response/axis" in f else []
+            self.axis_values = {a: f["case/" + a][()].astype(float) for a in self.axes}
+            self.cases = int(f["case/case"].shape[0])
+
+            self.status_member = f["member/status"][()]
+            self.members = int(self.status_member.shape[1])
+            self.valid = f["ensemble/valid_members"][()].astype(int)
+            self.member_mean = f["member/time_mean"][()]
+            self.mean = f["ensemble/time_mean"][()]
+            self.mean_ci = f["ensemble/time_mean_ci95"][()]
+            self.slope = _get(f, "response/slope")
+            self.slope_stderr = _get(f, "response/slope_stderr")
+
+            self.regimes = _names(f["ensemble/regime"]) if "ensemble/regime" in f else []
+            self.regime = _get(f, "ensemble/regime_fraction")
+            self.regime_ci = _get(f, "ensemble/regime_fraction_ci95")
+            self.member_regime = _get(f, "member/regime_fraction")
+
+            self.hist_counts = _get(f, "histogram/counts")
+            self.hist_edges = _get(f, "histogram/edges")
+            self.hist_observable = None
+            if "histogram/bin" in f:
+                long_name = _text(f["histogram/bin"].attrs.get("long_name", ""))
+                prefix = "bin centre of "
+                if long_name.startswith(prefix):
+                    self.hist_observable = long_name[len(prefix):]
+
+            self.traj_time = _get(f, "trajectory/time")
+            self.traj_state = _get(f, "trajectory/state")
+            self.traj_variables = (_names(f["trajectory/variable"])
+                                   if "trajectory/variable" in f else [])
+
+            # Datasets of later features (DESIGN.md's archive table); None until an archive has them.
+            self.snap_time = _get(f, "snapshot/time")
+            self.snap_mean = _get(f, "snapshot/mean")          # time, case, observable
+            self.snap_variance = _get(f, "snapshot/variance")  # time, case, observable
+            self.snap_regime = _get(f, "snapshot/regime_fraction")  # time, case, regime
+            self.snap_observables = (_names(f["snapshot/observable"])
+                                     if "snapshot/observable" in f else self.observables)
+            self.snap_regimes = (_names(f["snapshot/regime"])
+                                 if "snapshot/regime" in f else self.regimes)
+            self.twin_lead = _get(f, "twins/lead")
+            self.twin_log_sep = _get(f, "twins/log_separation")  # case, lead
+            self.lyapunov = _get(f, "member/lyapunov")           # case, member, exponent
+            self.horizon = _get(f, "member/horizon")             # case, member
+
+    # --- helpers shared by the figures and the report -------------------------------------
+
+    @property
+    def valid_mask(self):
+        """(case, member) True for members that enter the estimates."""
+        return self.status_member == 0
+
+    def valid_text(self):
+        """'valid members: 5630 of 5632 (510-512 per case)'."""
+        total = self.cases * self.members
+        lo, hi = int(self.valid.min()), int(self.valid.max())
+        per_case = f"{lo} per case" if lo == hi else f"{lo}-{hi} per case"
+        return f"valid members: {int(self.valid.sum())} of {total} ({per_case})"
+
+    def case_label(self, c):
+        if not self.axes:
+            return f"case {c}"
+        return ", ".join(f"{a} = {self.axis_values[a][c]:g}" for a in self.axes)
+
+    def few_cases(self, n=3):
+        """Up to n cases spread over the sweep: first, last and evenly between."""
+        picks = np.linspace(0, self.cases - 1, min(n, self.cases)).round().astype(int)
+        return sorted(set(picks.tolist()))

@@ -1,0 +1,122 @@
+#include "app/local_work.hpp"
+
+#include <spdlog/spdlog.h>
+
+#include <algorithm>
+#include <chrono>
+
+namespace chaosweep::app {
+namespace {
+
+using Clock = std::chrono::steady_clock;
+
+double seconds_since(Clock::time_point start) {
+  return std::chrono::duration<double>(Clock::now() - start).count();
+}
+
+}  // namespace
+
+LocalWork::LocalWork(const spec::Spec& spec, const plan::Plan& plan, plan::Range share,
+                     const checkpoint::Store* store)
+    : spec_(spec), plan_(plan), share_(share), store_(store),
+      results_(static_cast<std::size_t>(share.last - share.first)),
+      resumed_(results_.size()) {}
+
+LocalWork::Restored LocalWork::restore() {
+  Restored r;
+  if (!store_) return r;
+  const std::vector<std::int64_t> generations = store_->generations();
+  for (std::size_t i = 0; i < results_.size(); ++i) {
+    const std::int64_t batch = share_.first + static_cast<std::int64_t>(i);
+    std::string problem;
+    results_[i] = store_->load_done(batch, &problem);
+    if (results_[i]) {
+      ++r.finished;
+      continue;
+    }
+    if (!problem.empty()) {
+      spdlog::warn("{}; batch {} will be recomputed", problem, batch);
+      ++r.problems;
+    }
+    for (std::int64_t g : generations) {  // newest sound state wins
+      problem.clear();
+      resumed_[i] = store_->load_state(g, batch, &problem);
+      if (resumed_[i]) {
+        ++r.in_progress;
+        break;
+      }
+      if (!problem.empty()) {
+        spdlog::warn("{}; trying an older checkpoint generation", problem);
+        ++r.problems;
+      }
+    }
+  }
+  return r;
+}
+
+bool LocalWork::done() const {
+  return !current_ && std::all_of(results_.begin(), results_.end(),
+                                   [](const auto& r) { return r.has_value(); });
+}
+
+std::int64_t LocalWork::finished_count() const {
+  return std::count_if(results_.begin(), results_.end(), [](const auto& r) { return r.has_value(); });
+}
+
+void LocalWork::start_next() {
+  std::size_t i = 0;
+  while (i < results_.size() && results_[i]) ++i;
+  if (i == results_.size()) return;
+  const plan::Batch& batch = plan_.batches[static_cast<std::size_t>(share_.first) + i];
+  if (batch.case_index != runner_case_) {
+    runner_.reset();
+    runner_ = std::make_unique<run::CaseRunner>(
+        spec_, plan_, plan_.cases[static_cast<std::size_t>(batch.case_index)]);
+    runner_case_ = batch.case_index;
+  }
+  current_index_ = i;
+  if (resumed_[i]) {
+    current_ = runner_->resume(batch, *resumed_[i]);
+    resumed_[i].reset();
+  } else {
+    current_ = runner_->start(batch);
+  }
+}
+
+void LocalWork::finish_current() {
+  results_[current_index_] = current_->finish();
+  current_.reset();
+  if (store_) store_->save_done(*results_[current_index_]);
+}
+
+bool LocalWork::work(double seconds) {
+  const Clock::time_point start = Clock::now();
+  do {
+    if (!current_) start_next();
+    if (!current_) return true;
+    const Clock::time_point chunk_start = Clock::now();
+    current_->advance(chunk_steps_);
+    const double took = seconds_since(chunk_start);
+    // Aim at ~50 ms per chunk: short enough to stop promptly, long enough to cost nothing.
+    const double scale = took > 0 ? std::clamp(0.05 / took, 0.5, 2.0) : 2.0;
+    chunk_steps_ = std::clamp<std::int64_t>(static_cast<std::int64_t>(chunk_steps_ * scale), 8,
+                                            std::int64_t{1} << 22);
+    if (current_->done()) finish_current();
+  } while (seconds_since(start) < seconds);
+  return done();
+}
+
+std::int64_t LocalWork::save_in_progress(std::int64_t generation) const {
+  if (!current_ || !store_) return -1;
+  store_->save_state(generation, current_->save());
+  return plan_.batches[static_cast<std::size_t>(share_.first) + current_index_].index;
+}
+
+std::vector<run::BatchResult> LocalWork::take_results() {
+  std::vector<run::BatchResult> out;
+  out.reserve(results_.size());
+  for (auto& r : results_) out.push_back(std::move(*r));
+  return out;
+}
+
+}  // namespace chaosweep::app

@@ -1,0 +1,61 @@
+// This rank's share of a campaign: its batches, the results of those finished, the batch in
+// progress, and their checkpoints. Pure of MPI: the caller runs the collective rounds.
+#pragma once
+
+#include <cstdint>
+#include <memory>
+#include <optional>
+#include <vector>
+
+#include "checkpoint/store.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::app {
+
+class LocalWork {
+ public:
+  /// `store` may be null (no checkpoints). The batches are plan.batches[share.first, share.last).
+  LocalWork(const spec::Spec& spec, const plan::Plan& plan, plan::Range share,
+            const checkpoint::Store* store);
+
+  /// Restores what the checkpoints hold for this rank's batches: finished results, and the
+  /// newest sound state of a batch in progress. Problems (damaged files) are logged as
+  /// warnings and counted; such batches are recomputed, which gives the same numbers.
+  struct Restored {
+    std::int64_t finished = 0, in_progress = 0, problems = 0;
+  };
+  Restored restore();
+
+  /// Integrates for about `seconds` of wall time (at least one chunk), saving each batch that
+  /// finishes. Returns true when every batch of this rank is finished.
+  bool work(double seconds);
+  bool done() const;
+
+  /// Saves the batch in progress (if any) into generation `generation`; returns its index or -1.
+  std::int64_t save_in_progress(std::int64_t generation) const;
+
+  /// Finished results in batch order (only when done()).
+  std::vector<run::BatchResult> take_results();
+  std::int64_t finished_count() const;
+  std::int64_t batch_count() const { return static_cast<std::int64_t>(results_.size()); }
+
+ private:
+  void start_next();
+  void finish_current();
+
+  const spec::Spec& spec_;
+  const plan::Plan& plan_;
+  plan::Range share_;
+  const checkpoint::Store* store_;
+  std::vector<std::optional<run::BatchResult>> results_;   // per local batch
+  std::vector<std::optional<run::BatchState>> resumed_;    // restored states, per local batch
+  std::unique_ptr<run::CaseRunner> runner_;
+  std::int64_t runner_case_ = -1;
+  std::unique_ptr<run::BatchProgress> current_;
+  std::size_t current_index_ = 0;                          // local index of current_
+  std::int64_t chunk_steps_ = 64;                          // adapted to ~50 ms per chunk
+};
+
+}  // namespace chaosweep::app

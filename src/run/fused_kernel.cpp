@@ -1,0 +1,187 @@
+// The fused kernel: RK4 and every per-step accumulator update on Lanes of 8 members, with G
+// Lanes interleaved so that independent dependency chains keep the FMA pipelines busy, and the
+// state and running sums held in local variables (registers) for a whole segment of steps.
+//
+// Per step and Lane, after the RK4 step (integrators/rk4_step.hpp, the model's equations):
+//   moments, every state variable i:  TimeMoments::add_sample(x_i, shift_i, s1_i, s2_i)
+//     (at the first sample of a block shift_i = x_i, at the very first also origin_i = x_i)
+//   sign regimes of state variable r:  regime = 0 if x_r >= 0 else 1 (NaN -> 1), then the
+//     RegimeCounter update (regimes.hpp) in 64-bit integer Lanes
+//   histogram of state variable h:     x_h stored to a [steps][width] buffer, counted after
+//     the segment by MemberHistogram::add_steps
+// exactly the operations of the generic path, so both give the same bits.
+#include "run/fused_kernel.hpp"
+
+#include <cstdint>
+#include <vector>
+
+#include "integrators/lanes.hpp"
+#include "integrators/rk4_step.hpp"
+#include "models/lorenz63_equations.hpp"
+#include "run/batch_work.hpp"
+#include "run/lane_regimes.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+using integrators::Lanes;
+using integrators::load_lanes;
+using integrators::store_lanes;
+constexpr int L = integrators::kLanes;
+
+/// Lanes interleaved per group: spin-up has only the state to keep in registers (4 chains);
+/// with the accumulators 3 chains were fastest on AVX-512 (2 leave the FMA pipelines idle
+/// waiting on the RK4 dependency chain, 4 spill more running sums than they gain; see README).
+/// Lanes left over at the end of a batch go in groups of 2 and 1.
+constexpr int kSpinGroup = 4;
+constexpr int kAccumulateGroup = 3;
+
+/// x[row] for a row known only at run time (the same row for every step: a predictable branch).
+template <int D>
+inline Lanes pick(const Lanes (&x)[D], int row) {
+  Lanes v = x[0];
+  for (int i = 1; i < D; ++i) {
+    if (row == i) v = x[i];
+  }
+  return v;
+}
+
+template <typename Equations>
+class FusedKernel final : public Kernel {
+  static constexpr int D = Equations::kDim;
+
+ public:
+  FusedKernel(const Equations& eq, const Setup& s, const Accumulators& acc)
+      : eq_(eq), h_(s.dt), width_(s.width), acc_(acc),
+        regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
+        histogram_row_(acc.histogram ? s.histogram_observable : -1) {
+    if (acc.histogram) values_.resize(static_cast<std::size_t>(kMaxSegment) * s.width);
+  }
+
+  void spin(double* x, int steps) override {
+    int lane = 0;
+    for (; lane + kSpinGroup * L <= width_; lane += kSpinGroup * L) {
+      spin_group<kSpinGroup>(x, lane, steps);
+    }
+    for (; lane + 2 * L <= width_; lane += 2 * L) spin_group<2>(x, lane, steps);
+    for (; lane < width_; lane += L) spin_group<1>(x, lane, steps);
+  }
+
+  void accumulate(double* x, int steps) override {
+    stats::TimeMoments& moments = *acc_.moments;
+    const bool opens_block = moments.block_starts();
+    const bool first = moments.count() == 0;
+    int lane = 0;
+    for (; lane + kAccumulateGroup * L <= width_; lane += kAccumulateGroup * L) {
+      accumulate_group<kAccumulateGroup>(x, lane, steps, opens_block, first);
+    }
+    for (; lane + 2 * L <= width_; lane += 2 * L) {
+      accumulate_group<2>(x, lane, steps, opens_block, first);
+    }
+    for (; lane < width_; lane += L) accumulate_group<1>(x, lane, steps, opens_block, first);
+    moments.added(steps);
+    if (acc_.regimes) acc_.regimes->added(steps);
+    if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
+  }
+
+ private:
+  long row(int i) const { return static_cast<long>(i) * width_; }  // offset of state row i
+  template <int G>
+  void load_state(const double* x, int lane, Lanes (&s)[G][D]) const {
+    for (int g = 0; g < G; ++g) {
+      for (int i = 0; i < D; ++i) s[g][i] = load_lanes(x + row(i) + lane + g * L);
+    }
+  }
+  template <int G>
+  void store_state(double* x, int lane, const Lanes (&s)[G][D]) const {
+    for (int g = 0; g < G; ++g) {
+      for (int i = 0; i < D; ++i) store_lanes(x + row(i) + lane + g * L, s[g][i]);
+    }
+  }
+
+  template <int G>
+  void spin_group(double* x, int lane, int steps) const {
+    const Equations eq = eq_;
+    const integrators::Rk4Steps h = h_;
+    Lanes s[G][D];
+    load_state(x, lane, s);
+    for (int t = 0; t < steps; ++t) {
+      for (int g = 0; g < G; ++g) integrators::rk4_step<D>(eq, h, s[g]);
+    }
+    store_state(x, lane, s);
+  }
+
+  template <int G>
+  void accumulate_group(double* x, int lane, int steps, bool opens_block, bool first);
+
+  Equations eq_;
+  integrators::Rk4Steps h_;
+  int width_;
+  Accumulators acc_;
+  int regime_row_, histogram_row_;  // state rows, -1 when not used
+  std::vector<double> values_;      // [kMaxSegment][width]: the histogram observable per step
+};
+
+template <typename Equations>
+template <int G>
+void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bool opens_block,
+                                              bool first) {
+  // locals, so that stores through the row pointers cannot be taken to change them
+  const Equations eq = eq_;
+  const integrators::Rk4Steps h = h_;
+  const int regime_row = regime_row_, histogram_row = histogram_row_;
+  double* const values = values_.data();
+  const long w = width_;
+  const stats::TimeMoments::Rows m = acc_.moments->rows();
+  stats::RegimeCounter::Rows r{};
+  if (acc_.regimes) r = acc_.regimes->rows();
+  Lanes s[G][D], shift[G][D], s1[G][D], s2[G][D];
+  RegimeLanes regime[G] = {};
+  load_state(x, lane, s);
+  for (int g = 0; g < G; ++g) {
+    for (int i = 0; i < D; ++i) {
+      const long at = i * w + lane + g * L;
+      shift[g][i] = load_lanes(m.shift + at);
+      s1[g][i] = load_lanes(m.s1 + at);
+      s2[g][i] = load_lanes(m.s2 + at);
+    }
+    if (regime_row >= 0) regime[g].begin(r, lane + g * L);
+  }
+  for (int t = 0; t < steps; ++t) {
+    for (int g = 0; g < G; ++g) integrators::rk4_step<D>(eq, h, s[g]);
+    if (t == 0 && opens_block) {
+      for (int g = 0; g < G; ++g) {
+        for (int i = 0; i < D; ++i) {
+          shift[g][i] = s[g][i];
+          if (first) store_lanes(m.origin + i * w + lane + g * L, s[g][i]);
+        }
+      }
+    }
+    for (int g = 0; g < G; ++g) {
+      for (int i = 0; i < D; ++i) {
+        stats::TimeMoments::add_sample(s[g][i], shift[g][i], s1[g][i], s2[g][i]);
+      }
+      if (regime_row >= 0) regime[g].add(pick(s[g], regime_row));
+      if (histogram_row >= 0) store_lanes(values + t * w + lane + g * L, pick(s[g], histogram_row));
+    }
+  }
+  store_state(x, lane, s);
+  for (int g = 0; g < G; ++g) {
+    for (int i = 0; i < D; ++i) {
+      const long at = i * w + lane + g * L;
+      store_lanes(m.shift + at, shift[g][i]);
+      store_lanes(m.s1 + at, s1[g][i]);
+      store_lanes(m.s2 + at, s2[g][i]);
+    }
+    if (regime_row >= 0) regime[g].end(r, w, lane + g * L, steps);
+  }
+}
+
+}  // namespace
+
+std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc) {
+  return std::make_unique<FusedKernel<models::Lorenz63Equations>>(
+      models::Lorenz63Equations::from(setup.parameters), setup, acc);
+}
+
+}  // namespace chaosweep::run

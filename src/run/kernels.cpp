@@ -1,0 +1,171 @@
+// Kernel choice, the generic per-step feed of the accumulators, and the stepped kernels
+// (generic RK4 and the fused ring RK4); the fused small-state kernel is in fused_kernel.cpp.
+#include "run/kernels.hpp"
+
+#include <algorithm>
+#include <vector>
+
+#include "integrators/lanes.hpp"
+#include "integrators/rk4.hpp"
+#include "integrators/rk4_ring.hpp"
+#include "models/lorenz96_equations.hpp"
+#include "run/batch_work.hpp"
+#include "run/fused_kernel.hpp"
+#include "run/ring_kernel.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+/// Feeds the accumulators from the batch state after one step: derived observables (if any
+/// is used), time moments of the selected observables, regimes, histogram.
+class StepFeed {
+ public:
+  StepFeed(const Setup& s, const models::Model& model, const Accumulators& acc)
+      : setup_(s),
+        model_(model),
+        acc_(acc),
+        derived_(static_cast<std::size_t>(s.n_model_observables - s.state_dim) * s.width),
+        regime_(static_cast<std::size_t>(s.width), 0) {}
+
+  /// Row pointers into the batch state x ([state_dim][width]); x must not move afterwards.
+  void bind(const double* x) {
+    if (x == bound_) return;
+    bound_ = x;
+    const int w = setup_.width, d = setup_.state_dim;
+    column_.clear();
+    selected_.clear();
+    regime_columns_.clear();
+    for (int i = 0; i < setup_.n_model_observables; ++i) {  // state rows, then derived rows
+      column_.push_back(i < d ? x + static_cast<long>(i) * w
+                              : derived_.data() + static_cast<long>(i - d) * w);
+    }
+    for (int i : setup_.observables) selected_.push_back(column_[i]);
+    for (int i : setup_.regime_coordinates) regime_columns_.push_back(column_[i]);
+  }
+
+  void feed(const double* x) {
+    const int w = setup_.width;
+    bind(x);
+    if (setup_.needs_derived) model_.derived(x, derived_.data(), w);
+    acc_.moments->add(selected_.data());
+    if (acc_.regimes) {
+      if (setup_.regime_kind == spec::RegimeKind::sign) {
+        stats::classify_sign(regime_columns_[0], w, regime_.data());
+      } else {
+        stats::classify_nearest(regime_columns_, setup_.centroids, w, regime_.data());
+      }
+      acc_.regimes->add(regime_.data());
+    }
+    if (acc_.histogram) acc_.histogram->add(column_[setup_.histogram_observable]);
+  }
+
+ private:
+  const Setup& setup_;
+  const models::Model& model_;
+  Accumulators acc_;
+  std::vector<double> derived_;  // [derived observables][width]
+  std::vector<int> regime_;      // [width], scratch
+  const double* bound_ = nullptr;
+  std::vector<const double*> column_, selected_, regime_columns_;
+};
+
+/// One RK4 step of a whole batch.
+class Stepper {
+ public:
+  virtual ~Stepper() = default;
+  virtual void step(double* x) = 0;
+};
+
+/// Rk4Batch over the model's batched rhs (any model, any width).
+class GenericStepper final : public Stepper {
+ public:
+  GenericStepper(const models::Model& model, int width, double dt)
+      : rk4_(model, width), dt_(dt) {}
+  void step(double* x) override { rk4_.step(x, dt_); }
+
+ private:
+  integrators::Rk4Batch rk4_;
+  double dt_;
+};
+
+/// The fused ring RK4 (integrators/rk4_ring.hpp), 8 members at a time; width % 8 == 0.
+class RingStepper final : public Stepper {
+ public:
+  RingStepper(const models::Lorenz96Equations& eq, int width, double dt)
+      : eq_(eq), h_(dt), width_(width),
+        scratch_(static_cast<std::size_t>(integrators::ring_scratch_lanes(eq.n))) {}
+  void step(double* x) override {
+    for (int lane = 0; lane < width_; lane += integrators::kLanes) {
+      integrators::ring_rk4_step(eq_, h_, eq_.n, x + lane, width_, scratch_.data());
+    }
+  }
+
+ private:
+  models::Lorenz96Equations eq_;
+  integrators::Rk4Steps h_;
+  int width_;
+  std::vector<integrators::Lanes> scratch_;
+};
+
+/// A stepper followed, in accumulate(), by the generic per-step feed.
+class SteppedKernel final : public Kernel {
+ public:
+  SteppedKernel(std::unique_ptr<Stepper> stepper, const Setup& s, const models::Model& model,
+                const Accumulators& acc)
+      : stepper_(std::move(stepper)), feed_(s, model, acc) {}
+  void spin(double* x, int steps) override {
+    for (int t = 0; t < steps; ++t) stepper_->step(x);
+  }
+  void accumulate(double* x, int steps) override {
+    for (int t = 0; t < steps; ++t) {
+      stepper_->step(x);
+      feed_.feed(x);
+    }
+  }
+
+ private:
+  std::unique_ptr<Stepper> stepper_;
+  StepFeed feed_;
+};
+
+bool is_state(const Setup& s, int observable) { return observable < s.state_dim; }
+
+}  // namespace
+
+KernelKind choose_kernel(const Setup& s) {
+  if (s.width % integrators::kLanes != 0) return KernelKind::generic;
+  const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
+                            (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
+  if (s.model == "lorenz96") return sign_or_none ? KernelKind::ring : KernelKind::generic;
+  if (s.model != "lorenz63") return KernelKind::generic;
+  const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
+                                       [&](int i) { return is_state(s, i); });
+  const bool regimes = s.regime_kind == spec::RegimeKind::none ||
+                       (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2 &&
+                        is_state(s, s.regime_coordinates[0]));
+  const bool histogram = !s.histogram || is_state(s, s.histogram_observable);
+  return observables && regimes && histogram ? KernelKind::fused : KernelKind::generic;
+}
+
+std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
+                                    const Accumulators& acc) {
+  switch (s.kernel) {
+    case KernelKind::fused:
+      return make_fused_lorenz63_kernel(s, acc);
+    case KernelKind::ring:
+      return make_ring_kernel(s, acc);
+    case KernelKind::generic:
+      break;
+  }
+  // lorenz96 with nearest regimes: the ring RK4 with the generic per-step feed
+  if (s.model == "lorenz96" && s.width % integrators::kLanes == 0) {
+    return std::make_unique<SteppedKernel>(
+        std::make_unique<RingStepper>(models::Lorenz96Equations::from(s.parameters), s.width,
+                                      s.dt),
+        s, model, acc);
+  }
+  return std::make_unique<SteppedKernel>(std::make_unique<GenericStepper>(model, s.width, s.dt),
+                                         s, model, acc);
+}
+
+}  // namespace chaosweep::run

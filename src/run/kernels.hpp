@@ -1,0 +1,60 @@
+// Internal to run/: the integration kernels that advance one batch over runs of steps
+// ("segments"), either plainly (spin-up) or feeding the accumulators after every step.
+// Pure numerics: no MPI, no HDF5, no YAML, no logging.
+//
+// Three kernels, chosen once per case (choose_kernel) and giving bitwise the same numbers:
+//  - fused:   models with a small fixed state (lorenz63). RK4 and every accumulator update
+//             run member-parallel on Lanes (8 members), a few Lanes interleaved so the FMA
+//             pipelines stay busy, with the state and the running sums held in registers for a
+//             whole segment. Moments are kept for every state variable.
+//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes; the
+//             accumulators are fed per step by the generic code.
+//  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
+// The fused and ring kernels need a batch width that is a multiple of 8; every member of a
+// batch sees the same operations whatever its column, so results never depend on it.
+#pragma once
+
+#include <memory>
+
+#include "models/model.hpp"
+#include "stats/histogram.hpp"
+#include "stats/regimes.hpp"
+#include "stats/time_moments.hpp"
+
+namespace chaosweep::run {
+
+struct Setup;
+
+enum class KernelKind { generic, fused, ring };
+
+/// The kernel for a case: fused or ring when the model has one, the width is a multiple of 8
+/// and (fused) every observable, the regime coordinate and the histogram observable are state
+/// variables with sign or no regimes; generic otherwise.
+KernelKind choose_kernel(const Setup& setup);
+
+/// The accumulators a kernel feeds (owned by the batch). Moments hold one series per state
+/// variable for the fused kernel, one per selected observable otherwise.
+struct Accumulators {
+  stats::TimeMoments* moments = nullptr;
+  stats::RegimeCounter* regimes = nullptr;      // null: no regimes
+  stats::MemberHistogram* histogram = nullptr;  // null: no histogram
+};
+
+class Kernel {
+ public:
+  virtual ~Kernel() = default;
+  /// `steps` RK4 steps of x ([state_dim][width]) without accumulation.
+  virtual void spin(double* x, int steps) = 0;
+  /// `steps` RK4 steps, feeding the accumulators after each. steps <= kMaxSegment and the
+  /// run must not cross a moments block (steps <= moments->block_room()).
+  virtual void accumulate(double* x, int steps) = 0;
+};
+
+/// Longest run of steps one accumulate() call takes.
+constexpr int kMaxSegment = 32;
+
+/// The kernel of kind setup.kernel for one batch. `model` must outlive it.
+std::unique_ptr<Kernel> make_kernel(const Setup& setup, const models::Model& model,
+                                    const Accumulators& acc);
+
+}  // namespace chaosweep::run

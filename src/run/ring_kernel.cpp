@@ -1,0 +1,172 @@
+// The fused ring kernel: 8 members (one Lanes) at a time, all the steps of a segment, RK4 by
+// fused stage sweeps around the ring (integrators/rk4_ring.hpp). For the segment the 8
+// members' state and moment rows are copied to contiguous local buffers: rows of a wide batch
+// lie a multiple of 512 bytes apart and would compete for the same cache sets. The
+// accumulators are fed as the last sweep produces each site's new value:
+//   a selected site:        TimeMoments::add_sample on its local row (shift set at a block's
+//                           first sample, origin at the very first);
+//   mean and energy:        Lorenz96Equations::add_site over the sites in order 0..n-1, then
+//                           mean() and energy(), exactly as the model's derived() does;
+//   sign regimes:           RegimeLanes (lane_regimes.hpp) on the regime observable;
+//   histogram:              its observable stored to a [steps][width] buffer, counted after
+//                           the segment by MemberHistogram::add_steps.
+// The same operations per member as the generic path, which the tests check bit for bit.
+#include "run/ring_kernel.hpp"
+
+#include <vector>
+
+#include "integrators/lanes.hpp"
+#include "integrators/rk4_ring.hpp"
+#include "models/lorenz96_equations.hpp"
+#include "run/batch_work.hpp"
+#include "run/lane_regimes.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+using integrators::Lanes;
+using integrators::load_lanes;
+using integrators::store_lanes;
+constexpr int L = integrators::kLanes;
+
+class RingKernel final : public Kernel {
+ public:
+  RingKernel(const Setup& s, const Accumulators& acc)
+      : eq_(models::Lorenz96Equations::from(s.parameters)),
+        h_(s.dt),
+        n_(eq_.n),
+        width_(s.width),
+        acc_(acc),
+        site_series_(static_cast<std::size_t>(eq_.n), -1),
+        regime_observable_(acc.regimes ? s.regime_coordinates[0] : -1),
+        histogram_observable_(acc.histogram ? s.histogram_observable : -1),
+        needs_derived_(s.needs_derived),
+        scratch_(static_cast<std::size_t>(integrators::ring_scratch_lanes(eq_.n))),
+        state_(static_cast<std::size_t>(eq_.n)),
+        shift_(s.observables.size()),
+        sum1_(s.observables.size()),
+        sum2_(s.observables.size()) {
+    for (std::size_t o = 0; o < s.observables.size(); ++o) {
+      const int i = s.observables[o];
+      if (i < n_) site_series_[i] = static_cast<int>(o);
+      if (i == n_) mean_series_ = static_cast<int>(o);
+      if (i == n_ + 1) energy_series_ = static_cast<int>(o);
+    }
+    if (acc.histogram) values_.resize(static_cast<std::size_t>(kMaxSegment) * s.width);
+  }
+
+  void spin(double* x, int steps) override {
+    for (int lane = 0; lane < width_; lane += L) {
+      double* local = copy_in(x, lane);
+      for (int t = 0; t < steps; ++t) {
+        integrators::ring_rk4_step(eq_, h_, n_, local, L, scratch_.data());
+      }
+      copy_out(x, lane);
+    }
+  }
+
+  void accumulate(double* x, int steps) override {
+    const bool opens_block = acc_.moments->block_starts();
+    const bool first = acc_.moments->count() == 0;
+    for (int lane = 0; lane < width_; lane += L) {
+      accumulate_lanes(x, lane, steps, opens_block, first);
+    }
+    acc_.moments->added(steps);
+    if (acc_.regimes) acc_.regimes->added(steps);
+    if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
+  }
+
+ private:
+  /// The 8 members' state rows [n][8] in state_; returns it.
+  double* copy_in(const double* x, int lane) {
+    for (int k = 0; k < n_; ++k) state_[k] = load_lanes(x + static_cast<long>(k) * width_ + lane);
+    return reinterpret_cast<double*>(state_.data());
+  }
+  void copy_out(double* x, int lane) const {
+    for (int k = 0; k < n_; ++k) store_lanes(x + static_cast<long>(k) * width_ + lane, state_[k]);
+  }
+  void accumulate_lanes(double* x, int lane, int steps, bool opens_block, bool first);
+
+  models::Lorenz96Equations eq_;
+  integrators::Rk4Steps h_;
+  int n_, width_;
+  Accumulators acc_;
+  std::vector<int> site_series_;  // [n]: the moments series of site k, -1 if not selected
+  int mean_series_ = -1, energy_series_ = -1;
+  int regime_observable_, histogram_observable_;  // observable indices, -1 when not used
+  bool needs_derived_;
+  std::vector<Lanes> scratch_;
+  std::vector<Lanes> state_;                   // [n]: the 8 members' state during a segment
+  std::vector<Lanes> shift_, sum1_, sum2_;     // [series]: their moment rows
+  std::vector<double> values_;  // [kMaxSegment][width]: the histogram observable per step
+};
+
+void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_block, bool first) {
+  const models::Lorenz96Equations eq = eq_;
+  const int n = n_, regime_observable = regime_observable_;
+  const int histogram_observable = histogram_observable_;
+  const bool needs_derived = needs_derived_;
+  const int* site_series = site_series_.data();
+  const long w = width_;
+  const int series = static_cast<int>(shift_.size());
+  const stats::TimeMoments::Rows m = acc_.moments->rows();
+  Lanes* shift = shift_.data();
+  Lanes* sum1 = sum1_.data();
+  Lanes* sum2 = sum2_.data();
+  for (int s = 0; s < series; ++s) {
+    shift[s] = load_lanes(m.shift + s * w + lane);
+    sum1[s] = load_lanes(m.s1 + s * w + lane);
+    sum2[s] = load_lanes(m.s2 + s * w + lane);
+  }
+  stats::RegimeCounter::Rows r{};
+  RegimeLanes regime = {};
+  if (regime_observable >= 0) {
+    r = acc_.regimes->rows();
+    regime.begin(r, lane);
+  }
+  double* local = copy_in(x, lane);
+  for (int t = 0; t < steps; ++t) {
+    const bool opens = t == 0 && opens_block;
+    // one sample of series s (TimeMoments::add semantics)
+    auto feed = [&](int s, Lanes v) {
+      if (opens) {
+        shift[s] = v;
+        if (first) store_lanes(m.origin + s * w + lane, v);
+      }
+      stats::TimeMoments::add_sample(v, shift[s], sum1[s], sum2[s]);
+    };
+    Lanes sum = {}, squares = {}, regime_value = {}, histogram_value = {};
+    integrators::ring_rk4_step(eq, h_, n, local, L, scratch_.data(), [&](int k, Lanes v) {
+      if (needs_derived) models::Lorenz96Equations::add_site(v, sum, squares);
+      if (site_series[k] >= 0) feed(site_series[k], v);
+      if (k == regime_observable) regime_value = v;
+      if (k == histogram_observable) histogram_value = v;
+    });
+    if (needs_derived) {
+      const Lanes mean = eq.mean(sum), energy = models::Lorenz96Equations::energy(squares);
+      if (mean_series_ >= 0) feed(mean_series_, mean);
+      if (energy_series_ >= 0) feed(energy_series_, energy);
+      if (regime_observable == n) regime_value = mean;
+      if (regime_observable == n + 1) regime_value = energy;
+      if (histogram_observable == n) histogram_value = mean;
+      if (histogram_observable == n + 1) histogram_value = energy;
+    }
+    if (regime_observable >= 0) regime.add(regime_value);
+    if (histogram_observable >= 0) store_lanes(values_.data() + t * w + lane, histogram_value);
+  }
+  copy_out(x, lane);
+  for (int s = 0; s < series; ++s) {
+    store_lanes(m.shift + s * w + lane, shift[s]);
+    store_lanes(m.s1 + s * w + lane, sum1[s]);
+    store_lanes(m.s2 + s * w + lane, sum2[s]);
+  }
+  if (regime_observable >= 0) regime.end(r, w, lane, steps);
+}
+
+}  // namespace
+
+std::unique_ptr<Kernel> make_ring_kernel(const Setup& setup, const Accumulators& acc) {
+  return std::make_unique<RingKernel>(setup, acc);
+}
+
+}  // namespace chaosweep::run

@@ -1,0 +1,14 @@
+// Internal to run/: the fused kernel for lorenz96 (see kernels.hpp). Pure numerics.
+#pragma once
+
+#include <memory>
+
+#include "run/kernels.hpp"
+
+namespace chaosweep::run {
+
+/// The fused ring kernel for lorenz96 (Setup::kernel == ring: width a multiple of 8, sign or
+/// no regimes). The moments accumulator holds the selected observables, in selection order.
+std::unique_ptr<Kernel> make_ring_kernel(const Setup& setup, const Accumulators& acc);
+
+}  // namespace chaosweep::run

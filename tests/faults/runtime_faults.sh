@@ -1,0 +1,78 @@
+#!/usr/bin/env bash
+# Runtime faults end in one clear error and lose nothing already computed (the full disk is
+# in disk_full.sh):
+#   - one rank fails: every rank stops promptly (no hang in a collective), exit non-zero, one
+#     line names the rank;
+#   - members blow up: counted, excluded, warned about once;
+#   - `summary` on a truncated archive or one of a newer format: exit 2, one line, no HDF5 dump.
+# Usage: runtime_faults.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC
+set -uo pipefail
+prog=$1 work=$2 src=$3 mpiexec=$4
+check="/usr/bin/python3 $src/tests/e2e/check_archive.py"
+spec=$src/tests/e2e/specs/l63-small.yaml
+rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
+failures=0
+fail() { echo "FAIL: $*"; failures=$((failures + 1)); }
+run() {  # run NP ARCHIVE [ARGS...]
+  local np=$1 archive=$2
+  shift 2
+  "$mpiexec" -np "$np" --oversubscribe "$prog" run "$spec" --archive "$archive" \
+    --progress none "$@" >>"$archive.log" 2>&1
+}
+one_error_line() {  # one_error_line LOG: exactly one line from chaosweep says "error"
+  local n
+  n=$(grep -c "^chaosweep: error" "$1")
+  [ "$n" -ge 1 ] || fail "$1: no error line"
+  ! grep -q "HDF5-DIAG" "$1" || fail "$1: HDF5 diagnostics leaked"
+}
+
+run 2 reference.h5 || fail "reference run"
+
+# 2. One rank fails in the middle of the run: all ranks stop promptly, one line names the rank.
+start=$(date +%s)
+CHAOSWEEP_TEST_ROUND_SECONDS=0.05 CHAOSWEEP_TEST_THROW=1:1 timeout 60 \
+  "$mpiexec" -np 3 --oversubscribe "$prog" run "$spec" --archive thrown.h5 --progress none \
+  > thrown.log 2>&1
+status=$?
+[ $status -ne 0 ] && [ $status -ne 124 ] || fail "failing rank: exit $status (124 = hung)"
+[ $(( $(date +%s) - start )) -lt 30 ] || fail "the failure took too long to stop every rank"
+grep -q "^chaosweep: error (rank 1): injected failure" thrown.log || fail "no line naming rank 1"
+[ ! -e thrown.h5 ] || fail "an archive appeared after a failure"
+
+# 3. Members that blow up: a huge perturbation at the largest accepted dt.
+sed -e 's/scale: 1.0e-2/scale: 20.0/' -e 's/dt: 0.005/dt: 0.09/' "$spec" > blowup.yaml
+"$mpiexec" -np 2 "$prog" run blowup.yaml --archive blowup.h5 --progress none > blowup.log 2>&1
+[ $? -eq 0 ] || fail "run with blow-ups failed: $(tail -n 2 blowup.log)"
+warnings=$(grep -c "became non-finite" blowup.log)
+[ "$warnings" -eq 1 ] || fail "expected one warning about non-finite members, got $warnings"
+/usr/bin/python3 - blowup.h5 <<'PY' || fail "non-finite members not counted and excluded"
+import sys, h5py, numpy as np
+with h5py.File(sys.argv[1], "r") as f:
+    status = f["member/status"][()]
+    valid = f["ensemble/valid_members"][()]
+    mean = f["member/time_mean"][()]
+    ens = f["ensemble/time_mean"][()]
+bad = status != 0
+assert bad.any() and not bad.all(), "the test needs some but not all members to blow up"
+assert (valid == (~bad).sum(axis=1)).all(), "valid_members does not count the valid ones"
+assert np.isnan(mean[bad]).all(), "non-finite members must have NaN statistics"
+for c in range(mean.shape[0]):
+    good = mean[c][~bad[c]]
+    if len(good):  # exact: the ensemble mean is over the valid members only (Welford/Chan order)
+        assert np.allclose(ens[c], good.mean(axis=0), rtol=1e-12, atol=1e-12), c
+print(f"ok: {bad.sum()} of {bad.size} members non-finite, excluded")
+PY
+
+# 4. Archives that cannot be read: truncated, and of a newer format version.
+head -c 5000 reference.h5 > truncated.h5
+"$prog" summary truncated.h5 > out.txt 2> err.txt
+[ $? -eq 2 ] || fail "summary of a truncated archive: expected exit 2"
+[ "$(grep -c '' err.txt)" -eq 1 ] || fail "summary of a truncated archive: not one line: $(cat err.txt)"
+cp reference.h5 newer.h5
+/usr/bin/python3 -c "import h5py; f = h5py.File('newer.h5', 'a'); f.attrs['format_version'] = 99; f.close()"
+"$prog" summary newer.h5 > out.txt 2> err.txt
+[ $? -eq 2 ] || fail "summary of a newer archive: expected exit 2"
+grep -q "newer than this chaosweep" err.txt || fail "newer format not explained: $(cat err.txt)"
+
+[ "$failures" -eq 0 ] || { echo "$failures failures"; exit 1; }
+echo "all runtime fault checks passed"

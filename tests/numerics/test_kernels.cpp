@@ -1,0 +1,233 @@
+// The integration kernels (run/kernels.hpp): the fused Lorenz-63 kernel and the ring kernel
+// of Lorenz-96 give bitwise what the generic path (Rk4Batch over the model's rhs, per-step
+// accumulators) gives, at every batch width and column; spin-up leaves the accumulators alone.
+#include <gtest/gtest.h>
+
+#include <cstdint>
+#include <string>
+#include <type_traits>
+#include <vector>
+
+#include "integrators/reference.hpp"
+#include "numerics_fixtures.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "run/batch_work.hpp"
+#include "run/kernels.hpp"
+#include "spec/spec.hpp"
+
+namespace chaosweep::testing {
+namespace {
+
+/// Forced Lorenz-63 with sign regimes on y, a histogram of z, observables (z, x) (a subset in
+/// another order), trajectories; spin-up 1.23 and duration 4.56 time units at dt 0.005.
+spec::Spec l63_spec() {
+  spec::Spec s;
+  s.name = "kernel-test";
+  s.model = "lorenz63";
+  s.parameters = models::complete_parameters(
+      model_info("lorenz63"), {{"forcing", {3.0}}, {"forcing_direction", {0.0, 1.0, 0.2}}});
+  s.ensemble.members = 40;
+  s.ensemble.initial.kind = spec::InitialKind::attractor;
+  s.ensemble.initial.spinup = 5.0;
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-2};
+  s.ensemble.seed = 314;
+  s.integration.dt = 0.005;
+  s.integration.spinup = 1.23;
+  s.integration.duration = 4.56;
+  s.statistics.observables = {"z", "x"};
+  s.statistics.regimes.kind = spec::RegimeKind::sign;
+  s.statistics.regimes.observable = "y";
+  s.statistics.regimes.labels = {"up", "down"};
+  s.statistics.histogram = {true, "z", 30, 5.0, 45.0};
+  s.output.trajectories = {40, 0.1};
+  return s;
+}
+
+/// Lorenz-63 started far off the attractor at a large step: some members overflow.
+spec::Spec blow_up_spec() {
+  spec::Spec s = l63_spec();
+  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
+  s.ensemble.initial.kind = spec::InitialKind::given;
+  s.ensemble.initial.state = {1.0, 1.0, 20.0};
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
+  s.integration.dt = 0.01;
+  return s;
+}
+
+/// Lorenz-96 (n 40) with its derived observables, sign regimes on x3 and a histogram of x0.
+spec::Spec l96_spec() {
+  spec::Spec s = l63_spec();
+  s.model = "lorenz96";
+  s.parameters = models::complete_parameters(model_info("lorenz96"), {});
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-1};
+  s.integration.dt = 0.01;
+  s.statistics.observables = {};
+  s.statistics.regimes.observable = "x3";
+  s.statistics.histogram = {true, "x0", 25, -10.0, 15.0};
+  return s;
+}
+
+struct Campaign {
+  plan::Plan plan;
+  run::KernelKind kernel;
+  std::vector<run::BatchResult> batches;
+};
+
+/// Every batch of case 0 at batch width `width`, and the kernel the runner chose.
+Campaign run_at_width(spec::Spec s, int width) {
+  s.run.batch_size = width;
+  Campaign r{plan::make_plan(s), run::KernelKind::generic, {}};
+  const run::CaseRunner runner(s, r.plan, r.plan.cases[0]);
+  for (const plan::Batch& b : r.plan.batches) r.batches.push_back(runner.run(b));
+  const auto model = make_model(s.model, s.parameters);
+  run::Setup setup;
+  setup.model = s.model;
+  setup.width = width;
+  setup.state_dim = model->state_dim();
+  setup.observables = r.plan.observable_index;
+  setup.regime_kind = s.statistics.regimes.kind;
+  setup.n_regimes = 2;
+  for (std::size_t i = 0; i < model->observables().size(); ++i) {
+    const std::string& name = model->observables()[i].name;
+    if (name == s.statistics.regimes.observable) setup.regime_coordinates = {static_cast<int>(i)};
+    if (name == s.statistics.histogram.observable) setup.histogram_observable = static_cast<int>(i);
+  }
+  setup.histogram = s.statistics.histogram;
+  r.kernel = run::choose_kernel(setup);
+  return r;
+}
+
+template <typename T>
+std::vector<T> slice(const std::vector<T>& a, std::size_t first, std::size_t count) {
+  return std::vector<T>(a.begin() + first * count, a.begin() + (first + 1) * count);
+}
+
+template <typename T>
+bool same(const std::vector<T>& a, const std::vector<T>& b) {
+  if (a.size() != b.size()) return false;
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    if constexpr (std::is_floating_point_v<T>) {
+      if (!same_bits(a[i], b[i])) return false;
+    } else if (a[i] != b[i]) {
+      return false;
+    }
+  }
+  return true;
+}
+
+/// Member m's numbers from the batches of a run (batch m / width, column m % width).
+struct Member {
+  std::vector<double> initial, mean, variance, fraction, residence, trajectory;
+  std::uint8_t status;
+  std::int64_t transitions;
+};
+Member member(const Campaign& r, int m) {
+  const run::BatchResult& b = r.batches[m / r.plan.batch_size];
+  const std::size_t j = m % r.plan.batch_size, d = r.plan.state_dim;
+  const std::size_t o = r.plan.observables.size(), g = r.plan.regime_labels.size();
+  return {slice(b.initial_state, j, d), slice(b.time_mean, j, o), slice(b.time_variance, j, o),
+          slice(b.regime_fraction, j, g), slice(b.regime_mean_residence, j, g),
+          slice(b.trajectory, j, static_cast<std::size_t>(r.plan.trajectory_samples) * d),
+          b.status[j], b.regime_transitions[j]};
+}
+
+/// The histogram summed over every batch.
+std::vector<std::int64_t> histogram(const Campaign& r) {
+  std::vector<std::int64_t> total(r.batches.front().histogram.size(), 0);
+  for (const run::BatchResult& b : r.batches) {
+    for (std::size_t i = 0; i < total.size(); ++i) total[i] += b.histogram[i];
+  }
+  return total;
+}
+
+void expect_same_members(const Campaign& a, const Campaign& b, int members) {
+  for (int m = 0; m < members; ++m) {
+    SCOPED_TRACE("member " + std::to_string(m));
+    const Member x = member(a, m), y = member(b, m);
+    EXPECT_TRUE(same(x.initial, y.initial));
+    EXPECT_EQ(x.status, y.status);
+    EXPECT_TRUE(same(x.mean, y.mean));
+    EXPECT_TRUE(same(x.variance, y.variance));
+    EXPECT_TRUE(same(x.fraction, y.fraction));
+    EXPECT_TRUE(same(x.residence, y.residence));
+    EXPECT_EQ(x.transitions, y.transitions);
+    EXPECT_TRUE(same(x.trajectory, y.trajectory));
+  }
+  EXPECT_EQ(histogram(a), histogram(b));
+}
+
+// Exact by design (kernels.hpp): the fused kernel performs the generic path's operations per
+// member, so at widths 8, 24 (two-Lanes group plus a one-Lanes group) and 40 every member's
+// numbers, the trajectories and the summed histogram are bitwise those of width 20 (not a
+// multiple of 8: the generic path). 40 members fill every width exactly except 24 (padding).
+TEST(Kernels, FusedLorenz63EqualsGenericBitwise) {
+  for (const spec::Spec& s : {l63_spec(), blow_up_spec()}) {
+    const Campaign generic = run_at_width(s, 20);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    for (int width : {8, 24, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign fused = run_at_width(s, width);
+      ASSERT_EQ(fused.kernel, run::KernelKind::fused);
+      expect_same_members(fused, generic, 40);
+    }
+  }
+}
+
+// Exact by design (rk4_ring.hpp): the ring kernel performs Rk4Batch's operations per member.
+TEST(Kernels, RingLorenz96EqualsGenericBitwise) {
+  const Campaign generic = run_at_width(l96_spec(), 20);
+  ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+  for (int width : {8, 40}) {
+    SCOPED_TRACE("width " + std::to_string(width));
+    const Campaign ring = run_at_width(l96_spec(), width);
+    ASSERT_EQ(ring.kernel, run::KernelKind::ring);
+    expect_same_members(ring, generic, 40);
+  }
+}
+
+// Exact by design: trajectory samples of the fused and ring kernels equal the scalar reference
+// integrator (one member, plain arrays) stepped from the member's initial state.
+TEST(Kernels, TrajectoriesEqualTheScalarReference) {
+  for (const spec::Spec& s : {l63_spec(), l96_spec()}) {
+    SCOPED_TRACE(s.model);
+    const Campaign r = run_at_width(s, 8);
+    ASSERT_NE(r.kernel, run::KernelKind::generic);
+    const auto model = make_model(s.model, s.parameters);
+    for (int m : {0, 13, 39}) {
+      const Member got = member(r, m);
+      std::vector<double> x = got.initial;
+      const std::size_t d = x.size();
+      for (std::int64_t k = 0; k < r.plan.trajectory_samples; ++k) {
+        const std::vector<double> sample(got.trajectory.begin() + k * d,
+                                         got.trajectory.begin() + (k + 1) * d);
+        ASSERT_TRUE(same(sample, x)) << "member " << m << " sample " << k;
+        integrators::rk4_scalar_reference(*model, x.data(), s.integration.dt,
+                                          r.plan.trajectory_every_steps);
+      }
+    }
+  }
+}
+
+// Exact by construction: with a spin-up as long as the whole run but for one step, every
+// accumulator has seen exactly one sample per member (n = 1: NaN variance, fraction 0 or 1).
+TEST(Kernels, SpinUpFeedsNoAccumulator) {
+  spec::Spec s = l63_spec();
+  s.integration.spinup = 2.0;
+  s.integration.duration = 0.005;
+  const Campaign r = run_at_width(s, 8);
+  ASSERT_EQ(r.plan.accumulate_steps, 1);
+  for (int m = 0; m < 8; ++m) {
+    const Member got = member(r, m);
+    for (double v : got.variance) EXPECT_TRUE(std::isnan(v));
+    EXPECT_TRUE(got.fraction[0] == 0.0 || got.fraction[0] == 1.0);
+    EXPECT_EQ(got.fraction[0] + got.fraction[1], 1.0);
+    EXPECT_EQ(got.transitions, 0);
+  }
+  std::int64_t counted = 0;
+  for (std::int64_t c : histogram(r)) counted += c;
+  EXPECT_LE(counted, 40);
+}
+
+}  // namespace
+}  // namespace chaosweep::testing
