@@ -18,7 +18,7 @@ constexpr int kDoubles = 4;
 constexpr int kDoubles = 2;
 #endif
 using Vector = double __attribute__((vector_size(kDoubles * sizeof(double))));
-constexpr int kChains = 16;
+constexpr int kChains = 12;  // > latency x FMA pipes (4 x 2); + 2 operands fits 16 registers
 
 /// `iterations` rounds of acc_i <- acc_i * a + b on kChains independent vectors.
 __attribute__((noinline)) double fma_chains(std::int64_t iterations, double a_value,
@@ -31,7 +31,7 @@ __attribute__((noinline)) double fma_chains(std::int64_t iterations, double a_va
   }
   for (int c = 0; c < kChains; ++c) acc[c] = a + static_cast<double>(c);
   for (std::int64_t it = 0; it < iterations; ++it) {
-#pragma GCC unroll 16
+#pragma GCC unroll 12
     for (int c = 0; c < kChains; ++c) acc[c] = acc[c] * a + b;
   }
   double sum = 0.0;

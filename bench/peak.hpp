@@ -13,7 +13,7 @@ std::string simd_level();
 int simd_doubles();
 
 /// Double-precision GFLOP/s of one thread running independent fused multiply-adds on full
-/// vectors (16 chains, enough to cover the FMA latency on current cores), over about
+/// vectors (12 chains, enough to cover the FMA latency on current cores), over about
 /// `seconds` of CPU time. An FMA counts as 2 flops.
 double fma_peak_gflops(double seconds);
 

@@ -4,6 +4,9 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
+
+#include "run/lyapunov.hpp"
 
 namespace chaosweep::app {
 namespace {
@@ -83,9 +86,34 @@ void LocalWork::start_next() {
   }
 }
 
+namespace {
+
+/// The leading Lyapunov exponents of a finished batch's members, from their initial states
+/// (a second integration with tangent vectors; NaN for members that became non-finite).
+void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& r) {
+  const spec::Lyapunov& l = spec.statistics.lyapunov;
+  if (!l.enabled) return;
+  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
+  const std::unique_ptr<models::Model> model =
+      info->make(plan.cases[static_cast<std::size_t>(r.case_index)].parameters);
+  const double dt = spec.integration.dt;
+  const std::int64_t every = std::max<std::int64_t>(1, std::llround(l.renormalise_every / dt));
+  r.lyapunov = run::lyapunov_exponents(*model, r.initial_state, r.count, dt, plan.spinup_steps,
+                                       plan.accumulate_steps, l.exponents, every);
+  for (int m = 0; m < r.count; ++m) {
+    if (r.status[static_cast<std::size_t>(m)] == run::kValid) continue;
+    for (int k = 0; k < l.exponents; ++k) {
+      r.lyapunov[static_cast<std::size_t>(m) * l.exponents + k] = NAN;
+    }
+  }
+}
+
+}  // namespace
+
 void LocalWork::finish_current() {
   results_[current_index_] = current_->finish();
   current_.reset();
+  add_lyapunov(spec_, plan_, *results_[current_index_]);
   if (store_) store_->save_done(*results_[current_index_]);
 }
 

@@ -1,12 +1,14 @@
 // `chaosweep summary`: the response tables of an archive as an aligned table, CSV or JSON.
 #include <algorithm>
 #include <cmath>
+#include <stdexcept>
 #include <cstdio>
 #include <string>
 #include <vector>
 
 #include "app/commands.hpp"
 #include "archive/reader.hpp"
+#include "stats/lyapunov.hpp"
 
 namespace chaosweep::app {
 namespace {
@@ -41,6 +43,24 @@ std::string json_string(const std::string& s) {
 std::string json_estimate(double mean, double std, const double* ci) {
   return "{\"mean\": " + json_number(mean) + ", \"std\": " + json_number(std) + ", \"ci95\": [" +
          json_number(ci[0]) + ", " + json_number(ci[1]) + "]}";
+}
+
+/// Names of the Lyapunov exponents: lambda1 (leading), lambda2, ...
+std::vector<std::string> exponent_names(const ArchiveSummary& s) {
+  std::vector<std::string> names;
+  for (int k = 1; k <= s.exponents; ++k) names.push_back("lambda" + std::to_string(k));
+  return names;
+}
+
+/// Kaplan-Yorke dimension of a case's ensemble-mean exponents (NaN when the exponents do not
+/// reach a negative sum).
+double kaplan_yorke(const ArchiveSummary& s, std::int64_t c) {
+  const auto first = s.lyapunov.begin() + c * s.exponents;
+  try {
+    return stats::kaplan_yorke_dimension(std::vector<double>(first, first + s.exponents));
+  } catch (const std::invalid_argument&) {  // means of ties out of order by rounding
+    return NAN;
+  }
 }
 
 void print_json(const ArchiveSummary& s) {
@@ -87,7 +107,18 @@ void print_json(const ArchiveSummary& s) {
                   json_estimate(s.regime_fraction[i], s.regime_fraction_std[i],
                                 &s.regime_fraction_ci95[2 * i]).c_str());
     }
-    std::printf("}}%s\n", c + 1 < s.cases ? "," : "");
+    std::printf("}");
+    if (s.exponents > 0) {
+      std::printf(",\n     \"lyapunov\": [");
+      for (int k = 0; k < s.exponents; ++k) {
+        const std::size_t i = idx(c, s.exponents, k);
+        std::printf("%s%s", k ? ", " : "",
+                    json_estimate(s.lyapunov[i], s.lyapunov_std[i], &s.lyapunov_ci95[2 * i]).c_str());
+      }
+      std::printf("], \"kaplan_yorke_dimension\": %s",
+                  json_number(kaplan_yorke(s, c)).c_str());
+    }
+    std::printf("}%s\n", c + 1 < s.cases ? "," : "");
   }
   std::printf("  ],\n  \"response\": [");
   bool first = true;
@@ -127,6 +158,11 @@ void print_csv(const ArchiveSummary& s) {
       const std::size_t i = idx(c, n_reg, k);
       row(c, "regime_fraction", s.regimes[k], s.regime_fraction[i], s.regime_fraction_std[i],
           &s.regime_fraction_ci95[2 * i], "fraction");
+    }
+    for (int k = 0; k < s.exponents; ++k) {
+      const std::size_t i = idx(c, s.exponents, k);
+      row(c, "lyapunov", "lambda" + std::to_string(k + 1), s.lyapunov[i], s.lyapunov_std[i],
+          &s.lyapunov_ci95[2 * i], "per model time unit");
     }
   }
 }
@@ -237,6 +273,13 @@ void print_table(const ArchiveSummary& s) {
   if (!s.regimes.empty()) {
     print_block(s, "regime fraction, share of time (0-1): ensemble mean [95% confidence "
                 "interval of the mean]", s.regimes, s.regime_fraction, s.regime_fraction_ci95);
+  }
+  if (s.exponents > 0) {
+    print_block(s, "Lyapunov exponents, per model time unit: ensemble mean [95% confidence "
+                "interval of the mean]", exponent_names(s), s.lyapunov, s.lyapunov_ci95);
+    std::printf("Kaplan-Yorke dimension of the ensemble-mean exponents:");
+    for (std::int64_t c = 0; c < s.cases; ++c) std::printf(" %.4g", kaplan_yorke(s, c));
+    std::printf("  (by case; nan when the %d exponents do not reach it)\n", s.exponents);
   }
   if (!s.axes.empty()) {
     std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "

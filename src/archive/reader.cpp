@@ -53,6 +53,12 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
   s.regime_fraction = read_optional<double>(root, "ensemble/regime_fraction");
   s.regime_fraction_std = read_optional<double>(root, "ensemble/regime_fraction_std");
   s.regime_fraction_ci95 = read_optional<double>(root, "ensemble/regime_fraction_ci95");
+  if (root.has_dataset("ensemble/lyapunov")) {
+    s.lyapunov = read_all<double>(root, "ensemble/lyapunov");
+    s.lyapunov_std = read_all<double>(root, "ensemble/lyapunov_std");
+    s.lyapunov_ci95 = read_all<double>(root, "ensemble/lyapunov_ci95");
+    s.exponents = static_cast<int>(read_all<std::int64_t>(root, "ensemble/exponent").size());
+  }
   if (root.has_group("response")) {
     s.axes = read_all<std::string>(root, "response/axis");
     s.slope = read_all<double>(root, "response/slope");
@@ -67,7 +73,9 @@ void check_shapes(const ArchiveSummary& s) {
   bool ok = s.time_mean.size() == cases * n_obs && s.time_mean_ci95.size() == 2 * cases * n_obs &&
             s.effective_members.size() == cases && s.time_mean_std.size() == cases * n_obs &&
             s.regime_fraction.size() == cases * s.regimes.size() &&
-            s.slope.size() == s.axes.size() * n_obs;
+            s.slope.size() == s.axes.size() * n_obs &&
+            s.lyapunov.size() == cases * static_cast<std::size_t>(s.exponents) &&
+            s.lyapunov_ci95.size() == 2 * s.lyapunov.size();
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
   if (!ok) throw UsageError(s.path + ": archive is inconsistent (dataset shapes disagree)");
 }

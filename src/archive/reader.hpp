@@ -31,6 +31,9 @@ struct ArchiveSummary {
   std::vector<double> regime_fraction, regime_fraction_std;  // [case][regime]
   std::vector<double> regime_fraction_ci95;                  // [case][regime][2]
   std::vector<double> slope, slope_stderr;       // [axis][observable]
+  int exponents = 0;                             // Lyapunov exponents per member (0: none)
+  std::vector<double> lyapunov, lyapunov_std;    // [case][exponent]
+  std::vector<double> lyapunov_ci95;             // [case][exponent][2]
 };
 
 /// Reads `path`. A missing file, a file that is not an HDF5 archive of this tool, a truncated

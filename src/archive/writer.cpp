@@ -203,7 +203,14 @@ void write_cases(h5::File& file, const spec::Spec& spec, const plan::Plan& plan)
   }
 }
 
-void write_members(h5::File& file, const plan::Plan& plan,
+/// Exponent indices 1..k (the coordinate of the `exponent` dimension).
+std::vector<std::int64_t> exponent_numbers(int k) {
+  std::vector<std::int64_t> v(static_cast<std::size_t>(k));
+  for (int i = 0; i < k; ++i) v[static_cast<std::size_t>(i)] = i + 1;
+  return v;
+}
+
+void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                    const std::vector<run::BatchResult>& local) {
   GroupWriter g(file, "member");
   const std::uint64_t n_cases = plan.cases.size(), M = plan.members;
@@ -223,6 +230,12 @@ void write_members(h5::File& file, const plan::Plan& plan,
   rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_mean));
   d = g.dataset("time_variance", {n_cases, M, n_obs});
   rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_variance));
+  if (spec.statistics.lyapunov.enabled) {
+    const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
+    g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
+    d = g.dataset("lyapunov", {n_cases, M, k});
+    rows.write(d, {k}, gather(local, &run::BatchResult::lyapunov));
+  }
   if (n_reg == 0) return;
   g.labels("regime", plan.regime_labels, "regime label");
   d = g.dataset("regime_fraction", {n_cases, M, n_reg});
@@ -233,7 +246,8 @@ void write_members(h5::File& file, const plan::Plan& plan,
   rows.write(d, {}, gather(local, &run::BatchResult::regime_transitions));
 }
 
-void write_ensemble(h5::File& file, const plan::Plan& plan, const parallel::EnsembleResults& e) {
+void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
+                    const parallel::EnsembleResults& e) {
   GroupWriter g(file, "ensemble");
   const std::uint64_t n_cases = plan.cases.size();
   const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
@@ -245,6 +259,13 @@ void write_ensemble(h5::File& file, const plan::Plan& plan, const parallel::Ense
   g.dataset("time_mean_ci95", {n_cases, n_obs, 2}).write_from_rank0(e.time_mean_ci95);
   g.dataset("valid_members", {n_cases}).write_from_rank0(e.valid_members);
   g.dataset("effective_members", {n_cases}).write_from_rank0(e.effective_members);
+  if (spec.statistics.lyapunov.enabled) {
+    const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
+    g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
+    g.dataset("lyapunov", {n_cases, k}).write_from_rank0(e.lyapunov);
+    g.dataset("lyapunov_std", {n_cases, k}).write_from_rank0(e.lyapunov_std);
+    g.dataset("lyapunov_ci95", {n_cases, k, 2}).write_from_rank0(e.lyapunov_ci95);
+  }
   if (n_reg == 0) return;
   g.labels("regime", plan.regime_labels, "regime label");
   g.dataset("regime_fraction", {n_cases, n_reg}).write_from_rank0(e.regime_fraction);
@@ -321,8 +342,8 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   h5::File file = h5::File::create_parallel(partial, MPI_COMM_WORLD);
   write_root(file, spec, plan, info);
   write_cases(file, spec, plan);
-  write_members(file, plan, local);
-  write_ensemble(file, plan, ensemble);
+  write_members(file, spec, plan, local);
+  write_ensemble(file, spec, plan, ensemble);
   write_response(file, spec, plan, ensemble);
   write_histogram(file, spec, plan, ensemble);
   write_trajectories(file, plan, local, spec.integration.dt);

@@ -45,7 +45,9 @@ class Cursor {
     const std::uint64_t n = get<std::uint64_t>();
     if (n > (end_ - pos_) / sizeof(T)) fail("array longer than the file");
     std::vector<T> v(static_cast<std::size_t>(n));
-    std::memcpy(v.data(), take(v.size() * sizeof(T)), v.size() * sizeof(T));
+    const char* from = take(v.size() * sizeof(T));
+    // An empty vector's data() may be null, which memcpy does not accept even for 0 bytes.
+    if (!v.empty()) std::memcpy(v.data(), from, v.size() * sizeof(T));
     return v;
   }
   bool at_end() const { return pos_ == end_; }

@@ -41,7 +41,8 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
                {"time_variance", r.time_variance},
                {"regime_fraction", r.regime_fraction},
                {"regime_mean_residence", r.regime_mean_residence},
-               {"trajectory", r.trajectory}};
+               {"trajectory", r.trajectory},
+               {"lyapunov", r.lyapunov}};
   rec.bytes = {{"status", r.status}};
   return rec;
 }
@@ -63,6 +64,7 @@ run::BatchResult to_result(const Record& rec) {
   r.regime_fraction = rec.real("regime_fraction");
   r.regime_mean_residence = rec.real("regime_mean_residence");
   r.trajectory = rec.real("trajectory");
+  r.lyapunov = rec.real("lyapunov");
   r.status = rec.byte_array("status");
   return r;
 }

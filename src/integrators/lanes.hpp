@@ -1,9 +1,9 @@
-// Lanes: the values of 8 members side by side, as one GCC vector-extension value. Arithmetic
-// on Lanes is element-wise IEEE-754 double arithmetic, exactly what the same expression does
-// on one double (fused multiply-add contraction included), so code templated on the value
-// type gives bitwise the same result per member for T = double and T = Lanes. The compiler
-// maps Lanes onto the build's SIMD registers: one 512-bit register with AVX-512, two 256-bit
-// with AVX2, four 128-bit with SSE2. Pure numerics.
+// Lanes: the values of kLanes members side by side, one SIMD register's worth of doubles at
+// the build's SIMD level (8 with AVX-512, 4 with AVX/AVX2, 2 with SSE2), as a GCC
+// vector-extension value. Arithmetic on Lanes is element-wise IEEE-754 double arithmetic,
+// exactly what the same expression does on one double (fused multiply-add contraction
+// included), so code templated on the value type gives bitwise the same result per member for
+// T = double and T = Lanes, whatever kLanes is. Pure numerics.
 #pragma once
 
 #include <cstdint>
@@ -11,11 +11,18 @@
 
 namespace chaosweep::integrators {
 
-constexpr int kLanes = 8;  // members per Lanes value; batch widths are multiples of it
+#if defined(__AVX512F__)
+constexpr int kLanes = 8;
+#elif defined(__AVX__)
+constexpr int kLanes = 4;
+#else
+constexpr int kLanes = 2;
+#endif
+// Members per Lanes value; every batch width the spec allows (a multiple of 8) is a multiple.
 using Lanes = double __attribute__((vector_size(kLanes * sizeof(double))));
 using LaneInts = std::int64_t __attribute__((vector_size(kLanes * sizeof(std::int64_t))));
 
-/// 8 consecutive doubles from p (no alignment needed).
+/// kLanes consecutive doubles from p (no alignment needed).
 inline Lanes load_lanes(const double* p) {
   Lanes v;
   std::memcpy(&v, p, sizeof v);

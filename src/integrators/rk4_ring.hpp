@@ -1,5 +1,5 @@
 // Classical RK4 for ring models (Lorenz-96 type: site k depends on sites k-2 .. k+1, indices
-// mod n), 8 members at a time. The operations per member are those of Rk4Batch::step with the
+// mod n), one Lanes of members (lanes.hpp) at a time. The operations per member are those of Rk4Batch::step with the
 // model's rhs() (rk4.cpp):
 //   k1 = f(x), k2 = f(x + dt/2 k1), k3 = f(x + dt/2 k2), k4 = f(x + dt k3),
 //   x <- x + dt/6 (((k1 + 2 k2) + 2 k3) + k4),
@@ -56,7 +56,7 @@ inline void fused_stage_pair(const Equations& eq, int n, In in, First first, Sec
 /// Scratch space of ring_rk4_step for n sites, in Lanes.
 inline int ring_scratch_lanes(int n) { return 2 * n; }
 
-/// One RK4 step of 8 members in place: member l's site k at x[k * width + l], l < 8.
+/// One RK4 step of kLanes members in place: member l's site k at x[k * width + l], l < kLanes.
 /// `scratch` holds ring_scratch_lanes(n) Lanes. on_site(k, v) is called with each site's new
 /// value v, in site order 0..n-1, right after it is stored.
 template <typename Equations, typename OnSite>

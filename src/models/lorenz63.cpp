@@ -81,6 +81,28 @@ class Lorenz63 final : public Model {
     }
   }
 
+  bool has_tangent() const override { return true; }
+
+  // out = J(x) v with the Jacobian of the equations above (the constant forcing drops out):
+  //   [ -sigma     sigma   0    ]
+  //   [ rho - z    -1      -x   ]
+  //   [ y          x       -beta]
+  void tangent(const double* x, const double* v, double* out, int width) const override {
+    const double sigma = sigma_, rho = rho_, beta = beta_;
+    const double* x0 = x;
+    const double* x1 = x + width;
+    const double* x2 = x + 2 * width;
+    const double* v0 = v;
+    const double* v1 = v + width;
+    const double* v2 = v + 2 * width;
+#pragma GCC ivdep
+    for (int m = 0; m < width; ++m) {
+      out[m] = sigma * (v1[m] - v0[m]);
+      out[width + m] = (rho - x2[m]) * v0[m] - v1[m] - x0[m] * v2[m];
+      out[2 * width + m] = x1[m] * v0[m] + x0[m] * v1[m] - beta * v2[m];
+    }
+  }
+
   // Estimate: RK4 is stable while dt |lambda| <= 2.785 for the Jacobian's eigenvalues lambda
   // along the attractor. The attractor's closure contains the origin, whose spectral radius
   // lambda0 (closed form above) is therefore attained. Sampled along long trajectories, the

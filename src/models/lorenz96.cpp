@@ -68,6 +68,32 @@ class Lorenz96 final : public Model {
     }
   }
 
+  bool has_tangent() const override { return true; }
+
+  // out = J(x) v: the linearised site equation
+  //   out_k = (v_{k+1} - v_{k-2}) x_{k-1} + (x_{k+1} - x_{k-2}) v_{k-1} - v_k.
+  void tangent(const double* x, const double* v, double* out, int width) const override {
+    const int n = n_;
+    for (int k = 0; k < n; ++k) {
+      const int kp1 = k + 1 < n ? k + 1 : k + 1 - n;
+      const int km1 = k >= 1 ? k - 1 : k - 1 + n;
+      const int km2 = k >= 2 ? k - 2 : k - 2 + n;
+      const long w = width;
+      const double* xp1 = x + kp1 * w;
+      const double* xm1 = x + km1 * w;
+      const double* xm2 = x + km2 * w;
+      const double* vp1 = v + kp1 * w;
+      const double* vm1 = v + km1 * w;
+      const double* vm2 = v + km2 * w;
+      const double* vk = v + k * w;
+      double* o = out + k * w;
+#pragma GCC ivdep
+      for (int m = 0; m < width; ++m) {
+        o[m] = (vp1[m] - vm2[m]) * xm1[m] + (xp1[m] - xm2[m]) * vm1[m] - vk[m];
+      }
+    }
+  }
+
   // out: [2][width]: row 0 the domain mean, row 1 the energy; sites summed in order 0..n-1
   // with Lorenz96Equations' derived-observable arithmetic (shared with the ring kernel).
   void derived(const double* x, double* out, int width) const override {

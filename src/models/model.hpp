@@ -11,6 +11,7 @@
 #include <functional>
 #include <map>
 #include <memory>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -55,6 +56,19 @@ class Model {
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
   virtual void derived(const double* x, double* out, int width) const {
     (void)x; (void)out; (void)width;
+  }
+
+  /// Whether tangent() is implemented (the tangent-linear product J(x) v).
+  virtual bool has_tangent() const { return false; }
+
+  /// Tangent-linear product over a batch: out = J(x) v, where J(x) = d rhs / dx is the
+  /// Jacobian of rhs() at x, member by member. x, v and out are [state_dim][width] (SoA, the
+  /// layout of rhs()); column m of out depends only on column m of x and v. No allocation, no
+  /// I/O, deterministic; out must alias neither x nor v. Only models whose has_tangent() is true
+  /// implement it; the base version throws std::logic_error (a caller error, never a data one).
+  virtual void tangent(const double* x, const double* v, double* out, int width) const {
+    (void)x; (void)v; (void)out; (void)width;
+    throw std::logic_error("this model has no tangent-linear product");
   }
 
   /// Largest time step for which classical RK4 is clearly stable on this model's attractor

@@ -37,12 +37,14 @@ stats::Moments batch_moments(const run::BatchResult& b, const std::vector<double
   return m;
 }
 
-std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs, int n_reg) {
+std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs, int n_reg,
+                              int n_lyap) {
   std::vector<double> out;
-  out.reserve(local.size() * kMomentWidth * (n_obs + n_reg));
+  out.reserve(local.size() * kMomentWidth * (n_obs + n_reg + n_lyap));
   for (const run::BatchResult& b : local) {
     for (int o = 0; o < n_obs; ++o) append(out, batch_moments(b, b.time_mean, n_obs, o));
     for (int r = 0; r < n_reg; ++r) append(out, batch_moments(b, b.regime_fraction, n_reg, r));
+    for (int k = 0; k < n_lyap; ++k) append(out, batch_moments(b, b.lyapunov, n_lyap, k));
   }
   return out;
 }
@@ -85,10 +87,12 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   const int n_obs = static_cast<int>(plan.observables.size());
   const int n_reg = static_cast<int>(plan.regime_labels.size());
   const int bins = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
+  const int n_lyap = spec.statistics.lyapunov.enabled ? spec.statistics.lyapunov.exponents : 0;
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_batch = static_cast<std::size_t>(kMomentWidth * (n_obs + n_reg));
+  const std::size_t per_batch = static_cast<std::size_t>(kMomentWidth * (n_obs + n_reg + n_lyap));
 
-  const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, n_obs, n_reg));
+  const std::vector<double> all =
+      comm.allgather_in_rank_order(summarise(local, n_obs, n_reg, n_lyap));
   std::vector<std::int64_t> local_counts;
   std::int64_t local_bad = 0;
   for (const run::BatchResult& b : local) {
@@ -98,7 +102,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   const std::vector<std::int64_t> counts = comm.allgather_in_rank_order(local_counts);
 
   // Merge per case in batch order.
-  std::vector<stats::Moments> obs(n_cases * n_obs), reg(n_cases * n_reg);
+  std::vector<stats::Moments> obs(n_cases * n_obs), reg(n_cases * n_reg), lyap(n_cases * n_lyap);
   EnsembleResults r;
   r.histogram.assign(n_cases * bins, 0);
   for (const plan::Batch& b : plan.batches) {
@@ -106,6 +110,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
     const std::size_t c = static_cast<std::size_t>(b.case_index);
     for (int o = 0; o < n_obs; ++o, p += kMomentWidth) obs[c * n_obs + o].merge(read_moments(p));
     for (int k = 0; k < n_reg; ++k, p += kMomentWidth) reg[c * n_reg + k].merge(read_moments(p));
+    for (int k = 0; k < n_lyap; ++k, p += kMomentWidth) lyap[c * n_lyap + k].merge(read_moments(p));
     for (int k = 0; k < bins; ++k)
       r.histogram[c * bins + k] += counts[static_cast<std::size_t>(b.index) * bins + k];
   }
@@ -118,6 +123,9 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   r.regime_fraction.assign(n_cases * n_reg, NAN);
   r.regime_fraction_std.assign(n_cases * n_reg, NAN);
   r.regime_fraction_ci95.assign(n_cases * n_reg * 2, NAN);
+  r.lyapunov.assign(n_cases * n_lyap, NAN);
+  r.lyapunov_std.assign(n_cases * n_lyap, NAN);
+  r.lyapunov_ci95.assign(n_cases * n_lyap * 2, NAN);
   for (std::size_t c = 0; c < n_cases; ++c) {
     for (int o = 0; o < n_obs; ++o) {
       const std::size_t i = c * n_obs + o;
@@ -127,6 +135,10 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
       const std::size_t i = c * n_reg + k;
       store(stats::estimate(reg[i]), i, r.regime_fraction, r.regime_fraction_std,
             r.regime_fraction_ci95);
+    }
+    for (int k = 0; k < n_lyap; ++k) {
+      const std::size_t i = c * n_lyap + k;
+      store(stats::estimate(lyap[i]), i, r.lyapunov, r.lyapunov_std, r.lyapunov_ci95);
     }
     // Members are independent draws (distinct perturbations, decorrelated after spin-up), so
     // every valid member counts as one independent sample of the case's time-mean statistics.

@@ -26,6 +26,9 @@ struct EnsembleResults {
   std::vector<double> regime_fraction_std;      // [case][regime]
   std::vector<double> regime_fraction_ci95;     // [case][regime][2]
   std::vector<std::int64_t> histogram;          // [case][bin]
+  std::vector<double> lyapunov;                 // [case][exponent] (when requested)
+  std::vector<double> lyapunov_std;             // [case][exponent]
+  std::vector<double> lyapunov_ci95;            // [case][exponent][2]
   std::vector<double> slope;                    // [axis][observable]
   std::vector<double> slope_stderr;             // [axis][observable]
   std::int64_t non_finite_members = 0;          // over the whole campaign

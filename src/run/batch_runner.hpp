@@ -40,6 +40,7 @@ struct BatchResult {
   std::vector<std::int64_t> histogram;         // [bins], summed over the valid members
   std::vector<double> trajectory;              // [stored members in this batch][samples][state_dim]
   int trajectory_members = 0;                  // members of this batch among the stored ones
+  std::vector<double> lyapunov;                // [count][exponents] when requested, else empty
 };
 
 /// Complete state of a batch in progress: everything needed to continue it and obtain bitwise

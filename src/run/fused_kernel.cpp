@@ -1,5 +1,5 @@
-// The fused kernel: RK4 and every per-step accumulator update on Lanes of 8 members, with G
-// Lanes interleaved so that independent dependency chains keep the FMA pipelines busy, and the
+// The fused kernel: RK4 and every per-step accumulator update on Lanes (kLanes members, one
+// SIMD register: integrators/lanes.hpp), with G Lanes interleaved so that independent dependency chains keep the FMA pipelines busy, and the
 // state and running sums held in local variables (registers) for a whole segment of steps.
 //
 // Per step and Lane, after the RK4 step (integrators/rk4_step.hpp, the model's equations):
@@ -29,12 +29,17 @@ using integrators::load_lanes;
 using integrators::store_lanes;
 constexpr int L = integrators::kLanes;
 
-/// Lanes interleaved per group: spin-up has only the state to keep in registers (4 chains);
-/// with the accumulators 3 chains were fastest on AVX-512 (2 leave the FMA pipelines idle
-/// waiting on the RK4 dependency chain, 4 spill more running sums than they gain; see README).
-/// Lanes left over at the end of a batch go in groups of 2 and 1.
+/// Lanes interleaved per group, measured best (README, Performance): spin-up has only the state
+/// to keep in registers (4 chains); with the accumulators, AVX-512's 32 registers hold 3 chains
+/// (2 leave the FMA pipelines waiting on the RK4 dependency chain, 4 spill more running sums
+/// than they gain), while with 16 registers (AVX2, SSE2) 4 chains win despite spilling. Lanes
+/// left over at the end of a batch go in groups of 2 and 1.
 constexpr int kSpinGroup = 4;
+#if defined(__AVX512F__)
 constexpr int kAccumulateGroup = 3;
+#else
+constexpr int kAccumulateGroup = 4;
+#endif
 
 /// x[row] for a row known only at run time (the same row for every step: a predictable branch).
 template <int D>

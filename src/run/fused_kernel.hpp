@@ -8,7 +8,7 @@
 
 namespace chaosweep::run {
 
-/// The fused kernel for lorenz63 (Setup::kernel == fused, width a multiple of 8). The moments
+/// The fused kernel for lorenz63 (Setup::kernel == fused, width a multiple of kLanes). The moments
 /// accumulator must hold one series per state variable, in state order.
 std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc);
 

@@ -88,7 +88,7 @@ class GenericStepper final : public Stepper {
   double dt_;
 };
 
-/// The fused ring RK4 (integrators/rk4_ring.hpp), 8 members at a time; width % 8 == 0.
+/// The fused ring RK4 (integrators/rk4_ring.hpp), one Lanes at a time; width % kLanes == 0.
 class RingStepper final : public Stepper {
  public:
   RingStepper(const models::Lorenz96Equations& eq, int width, double dt)

@@ -3,15 +3,17 @@
 // Pure numerics: no MPI, no HDF5, no YAML, no logging.
 //
 // Three kernels, chosen once per case (choose_kernel) and giving bitwise the same numbers:
-//  - fused:   models with a small fixed state (lorenz63). RK4 and every accumulator update
-//             run member-parallel on Lanes (8 members), a few Lanes interleaved so the FMA
-//             pipelines stay busy, with the state and the running sums held in registers for a
-//             whole segment. Moments are kept for every state variable.
-//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes; the
-//             accumulators are fed per step by the generic code.
+//  - fused:   models with a small fixed state (lorenz63). RK4 and every accumulator update run
+//             member-parallel on Lanes (one SIMD register of members, 8 with AVX-512:
+//             integrators/lanes.hpp), a few Lanes interleaved so the FMA pipelines stay busy,
+//             the state and the running sums held in registers for a whole segment. Moments
+//             are kept for every state variable.
+//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes, the
+//             accumulators fed as each site's new value comes out of the last sweep.
 //  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
-// The fused and ring kernels need a batch width that is a multiple of 8; every member of a
-// batch sees the same operations whatever its column, so results never depend on it.
+// The fused and ring kernels need a batch width that is a multiple of kLanes (every width the
+// spec allows, a multiple of 8, is). Every member of a batch sees the same operations whatever
+// its column, so results never depend on it.
 #pragma once
 
 #include <memory>
@@ -27,7 +29,7 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: fused or ring when the model has one, the width is a multiple of 8
+/// The kernel for a case: fused or ring when the model has one, the width is a multiple of kLanes
 /// and (fused) every observable, the regime coordinate and the histogram observable are state
 /// variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);

@@ -1,5 +1,5 @@
-// The fused ring kernel: 8 members (one Lanes) at a time, all the steps of a segment, RK4 by
-// fused stage sweeps around the ring (integrators/rk4_ring.hpp). For the segment the 8
+// The fused ring kernel: one Lanes of members (integrators/lanes.hpp) at a time, all the steps of a segment, RK4 by
+// fused stage sweeps around the ring (integrators/rk4_ring.hpp). For the segment these
 // members' state and moment rows are copied to contiguous local buffers: rows of a wide batch
 // lie a multiple of 512 bytes apart and would compete for the same cache sets. The
 // accumulators are fed as the last sweep produces each site's new value:
@@ -77,7 +77,7 @@ class RingKernel final : public Kernel {
   }
 
  private:
-  /// The 8 members' state rows [n][8] in state_; returns it.
+  /// The Lanes' state rows [n][kLanes] in state_; returns it.
   double* copy_in(const double* x, int lane) {
     for (int k = 0; k < n_; ++k) state_[k] = load_lanes(x + static_cast<long>(k) * width_ + lane);
     return reinterpret_cast<double*>(state_.data());
@@ -96,7 +96,7 @@ class RingKernel final : public Kernel {
   int regime_observable_, histogram_observable_;  // observable indices, -1 when not used
   bool needs_derived_;
   std::vector<Lanes> scratch_;
-  std::vector<Lanes> state_;                   // [n]: the 8 members' state during a segment
+  std::vector<Lanes> state_;                   // [n]: the Lanes' state during a segment
   std::vector<Lanes> shift_, sum1_, sum2_;     // [series]: their moment rows
   std::vector<double> values_;  // [kMaxSegment][width]: the histogram observable per step
 };

@@ -7,7 +7,7 @@
 
 namespace chaosweep::run {
 
-/// The fused ring kernel for lorenz96 (Setup::kernel == ring: width a multiple of 8, sign or
+/// The fused ring kernel for lorenz96 (Setup::kernel == ring: width a multiple of kLanes, sign or
 /// no regimes). The moments accumulator holds the selected observables, in selection order.
 std::unique_ptr<Kernel> make_ring_kernel(const Setup& setup, const Accumulators& acc);
 

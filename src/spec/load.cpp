@@ -4,7 +4,9 @@
 #include <cerrno>
 #include <cstdio>
 #include <cstring>
+#include <sstream>
 
+#include <yaml-cpp/eventhandler.h>
 #include <yaml-cpp/yaml.h>
 
 #include "core/error.hpp"
@@ -37,23 +39,91 @@ void refuse_tab_indentation(const std::string& text, const std::string& source) 
   }
 }
 
+/// Records where each document of a YAML stream starts (its first token) and where its first
+/// node is, without building the nodes.
+class DocumentStarts : public YAML::EventHandler {
+ public:
+  std::vector<YAML::Mark> starts;  // per document: its first token
+  std::vector<YAML::Mark> nodes;   // per document: its root node (null mark if none seen)
+
+  void OnDocumentStart(const YAML::Mark& mark) override {
+    starts.push_back(mark);
+    nodes.push_back(YAML::Mark::null_mark());
+  }
+  void OnDocumentEnd() override {}
+  void OnNull(const YAML::Mark& mark, YAML::anchor_t) override { node(mark); }
+  void OnAlias(const YAML::Mark& mark, YAML::anchor_t) override { node(mark); }
+  void OnScalar(const YAML::Mark& mark, const std::string&, YAML::anchor_t,
+                const std::string&) override {
+    node(mark);
+  }
+  void OnSequenceStart(const YAML::Mark& mark, const std::string&, YAML::anchor_t,
+                       YAML::EmitterStyle::value) override {
+    node(mark);
+  }
+  void OnSequenceEnd() override {}
+  void OnMapStart(const YAML::Mark& mark, const std::string&, YAML::anchor_t,
+                  YAML::EmitterStyle::value) override {
+    node(mark);
+  }
+  void OnMapEnd() override {}
+
+ private:
+  void node(const YAML::Mark& mark) {
+    if (!nodes.empty() && nodes.back().is_null()) nodes.back() = mark;
+  }
+};
+
+Location location_of_mark(const YAML::Mark& mark) {
+  return Location{mark.line < 0 ? 0 : mark.line + 1, mark.column < 0 ? 0 : mark.column + 1};
+}
+
+[[noreturn]] void fail_syntax(const std::string& source, const YAML::Exception& e) {
+  fail_at(source, location_of_mark(e.mark), "", "YAML syntax error: " + e.msg);
+}
+
+/// Refuses a stream that is empty or holds more than one document. At most three documents
+/// are read: yaml-cpp does not consume a token that cannot start a node (a `,` outside a flow
+/// collection, as in `[a], b`) and would return the same empty document at that token forever,
+/// so a document that starts where the previous one started is a syntax error at that token.
+void require_one_document(const std::string& text, const std::string& source) {
+  std::istringstream stream(text);
+  YAML::Parser parser(stream);
+  DocumentStarts documents;
+  try {
+    for (int read = 0; read < 3 && parser.HandleNextDocument(documents); ++read) {
+      const std::vector<YAML::Mark>& s = documents.starts;
+      if (s.size() >= 2 && s[s.size() - 1].pos == s[s.size() - 2].pos) {
+        const YAML::Mark& stuck = s.back();
+        const char c = stuck.pos >= 0 && static_cast<std::size_t>(stuck.pos) < text.size()
+                           ? text[static_cast<std::size_t>(stuck.pos)]
+                           : '?';
+        const std::string shown = c > ' ' && c < 127 ? "`" + std::string(1, c) + "`" : "token";
+        fail_at(source, location_of_mark(stuck), "",
+                "YAML syntax error: unexpected " + shown + " where a value or key should start");
+      }
+    }
+  } catch (const YAML::Exception& e) {
+    fail_syntax(source, e);
+  }
+  if (documents.starts.empty()) fail_at(source, Location{1, 1}, "", "the spec is empty");
+  if (documents.starts.size() > 1) {
+    const YAML::Mark& second =
+        documents.nodes[1].is_null() ? documents.starts[1] : documents.nodes[1];
+    fail_at(source, location_of_mark(second), "",
+            "a spec holds one YAML document; a second one starts here");
+  }
+}
+
 /// The one YAML document of the spec; syntax errors, an empty file and a second document are
 /// SpecErrors.
 YAML::Node parse_document(const std::string& text, const std::string& source) {
-  std::vector<YAML::Node> documents;
+  require_one_document(text, source);
   try {
-    documents = YAML::LoadAll(text);
+    return YAML::Load(text);
   } catch (const YAML::Exception& e) {
-    const Location where{e.mark.line < 0 ? 0 : e.mark.line + 1,
-                         e.mark.column < 0 ? 0 : e.mark.column + 1};
-    fail_at(source, where, "", "YAML syntax error: " + e.msg);
+    fail_syntax(source, e);
   }
-  if (documents.empty()) fail_at(source, Location{1, 1}, "", "the spec is empty");
-  if (documents.size() > 1) {
-    fail_at(source, location_of(documents[1], Location{1, 1}), "",
-            "a spec holds one YAML document; a second one starts here");
-  }
-  return documents[0];
 }
 
 }  // namespace

@@ -241,6 +241,7 @@ ModelFacts read_model(const Field& model, Spec& spec) {
   }
   for (const auto& o : built->observables()) facts.observables.push_back(o.name);
   facts.max_dt = built->max_stable_dt();
+  facts.has_tangent = built->has_tangent();
   return facts;
 }
 

@@ -109,6 +109,28 @@ void read_trajectories(const Field& f, const Spec& spec, Trajectories& out) {
   }
 }
 
+void read_lyapunov(const Field& f, const ModelFacts& facts, const Spec& spec, Lyapunov& out) {
+  const Map map(f, {{"exponents", "renormalise_every"}, {}, "key", ""});
+  if (!facts.has_tangent) {
+    f.fail(facts.info->name + " has no tangent-linear product, so its Lyapunov exponents "
+           "cannot be computed");
+  }
+  out.enabled = true;
+  const Field exponents = map.required("exponents");
+  const std::int64_t k = exponents.integer();
+  if (k < 1 || k > facts.state_dim) {
+    exponents.fail("must be between 1 and the state dimension of " + facts.info->name + " (" +
+                   std::to_string(facts.state_dim) + "), got " + std::to_string(k));
+  }
+  out.exponents = static_cast<int>(k);
+  const Field every = map.required("renormalise_every");
+  out.renormalise_every = every.number_above(0.0);
+  if (out.renormalise_every < spec.integration.dt) {
+    every.fail("must be at least integration.dt (" + format_number(spec.integration.dt) +
+               "), got " + format_number(out.renormalise_every));
+  }
+}
+
 /// members * cases and state_dim * members * cases must fit in int64 (the sweep has already
 /// checked that the number of cases does).
 void check_sizes(const Field& members, const Spec& spec, const ModelFacts& facts) {
@@ -168,12 +190,13 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
 }
 
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {
-  const Map map(statistics, {{"observables", "regimes", "histogram"},
-                             {"snapshots", "lyapunov", "twins"}, "key", ""});
+  const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov"},
+                             {"snapshots", "twins"}, "key", ""});
   Statistics& out = spec.statistics;
   if (map.has("observables")) out.observables = read_observable_names(map.get("observables"), facts);
   if (map.has("regimes")) read_regimes(map.get("regimes"), facts, out.regimes);
   if (map.has("histogram")) read_histogram(map.get("histogram"), facts, out.histogram);
+  if (map.has("lyapunov")) read_lyapunov(map.get("lyapunov"), facts, spec, out.lyapunov);
 }
 
 void read_output(const Field& output, Spec& spec) {

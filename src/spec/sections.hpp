@@ -21,6 +21,7 @@ struct ModelFacts {
   /// Smallest max_stable_dt() over the base parameters and every swept value.
   double max_dt = 0.0;
   std::string max_dt_where;  // "" for the base parameters, else " with forcing = 8"
+  bool has_tangent = false;  // the model provides tangent() (needed for statistics.lyapunov)
 };
 
 // model_check.cpp

@@ -77,10 +77,20 @@ struct Histogram {
   double low = 0.0, high = 0.0;  // low < high; values outside are not counted
 };
 
+/// Lyapunov exponents of every member by the QR method (statistics.lyapunov): the leading
+/// `exponents` exponents, tangent vectors re-orthonormalised every `renormalise_every` time
+/// units. Only for models with a tangent-linear product.
+struct Lyapunov {
+  bool enabled = false;
+  int exponents = 0;               // 1 .. state_dim
+  double renormalise_every = 0.0;  // time units, >= integration.dt
+};
+
 struct Statistics {
   std::vector<std::string> observables;  // default: every observable of the model
   Regimes regimes;
   Histogram histogram;
+  Lyapunov lyapunov;
 };
 
 /// Full state paths of the first `members` members of every case, sampled every `every` time

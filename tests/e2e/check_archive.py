@@ -217,7 +217,29 @@ def check_xarray(path):
     print(f"ok: {path} opens in xarray with named dimensions")
 
 
+def check_lyapunov_sum(path, trace):
+    """The exponents of Lorenz-63 sum to the trace of its Jacobian, -(sigma + 1 + beta) (exact:
+    Liouville; the Jacobian's trace is constant). Per member, within 1e-3 (the tangent vectors
+    follow the discrete RK4 map, whose volume change per step differs from exp(trace dt) by
+    O(dt^5)); the spectrum of the unforced case is near Sprott (2003)'s (0.9056, 0, -14.5723)
+    (published; 0.05 allows for 40 members over 100 time units)."""
+    trace = float(trace)
+    with h5py.File(path, "r") as f:
+        lyap = f["member/lyapunov"][()]
+        ens = f["ensemble/lyapunov"][()]
+        dims = f["member/lyapunov"].dims[2][0][()]
+    if lyap.shape[2] != 3 or list(dims) != [1, 2, 3]:
+        fail(f"expected 3 exponents numbered 1..3, got {lyap.shape}, {list(dims)}")
+    worst = np.max(np.abs(lyap.sum(axis=2) - trace))
+    if not worst < 1e-3:
+        fail(f"sum of exponents differs from {trace} by {worst:.3g}")
+    if np.any(np.abs(ens[0] - np.array([0.9056, 0.0, -14.5723])) > 0.05):
+        fail(f"unforced spectrum {ens[0]} far from (0.9056, 0, -14.5723)")
+    print(f"ok: exponents sum to {trace:.6f} within {worst:.2g}; unforced spectrum {ens[0]}")
+
+
 CHECKS = {
+    "lyapunov-sum": check_lyapunov_sum,
     "bitwise": check_bitwise,
     "l63-identities": check_l63_identities,
     "l96-identity": check_l96_identity,

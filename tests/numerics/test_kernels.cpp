@@ -158,14 +158,15 @@ void expect_same_members(const Campaign& a, const Campaign& b, int members) {
 }
 
 // Exact by design (kernels.hpp): the fused kernel performs the generic path's operations per
-// member, so at widths 8, 24 (two-Lanes group plus a one-Lanes group) and 40 every member's
-// numbers, the trajectories and the summed histogram are bitwise those of width 20 (not a
-// multiple of 8: the generic path). 40 members fill every width exactly except 24 (padding).
+// member, so at widths 8, 24, 40 and 56 (between them every group of interleaved Lanes a width
+// that is a multiple of 8 uses, at any SIMD level) every member's numbers, the trajectories and
+// the summed histogram are bitwise those of width 21 (odd: the generic path). Widths 24 and 56
+// end in a padded batch.
 TEST(Kernels, FusedLorenz63EqualsGenericBitwise) {
   for (const spec::Spec& s : {l63_spec(), blow_up_spec()}) {
-    const Campaign generic = run_at_width(s, 20);
+    const Campaign generic = run_at_width(s, 21);
     ASSERT_EQ(generic.kernel, run::KernelKind::generic);
-    for (int width : {8, 24, 40}) {
+    for (int width : {8, 24, 40, 56}) {
       SCOPED_TRACE("width " + std::to_string(width));
       const Campaign fused = run_at_width(s, width);
       ASSERT_EQ(fused.kernel, run::KernelKind::fused);
@@ -174,9 +175,10 @@ TEST(Kernels, FusedLorenz63EqualsGenericBitwise) {
   }
 }
 
-// Exact by design (rk4_ring.hpp): the ring kernel performs Rk4Batch's operations per member.
+// Exact by design (rk4_ring.hpp): the ring kernel performs Rk4Batch's operations per member;
+// width 21 (odd) takes the generic path.
 TEST(Kernels, RingLorenz96EqualsGenericBitwise) {
-  const Campaign generic = run_at_width(l96_spec(), 20);
+  const Campaign generic = run_at_width(l96_spec(), 21);
   ASSERT_EQ(generic.kernel, run::KernelKind::generic);
   for (int width : {8, 40}) {
     SCOPED_TRACE("width " + std::to_string(width));

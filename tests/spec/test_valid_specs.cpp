@@ -165,6 +165,22 @@ TEST(ValidSpec, Lorenz96RegimesInDerivedObservables) {
   EXPECT_EQ(s.output.archive, "out dir/l96 energy.h5");
 }
 
+// statistics.lyapunov as written; the two-scale model's state is K slow + K*J fast variables
+// (8 + 32 = 40), so 5 exponents are within range.
+TEST(ValidSpec, TwoScaleLyapunov) {
+  const Spec s = load_spec(valid("lorenz96_two_scale_lyapunov.yaml"));
+  EXPECT_EQ(s.model, "lorenz96-two-scale");
+  EXPECT_EQ(s.parameters.at("K"), std::vector<double>{8.0});
+  EXPECT_EQ(s.parameters.at("J"), std::vector<double>{4.0});
+  EXPECT_EQ(s.parameters.at("F"), std::vector<double>{10.0});  // registry default
+  EXPECT_TRUE(s.statistics.lyapunov.enabled);
+  EXPECT_EQ(s.statistics.lyapunov.exponents, 5);
+  EXPECT_EQ(s.statistics.lyapunov.renormalise_every, 0.05);
+  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"x0", "mean", "energy"}));
+  // Without the section the exponents are off.
+  EXPECT_FALSE(load_spec(valid("lorenz96_defaults.yaml")).statistics.lyapunov.enabled);
+}
+
 // Every valid fixture loads (so a fixture added later is at least parsed).
 TEST(ValidSpec, EveryValidFixtureLoads) {
   int count = 0;

@@ -1,0 +1,134 @@
+// lorenz84: the Lorenz (1984) low-order model of the mid-latitude general circulation.
+//
+//   dx/dt = -y^2 - z^2 - a x + a F
+//   dy/dt = x y - b x z - y + G
+//   dz/dt = b x y + x z - z
+//
+// x is the strength of the westerly (zonal) wind, y and z the cosine and sine phases of a
+// chain of superposed large-scale eddies. F is the symmetric thermal forcing (equator-pole
+// temperature contrast), G the asymmetric (land-sea) forcing, a < 1 the ratio of the zonal
+// damping to the eddy damping, b the rate at which the westerly displaces the eddies.
+//
+// Source: E. N. Lorenz (1984), "Irregularity: a fundamental property of the atmosphere",
+// Tellus 36A, 98-110. Defaults a 0.25, b 4, F 8, G 1 (the chaotic case of that paper).
+// Time unit: the damping time of the eddies (about 5 days in Lorenz's interpretation).
+//
+// With G = 0 the Hadley state (x, y, z) = (F, 0, 0) is a fixed point. The trace of the
+// Jacobian (the phase-space divergence) is 2(x - 1) - a.
+//
+// Observables: the state variables x, y, z; no derived observables.
+// Pure numerics: no allocation in rhs() or tangent(), no I/O.
+#include <algorithm>
+#include <cmath>
+#include <memory>
+#include <vector>
+
+#include "models/model.hpp"
+#include "models/parameter_access.hpp"
+
+namespace chaosweep::models {
+namespace {
+
+/// Real-axis stability limit of classical RK4: |h lambda| <= 2.7853 for real lambda < 0.
+constexpr double kRk4RealAxisLimit = 2.785;
+
+class Lorenz84 final : public Model {
+ public:
+  explicit Lorenz84(const ParameterValues& v)
+      : a_(scalar_parameter(v, "a")),
+        b_(scalar_parameter(v, "b")),
+        F_(scalar_parameter(v, "F")),
+        G_(scalar_parameter(v, "G")) {}
+
+  int state_dim() const override { return 3; }
+
+  const std::vector<ObservableInfo>& observables() const override {
+    static const std::vector<ObservableInfo> obs = {
+        {"x", "strength of the westerly wind (zonal flow)"},
+        {"y", "cosine phase of the large-scale eddies"},
+        {"z", "sine phase of the large-scale eddies"}};
+    return obs;
+  }
+
+  // x, dxdt: [3][width]; rows x, y, z.
+  void rhs(const double* s, double* ds, int width) const override {
+    const double a = a_, b = b_, aF = a_ * F_, G = G_;
+    const double* x = s;
+    const double* y = s + width;
+    const double* z = s + 2 * width;
+#pragma GCC ivdep
+    for (int m = 0; m < width; ++m) {
+      ds[m] = -y[m] * y[m] - z[m] * z[m] - a * x[m] + aF;
+      ds[width + m] = x[m] * y[m] - b * x[m] * z[m] - y[m] + G;
+      ds[2 * width + m] = b * x[m] * y[m] + x[m] * z[m] - z[m];
+    }
+  }
+
+  bool has_tangent() const override { return true; }
+
+  // out = J(x) v with the Jacobian
+  //   [ -a          -2y       -2z    ]
+  //   [ y - b z     x - 1     -b x   ]
+  //   [ b y + z     b x       x - 1  ]
+  void tangent(const double* s, const double* v, double* out, int width) const override {
+    const double a = a_, b = b_;
+    const double* x = s;
+    const double* y = s + width;
+    const double* z = s + 2 * width;
+    const double* v0 = v;
+    const double* v1 = v + width;
+    const double* v2 = v + 2 * width;
+#pragma GCC ivdep
+    for (int m = 0; m < width; ++m) {
+      out[m] = -a * v0[m] - 2.0 * y[m] * v1[m] - 2.0 * z[m] * v2[m];
+      out[width + m] = (y[m] - b * z[m]) * v0[m] + (x[m] - 1.0) * v1[m] - b * x[m] * v2[m];
+      out[2 * width + m] = (b * y[m] + z[m]) * v0[m] + b * x[m] * v1[m] + (x[m] - 1.0) * v2[m];
+    }
+  }
+
+  // A rigorous (hence cautious) bound, not a sampled one. With E = |s|^2 / 2,
+  //   dE/dt = -a x^2 + a F x - y^2 - z^2 + G y,
+  // negative outside the ellipsoid a (x - F/2)^2 + (y - G/2)^2 + z^2 <= (a F^2 + G^2) / 4, so
+  // the attractor lies in the ball |s| <= R around 0 that contains this ellipsoid:
+  //   R = |F|/2 + |G|/2 + sqrt((a F^2 + G^2) / (4 min(a, 1))).
+  // The spectral radius of the Jacobian is at most its Frobenius norm, evaluated with every
+  // component at magnitude R; RK4 is kept inside |h lambda| <= 2.785. Defaults give about 0.03.
+  double max_stable_dt() const override {
+    const double a = std::abs(a_), b = std::abs(b_);
+    const double amin = std::max(std::min(a, 1.0), 1e-300);
+    const double R = std::abs(F_) / 2.0 + std::abs(G_) / 2.0 +
+                     std::sqrt((a * F_ * F_ + G_ * G_) / (4.0 * amin));
+    const double rows = a * a + 8.0 * R * R +                          // row x
+                        (1.0 + b) * (1.0 + b) * R * R + (R + 1.0) * (R + 1.0) + b * b * R * R +
+                        (1.0 + b) * (1.0 + b) * R * R + b * b * R * R + (R + 1.0) * (R + 1.0);
+    return kRk4RealAxisLimit / std::sqrt(rows);
+  }
+
+  std::vector<double> default_initial_state() const override { return {1.0, 0.0, 0.0}; }
+
+ private:
+  double a_, b_, F_, G_;
+};
+
+ModelInfo lorenz84_info() {
+  ModelInfo info;
+  info.name = "lorenz84";
+  info.description =
+      "Lorenz (1984) general-circulation model, Tellus 36A, 98 (westerly x, eddies y, z)";
+  info.parameters = {
+      {"a", {0.25}, 0.0, 1e300, false, false, "zonal damping relative to eddy damping"},
+      {"b", {4.0}, -1e300, 1e300, false, false, "displacement of the eddies by the westerly"},
+      {"F", {8.0}, -1e300, 1e300, false, false, "symmetric thermal forcing"},
+      {"G", {1.0}, -1e300, 1e300, false, false, "asymmetric (land-sea) thermal forcing"},
+  };
+  info.make = [](const ParameterValues& v) -> std::unique_ptr<Model> {
+    return std::make_unique<Lorenz84>(v);
+  };
+  info.state_dim = [](const ParameterValues&) { return 3; };
+  return info;
+}
+
+const Registrar registrar(lorenz84_info());
+
+}  // namespace
+}  // namespace chaosweep::models

@@ -1,0 +1,184 @@
+// Lyapunov exponents by the QR method over padded member batches (see lyapunov.hpp).
+#include "run/lyapunov.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <functional>
+#include <limits>
+#include <stdexcept>
+
+#include "stats/lyapunov.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+/// Members per batch. Every batch has exactly this width (the last one padded with copies of
+/// a real member), so each member takes the same vectorised code path wherever it sits.
+constexpr int kWidth = 8;
+
+/// One batch of kWidth members: state, k tangent vectors and the RK4 work arrays, all SoA
+/// [state_dim][kWidth]; tangent vector j of the batch at tangents[j * n * kWidth].
+class Batch {
+ public:
+  Batch(const models::Model& model, int k, double dt)
+      : model_(model), n_(model.state_dim()), k_(k), size_(static_cast<long>(n_) * kWidth),
+        dt_(dt), half_(0.5 * dt), sixth_(dt / 6.0),
+        x_(size_), stage_(4 * size_), slope_(4 * size_),
+        tangents_(static_cast<long>(k) * size_), dk_(4 * size_), w_(size_),
+        column_(static_cast<long>(n_) * k), logs_(k), dead_(kWidth, false) {}
+
+  /// Member m's start state; the tangent vectors become the first k unit vectors.
+  void load(int m, const double* state) {
+    for (int i = 0; i < n_; ++i) x_[static_cast<long>(i) * kWidth + m] = state[i];
+    for (int j = 0; j < k_; ++j) {
+      double* v = tangents_.data() + j * size_;
+      for (int i = 0; i < n_; ++i) v[static_cast<long>(i) * kWidth + m] = i == j ? 1.0 : 0.0;
+    }
+    dead_[m] = false;
+  }
+
+  /// One RK4 step of the state and the tangent step of every tangent vector.
+  void step() {
+    // State: stage states s_i and slopes k_i kept for the tangent step.
+    double* s1 = stage_.data();
+    double* s2 = s1 + size_;
+    double* s3 = s2 + size_;
+    double* s4 = s3 + size_;
+    double* k1 = slope_.data();
+    double* k2 = k1 + size_;
+    double* k3 = k2 + size_;
+    double* k4 = k3 + size_;
+    std::copy(x_.begin(), x_.end(), s1);
+    model_.rhs(s1, k1, kWidth);
+    for (long i = 0; i < size_; ++i) s2[i] = x_[i] + half_ * k1[i];
+    model_.rhs(s2, k2, kWidth);
+    for (long i = 0; i < size_; ++i) s3[i] = x_[i] + half_ * k2[i];
+    model_.rhs(s3, k3, kWidth);
+    for (long i = 0; i < size_; ++i) s4[i] = x_[i] + dt_ * k3[i];
+    model_.rhs(s4, k4, kWidth);
+    for (long i = 0; i < size_; ++i) x_[i] += sixth_ * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+
+    double* d1 = dk_.data();
+    double* d2 = d1 + size_;
+    double* d3 = d2 + size_;
+    double* d4 = d3 + size_;
+    for (int j = 0; j < k_; ++j) {
+      double* v = tangents_.data() + j * size_;
+      model_.tangent(s1, v, d1, kWidth);
+      for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d1[i];
+      model_.tangent(s2, w_.data(), d2, kWidth);
+      for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d2[i];
+      model_.tangent(s3, w_.data(), d3, kWidth);
+      for (long i = 0; i < size_; ++i) w_[i] = v[i] + dt_ * d3[i];
+      model_.tangent(s4, w_.data(), d4, kWidth);
+      for (long i = 0; i < size_; ++i) v[i] += sixth_ * (d1[i] + 2.0 * d2[i] + 2.0 * d3[i] + d4[i]);
+    }
+  }
+
+  /// QR re-orthonormalisation of every live member's tangent vectors; adds log|R_ii| to
+  /// sums[m * k + i] when sums is not null. A member whose state or vectors are non-finite
+  /// is marked dead and left alone from then on.
+  void renormalise(double* sums) {
+    for (int m = 0; m < kWidth; ++m) {
+      if (dead_[m]) continue;
+      bool finite = true;
+      for (int i = 0; i < n_; ++i) {
+        finite = finite && std::isfinite(x_[static_cast<long>(i) * kWidth + m]);
+      }
+      for (int j = 0; j < k_ && finite; ++j) {
+        const double* v = tangents_.data() + j * size_;
+        for (int i = 0; i < n_; ++i) {
+          const double value = v[static_cast<long>(i) * kWidth + m];
+          column_[static_cast<long>(j) * n_ + i] = value;
+          finite = finite && std::isfinite(value);
+        }
+      }
+      if (!finite) {
+        dead_[m] = true;
+        continue;
+      }
+      stats::qr_renormalise(column_.data(), n_, k_, logs_.data());
+      for (int j = 0; j < k_; ++j) {
+        double* v = tangents_.data() + j * size_;
+        for (int i = 0; i < n_; ++i) {
+          v[static_cast<long>(i) * kWidth + m] = column_[static_cast<long>(j) * n_ + i];
+        }
+        if (sums != nullptr) sums[m * k_ + j] += logs_[j];
+      }
+    }
+  }
+
+  bool dead(int m) const { return dead_[m]; }
+
+ private:
+  const models::Model& model_;
+  int n_, k_;
+  long size_;
+  double dt_, half_, sixth_;
+  std::vector<double> x_, stage_, slope_, tangents_, dk_, w_, column_, logs_;
+  std::vector<bool> dead_;
+};
+
+}  // namespace
+
+std::vector<double> lyapunov_exponents(const models::Model& model,
+                                       const std::vector<double>& initial, int count, double dt,
+                                       std::int64_t spinup_steps, std::int64_t steps,
+                                       int exponents, std::int64_t renormalise_every_steps) {
+  const int n = model.state_dim();
+  if (!model.has_tangent()) {
+    throw std::invalid_argument("lyapunov_exponents: the model has no tangent-linear product");
+  }
+  if (count < 0) throw std::invalid_argument("lyapunov_exponents: count must be >= 0");
+  if (initial.size() != static_cast<std::size_t>(count) * static_cast<std::size_t>(n)) {
+    throw std::invalid_argument("lyapunov_exponents: initial must hold count * state_dim values");
+  }
+  if (!(dt > 0.0) || !std::isfinite(dt)) {
+    throw std::invalid_argument("lyapunov_exponents: dt must be positive and finite");
+  }
+  if (spinup_steps < 0 || steps < 1 || renormalise_every_steps < 1) {
+    throw std::invalid_argument(
+        "lyapunov_exponents: need spinup_steps >= 0, steps >= 1, renormalise_every_steps >= 1");
+  }
+  if (exponents < 1 || exponents > n) {
+    throw std::invalid_argument("lyapunov_exponents: exponents must be in 1..state_dim");
+  }
+  const int k = exponents;
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  std::vector<double> result(static_cast<std::size_t>(count) * k, nan);
+  const double time = static_cast<double>(steps) * dt;
+
+  Batch batch(model, k, dt);
+  std::vector<double> sums(static_cast<std::size_t>(kWidth) * k);
+  for (int first = 0; first < count; first += kWidth) {
+    const int live = std::min(kWidth, count - first);
+    for (int m = 0; m < kWidth; ++m) {
+      const int member = first + std::min(m, live - 1);  // padding: copies of the last member
+      batch.load(m, initial.data() + static_cast<std::size_t>(member) * n);
+    }
+    for (std::int64_t s = 1; s <= spinup_steps; ++s) {
+      batch.step();
+      if (s % renormalise_every_steps == 0 || s == spinup_steps) batch.renormalise(nullptr);
+    }
+    std::fill(sums.begin(), sums.end(), 0.0);
+    for (std::int64_t s = 1; s <= steps; ++s) {
+      batch.step();
+      if (s % renormalise_every_steps == 0 || s == steps) batch.renormalise(sums.data());
+    }
+    for (int m = 0; m < live; ++m) {
+      if (batch.dead(m)) continue;
+      double* out = result.data() + static_cast<std::size_t>(first + m) * k;
+      bool finite = true;
+      for (int j = 0; j < k; ++j) {
+        out[j] = sums[static_cast<std::size_t>(m) * k + j] / time;
+        finite = finite && !std::isnan(out[j]);
+      }
+      // The QR order is descending up to finite-time error between close exponents; sort so
+      // the contract holds exactly (NaN-free lists only: NaN has no order).
+      if (finite) std::sort(out, out + k, std::greater<double>());
+    }
+  }
+  return result;
+}
+
+}  // namespace chaosweep::run

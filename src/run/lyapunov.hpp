@@ -1,0 +1,41 @@
+// Lyapunov exponents of ensemble members: classical RK4 for the state and the tangent of the
+// discrete RK4 map for k tangent vectors, re-orthonormalised by QR (stats/lyapunov.hpp).
+// Pure numerics: no MPI, no HDF5, no YAML, no logging.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+#include "models/model.hpp"
+
+namespace chaosweep::run {
+
+/// The k leading Lyapunov exponents of each of `count` members.
+///
+///   model     a model with has_tangent() true (else std::invalid_argument)
+///   initial   [count][state_dim] member start states, member-major (member m's state at
+///             initial[m * state_dim .. m * state_dim + state_dim - 1])
+///   count     number of members (>= 0)
+///   dt        RK4 step (> 0)
+///   spinup_steps   steps integrated first (>= 0) without accumulating: the tangent vectors
+///             evolve and are re-orthonormalised, so they align with the leading directions
+///   steps     steps over which log|R_ii| are accumulated (>= 1)
+///   exponents k, the number of exponents, 1 <= k <= state_dim
+///   renormalise_every_steps  steps between QR re-orthonormalisations (>= 1); also done at the
+///             end of spin-up and at the last step
+///
+/// Returns [count][k], member-major, per member in descending order: exponent i is the sum of
+/// log|R_ii| over the accumulation divided by steps * dt. The tangent vectors start as the
+/// first k unit vectors and follow the RK4 stages linearised:
+///   dk1 = J(x) v, dk2 = J(x + dt/2 k1)(v + dt/2 dk1), dk3 = J(x + dt/2 k2)(v + dt/2 dk2),
+///   dk4 = J(x + dt k3)(v + dt dk3), v <- v + dt/6 (dk1 + 2 dk2 + 2 dk3 + dk4),
+/// so they are the exact derivative of the discrete map that moves the state.
+/// A member whose state or tangent vectors turn non-finite gets NaN exponents. Deterministic:
+/// bitwise the same result for the same inputs, and a member's exponents do not depend on the
+/// other members (members are integrated in padded batches of fixed width).
+std::vector<double> lyapunov_exponents(const models::Model& model,
+                                       const std::vector<double>& initial, int count, double dt,
+                                       std::int64_t spinup_steps, std::int64_t steps,
+                                       int exponents, std::int64_t renormalise_every_steps);
+
+}  // namespace chaosweep::run
