@@ -2,6 +2,7 @@
 #include "fuzz/entries.hpp"
 
 #include <cxxabi.h>
+
 #include <algorithm>
 #include <cctype>
 #include <cstdio>
@@ -10,8 +11,8 @@
 #include <exception>
 #include <fstream>
 #include <memory>
-#include <sstream>
 #include <typeinfo>
+#include <utility>
 
 #include "archive/reader.hpp"
 #include "checkpoint/record.hpp"
