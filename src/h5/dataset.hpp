@@ -25,7 +25,10 @@ namespace chaosweep::h5 {
 /// those datasets read back as empty strings. On a serial file strings are written at once.
 ///
 /// Reads are local to the calling rank (independent transfer on a parallel file): any rank
-/// may read alone. The element type must match exactly; there is no silent conversion.
+/// may read alone. The element type must match exactly; there is no silent conversion. A read
+/// whose elements, at their size in the file, would take more bytes than the whole file is
+/// refused before any memory is allocated: only a damaged extent claims that, since this wrapper
+/// writes no compressed datasets.
 ///
 /// T is one of double, std::int64_t, std::uint8_t (and std::string for reads).
 class Dataset : public Object {
@@ -83,6 +86,7 @@ class Dataset : public Object {
   void require_type(ElementType type, const char* doing) const;
   void require_writable(const char* doing) const;
   void require_block(const Dims& start, const Dims& count, const char* doing) const;
+  void require_fits_in_file(const Dims& count, const char* doing) const;
 };
 
 }  // namespace chaosweep::h5

@@ -134,8 +134,37 @@ void Dataset::read_raw(ElementType type, const Dims& start, const Dims& count, v
                 what, where());
 }
 
+void Dataset::require_fits_in_file(const Dims& count, const char* doing) const {
+  for (std::uint64_t extent : count) {
+    if (extent == 0) return;
+  }
+  Handle type(detail::check_id(H5Dget_type(id()), doing, where()));
+  // Bytes each element takes in the file, at least: a variable-length string takes a 16-byte
+  // heap reference there, and H5Tget_size gives the 8 bytes of its in-memory pointer.
+  const std::uint64_t element_bytes = detail::type_size(type.get(), doing, where());
+  hsize_t file_bytes = 0;
+  detail::check(H5Fget_filesize(file()->id.get(), &file_bytes), doing, where());
+  // Elements the file could hold; dividing by each extent in turn never overflows, unlike the
+  // product of the extents.
+  std::uint64_t room = element_bytes > 0 ? file_bytes / element_bytes : file_bytes;
+  std::string extents;
+  for (std::uint64_t extent : count) {
+    extents += (extents.empty() ? "" : " x ") + std::to_string(extent);
+  }
+  for (std::uint64_t extent : count) {
+    if (extent > room) {
+      detail::fail(doing, where(),
+                   "the file is damaged: " + extents + " elements cannot fit in its " +
+                       std::to_string(file_bytes) + " bytes");
+    }
+    room /= extent;
+  }
+}
+
 template <class T>
 Array<T> Dataset::read(const Dims& start, const Dims& count) const {
+  require_block(start, count, "reading dataset");
+  require_fits_in_file(count, "reading dataset");
   if constexpr (std::is_same_v<T, std::string>) {
     return Array<T>{count, read_strings(start, count)};
   } else {

@@ -108,7 +108,11 @@ std::string Object::string_attribute(const std::string& name) const {
   }
   if (detail::check_tri(H5Tis_variable_str(type.get()), what, where())) {
     char* text = nullptr;
-    detail::check(H5Aread(attribute.get(), type.get(), &text), what, where());
+    if (H5Aread(attribute.get(), type.get(), &text) < 0) {
+      const std::string reason = detail::hdf5_message();  // before the next call clears it
+      H5free_memory(text);  // a read that failed half-way may have allocated the string
+      detail::fail(what, where(), reason);
+    }
     std::string value = text != nullptr ? text : "";
     H5free_memory(text);
     return value;

@@ -85,8 +85,11 @@ std::vector<std::string> Dataset::read_strings(const Dims& start, const Dims& co
     return split_fixed(buffer, n, size);
   }
   std::vector<char*> texts(n, nullptr);
-  detail::check(H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(), texts.data()),
-                what, where());
+  if (H5Dread(id(), memory.get(), memory_space, file_space, transfer.get(), texts.data()) < 0) {
+    const std::string reason = detail::hdf5_message();  // before the next call clears it
+    for (char* text : texts) H5free_memory(text);  // the strings read before the failure
+    detail::fail(what, where(), reason);
+  }
   std::vector<std::string> values;
   values.reserve(n);
   for (const char* text : texts) values.emplace_back(text != nullptr ? text : "");
