@@ -15,6 +15,7 @@
 #include <utility>
 
 #include "archive/reader.hpp"
+#include "archive/seal.hpp"
 #include "checkpoint/record.hpp"
 #include "core/error.hpp"
 #include "core/sha256.hpp"
@@ -25,6 +26,7 @@ namespace {
 
 const char kSpecSource[] = "fuzz.yaml";
 const char kCheckpointSource[] = "fuzz";
+const std::string kSealMagic = "chaosweep archive\n";  // archive/seal.hpp
 
 /// Readable name of the dynamic type of `e`.
 std::string type_name(const std::exception& e) {
@@ -117,6 +119,22 @@ Outcome read_archive(const std::string& path) {
   return accepted();
 }
 
+/// What read_summary does with a file holding `bytes`.
+Outcome read_archive_bytes(const std::string& bytes, const std::string& scratch_path) {
+  {
+    std::ofstream out(scratch_path, std::ios::binary | std::ios::trunc);
+    out.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
+    if (!out) return finding("(the scratch file " + scratch_path + " could not be written)");
+  }
+  StderrCapture capture;
+  const Outcome outcome = read_archive(scratch_path);
+  const std::string printed = capture.finish();
+  std::remove(scratch_path.c_str());
+  if (!outcome.clean) return outcome;
+  if (!printed.empty()) return finding("read_summary wrote to stderr: " + printed);
+  return outcome;
+}
+
 /// decode(encode(record)) must give `record` back.
 Outcome check_round_trip(const checkpoint::Record& record) {
   checkpoint::Record again;
@@ -167,18 +185,9 @@ Outcome check_spec(const std::string& bytes) {
 }
 
 Outcome check_archive(const std::string& bytes, const std::string& scratch_path) {
-  {
-    std::ofstream out(scratch_path, std::ios::binary | std::ios::trunc);
-    out.write(bytes.data(), static_cast<std::streamsize>(bytes.size()));
-    if (!out) return finding("(the scratch file " + scratch_path + " could not be written)");
-  }
-  StderrCapture capture;
-  const Outcome outcome = read_archive(scratch_path);
-  const std::string printed = capture.finish();
-  std::remove(scratch_path.c_str());
-  if (!outcome.clean) return outcome;
-  if (!printed.empty()) return finding("read_summary wrote to stderr: " + printed);
-  return outcome;
+  Outcome outcome = read_archive_bytes(bytes, scratch_path);
+  if (!outcome.clean || bytes.compare(0, kSealMagic.size(), kSealMagic) != 0) return outcome;
+  return read_archive_bytes(archive::resealed(bytes), scratch_path);
 }
 
 Outcome check_checkpoint(const std::string& bytes) {

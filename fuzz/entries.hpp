@@ -23,7 +23,10 @@ Outcome check_spec(const std::string& bytes);
 /// The archive reader: `bytes` are written to the file `scratch_path`, then
 /// archive::read_summary(scratch_path) returns, or throws UsageError with a one-line message
 /// naming the file; nothing may be printed to C's stderr stream meanwhile (where an HDF5
-/// diagnostic dump would go). The file is removed afterwards.
+/// diagnostic dump would go). The file is removed afterwards. When `bytes` start with an
+/// archive's seal (archive/seal.hpp), the same is then checked on a copy whose seal is
+/// rewritten to match (archive::resealed), so that mutations also reach HDF5 and the reader
+/// behind the checksum.
 Outcome check_archive(const std::string& bytes, const std::string& scratch_path);
 
 /// The checkpoint decoder. The first byte chooses what is decoded: with its lowest bit clear,

@@ -25,6 +25,7 @@ struct RunOptions {
 struct SummaryOptions {
   std::string archive;
   std::string format = "table";
+  bool no_verify = false;  // skip the archive's checksum (archive/seal.hpp)
 };
 
 /// `chaosweep slurm`: options of the batch-script generator (see slurm/README.md).

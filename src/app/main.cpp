@@ -69,6 +69,8 @@ int main(int argc, char** argv) {
   summary_cmd->add_option("ARCHIVE", summary.archive, "Archive written by `chaosweep run`")->required();
   summary_cmd->add_option("--format", summary.format, "table, csv or json")
       ->check(CLI::IsMember({"table", "csv", "json"}));
+  summary_cmd->add_flag("--no-verify", summary.no_verify,
+                        "Read an archive whose checksum disagrees (edited after the run)");
 
   app::SlurmOptions slurm;
   CLI::App* slurm_cmd = cli.add_subcommand(

@@ -301,7 +301,7 @@ void print_table(const ArchiveSummary& s) {
 }  // namespace
 
 int summary_command(const SummaryOptions& options) {
-  const ArchiveSummary s = archive::read_summary(options.archive);
+  const ArchiveSummary s = archive::read_summary(options.archive, !options.no_verify);
   if (options.format == "json") {
     print_json(s);
   } else if (options.format == "csv") {

@@ -1,6 +1,8 @@
 // Serial reader of an archive's ensemble part (see reader.hpp).
 #include "archive/reader.hpp"
 
+#include "archive/seal.hpp"
+
 #include <filesystem>
 
 #include "core/error.hpp"
@@ -82,11 +84,12 @@ void check_shapes(const ArchiveSummary& s) {
 
 }  // namespace
 
-ArchiveSummary read_summary(const std::string& path) {
+ArchiveSummary read_summary(const std::string& path, bool verify) {
   ArchiveSummary s;
   s.path = path;
   std::error_code ec;
   if (!std::filesystem::is_regular_file(path, ec)) throw UsageError(path + ": no such archive");
+  if (verify) verify_seal(path);
   try {
     const h5::File file = h5::File::open_read(path);
     const h5::Group root = file.root();

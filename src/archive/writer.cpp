@@ -9,6 +9,7 @@
 #include <map>
 
 #include "archive/schema.hpp"
+#include "archive/seal.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "h5/h5.hpp"
@@ -339,7 +340,7 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
                    const std::vector<run::BatchResult>& local,
                    const parallel::EnsembleResults& ensemble, const RunInfo& info) {
   const std::string partial = path + ".partial";
-  h5::File file = h5::File::create_parallel(partial, MPI_COMM_WORLD);
+  h5::File file = h5::File::create_parallel(partial, MPI_COMM_WORLD, kSealBytes);
   write_root(file, spec, plan, info);
   write_cases(file, spec, plan);
   write_members(file, spec, plan, local);
@@ -349,11 +350,21 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   write_trajectories(file, plan, local, spec.integration.dt);
   file.close();
 
-  // Rank 0 renames the complete file into place; every rank learns the outcome.
+  // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it
+  // into place, then syncs the directory; every rank learns the outcome.
   const parallel::Communicator comm;
   std::string failure;
-  if (comm.rank() == 0 && std::rename(partial.c_str(), path.c_str()) != 0) {
-    failure = "cannot rename " + partial + " to " + path + ": " + std::strerror(errno);
+  if (comm.rank() == 0) {
+    try {
+      seal_file(partial);
+      if (std::rename(partial.c_str(), path.c_str()) != 0) {
+        failure = "cannot rename " + partial + " to " + path + ": " + std::strerror(errno);
+      } else {
+        sync_directory_of(path);
+      }
+    } catch (const Error& e) {
+      failure = e.what();
+    }
   }
   failure = comm.broadcast(failure);
   if (!failure.empty()) throw IoError(failure);

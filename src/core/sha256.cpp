@@ -2,6 +2,7 @@
 // 4.2.2, 5.1.1, 5.3.3 and 6.2. Pure: no dependencies beyond the standard library.
 #include "core/sha256.hpp"
 
+#include <algorithm>
 #include <array>
 #include <cstdint>
 #include <cstring>
@@ -69,33 +70,53 @@ void compress(std::array<Word, 8>& h, const unsigned char* block) {
 
 }  // namespace
 
-std::string sha256_hex(const std::string& bytes) {
-  std::array<Word, 8> h = kInitial;
-  const auto* data = reinterpret_cast<const unsigned char*>(bytes.data());
-  const std::size_t n = bytes.size();
-  std::size_t full = n / 64 * 64;
-  for (std::size_t i = 0; i < full; i += 64) compress(h, data + i);
+Sha256::Sha256() : h_(kInitial) {}
 
+void Sha256::update(const void* data, std::size_t n) {
+  const auto* bytes = static_cast<const unsigned char*>(data);
+  length_ += n;
+  if (used_ > 0) {  // complete the pending block first
+    const std::size_t take = std::min(n, block_.size() - used_);
+    std::memcpy(block_.data() + used_, bytes, take);
+    used_ += take;
+    bytes += take;
+    n -= take;
+    if (used_ < block_.size()) return;
+    compress(h_, block_.data());
+    used_ = 0;
+  }
+  for (; n >= 64; bytes += 64, n -= 64) compress(h_, bytes);
+  if (n > 0) std::memcpy(block_.data(), bytes, n);
+  used_ = n;
+}
+
+std::string Sha256::hex() {
   // Section 5.1.1 padding: the message, one 1 bit, zeros up to 56 mod 64 bytes, then the
   // message length in bits as a 64-bit big-endian integer. One or two final blocks.
   unsigned char tail[128] = {};
-  const std::size_t rest = n - full;
-  if (rest > 0) std::memcpy(tail, data + full, rest);
-  tail[rest] = 0x80;
-  const std::size_t tail_len = rest < 56 ? 64 : 128;
-  const std::uint64_t bits = static_cast<std::uint64_t>(n) * 8u;
+  if (used_ > 0) std::memcpy(tail, block_.data(), used_);
+  tail[used_] = 0x80;
+  const std::size_t tail_len = used_ < 56 ? 64 : 128;
+  const std::uint64_t bits = length_ * 8u;
   for (int i = 0; i < 8; ++i) {
     tail[tail_len - 1 - i] = static_cast<unsigned char>(bits >> (8 * i));
   }
-  for (std::size_t i = 0; i < tail_len; i += 64) compress(h, tail + i);
+  for (std::size_t i = 0; i < tail_len; i += 64) compress(h_, tail + i);
+  used_ = 0;
 
   static const char* const kHex = "0123456789abcdef";
   std::string out;
   out.reserve(64);
-  for (Word word : h) {
+  for (Word word : h_) {
     for (int shift = 28; shift >= 0; shift -= 4) out.push_back(kHex[(word >> shift) & 0xf]);
   }
   return out;
+}
+
+std::string sha256_hex(const std::string& bytes) {
+  Sha256 hash;
+  hash.update(bytes.data(), bytes.size());
+  return hash.hex();
 }
 
 }  // namespace chaosweep

@@ -39,13 +39,15 @@ Handle mpio_access(MPI_Comm comm, const std::string& what, const std::string& pa
 
 }  // namespace
 
-File File::create_parallel(const std::string& path, MPI_Comm comm) {
+File File::create_parallel(const std::string& path, MPI_Comm comm, std::uint64_t user_block) {
   const std::string what = "creating file for parallel writing";
   auto state = new_state(path, true, true);
   join(*state, comm, what);
   Handle access = mpio_access(comm, what, path);
+  Handle creation(detail::check_id(H5Pcreate(H5P_FILE_CREATE), what, path));
+  if (user_block > 0) detail::check(H5Pset_userblock(creation.get(), user_block), what, path);
   state->id = Handle(detail::check_id(
-      H5Fcreate(path.c_str(), H5F_ACC_TRUNC, H5P_DEFAULT, access.get()), what, path));
+      H5Fcreate(path.c_str(), H5F_ACC_TRUNC, creation.get(), access.get()), what, path));
   return File(std::move(state));
 }
 

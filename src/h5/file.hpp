@@ -4,6 +4,7 @@
 
 #include <mpi.h>
 
+#include <cstdint>
 #include <memory>
 #include <string>
 
@@ -21,7 +22,10 @@ namespace chaosweep::h5 {
 class File {
  public:
   /// Collective: creates (truncating) `path` for parallel writing through MPI-IO on `comm`.
-  static File create_parallel(const std::string& path, MPI_Comm comm);
+  /// With `user_block` > 0 (a power of two, at least 512), the first `user_block` bytes of the
+  /// file are left to the caller: HDF5 neither reads nor writes them.
+  static File create_parallel(const std::string& path, MPI_Comm comm,
+                              std::uint64_t user_block = 0);
   /// Creates (truncating) `path` for writing by this process alone (default driver).
   static File create_serial(const std::string& path);
   /// Opens `path` read-only for this process alone (default driver; no MPI needed).

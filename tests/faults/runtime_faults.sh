@@ -4,7 +4,8 @@
 #   - one rank fails: every rank stops promptly (no hang in a collective), exit non-zero, one
 #     line names the rank;
 #   - members blow up: counted, excluded, warned about once;
-#   - `summary` on a truncated archive or one of a newer format: exit 2, one line, no HDF5 dump.
+#   - `summary` on a truncated, damaged, edited or newer-format archive, or a file that is not
+#     an archive: exit 2, one line, no HDF5 dump; `--no-verify` reads an edited one.
 # Usage: runtime_faults.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC
 set -uo pipefail
 prog=$1 work=$2 src=$3 mpiexec=$4
@@ -63,16 +64,43 @@ for c in range(mean.shape[0]):
 print(f"ok: {bad.sum()} of {bad.size} members non-finite, excluded")
 PY
 
-# 4. Archives that cannot be read: truncated, and of a newer format version.
+# 4. Archives that cannot be read: truncated, damaged, edited, of a newer format version, not
+#    an archive. Each: exit 2 and one line (the archive's seal is checked before HDF5 opens it).
+refused() {  # refused FILE WHAT FRAGMENT: summary of FILE exits 2 with one line holding FRAGMENT
+  "$prog" summary "$1" > out.txt 2> err.txt
+  local status=$?
+  [ $status -eq 2 ] || fail "summary of $2: expected exit 2, got $status: $(cat err.txt)"
+  [ "$(grep -c '' err.txt)" -eq 1 ] || fail "summary of $2: not one line: $(cat err.txt)"
+  grep -q -- "$3" err.txt || fail "summary of $2: no \"$3\" in: $(cat err.txt)"
+}
 head -c 5000 reference.h5 > truncated.h5
-"$prog" summary truncated.h5 > out.txt 2> err.txt
-[ $? -eq 2 ] || fail "summary of a truncated archive: expected exit 2"
-[ "$(grep -c '' err.txt)" -eq 1 ] || fail "summary of a truncated archive: not one line: $(cat err.txt)"
+refused truncated.h5 "a truncated archive" "bytes on disk"
+cp reference.h5 flipped.h5
+/usr/bin/python3 - <<'PY'
+import os
+size = os.path.getsize("flipped.h5")
+with open("flipped.h5", "r+b") as f:  # one bit in the middle of the HDF5 content
+    f.seek(size // 2)
+    b = f.read(1)
+    f.seek(size // 2)
+    f.write(bytes([b[0] ^ 0x10]))
+PY
+refused flipped.h5 "an archive with one bit flipped" "checksum mismatch"
+cp reference.h5 edited.h5
+/usr/bin/python3 -c "import h5py; f = h5py.File('edited.h5', 'a'); f.attrs['note'] = 'edited'; f.close()"
+refused edited.h5 "an archive edited with h5py" "changed after chaosweep wrote it"
+"$prog" summary --no-verify edited.h5 > out.txt 2> err.txt || fail "summary --no-verify of an edited archive failed: $(cat err.txt)"
+"$prog" summary reference.h5 > reference.txt 2>&1 || fail "summary of the intact archive failed"
+cmp -s out.txt reference.txt || fail "summary --no-verify of an edited archive differs from the original's"
 cp reference.h5 newer.h5
-/usr/bin/python3 -c "import h5py; f = h5py.File('newer.h5', 'a'); f.attrs['format_version'] = 99; f.close()"
-"$prog" summary newer.h5 > out.txt 2> err.txt
-[ $? -eq 2 ] || fail "summary of a newer archive: expected exit 2"
-grep -q "newer than this chaosweep" err.txt || fail "newer format not explained: $(cat err.txt)"
+/usr/bin/python3 -c "
+with open('newer.h5', 'r+b') as f:  # the header's second line, 'format N', becomes 'format 9'
+    head = f.read(64); at = head.index(b'format ') + 7; f.seek(at); f.write(b'9')"
+refused newer.h5 "an archive of a newer format" "newer than this chaosweep"
+/usr/bin/python3 -c "import h5py; h5py.File('plain.h5', 'w').create_dataset('x', data=[1.0])"
+refused plain.h5 "an HDF5 file that is not an archive" "not a chaosweep archive"
+echo "campaign: {name: not-an-archive}" > text.h5
+refused text.h5 "a text file" "not a chaosweep archive"
 
 [ "$failures" -eq 0 ] || { echo "$failures failures"; exit 1; }
 echo "all runtime fault checks passed"

@@ -1,6 +1,7 @@
 // SHA-256 against the published example vectors and against coreutils' sha256sum.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <cstdlib>
 #include <fstream>
@@ -75,6 +76,25 @@ TEST(Sha256, IsLowerCaseHexOfLength64) {
   const std::string d = sha256_hex("chaosweep");
   ASSERT_EQ(d.size(), 64u);
   EXPECT_EQ(d.find_first_not_of("0123456789abcdef"), std::string::npos);
+}
+
+}  // namespace
+
+namespace {
+
+// published: FIPS 180-2, Appendix B.3 again, given in pieces of awkward sizes (1, 63, 64, 65
+// and 4099 bytes in turn) through the incremental interface used to seal archives.
+TEST(Sha256, PiecesGiveTheSameDigest) {
+  const std::string message(1000000, 'a');
+  chaosweep::Sha256 hash;
+  const std::size_t sizes[] = {1, 63, 64, 65, 4099};
+  std::size_t at = 0;
+  for (int i = 0; at < message.size(); ++i) {
+    const std::size_t n = std::min(sizes[i % 5], message.size() - at);
+    hash.update(message.data() + at, n);
+    at += n;
+  }
+  EXPECT_EQ(hash.hex(), "cdc76e5c9914fb9281a1c7e284d73e67f1809a48a497200e046d39ccc7112cd0");
 }
 
 }  // namespace

@@ -1,0 +1,162 @@
+// The archive's seal (see seal.hpp).
+#include "archive/seal.hpp"
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstring>
+#include <fstream>
+#include <sstream>
+#include <vector>
+
+#include "core/error.hpp"
+#include "core/sha256.hpp"
+#include "core/version.hpp"
+
+namespace chaosweep::archive {
+namespace {
+
+constexpr const char* kMagic = "chaosweep archive";
+constexpr char kHdf5Signature[] = "\x89HDF\r\n\x1a\n";
+
+std::string header_text(int format, std::uint64_t size, const std::string& digest) {
+  std::string text = std::string(kMagic) + "\nformat " + std::to_string(format) + "\nbytes " +
+                     std::to_string(size) + "\nsha256 " + digest + "\n";
+  text.resize(kSealBytes, '\0');
+  return text;
+}
+
+[[noreturn]] void io_fail(const std::string& doing, const std::string& path) {
+  throw IoError(doing + " " + path + ": " + std::strerror(errno));
+}
+
+/// SHA-256 of bytes [kSealBytes, end) of an open file, and the file's size.
+std::string body_digest(std::istream& in, std::uint64_t& size) {
+  Sha256 hash;
+  std::vector<char> buffer(1 << 20);
+  in.seekg(static_cast<std::streamoff>(kSealBytes));
+  size = kSealBytes;
+  while (in) {
+    in.read(buffer.data(), static_cast<std::streamsize>(buffer.size()));
+    const auto got = static_cast<std::size_t>(in.gcount());
+    hash.update(buffer.data(), got);
+    size += got;
+  }
+  return hash.hex();
+}
+
+struct Header {
+  bool sealed = false;
+  int format = 0;
+  std::uint64_t bytes = 0;
+  std::string digest;
+};
+
+/// Parses a header; sealed is false when the magic line or any field is missing.
+Header parse(const std::string& text) {
+  Header h;
+  std::istringstream in(text.substr(0, text.find('\0')));
+  std::string line, key;
+  if (!std::getline(in, line) || line != kMagic) return h;
+  if (!(in >> key >> h.format) || key != "format") return h;
+  if (!(in >> key >> h.bytes) || key != "bytes") return h;
+  if (!(in >> key >> h.digest) || key != "sha256" || h.digest.size() != 64) return h;
+  h.sealed = true;
+  return h;
+}
+
+}  // namespace
+
+void seal_file(const std::string& path) {
+  std::uint64_t size = 0;
+  std::string digest;
+  {
+    std::ifstream in(path, std::ios::binary);
+    if (!in) io_fail("cannot read", path);
+    digest = body_digest(in, size);
+  }
+  const std::string header = header_text(kArchiveFormatVersion, size, digest);
+  const int fd = ::open(path.c_str(), O_WRONLY);
+  if (fd < 0) io_fail("cannot open", path);
+  std::size_t done = 0;
+  while (done < header.size()) {
+    const ssize_t n = ::pwrite(fd, header.data() + done, header.size() - done,
+                               static_cast<off_t>(done));
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) {
+      const int saved = errno;
+      ::close(fd);
+      errno = saved;
+      io_fail("cannot write the header of", path);
+    }
+    done += static_cast<std::size_t>(n);
+  }
+  if (::fsync(fd) != 0) {
+    const int saved = errno;
+    ::close(fd);
+    errno = saved;
+    io_fail("cannot sync", path);
+  }
+  if (::close(fd) != 0) io_fail("cannot close", path);
+}
+
+void sync_directory_of(const std::string& path) {
+  const std::string::size_type slash = path.find_last_of('/');
+  const std::string dir = slash == std::string::npos ? "." : slash == 0 ? "/" : path.substr(0, slash);
+  const int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY);
+  if (fd < 0) io_fail("cannot open the directory", dir);
+  const int rc = ::fsync(fd);
+  const int saved = errno;
+  ::close(fd);
+  errno = saved;
+  if (rc != 0) io_fail("cannot sync the directory", dir);
+}
+
+void verify_seal(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw UsageError(path + ": cannot open: " + std::strerror(errno));
+  std::string text(kSealBytes, '\0');
+  in.read(text.data(), static_cast<std::streamsize>(text.size()));
+  text.resize(static_cast<std::size_t>(in.gcount()));
+  in.clear();
+  const Header h = parse(text);
+  if (!h.sealed) {
+    if (text.compare(0, sizeof kHdf5Signature - 1, kHdf5Signature) == 0) {
+      throw UsageError(path + ": not a chaosweep archive (an HDF5 file without chaosweep's "
+                              "header; archives of format 1 had none and are no longer read)");
+    }
+    throw UsageError(path + ": not a chaosweep archive (no chaosweep header)");
+  }
+  if (h.format > kArchiveFormatVersion) {
+    throw UsageError(path + ": archive format version " + std::to_string(h.format) +
+                     " is newer than this chaosweep understands (" +
+                     std::to_string(kArchiveFormatVersion) + "); use a newer chaosweep");
+  }
+  std::uint64_t size = 0;
+  const std::string digest = body_digest(in, size);
+  std::string mismatch;
+  if (size != h.bytes) {
+    mismatch = std::to_string(size) + " bytes on disk, " + std::to_string(h.bytes) +
+               " when written";
+  } else if (digest != h.digest) {
+    mismatch = "checksum mismatch";
+  }
+  if (!mismatch.empty()) {
+    throw UsageError(path + ": archive is damaged or was changed after chaosweep wrote it (" +
+                     mismatch + "); `summary --no-verify` reads it anyway, at the risk of a "
+                     "crash inside HDF5 if it is damaged");
+  }
+}
+
+std::string resealed(std::string bytes) {
+  if (bytes.size() < kSealBytes) return bytes;
+  Sha256 hash;
+  hash.update(bytes.data() + kSealBytes, bytes.size() - kSealBytes);
+  const Header old = parse(bytes.substr(0, kSealBytes));
+  const int format = old.sealed ? old.format : kArchiveFormatVersion;
+  bytes.replace(0, kSealBytes, header_text(format, bytes.size(), hash.hex()));
+  return bytes;
+}
+
+}  // namespace chaosweep::archive
