@@ -7,9 +7,11 @@
 #include <random>
 #include <stdexcept>
 #include <string>
+#include <type_traits>
 #include <vector>
 
 #include "models/model.hpp"
+#include "spec/spec.hpp"
 
 namespace chaosweep::testing {
 
@@ -27,8 +29,60 @@ inline std::unique_ptr<models::Model> make_model(const std::string& name,
   return info.make(models::complete_parameters(info, overrides));
 }
 
+/// A small forced Lorenz-63 campaign filled in directly (no YAML), the base the batch tests
+/// adjust: one case of 16 members in batches of 8, attractor start, sign regimes of x, a
+/// histogram of x, trajectories of 8 members; forcing 2 along (0.6, 0.3, 0.8), dt 0.005.
+inline spec::Spec small_lorenz63_spec(const std::string& name) {
+  spec::Spec s;
+  s.name = name;
+  s.model = "lorenz63";
+  s.parameters = models::complete_parameters(
+      model_info("lorenz63"), {{"forcing", {2.0}}, {"forcing_direction", {0.6, 0.3, 0.8}}});
+  s.ensemble.members = 16;
+  s.ensemble.initial.kind = spec::InitialKind::attractor;
+  s.ensemble.initial.spinup = 10.0;
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-3};
+  s.ensemble.seed = 20261202;
+  s.integration.dt = 0.005;
+  s.integration.spinup = 2.0;
+  s.integration.duration = 10.0;
+  s.statistics.regimes.kind = spec::RegimeKind::sign;
+  s.statistics.regimes.observable = "x";
+  s.statistics.regimes.labels = {"positive", "negative"};
+  s.statistics.histogram = {true, "x", 20, -30.0, 30.0};
+  s.output.trajectories = {8, 0.5};
+  s.run.batch_size = 8;
+  return s;
+}
+
 /// Bitwise equality of two doubles (NaN equals NaN with the same payload).
 inline bool same_bits(double a, double b) { return std::memcmp(&a, &b, sizeof a) == 0; }
+
+/// Element-wise bitwise equality of two arrays (same_bits for floating point).
+template <typename T>
+bool bitwise_equal(const std::vector<T>& a, const std::vector<T>& b) {
+  if (a.size() != b.size()) return false;
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    if constexpr (std::is_floating_point_v<T>) {
+      if (!same_bits(a[i], b[i])) return false;
+    } else if (a[i] != b[i]) {
+      return false;
+    }
+  }
+  return true;
+}
+
+/// `spec` with members started far off the attractor of default Lorenz-63 at a large step, so
+/// that some members overflow and are flagged during the run.
+inline spec::Spec blown_up(spec::Spec s) {
+  s.model = "lorenz63";
+  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
+  s.ensemble.initial.kind = spec::InitialKind::given;
+  s.ensemble.initial.state = {1.0, 1.0, 20.0};
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
+  s.integration.dt = 0.01;
+  return s;
+}
 
 /// `width` member states around `centre`, each component uniform in centre +- spread, stored
 /// SoA [dim][width]. The generator is seeded, so a test sees the same states on every run.

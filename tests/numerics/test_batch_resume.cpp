@@ -22,37 +22,19 @@ namespace {
 /// (247 steps) and duration 3.001 (601 steps) are not multiples of the 32-step finiteness
 /// check nor of the 256-sample moment blocks, so chunk ends fall everywhere.
 spec::Spec l63_spec() {
-  spec::Spec s;
-  s.name = "resume-test";
-  s.model = "lorenz63";
-  s.parameters = models::complete_parameters(
-      model_info("lorenz63"), {{"forcing", {2.0}}, {"forcing_direction", {0.6, 0.3, 0.8}}});
-  s.ensemble.members = 16;
-  s.ensemble.initial.kind = spec::InitialKind::attractor;
+  spec::Spec s = small_lorenz63_spec("resume-test");
   s.ensemble.initial.spinup = 5.0;
-  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-3};
   s.ensemble.seed = 77;
-  s.integration.dt = 0.005;
   s.integration.spinup = 1.235;
   s.integration.duration = 3.005;
-  s.statistics.regimes.kind = spec::RegimeKind::sign;
-  s.statistics.regimes.observable = "x";
-  s.statistics.regimes.labels = {"positive", "negative"};
-  s.statistics.histogram = {true, "x", 20, -30.0, 30.0};
   s.output.trajectories = {8, 0.25};
-  s.run.batch_size = 8;
   return s;
 }
 
 /// Members started far off the attractor at a large step (some overflow and are flagged
 /// during the run), so the saved non-finite flags matter.
 spec::Spec blow_up_spec() {
-  spec::Spec s = l63_spec();
-  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
-  s.ensemble.initial.kind = spec::InitialKind::given;
-  s.ensemble.initial.state = {1.0, 1.0, 20.0};
-  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
-  s.integration.dt = 0.01;
+  spec::Spec s = blown_up(l63_spec());
   return s;
 }
 

@@ -18,30 +18,8 @@
 namespace chaosweep::testing {
 namespace {
 
-/// A small forced Lorenz-63 campaign, filled in directly (no YAML): one case, 16 members in
-/// batches of 8, attractor start, sign regimes and a histogram of x, trajectories of 8 members.
-spec::Spec l63_spec() {
-  spec::Spec s;
-  s.name = "runner-test";
-  s.model = "lorenz63";
-  s.parameters = models::complete_parameters(
-      model_info("lorenz63"), {{"forcing", {2.0}}, {"forcing_direction", {0.6, 0.3, 0.8}}});
-  s.ensemble.members = 16;
-  s.ensemble.initial.kind = spec::InitialKind::attractor;
-  s.ensemble.initial.spinup = 10.0;
-  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-3};
-  s.ensemble.seed = 20261202;
-  s.integration.dt = 0.005;
-  s.integration.spinup = 2.0;
-  s.integration.duration = 10.0;
-  s.statistics.regimes.kind = spec::RegimeKind::sign;
-  s.statistics.regimes.observable = "x";
-  s.statistics.regimes.labels = {"positive", "negative"};
-  s.statistics.histogram = {true, "x", 20, -30.0, 30.0};
-  s.output.trajectories = {8, 0.5};
-  s.run.batch_size = 8;
-  return s;
-}
+/// A small forced Lorenz-63 campaign (numerics_fixtures.hpp), as it is.
+spec::Spec l63_spec() { return small_lorenz63_spec("runner-test"); }
 
 plan::Batch batch(std::int64_t case_index, std::int64_t first, int count) {
   plan::Batch b;
@@ -58,19 +36,6 @@ std::vector<T> row(const std::vector<T>& a, int j, std::size_t per) {
   return std::vector<T>(a.begin() + j * per, a.begin() + (j + 1) * per);
 }
 
-template <typename T>
-bool same_row(const std::vector<T>& a, const std::vector<T>& b) {
-  if (a.size() != b.size()) return false;
-  for (std::size_t i = 0; i < a.size(); ++i) {
-    if constexpr (std::is_floating_point_v<T>) {
-      if (!same_bits(a[i], b[i])) return false;
-    } else if (a[i] != b[i]) {
-      return false;
-    }
-  }
-  return true;
-}
-
 /// State of stored member j at trajectory sample k.
 std::vector<double> sample(const run::BatchResult& r, const plan::Plan& p, int j, std::int64_t k) {
   const std::size_t d = p.state_dim;
@@ -83,15 +48,15 @@ void expect_same_member(const run::BatchResult& a, int ja, const run::BatchResul
                         const plan::Plan& plan) {
   const std::size_t d = plan.state_dim, o = plan.observables.size(), r = plan.regime_labels.size();
   const std::size_t traj = static_cast<std::size_t>(plan.trajectory_samples) * d;
-  EXPECT_TRUE(same_row(row(a.initial_state, ja, d), row(b.initial_state, jb, d)));
+  EXPECT_TRUE(bitwise_equal(row(a.initial_state, ja, d), row(b.initial_state, jb, d)));
   EXPECT_EQ(a.status[ja], b.status[jb]);
-  EXPECT_TRUE(same_row(row(a.time_mean, ja, o), row(b.time_mean, jb, o)));
-  EXPECT_TRUE(same_row(row(a.time_variance, ja, o), row(b.time_variance, jb, o)));
-  EXPECT_TRUE(same_row(row(a.regime_fraction, ja, r), row(b.regime_fraction, jb, r)));
-  EXPECT_TRUE(same_row(row(a.regime_mean_residence, ja, r), row(b.regime_mean_residence, jb, r)));
+  EXPECT_TRUE(bitwise_equal(row(a.time_mean, ja, o), row(b.time_mean, jb, o)));
+  EXPECT_TRUE(bitwise_equal(row(a.time_variance, ja, o), row(b.time_variance, jb, o)));
+  EXPECT_TRUE(bitwise_equal(row(a.regime_fraction, ja, r), row(b.regime_fraction, jb, r)));
+  EXPECT_TRUE(bitwise_equal(row(a.regime_mean_residence, ja, r), row(b.regime_mean_residence, jb, r)));
   EXPECT_EQ(a.regime_transitions[ja], b.regime_transitions[jb]);
   if (ja < a.trajectory_members && jb < b.trajectory_members) {
-    EXPECT_TRUE(same_row(row(a.trajectory, ja, traj), row(b.trajectory, jb, traj)));
+    EXPECT_TRUE(bitwise_equal(row(a.trajectory, ja, traj), row(b.trajectory, jb, traj)));
   }
 }
 
@@ -112,7 +77,7 @@ TEST(BatchRunner, MemberResultsIndependentOfBatchPositionAndWidth) {
   const plan::Plan wide_plan = plan::make_plan(wide_spec);
   const run::CaseRunner wide_runner(wide_spec, wide_plan, wide_plan.cases[0]);
   const run::BatchResult w = wide_runner.run(batch(0, 0, 16));
-  EXPECT_TRUE(same_row(runner.base_state(), wide_runner.base_state()));
+  EXPECT_TRUE(bitwise_equal(runner.base_state(), wide_runner.base_state()));
   for (int k = 0; k < 3; ++k) {
     SCOPED_TRACE("member " + std::to_string(5 + k));
     expect_same_member(a, 5 + k, b, k, plan);
@@ -182,7 +147,7 @@ TEST(BatchRunner, MemberAgreesWithAPlainRecomputation) {
       recompute(spec, plan, run::member_initial_state(spec, runner.base_state(), 0, j));
   ASSERT_EQ(static_cast<std::int64_t>(p.trajectory.size()), plan.trajectory_samples);
   for (std::int64_t k = 0; k < plan.trajectory_samples; ++k) {
-    EXPECT_TRUE(same_row(p.trajectory[k], sample(res, plan, j, k))) << "sample " << k;
+    EXPECT_TRUE(bitwise_equal(p.trajectory[k], sample(res, plan, j, k))) << "sample " << k;
   }
   const double n = static_cast<double>(plan.accumulate_steps), dt = spec.integration.dt;
   for (int i = 0; i < 3; ++i) {
@@ -285,22 +250,22 @@ TEST(BatchRunner, InitialStateDependsOnSeedCaseMemberOnly) {
   const std::vector<double> base = {1.0, -2.0, 20.0};
   for (std::int64_t c : {0, 3}) {
     for (std::int64_t m : {0, 7, 999}) {
-      EXPECT_TRUE(same_row(run::member_initial_state(spec, base, c, m),
+      EXPECT_TRUE(bitwise_equal(run::member_initial_state(spec, base, c, m),
                            run::member_initial_state(other, base, c, m)));
     }
   }
   const auto x = run::member_initial_state(spec, base, 1, 2);
-  EXPECT_FALSE(same_row(x, run::member_initial_state(spec, base, 2, 1)));
-  EXPECT_FALSE(same_row(x, run::member_initial_state(spec, base, 1, 3)));
+  EXPECT_FALSE(bitwise_equal(x, run::member_initial_state(spec, base, 2, 1)));
+  EXPECT_FALSE(bitwise_equal(x, run::member_initial_state(spec, base, 1, 3)));
   spec::Spec reseeded = spec;
   reseeded.ensemble.seed += 1;
-  EXPECT_FALSE(same_row(x, run::member_initial_state(reseeded, base, 1, 2)));
+  EXPECT_FALSE(bitwise_equal(x, run::member_initial_state(reseeded, base, 1, 2)));
 
   const plan::Plan plan = plan::make_plan(spec);
   const run::CaseRunner runner(spec, plan, plan.cases[0]);
   const run::BatchResult res = runner.run(batch(0, 8, 8));
   for (int j = 0; j < 8; ++j) {
-    EXPECT_TRUE(same_row(row(res.initial_state, j, 3),
+    EXPECT_TRUE(bitwise_equal(row(res.initial_state, j, 3),
                          run::member_initial_state(spec, runner.base_state(), 0, 8 + j)));
   }
 }
@@ -353,7 +318,7 @@ TEST(BatchRunner, AttractorBaseStateIsTheSpunUpDefaultState) {
   std::vector<double> x = model->default_initial_state();
   const std::int64_t steps = std::llround(spec.ensemble.initial.spinup / spec.integration.dt);
   integrators::rk4_scalar_reference(*model, x.data(), spec.integration.dt, steps);
-  EXPECT_TRUE(same_row(x, runner.base_state()));
+  EXPECT_TRUE(bitwise_equal(x, runner.base_state()));
 }
 
 
@@ -364,12 +329,7 @@ TEST(BatchRunner, AttractorBaseStateIsTheSpunUpDefaultState) {
 /// (dt |lambda| > 2.8 with |lambda| ~ |x|) and overflow, while the others fall back onto the
 /// attractor.
 spec::Spec blow_up_spec() {
-  spec::Spec s = l63_spec();
-  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
-  s.ensemble.initial.kind = spec::InitialKind::given;
-  s.ensemble.initial.state = {1.0, 1.0, 20.0};
-  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
-  s.integration.dt = 0.01;
+  spec::Spec s = blown_up(l63_spec());
   s.integration.spinup = 1.0;
   s.integration.duration = 5.0;
   s.output.trajectories = {8, 0.5};

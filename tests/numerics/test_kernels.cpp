@@ -22,36 +22,27 @@ namespace {
 /// Forced Lorenz-63 with sign regimes on y, a histogram of z, observables (z, x) (a subset in
 /// another order), trajectories; spin-up 1.23 and duration 4.56 time units at dt 0.005.
 spec::Spec l63_spec() {
-  spec::Spec s;
-  s.name = "kernel-test";
-  s.model = "lorenz63";
+  spec::Spec s = small_lorenz63_spec("kernel-test");
   s.parameters = models::complete_parameters(
       model_info("lorenz63"), {{"forcing", {3.0}}, {"forcing_direction", {0.0, 1.0, 0.2}}});
   s.ensemble.members = 40;
-  s.ensemble.initial.kind = spec::InitialKind::attractor;
   s.ensemble.initial.spinup = 5.0;
   s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-2};
   s.ensemble.seed = 314;
-  s.integration.dt = 0.005;
   s.integration.spinup = 1.23;
   s.integration.duration = 4.56;
   s.statistics.observables = {"z", "x"};
-  s.statistics.regimes.kind = spec::RegimeKind::sign;
   s.statistics.regimes.observable = "y";
   s.statistics.regimes.labels = {"up", "down"};
   s.statistics.histogram = {true, "z", 30, 5.0, 45.0};
   s.output.trajectories = {40, 0.1};
+  s.run = spec::Run{};  // the default batch size
   return s;
 }
 
 /// Lorenz-63 started far off the attractor at a large step: some members overflow.
 spec::Spec blow_up_spec() {
-  spec::Spec s = l63_spec();
-  s.parameters = models::complete_parameters(model_info("lorenz63"), {});
-  s.ensemble.initial.kind = spec::InitialKind::given;
-  s.ensemble.initial.state = {1.0, 1.0, 20.0};
-  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
-  s.integration.dt = 0.01;
+  spec::Spec s = blown_up(l63_spec());
   return s;
 }
 
@@ -103,19 +94,6 @@ std::vector<T> slice(const std::vector<T>& a, std::size_t first, std::size_t cou
   return std::vector<T>(a.begin() + first * count, a.begin() + (first + 1) * count);
 }
 
-template <typename T>
-bool same(const std::vector<T>& a, const std::vector<T>& b) {
-  if (a.size() != b.size()) return false;
-  for (std::size_t i = 0; i < a.size(); ++i) {
-    if constexpr (std::is_floating_point_v<T>) {
-      if (!same_bits(a[i], b[i])) return false;
-    } else if (a[i] != b[i]) {
-      return false;
-    }
-  }
-  return true;
-}
-
 /// Member m's numbers from the batches of a run (batch m / width, column m % width).
 struct Member {
   std::vector<double> initial, mean, variance, fraction, residence, trajectory;
@@ -145,14 +123,14 @@ void expect_same_members(const Campaign& a, const Campaign& b, int members) {
   for (int m = 0; m < members; ++m) {
     SCOPED_TRACE("member " + std::to_string(m));
     const Member x = member(a, m), y = member(b, m);
-    EXPECT_TRUE(same(x.initial, y.initial));
+    EXPECT_TRUE(bitwise_equal(x.initial, y.initial));
     EXPECT_EQ(x.status, y.status);
-    EXPECT_TRUE(same(x.mean, y.mean));
-    EXPECT_TRUE(same(x.variance, y.variance));
-    EXPECT_TRUE(same(x.fraction, y.fraction));
-    EXPECT_TRUE(same(x.residence, y.residence));
+    EXPECT_TRUE(bitwise_equal(x.mean, y.mean));
+    EXPECT_TRUE(bitwise_equal(x.variance, y.variance));
+    EXPECT_TRUE(bitwise_equal(x.fraction, y.fraction));
+    EXPECT_TRUE(bitwise_equal(x.residence, y.residence));
     EXPECT_EQ(x.transitions, y.transitions);
-    EXPECT_TRUE(same(x.trajectory, y.trajectory));
+    EXPECT_TRUE(bitwise_equal(x.trajectory, y.trajectory));
   }
   EXPECT_EQ(histogram(a), histogram(b));
 }
@@ -203,7 +181,7 @@ TEST(Kernels, TrajectoriesEqualTheScalarReference) {
       for (std::int64_t k = 0; k < r.plan.trajectory_samples; ++k) {
         const std::vector<double> sample(got.trajectory.begin() + k * d,
                                          got.trajectory.begin() + (k + 1) * d);
-        ASSERT_TRUE(same(sample, x)) << "member " << m << " sample " << k;
+        ASSERT_TRUE(bitwise_equal(sample, x)) << "member " << m << " sample " << k;
         integrators::rk4_scalar_reference(*model, x.data(), s.integration.dt,
                                           r.plan.trajectory_every_steps);
       }
