@@ -83,7 +83,7 @@ int check_command(const CheckOptions& options) {
   }
   const spec::Spec spec = spec::load_spec(options.spec_path);
   const plan::Plan plan = plan::make_plan(spec);
-  if (options.pilot) check_pilot_options(spec, options.pilot_options);
+  if (options.pilot) check_pilot_options(spec, plan, options.pilot_options);
   const double cases = static_cast<double>(plan.cases.size());
   const double members = static_cast<double>(plan.member_count());
   const double member_steps = members * plan.total_steps();

@@ -268,8 +268,8 @@ bool print_dt_adequacy(const spec::Spec& spec, const plan::Plan& plan, const Pil
                 num(ratio).c_str(), !std::isfinite(ratio) ? "?" : coarse ? "TOO COARSE" : "ok");
   }
   if (flagged) {
-    std::printf("  dt %g: too coarse (%s change by more than their statistical error when dt "
-                "is halved); try dt %g\n",
+    std::printf("  dt %g: too coarse (the time means of %s change by more than their statistical "
+                "error when dt is halved); try dt %g\n",
                 spec.integration.dt, worst.c_str(), spec.integration.dt / 2);
   } else {
     std::printf("  dt %g: adequate at the pilot's precision (no |d|/se above %.3g)\n",
@@ -289,20 +289,72 @@ std::vector<double> largest_w(const PilotResult& r, std::size_t n_obs) {
   return w;
 }
 
+/// Parses a target option: "X" (every observable) or "NAME=X,NAME=X,..." Returns one target per
+/// observable, 0 where none was asked for. Throws UsageError for a bad value or name.
+std::vector<double> parse_targets(const std::string& text, const std::vector<std::string>& names,
+                                  const char* option) {
+  std::vector<double> targets(names.size(), 0.0);
+  if (text.empty()) return targets;
+  auto value = [&](const std::string& s) {
+    std::size_t used = 0;
+    double v = 0.0;
+    try {
+      v = std::stod(s, &used);
+    } catch (const std::exception&) {
+      used = 0;
+    }
+    if (used != s.size() || !(v > 0.0) || !std::isfinite(v)) {
+      throw UsageError(std::string(option) + ": `" + s + "` is not a positive number");
+    }
+    return v;
+  };
+  if (text.find('=') == std::string::npos) {
+    std::fill(targets.begin(), targets.end(), value(text));
+    return targets;
+  }
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    const std::size_t end = std::min(text.find(',', start), text.size());
+    const std::string item = text.substr(start, end - start);
+    const std::size_t eq = item.find('=');
+    const std::string name = item.substr(0, eq);
+    const auto it = std::find(names.begin(), names.end(), name);
+    if (eq == std::string::npos || it == names.end()) {
+      throw UsageError(std::string(option) + ": `" + item +
+                       "` is not OBSERVABLE=HALFWIDTH for an observable of the spec");
+    }
+    targets[static_cast<std::size_t>(it - names.begin())] = value(item.substr(eq + 1));
+    start = end + 1;
+  }
+  return targets;
+}
+
+bool any_target(const std::vector<double>& targets) {
+  return std::any_of(targets.begin(), targets.end(), [](double x) { return x > 0.0; });
+}
+
+/// One precision the campaign must reach: a 95% half-width `target` on a quantity whose
+/// variance per unit of averaging time is `w`.
+struct Requirement {
+  std::string what;  // "case mean of x", "slope of x on forcing"
+  double w = 0.0;
+  double target = 0.0;
+};
+
 void print_precision(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
-                     const PilotOptions& o, std::vector<std::string>& warnings) {
+                     const std::vector<double>& targets, std::vector<std::string>& warnings) {
   const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
   const std::int64_t n_spec = plan.members;
-  const bool target = o.target_halfwidth > 0;
+  const bool target = any_target(targets);
   std::printf("\n  decorrelation and precision of the case means: tau = T Var_m / (2 s2) from the\n"
               "  dt run (T = %g, Var_m the variance of the members' time means, s2 their mean\n"
-              "  time variance); half-width = t_{0.975,n-1} sqrt(2 tau s2 / (n T)) for n = %lld\n"
-              "  members over T = %g as the spec is written",
+              "  time variance); half-width = t_{0.975,n-1} sqrt(2 tau s2 / (n T)) for the\n"
+              "  spec's n = %lld members over T = %g",
               r.window, static_cast<long long>(n_spec), t_spec);
-  if (target) std::printf("; needed for half-width %g", o.target_halfwidth);
+  if (target) std::printf("; members (at that T) and T (at those n) for the target");
   std::printf(".\n\n  %-22s %-12s %10s %21s %10s %12s", "case", "observable", "tau",
               "tau 95% interval", "s2", "half-width");
-  if (target) std::printf(" %14s %14s", "members at T", "T at members");
+  if (target) std::printf(" %10s %12s %12s", "target", "members", "duration");
   std::printf("\n");
   for (const Row& row : r.rows) {
     const stats::Decorrelation& d = row.decorrelation;
@@ -312,132 +364,175 @@ void print_precision(const spec::Spec& spec, const plan::Plan& plan, const Pilot
                 name.c_str(), num(d.tau).c_str(),
                 ("[" + num(d.tau_low) + ", " + num(d.tau_high) + "]").c_str(),
                 num(d.time_variance).c_str(), num(stats::mean_halfwidth(w, n_spec, t_spec)).c_str());
-    if (target) {
-      std::printf(" %14s %14s", count_text(stats::members_needed(w, t_spec, o.target_halfwidth)).c_str(),
-                  num(stats::duration_needed(w, n_spec, o.target_halfwidth)).c_str());
+    const double x = targets[row.observable];
+    if (target && x > 0.0) {
+      std::printf(" %10s %12s %12s", num(x).c_str(),
+                  count_text(stats::members_needed(w, t_spec, x)).c_str(),
+                  num(stats::duration_needed(w, n_spec, x)).c_str());
     }
     std::printf("\n");
     if (std::isfinite(d.tau) && r.window < kWindowsPerTau * d.tau) {
       warnings.push_back("the pilot window " + num(r.window) + " is under " +
                          num(kWindowsPerTau) + " decorrelation times of " + name + " (tau " +
-                         num(d.tau) + "): its figures are rough; raise --pilot-duration");
+                         num(d.tau) + " in case " + std::to_string(r.cases[row.case_slot].index) +
+                         "): its figures are rough; raise --pilot-duration");
     }
   }
 }
 
-/// Half-width and needs for the response slopes: the slope is a fixed linear combination
-/// sum_c a_c y_c of the case means, so its variance is sum_c a_c^2 W_c / (n T); W_c is the
-/// largest pilot W of the observable for every case.
-void print_slopes(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
-                  const PilotOptions& o) {
-  if (spec.sweep.empty()) return;
-  const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
-  const std::int64_t n_spec = plan.members;
-  const bool target = o.target_slope_halfwidth > 0;
+/// W of each response slope, [axis][observable]: the slope is a fixed linear combination
+/// sum_c a_c y_c of the case means (least squares over all the spec's cases), so its variance
+/// per unit time is sum_c a_c^2 W_c, with W_c the largest pilot W of the observable for every
+/// case. response_slopes() with y = 0 and y_se = sqrt(W) returns exactly sqrt(sum_c a_c^2 W).
+std::vector<std::vector<double>> slope_w(const plan::Plan& plan, const PilotResult& r,
+                                         std::size_t axes) {
   std::vector<std::vector<double>> x;
   for (const plan::Case& c : plan.cases) x.push_back(c.axis_values);
   const std::vector<double> zero(plan.cases.size(), 0.0);
   const std::vector<double> w = largest_w(r, plan.observables.size());
-  std::printf("\n  response slopes (least squares over all %zu cases, each case's W taken as the\n"
-              "  largest of the pilot cases); half-width for n = %lld members over T = %g",
-              plan.cases.size(), static_cast<long long>(n_spec), t_spec);
-  if (target) std::printf("; needed for half-width %g", o.target_slope_halfwidth);
-  std::printf(".\n\n  %-22s %-12s %12s", "axis", "observable", "half-width");
-  if (target) std::printf(" %14s %14s", "members at T", "T at members");
-  std::printf("\n");
-  for (std::size_t obs = 0; obs < plan.observables.size(); ++obs) {
-    const std::vector<double> se(plan.cases.size(), std::sqrt(w[obs]));
+  std::vector<std::vector<double>> out(axes, std::vector<double>(w.size()));
+  for (std::size_t o = 0; o < w.size(); ++o) {
+    const std::vector<double> se(plan.cases.size(), std::sqrt(w[o]));
     const std::vector<stats::Slope> unit = stats::response_slopes(x, zero, se);
-    for (std::size_t a = 0; a < spec.sweep.size(); ++a) {
-      const double ws = unit[a].stderr_ * unit[a].stderr_;  // sum_c a_c^2 W
+    for (std::size_t a = 0; a < axes; ++a) out[a][o] = unit[a].stderr_ * unit[a].stderr_;
+  }
+  return out;
+}
+
+void print_slopes(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
+                  const std::vector<double>& targets) {
+  if (spec.sweep.empty()) return;
+  const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
+  const std::int64_t n_spec = plan.members;
+  const bool target = any_target(targets);
+  const std::vector<std::vector<double>> ws = slope_w(plan, r, spec.sweep.size());
+  std::printf("\n  response slopes: least squares over all %zu cases, each case's sampling\n"
+              "  error taken from the pilot case where it is largest; half-width for the spec's\n"
+              "  n = %lld members over T = %g",
+              plan.cases.size(), static_cast<long long>(n_spec), t_spec);
+  if (target) std::printf("; members and duration for the target");
+  std::printf(".\n\n  %-22s %-12s %12s", "axis", "observable", "half-width");
+  if (target) std::printf(" %10s %12s %12s", "target", "members", "duration");
+  std::printf("\n");
+  for (std::size_t a = 0; a < spec.sweep.size(); ++a) {
+    for (std::size_t o = 0; o < plan.observables.size(); ++o) {
+      const double w = ws[a][o];
       std::printf("  %-22s %-12s %12s", spec.sweep[a].parameter.c_str(),
-                  plan.observables[obs].c_str(), num(stats::mean_halfwidth(ws, n_spec, t_spec)).c_str());
-      if (target) {
-        std::printf(" %14s %14s",
-                    count_text(stats::members_needed(ws, t_spec, o.target_slope_halfwidth)).c_str(),
-                    num(stats::duration_needed(ws, n_spec, o.target_slope_halfwidth)).c_str());
+                  plan.observables[o].c_str(), num(stats::mean_halfwidth(w, n_spec, t_spec)).c_str());
+      if (target && targets[o] > 0.0) {
+        std::printf(" %10s %12s %12s", num(targets[o]).c_str(),
+                    count_text(stats::members_needed(w, t_spec, targets[o])).c_str(),
+                    num(stats::duration_needed(w, n_spec, targets[o])).c_str());
       }
       std::printf("\n");
     }
   }
 }
 
-/// The variance-per-time W that decides the campaign: the largest over observables and cases
-/// (for a case mean) or over observables and axes (for a slope).
-double deciding_w(const plan::Plan& plan, const PilotResult& r, bool slope) {
+/// The requirements of the campaign: for every observable with a target, its case mean in
+/// every case (the largest pilot W) and its slope on every axis.
+std::vector<Requirement> requirements(const spec::Spec& spec, const plan::Plan& plan,
+                                      const PilotResult& r, const std::vector<double>& mean_targets,
+                                      const std::vector<double>& slope_targets) {
+  std::vector<Requirement> out;
   const std::vector<double> w = largest_w(r, plan.observables.size());
-  if (!slope) return *std::max_element(w.begin(), w.end());
-  std::vector<std::vector<double>> x;
-  for (const plan::Case& c : plan.cases) x.push_back(c.axis_values);
-  double worst = 0.0;
-  for (double wo : w) {
-    const std::vector<double> se(plan.cases.size(), std::sqrt(wo));
-    for (const stats::Slope& s : stats::response_slopes(x, std::vector<double>(x.size(), 0.0), se)) {
-      if (std::isfinite(s.stderr_)) worst = std::max(worst, s.stderr_ * s.stderr_);
+  for (std::size_t o = 0; o < w.size(); ++o) {
+    if (mean_targets[o] > 0.0) out.push_back({"case mean of " + plan.observables[o], w[o], mean_targets[o]});
+  }
+  if (spec.sweep.empty()) return out;
+  const std::vector<std::vector<double>> ws = slope_w(plan, r, spec.sweep.size());
+  for (std::size_t a = 0; a < ws.size(); ++a) {
+    for (std::size_t o = 0; o < w.size(); ++o) {
+      if (slope_targets[o] > 0.0 && std::isfinite(ws[a][o])) {
+        out.push_back({"slope of " + plan.observables[o] + " on " + spec.sweep[a].parameter,
+                       ws[a][o], slope_targets[o]});
+      }
     }
   }
-  return worst;
+  return out;
 }
 
+/// Members at the spec's duration and duration at the spec's members that meet every
+/// requirement, each decided by the most demanding one, with the campaign's core-hours.
 void print_suggestion(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
-                      double w, double target, const char* what, double rate,
+                      const std::vector<Requirement>& needs, double rate,
                       std::vector<std::string>& warnings) {
   const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
   const std::int64_t n_spec = plan.members;
-  std::printf("  to reach half-width %g on every %s:\n", target, what);
-  const std::int64_t n = stats::members_needed(w, t_spec, target);
-  if (n < 0) {
-    std::printf("    members at duration %g: %s\n", t_spec, count_text(n).c_str());
-  } else {
-    std::printf("    %lld members at duration %g (the spec's): %.3g core-hours\n",
-                static_cast<long long>(n), t_spec, core_hours(spec, plan, n, t_spec, rate));
-  }
-  const double t = stats::duration_needed(w, n_spec, target);
-  if (std::isfinite(t)) {
-    std::printf("    duration %.4g at %lld members (the spec's): %.3g core-hours\n", t,
-                static_cast<long long>(n_spec), core_hours(spec, plan, n_spec, t, rate));
-    double tau = 0.0;
-    for (const Row& row : r.rows) tau = std::max(tau, row.decorrelation.tau);
-    if (t < kWindowsPerTau * tau) {
-      warnings.push_back("a duration of " + num(t) + " is under " + num(kWindowsPerTau) +
-                         " decorrelation times (tau up to " + num(tau) +
-                         "): the half-width formula assumes a window much longer than tau");
+  std::int64_t members = 0;
+  double duration = 0.0;
+  std::string members_by, duration_by;
+  for (const Requirement& q : needs) {
+    const std::int64_t n = stats::members_needed(q.w, t_spec, q.target);
+    if (n < 0 || (members >= 0 && n > members)) {
+      members = n;
+      members_by = q.what;
     }
+    const double t = stats::duration_needed(q.w, n_spec, q.target);
+    if (!(t <= duration)) {
+      duration = t;
+      duration_by = q.what;
+    }
+  }
+  std::printf("  to reach every target:\n");
+  if (members < 0) {
+    std::printf("    members at duration %g: more than 1e15 (%s)\n", t_spec, members_by.c_str());
   } else {
-    std::printf("    a longer duration cannot help a campaign of %lld member\n",
-                static_cast<long long>(n_spec));
+    std::printf("    %lld members at duration %g (the spec's): %.3g core-hours; decided by the %s\n",
+                static_cast<long long>(members), t_spec, core_hours(spec, plan, members, t_spec, rate),
+                members_by.c_str());
+  }
+  if (!std::isfinite(duration)) {
+    std::printf("    no duration is enough with %lld member\n", static_cast<long long>(n_spec));
+    return;
+  }
+  std::printf("    duration %.4g at %lld members (the spec's): %.3g core-hours; decided by the %s\n",
+              duration, static_cast<long long>(n_spec), core_hours(spec, plan, n_spec, duration, rate),
+              duration_by.c_str());
+  double tau = 0.0;
+  for (const Row& row : r.rows) {
+    if (std::isfinite(row.decorrelation.tau)) tau = std::max(tau, row.decorrelation.tau);
+  }
+  if (duration < kWindowsPerTau * tau) {
+    warnings.push_back("a duration of " + num(duration) + " is under " + num(kWindowsPerTau) +
+                       " decorrelation times (tau up to " + num(tau) +
+                       "): the half-width formula assumes a window much longer than tau");
   }
 }
 
-void print_campaign(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
-                    const PilotOptions& o, double rate, std::vector<std::string>& warnings) {
+/// The largest half-width the spec as written reaches, and where.
+void print_as_written(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
+                      double rate) {
   const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
-  const double w_case = deciding_w(plan, r, false);
-  std::printf("\n  campaign (%zu cases, %.3g member-steps/s per core):\n", plan.cases.size(), rate);
-  std::printf("  as written, %lld members x duration %g: %.3g core-hours;\n"
-              "    case-mean half-width up to %s",
-              static_cast<long long>(plan.members), t_spec,
-              core_hours(spec, plan, plan.members, t_spec, rate),
-              num(stats::mean_halfwidth(w_case, plan.members, t_spec)).c_str());
-  if (!spec.sweep.empty()) {
-    std::printf(", slope half-width up to %s",
-                num(stats::mean_halfwidth(deciding_w(plan, r, true), plan.members, t_spec))
-                    .c_str());
+  const std::int64_t n_spec = plan.members;
+  std::printf("  as written, %lld members x duration %g: %.3g core-hours\n",
+              static_cast<long long>(n_spec), t_spec, core_hours(spec, plan, n_spec, t_spec, rate));
+  const std::vector<double> w = largest_w(r, plan.observables.size());
+  std::printf("    case-mean half-width in the worst pilot case:");
+  for (std::size_t o = 0; o < w.size(); ++o) {
+    std::printf(" %s %s", plan.observables[o].c_str(),
+                num(stats::mean_halfwidth(w[o], n_spec, t_spec)).c_str());
   }
   std::printf("\n");
-  if (o.target_halfwidth > 0) {
-    print_suggestion(spec, plan, r, w_case, o.target_halfwidth, "case mean", rate, warnings);
-  }
-  if (o.target_slope_halfwidth > 0) {
-    print_suggestion(spec, plan, r, deciding_w(plan, r, true), o.target_slope_halfwidth,
-                     "response slope", rate, warnings);
+  if (spec.sweep.empty()) return;
+  const std::vector<std::vector<double>> ws = slope_w(plan, r, spec.sweep.size());
+  for (std::size_t a = 0; a < ws.size(); ++a) {
+    std::printf("    slope half-width on %s:", spec.sweep[a].parameter.c_str());
+    for (std::size_t o = 0; o < w.size(); ++o) {
+      std::printf(" %s %s", plan.observables[o].c_str(),
+                  num(stats::mean_halfwidth(ws[a][o], n_spec, t_spec)).c_str());
+    }
+    std::printf("\n");
   }
 }
 
 }  // namespace
 
-void check_pilot_options(const spec::Spec& spec, const PilotOptions& options) {
-  if (options.target_slope_halfwidth > 0 && spec.sweep.empty()) {
+void check_pilot_options(const spec::Spec& spec, const plan::Plan& plan,
+                         const PilotOptions& options) {
+  parse_targets(options.target_halfwidth, plan.observables, "--target-halfwidth");
+  parse_targets(options.target_slope_halfwidth, plan.observables, "--target-slope-halfwidth");
+  if (!options.target_slope_halfwidth.empty() && spec.sweep.empty()) {
     throw UsageError("--target-slope-halfwidth needs a sweep: " + spec.source_path +
                      " has one case and no response slope");
   }
@@ -451,7 +546,11 @@ void check_pilot_options(const spec::Spec& spec, const PilotOptions& options) {
 
 void run_pilot(const spec::Spec& spec, const plan::Plan& plan, const PilotOptions& options,
                double rate) {
-  check_pilot_options(spec, options);
+  check_pilot_options(spec, plan, options);
+  const std::vector<double> mean_targets =
+      parse_targets(options.target_halfwidth, plan.observables, "--target-halfwidth");
+  const std::vector<double> slope_targets =
+      parse_targets(options.target_slope_halfwidth, plan.observables, "--target-slope-halfwidth");
   const PilotResult r = run_all(spec, plan, options, rate);
   std::vector<std::string> warnings;
   std::printf("\npilot: %zu of %zu cases, %d members each, spin-up %g + duration %g (the spec: "
@@ -464,9 +563,12 @@ void run_pilot(const spec::Spec& spec, const plan::Plan& plan, const PilotOption
                        " pilot member runs became non-finite and were left out");
   }
   const bool coarse = print_dt_adequacy(spec, plan, r, options.members);
-  print_precision(spec, plan, r, options, warnings);
-  print_slopes(spec, plan, r, options);
-  print_campaign(spec, plan, r, options, rate, warnings);
+  print_precision(spec, plan, r, mean_targets, warnings);
+  print_slopes(spec, plan, r, slope_targets);
+  std::printf("\n  campaign (%zu cases, %.3g member-steps/s per core):\n", plan.cases.size(), rate);
+  print_as_written(spec, plan, r, rate);
+  const std::vector<Requirement> needs = requirements(spec, plan, r, mean_targets, slope_targets);
+  if (!needs.empty()) print_suggestion(spec, plan, r, needs, rate, warnings);
   if (coarse) warnings.push_back("dt is too coarse: every figure above is for a biased model");
   for (const std::string& w : warnings) std::printf("  warning: %s\n", w.c_str());
 }
