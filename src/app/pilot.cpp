@@ -554,7 +554,7 @@ void run_pilot(const spec::Spec& spec, const plan::Plan& plan, const PilotOption
   const PilotResult r = run_all(spec, plan, options, rate);
   std::vector<std::string> warnings;
   std::printf("\npilot: %zu of %zu cases, %d members each, spin-up %g + duration %g (the spec: "
-              "%g), at dt and dt/2; %.1f s\n",
+              "%g), at dt and dt/2; %.2g s\n",
               r.cases.size(), plan.cases.size(), options.members,
               static_cast<double>(plan.spinup_steps) * spec.integration.dt, r.window,
               spec.integration.duration, r.seconds);
