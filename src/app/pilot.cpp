@@ -81,9 +81,8 @@ class PilotProgress {
   bool show_ = false;
 };
 
-/// Step counts of the pilot at one step size.
+/// Step counts of the pilot at one step size (the step size itself is in the pilot's spec).
 struct Timeline {
-  double dt = 0.0;
   std::int64_t spinup_steps = 0;
   std::int64_t accumulate_steps = 0;
 };
@@ -181,9 +180,8 @@ PilotResult run_all(const spec::Spec& spec, const plan::Plan& plan, const PilotO
   result.cases = pilot_cases(plan);
   const double dt = spec.integration.dt;
   const double duration = options.duration > 0 ? options.duration : spec.integration.duration / 10;
-  const Timeline coarse{dt, plan.spinup_steps,
-                        std::max<std::int64_t>(2, std::llround(duration / dt))};
-  const Timeline fine{dt / 2, 2 * coarse.spinup_steps, 2 * coarse.accumulate_steps};
+  const Timeline coarse{plan.spinup_steps, std::max<std::int64_t>(2, std::llround(duration / dt))};
+  const Timeline fine{2 * coarse.spinup_steps, 2 * coarse.accumulate_steps};
   result.window = static_cast<double>(coarse.accumulate_steps) * dt;
 
   const plan::Plan first = pilot_plan(plan, result.cases.front(), options.members, coarse);

@@ -1,9 +1,9 @@
 #!/usr/bin/env bash
 # `chaosweep check SPEC --pilot`: flags a deliberately coarse dt, accepts a fine one, and refuses
 # options it cannot honour with one line and exit 2 (README, "Planning a campaign").
-# Usage: pilot.sh CHAOSWEEP WORKDIR SOURCE_DIR
+# Usage: pilot.sh CHAOSWEEP WORKDIR SOURCE_DIR PYTHON
 set -uo pipefail
-prog=$1 work=$2 src=$3
+prog=$1 work=$2 src=$3 python=$4
 rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
 failures=0
 fail() { echo "FAIL: $*"; failures=$((failures + 1)); }
@@ -46,6 +46,29 @@ grep -q "^    [0-9]* members at duration 1000 (the spec's): .* core-hours; decid
   || fail "targets: no members suggestion"
 grep -q "^    duration [0-9.e+]* at 256 members (the spec's): .* core-hours; decided by" targets.txt \
   || fail "targets: no duration suggestion"
+
+# The pilot's dt run is the campaign's own run of those members, only shorter (exact: the same
+# engine, the same (seed, case, member) starts). A campaign of 32 members over the pilot's
+# window must give the same ensemble time means as the pilot's mean(dt) column, to the 4
+# significant digits printed, in every case (a wrong case index or member start would not).
+sed 's/members: 256/members: 32/; s/duration: 1000}/duration: 100}/' "$spec" > short.yaml
+"$prog" run short.yaml --archive short.h5 --overwrite --progress none 2>run.err \
+  || fail "campaign of the pilot's members: $(tail -1 run.err)"
+"$prog" check short.yaml --pilot --pilot-duration 100 >short.txt 2>&1 || fail "pilot on short.yaml"
+"$python" - short.h5 short.txt <<'PY' || fail "pilot mean(dt) differs from the campaign's"
+import sys, h5py
+with h5py.File(sys.argv[1], "r") as f:
+    means = f["ensemble/time_mean"][...]
+    names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][...]]
+rows = [l.split() for l in open(sys.argv[2]) if l.startswith("  ") and "(forcing" in l
+        and l.split()[3] in names and len(l.split()) >= 9 and l.split()[-1] in ("ok", "COARSE")]
+assert len(rows) == 9, rows
+for r in rows:
+    case, name, printed = int(r[0]), r[3], r[4]
+    want = "%.4g" % means[case, names.index(name)]
+    assert printed == want, (case, name, printed, want)
+print("pilot mean(dt) = campaign ensemble mean in all 9 rows")
+PY
 
 # expect_refusal DESCRIPTION ARGS...: exit 2, exactly one line on stderr, nothing on stdout.
 expect_refusal() {
