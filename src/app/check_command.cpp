@@ -4,6 +4,7 @@
 #include <string>
 
 #include "app/commands.hpp"
+#include "core/error.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "spec/load.hpp"
@@ -74,8 +75,15 @@ void print_sweep(const spec::Spec& spec) {
 }  // namespace
 
 int check_command(const CheckOptions& options) {
+  if (options.pilot_options_given && !options.pilot) {
+    throw UsageError("--pilot-members, --pilot-duration and the --target options need --pilot");
+  }
+  if (options.pilot && !options.calibrate) {
+    throw UsageError("--pilot times the model for its cost figures; drop --no-calibrate");
+  }
   const spec::Spec spec = spec::load_spec(options.spec_path);
   const plan::Plan plan = plan::make_plan(spec);
+  if (options.pilot) check_pilot_options(spec, plan, options.pilot_options);
   const double cases = static_cast<double>(plan.cases.size());
   const double members = static_cast<double>(plan.member_count());
   const double member_steps = members * plan.total_steps();
@@ -114,6 +122,7 @@ int check_command(const CheckOptions& options) {
                 rate, core_seconds / 3600, hours_text(share * plan.batch_size *
                                                       plan.total_steps() / rate).c_str(),
                 options.ranks);
+    if (options.pilot) run_pilot(spec, plan, options.pilot_options, rate);
   }
   return 0;
 }

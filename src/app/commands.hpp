@@ -4,12 +4,17 @@
 
 #include <string>
 
+#include "app/pilot.hpp"
+
 namespace chaosweep::app {
 
 struct CheckOptions {
   std::string spec_path;
   int ranks = 1;
   bool calibrate = true;
+  bool pilot = false;  // also run the planning pilot (app/pilot.hpp)
+  PilotOptions pilot_options;
+  bool pilot_options_given = false;  // a pilot option was on the command line
 };
 
 struct RunOptions {

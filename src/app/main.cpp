@@ -2,8 +2,10 @@
 // printed as one line and mapped to the exit status of the command-line contract.
 #include <CLI/CLI.hpp>
 
+#include <cmath>
 #include <csignal>
 #include <cstdio>
+#include <cstdlib>
 #include <exception>
 
 #include "app/commands.hpp"
@@ -51,6 +53,29 @@ int main(int argc, char** argv) {
       ->check(CLI::Range(1, 1 << 24));
   check_cmd->add_flag("!--no-calibrate", check.calibrate,
                       "Skip the short timing run used for the cost estimate");
+  check_cmd->add_flag("--pilot", check.pilot,
+                      "Also run a short pilot: dt adequacy, decorrelation times, members and "
+                      "duration needed");
+  const CLI::Validator positive(
+      [](std::string& text) -> std::string {
+        char* end = nullptr;
+        const double v = std::strtod(text.c_str(), &end);
+        if (end != text.c_str() && *end == '\0' && v > 0.0 && std::isfinite(v)) return "";
+        return "must be a positive number, not `" + text + "`";
+      },
+      "POSITIVE");
+  CLI::Option* pilot_opts[] = {
+      check_cmd->add_option("--pilot-members", check.pilot_options.members,
+                            "Members per pilot case (default 32)")
+          ->check(CLI::Range(8, 1 << 20)),
+      check_cmd->add_option("--pilot-duration", check.pilot_options.duration,
+                            "Accumulated model time of the pilot (default: a tenth of the spec's)")
+          ->check(positive),
+      check_cmd->add_option("--target-halfwidth", check.pilot_options.target_halfwidth,
+                            "Wanted 95% half-width of each case's ensemble mean: X for every "
+                            "observable, or NAME=X,NAME=X (observable units)"),
+      check_cmd->add_option("--target-slope-halfwidth", check.pilot_options.target_slope_halfwidth,
+                            "Wanted 95% half-width of each response slope: X or NAME=X,...")};
 
   app::RunOptions run;
   CLI::App* run_cmd = cli.add_subcommand("run", "Run a campaign (under mpirun for several ranks)");
@@ -105,6 +130,7 @@ int main(int argc, char** argv) {
     return kExitInvalid;
   }
 
+  for (const CLI::Option* o : pilot_opts) check.pilot_options_given |= o->count() > 0;
   if (*run_cmd) return run_with_mpi(argc, argv, run);
   try {
     if (*check_cmd) return app::check_command(check);
