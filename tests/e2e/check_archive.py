@@ -208,10 +208,14 @@ def check_xarray(path):
     expected = {
         "member": {"time_mean": ("case", "member", "observable"),
                    "initial_state": ("case", "member", "state"),
-                   "status": ("case", "member")},
+                   "status": ("case", "member"),
+                   "time_mean_stderr": ("case", "member", "observable")},
         "ensemble": {"time_mean": ("case", "observable"),
                      "time_mean_ci95": ("case", "observable", "bound"),
-                     "valid_members": ("case",)},
+                     "valid_members": ("case",),
+                     "time_mean_stderr": ("case", "observable"),
+                     "effective_samples": ("case", "observable"),
+                     "decorrelation_time": ("case", "observable")},
         "case": {"case": ("case",)},
     }
     for group, variables in expected.items():
