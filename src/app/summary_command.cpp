@@ -45,6 +45,19 @@ std::string json_estimate(double mean, double std, const double* ci) {
          json_number(ci[0]) + ", " + json_number(ci[1]) + "]}";
 }
 
+/// v[i], or NaN when the archive lacks the dataset (v empty).
+double value_or_nan(const std::vector<double>& v, std::size_t i) { return v.empty() ? NAN : v[i]; }
+
+/// A time-mean estimate with the errors that account for autocorrelation: the standard error of
+/// the ensemble mean, the effective independent samples and the decorrelation time.
+std::string json_time_mean(const ArchiveSummary& s, std::size_t i) {
+  std::string text = json_estimate(s.time_mean[i], s.time_mean_std[i], &s.time_mean_ci95[2 * i]);
+  text.pop_back();  // the closing brace
+  return text + ", \"stderr\": " + json_number(value_or_nan(s.time_mean_stderr, i)) +
+         ", \"effective_samples\": " + json_number(value_or_nan(s.effective_samples, i)) +
+         ", \"decorrelation_time\": " + json_number(value_or_nan(s.decorrelation_time, i)) + "}";
+}
+
 /// Names of the Lyapunov exponents: lambda1 (leading), lambda2, ...
 std::vector<std::string> exponent_names(const ArchiveSummary& s) {
   std::vector<std::string> names;
@@ -78,6 +91,10 @@ void print_json(const ArchiveSummary& s) {
               "\"time\": \"model time units\"},\n");
   std::printf("  \"interval\": \"ci95: 95%% confidence interval of the ensemble mean, "
               "mean +- t(0.975, n-1) s / sqrt(n), n = valid members\",\n");
+  std::printf("  \"stderr\": \"standard error of the ensemble time mean: the larger of "
+              "std / sqrt(n) and the members' blocking standard errors pooled, "
+              "sqrt(sum stderr^2) / n; effective_samples: sum over valid members of "
+              "n_steps / (2 tau_int); decorrelation_time: mean tau_int, model time units\",\n");
   auto list = [](const std::vector<std::string>& v) {
     std::string out = "[";
     for (std::size_t i = 0; i < v.size(); ++i) out += (i ? ", " : "") + json_string(v[i]);
@@ -98,7 +115,7 @@ void print_json(const ArchiveSummary& s) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(c, n_obs, o);
       std::printf("%s%s: %s", o ? ", " : "", json_string(s.observables[o]).c_str(),
-                  json_estimate(s.time_mean[i], s.time_mean_std[i], &s.time_mean_ci95[2 * i]).c_str());
+                  json_time_mean(s, i).c_str());
     }
     std::printf("},\n     \"regime_fraction\": {");
     for (std::size_t k = 0; k < n_reg; ++k) {
@@ -139,20 +156,30 @@ void print_csv(const ArchiveSummary& s) {
   const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
   std::printf("case");
   for (const std::string& a : s.axes) std::printf(",%s", a.c_str());
-  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members,units\n");
+  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members,units"
+              ",stderr,effective_samples,decorrelation_time\n");
+  // errors: {stderr, effective samples, decorrelation time} for time means, empty cells else
   auto row = [&](std::int64_t c, const char* quantity, const std::string& name, double mean,
-                 double std, const double* ci, const char* units) {
+                 double std, const double* ci, const char* units, const double* errors = nullptr) {
     std::printf("%lld", static_cast<long long>(c));
     for (std::size_t a = 0; a < s.axes.size(); ++a) std::printf(",%.17g", s.axis_values[a][c]);
-    std::printf(",%s,%s,%.17g,%.17g,%.17g,%.17g,%lld,%lld,%s\n", quantity, name.c_str(), mean, std,
+    std::printf(",%s,%s,%.17g,%.17g,%.17g,%.17g,%lld,%lld,%s", quantity, name.c_str(), mean, std,
                 ci[0], ci[1], static_cast<long long>(s.valid_members[c]),
                 static_cast<long long>(s.members), units);
+    if (errors) {
+      std::printf(",%.17g,%.17g,%.17g\n", errors[0], errors[1], errors[2]);
+    } else {
+      std::printf(",,,\n");
+    }
   };
   for (std::int64_t c = 0; c < s.cases; ++c) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(c, n_obs, o);
+      const double errors[3] = {value_or_nan(s.time_mean_stderr, i),
+                                value_or_nan(s.effective_samples, i),
+                                value_or_nan(s.decorrelation_time, i)};
       row(c, "time_mean", s.observables[o], s.time_mean[i], s.time_mean_std[i],
-          &s.time_mean_ci95[2 * i], "model units");
+          &s.time_mean_ci95[2 * i], "model units", errors);
     }
     for (std::size_t k = 0; k < n_reg; ++k) {
       const std::size_t i = idx(c, n_reg, k);
@@ -208,11 +235,11 @@ void print_aligned(const std::vector<std::vector<std::string>>& rows) {
 }
 
 /// One block of the table: a row per case with its swept values, valid/total members and
-/// "mean [95% interval]" for each name. Many names are split over several aligned sub-tables
+/// cell(case * names + name) for each name. Many names are split over several aligned sub-tables
 /// (each repeating the case columns) so that a line stays about kLineWidth characters wide.
-void print_block(const ArchiveSummary& s, const std::string& title,
-                 const std::vector<std::string>& names, const std::vector<double>& mean,
-                 const std::vector<double>& ci) {
+template <typename Cell>
+void print_case_block(const ArchiveSummary& s, const std::string& title,
+                      const std::vector<std::string>& names, Cell cell) {
   constexpr std::size_t kLineWidth = 120;
   std::printf("\n%s\n", title.c_str());
   std::vector<std::vector<std::string>> lead(1), cells(1);
@@ -230,7 +257,7 @@ void print_block(const ArchiveSummary& s, const std::string& title,
     std::vector<std::string> values;
     for (std::size_t o = 0; o < names.size(); ++o) {
       const std::size_t i = idx(c, names.size(), o);
-      values.push_back(estimate_text(mean[i], &ci[2 * i]));
+      values.push_back(cell(i));
     }
     cells.push_back(values);
   }
@@ -259,6 +286,26 @@ void print_block(const ArchiveSummary& s, const std::string& title,
   }
 }
 
+/// A block of "mean [95% interval]" cells.
+void print_block(const ArchiveSummary& s, const std::string& title,
+                 const std::vector<std::string>& names, const std::vector<double>& mean,
+                 const std::vector<double>& ci) {
+  print_case_block(s, title, names,
+                   [&](std::size_t i) { return estimate_text(mean[i], &ci[2 * i]); });
+}
+
+/// "stderr | effective samples | decorrelation time" of each case's ensemble time means.
+void print_errors_block(const ArchiveSummary& s) {
+  if (s.time_mean_stderr.empty()) return;
+  print_case_block(s, "errors of the time means: standard error of the ensemble mean | "
+                   "effective independent samples | decorrelation time (model time units)",
+                   s.observables, [&](std::size_t i) {
+                     return number_text("%.3g", s.time_mean_stderr[i]) + " | " +
+                            number_text("%.3g", s.effective_samples[i]) + " | " +
+                            number_text("%.3g", s.decorrelation_time[i]);
+                   });
+}
+
 void print_table(const ArchiveSummary& s) {
   std::int64_t valid = 0;
   for (std::int64_t v : s.valid_members) valid += v;
@@ -270,6 +317,7 @@ void print_table(const ArchiveSummary& s) {
               static_cast<long long>(s.cases * s.members), s.status.c_str());
   print_block(s, "time mean, model units: ensemble mean [95% confidence interval of the mean]",
               s.observables, s.time_mean, s.time_mean_ci95);
+  print_errors_block(s);
   if (!s.regimes.empty()) {
     print_block(s, "regime fraction, share of time (0-1): ensemble mean [95% confidence "
                 "interval of the mean]", s.regimes, s.regime_fraction, s.regime_fraction_ci95);
@@ -296,6 +344,10 @@ void print_table(const ArchiveSummary& s) {
   }
   std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
               "mean +- t(0.975, n-1) s / sqrt(n), n = valid members.\n");
+  if (!s.time_mean_stderr.empty()) {
+    std::printf("Standard error of the ensemble mean (used for the slopes): the larger of "
+                "s / sqrt(n) and sqrt(sum of the members' blocking standard errors^2) / n.\n");
+  }
 }
 
 }  // namespace

@@ -51,6 +51,9 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
   s.time_mean = read_all<double>(root, "ensemble/time_mean");
   s.time_mean_std = read_all<double>(root, "ensemble/time_mean_std");
   s.time_mean_ci95 = read_all<double>(root, "ensemble/time_mean_ci95");
+  s.time_mean_stderr = read_optional<double>(root, "ensemble/time_mean_stderr");
+  s.effective_samples = read_optional<double>(root, "ensemble/effective_samples");
+  s.decorrelation_time = read_optional<double>(root, "ensemble/decorrelation_time");
   s.regimes = read_optional<std::string>(root, "ensemble/regime");
   s.regime_fraction = read_optional<double>(root, "ensemble/regime_fraction");
   s.regime_fraction_std = read_optional<double>(root, "ensemble/regime_fraction_std");
@@ -79,6 +82,10 @@ void check_shapes(const ArchiveSummary& s) {
             s.lyapunov.size() == cases * static_cast<std::size_t>(s.exponents) &&
             s.lyapunov_ci95.size() == 2 * s.lyapunov.size();
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
+  for (const std::vector<double>* v :
+       {&s.time_mean_stderr, &s.effective_samples, &s.decorrelation_time}) {
+    ok = ok && (v->empty() || v->size() == cases * n_obs);
+  }
   if (!ok) throw UsageError(s.path + ": archive is inconsistent (dataset shapes disagree)");
 }
 

@@ -28,6 +28,9 @@ struct ArchiveSummary {
   std::vector<double> effective_members;         // [case]
   std::vector<double> time_mean, time_mean_std;  // [case][observable]
   std::vector<double> time_mean_ci95;            // [case][observable][2]
+  // standard error of the ensemble mean, effective samples, decorrelation time (empty in
+  // archives written before they existed)
+  std::vector<double> time_mean_stderr, effective_samples, decorrelation_time;  // [case][obs]
   std::vector<double> regime_fraction, regime_fraction_std;  // [case][regime]
   std::vector<double> regime_fraction_ci95;                  // [case][regime][2]
   std::vector<double> slope, slope_stderr;       // [axis][observable]

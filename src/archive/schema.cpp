@@ -24,6 +24,10 @@ std::vector<DatasetDef> make_table() {
       {"/member/time_variance", {"case", "member", "observable"}, T::float64, "1",
        "time variance of the observable over the accumulation window (n-1 denominator)",
        "always"},
+      {"/member/time_mean_stderr", {"case", "member", "observable"}, T::float64, "1",
+       "standard error of the time mean allowing for autocorrelation (blocking estimate; NaN "
+       "for invalid members and for windows shorter than 16 blocks of 256 steps)",
+       "always"},
       {"/member/regime_fraction", {"case", "member", "regime"}, T::float64, "1",
        "share of accumulated steps spent in the regime", "statistics.regimes"},
       {"/member/regime_mean_residence", {"case", "member", "regime"}, T::float64, "1",
@@ -59,11 +63,23 @@ std::vector<DatasetDef> make_table() {
       {"/ensemble/valid_members", {"case"}, T::int64, "1",
        "members with finite states throughout", "always"},
       {"/ensemble/effective_members", {"case"}, T::float64, "1",
-       "independent samples behind each ensemble estimate (valid members)", "always"},
+       "independent members behind each ensemble estimate: the valid members (independent "
+       "by construction)", "always"},
+      {"/ensemble/time_mean_stderr", {"case", "observable"}, T::float64, "1",
+       "standard error of the ensemble time mean: the larger of the across-member standard "
+       "deviation / sqrt(valid members) and sqrt(sum of member standard errors^2) / valid "
+       "members", "always"},
+      {"/ensemble/effective_samples", {"case", "observable"}, T::float64, "1",
+       "independent time samples behind the ensemble time mean: sum over valid members of "
+       "n / (2 tau_int)", "always"},
+      {"/ensemble/decorrelation_time", {"case", "observable"}, T::float64, "1",
+       "ensemble mean of the members' integrated autocorrelation times tau_int, in model "
+       "time units", "always"},
       {"/response/slope", {"axis", "observable"}, T::float64, "1",
        "least-squares slope of the ensemble time mean against the swept parameter", "sweep"},
       {"/response/slope_stderr", {"axis", "observable"}, T::float64, "1",
-       "standard error of the slope from the ensemble sampling error", "sweep"},
+       "standard error of the slope, propagated from each case's /ensemble/time_mean_stderr",
+       "sweep"},
       {"/histogram/edges", {"edges"}, T::float64, "1", "bin edges of the histogram",
        "statistics.histogram"},
       {"/histogram/counts", {"case", "bin"}, T::int64, "1",

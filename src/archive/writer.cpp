@@ -231,6 +231,8 @@ void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& pla
   rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_mean));
   d = g.dataset("time_variance", {n_cases, M, n_obs});
   rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_variance));
+  d = g.dataset("time_mean_stderr", {n_cases, M, n_obs});
+  rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_mean_stderr));
   if (spec.statistics.lyapunov.enabled) {
     const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
     g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
@@ -260,6 +262,9 @@ void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
   g.dataset("time_mean_ci95", {n_cases, n_obs, 2}).write_from_rank0(e.time_mean_ci95);
   g.dataset("valid_members", {n_cases}).write_from_rank0(e.valid_members);
   g.dataset("effective_members", {n_cases}).write_from_rank0(e.effective_members);
+  g.dataset("time_mean_stderr", {n_cases, n_obs}).write_from_rank0(e.time_mean_stderr);
+  g.dataset("effective_samples", {n_cases, n_obs}).write_from_rank0(e.effective_samples);
+  g.dataset("decorrelation_time", {n_cases, n_obs}).write_from_rank0(e.decorrelation_time);
   if (spec.statistics.lyapunov.enabled) {
     const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
     g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");

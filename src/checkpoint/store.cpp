@@ -39,6 +39,9 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
   rec.reals = {{"initial_state", r.initial_state},
                {"time_mean", r.time_mean},
                {"time_variance", r.time_variance},
+               {"time_mean_stderr", r.time_mean_stderr},
+               {"time_mean_tau", r.time_mean_tau},
+               {"time_mean_samples", r.time_mean_samples},
                {"regime_fraction", r.regime_fraction},
                {"regime_mean_residence", r.regime_mean_residence},
                {"trajectory", r.trajectory},
@@ -61,6 +64,9 @@ run::BatchResult to_result(const Record& rec) {
   r.initial_state = rec.real("initial_state");
   r.time_mean = rec.real("time_mean");
   r.time_variance = rec.real("time_variance");
+  r.time_mean_stderr = rec.real("time_mean_stderr");
+  r.time_mean_tau = rec.real("time_mean_tau");
+  r.time_mean_samples = rec.real("time_mean_samples");
   r.regime_fraction = rec.real("regime_fraction");
   r.regime_mean_residence = rec.real("regime_mean_residence");
   r.trajectory = rec.real("trajectory");

@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "parallel/reduce_errors.hpp"
 #include "stats/ensemble.hpp"
 
 namespace chaosweep::parallel {
@@ -69,8 +70,7 @@ void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) 
     std::vector<double> y(n_cases), se(n_cases);
     for (std::size_t c = 0; c < n_cases; ++c) {
       y[c] = r.time_mean[c * n_obs + o];
-      const double n = static_cast<double>(r.valid_members[c]);
-      se[c] = r.time_mean_std[c * n_obs + o] / std::sqrt(n);
+      se[c] = r.time_mean_stderr[c * n_obs + o];  // across and within members (reduce_errors)
     }
     const std::vector<stats::Slope> fits = stats::response_slopes(x, y, se);
     for (std::size_t a = 0; a < n_axes; ++a) {
@@ -147,6 +147,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
     r.effective_members[c] = static_cast<double>(valid);
   }
   r.non_finite_members = comm.sum(local_bad);
+  reduce_time_mean_errors(comm, plan, local, r);
   fit_slopes(plan, spec.sweep.size(), r);
   return r;
 }

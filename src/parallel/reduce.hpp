@@ -29,6 +29,11 @@ struct EnsembleResults {
   std::vector<double> lyapunov;                 // [case][exponent] (when requested)
   std::vector<double> lyapunov_std;             // [case][exponent]
   std::vector<double> lyapunov_ci95;            // [case][exponent][2]
+  // standard error of the ensemble time mean (stats::ensemble_mean_stderr), effective
+  // independent time samples (sum of the valid members' n_eff), mean decorrelation time
+  std::vector<double> time_mean_stderr;         // [case][observable]
+  std::vector<double> effective_samples;        // [case][observable]
+  std::vector<double> decorrelation_time;       // [case][observable], model time units
   std::vector<double> slope;                    // [axis][observable]
   std::vector<double> slope_stderr;             // [axis][observable]
   std::int64_t non_finite_members = 0;          // over the whole campaign

@@ -34,6 +34,9 @@ struct BatchResult {
   std::vector<std::uint8_t> status;            // [count]
   std::vector<double> time_mean;               // [count][n_observables], NaN if not valid
   std::vector<double> time_variance;           // [count][n_observables] (n-1 denominator)
+  std::vector<double> time_mean_stderr;        // [count][n_observables], blocking estimate
+  std::vector<double> time_mean_tau;           // [count][n_observables], tau_int, time units
+  std::vector<double> time_mean_samples;       // [count][n_observables], n_eff = n / (2 tau_int)
   std::vector<double> regime_fraction;         // [count][n_regimes]
   std::vector<double> regime_mean_residence;   // [count][n_regimes], time units; NaN if never
   std::vector<std::int64_t> regime_transitions;  // [count]

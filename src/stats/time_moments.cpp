@@ -8,7 +8,10 @@
 namespace chaosweep::stats {
 
 TimeMoments::TimeMoments(int series, int width, int block_length)
-    : series_(series), width_(width), block_length_(block_length) {
+    : series_(series),
+      width_(width),
+      block_length_(block_length),
+      blocks_(series * width, block_length) {
   if (series < 0 || width < 1 || block_length < 1) {
     throw std::invalid_argument("TimeMoments needs series >= 0, width >= 1, block length >= 1.");
   }
@@ -18,6 +21,7 @@ TimeMoments::TimeMoments(int series, int width, int block_length)
   s1_.assign(size, 0.0);
   s2_.assign(size, 0.0);
   running_.assign(size, Moments{});
+  block_means_.assign(size, 0.0);
 }
 
 void TimeMoments::add(const double* const* columns) {
@@ -64,12 +68,20 @@ Moments TimeMoments::block_moments(long index) const {
 void TimeMoments::flush() {
   const long size = static_cast<long>(running_.size());
   for (long i = 0; i < size; ++i) {
-    running_[i].merge(block_moments(i));
+    const Moments block = block_moments(i);
+    block_means_[i] = block.mean;
+    running_[i].merge(block);
     s1_[i] = 0.0;
     s2_[i] = 0.0;
   }
+  blocks_.add(block_means_.data());
   merged_count_ += in_block_;
   in_block_ = 0;
+}
+
+BlockingEstimate TimeMoments::standard_error(int series, int member) const {
+  const Moments m = moments(series, member);
+  return blocking_estimate(blocks_.levels(series * width_ + member), m.n, m.variance());
 }
 
 Moments TimeMoments::moments(int series, int member) const {
@@ -95,6 +107,7 @@ void TimeMoments::save(const std::string& prefix, SavedState& out) const {
   out.put(prefix + "mean", std::move(mean));
   out.put(prefix + "m2", std::move(m2));
   out.put(prefix + "counts", std::vector<std::int64_t>{in_block_, merged_count_});
+  blocks_.save(prefix + "blocks.", out);
 }
 
 void TimeMoments::load(const std::string& prefix, SavedStateReader& in) {
@@ -113,6 +126,10 @@ void TimeMoments::load(const std::string& prefix, SavedStateReader& in) {
   for (std::size_t i = 0; i < size; ++i) running_[i] = Moments{n[i], mean[i], m2[i]};
   in_block_ = static_cast<int>(counts[0]);
   merged_count_ = counts[1];
+  blocks_.load(prefix + "blocks.", in);
+  if (blocks_.base_blocks() * block_length_ != merged_count_) {
+    throw Error("the saved batch state's `" + prefix + "blocks.levels` do not match its samples");
+  }
 }
 
 }  // namespace chaosweep::stats

@@ -6,6 +6,7 @@
 #include <string>
 #include <vector>
 
+#include "stats/blocking.hpp"
 #include "stats/ensemble.hpp"
 #include "stats/saved_state.hpp"
 
@@ -21,6 +22,10 @@ namespace chaosweep::stats {
 /// block bounds the growth of rounding error, and the per-step loop over members is a plain
 /// vectorisable loop. Every member (column) sees the same operations, so its result does not
 /// depend on its column.
+///
+/// Each full block's mean also feeds a blocking estimator (BlockedMeans, base length =
+/// block_length), which gives the standard error of the time mean under autocorrelation at no
+/// cost per step: the block means exist anyway when a block is merged.
 ///
 /// Fused batch kernels may update the rows directly (rows(), add_sample(), then added()); they
 /// must do exactly what add() does.
@@ -60,8 +65,14 @@ class TimeMoments {
 
   std::int64_t count() const { return merged_count_ + in_block_; }
 
+  /// Standard error of series s's time mean for member m, with its integrated autocorrelation
+  /// time in samples (blocking_estimate over the full blocks so far; NaN while fewer than
+  /// kMinBlocks blocks are complete).
+  BlockingEstimate standard_error(int series, int member) const;
+
   /// The complete state as arrays `<prefix>origin`, `shift`, `s1`, `s2`, `n`, `mean`, `m2`
-  /// ([series][width] each) and `<prefix>counts` {samples in the block, samples merged}.
+  /// ([series][width] each), `<prefix>counts` {samples in the block, samples merged} and the
+  /// blocking levels under `<prefix>blocks.` (BlockedMeans::save).
   void save(const std::string& prefix, SavedState& out) const;
   /// Restores a state saved by an accumulator of the same shape; throws chaosweep::Error if not.
   void load(const std::string& prefix, SavedStateReader& in);
@@ -77,6 +88,8 @@ class TimeMoments {
   std::vector<double> shift_;        // [series][width], first sample of the current block (Kb)
   std::vector<double> s1_, s2_;      // [series][width], shifted sums of the current block
   std::vector<Moments> running_;     // [series][width], merged full blocks, mean relative to K0
+  BlockedMeans blocks_;              // cells [series][width]: full-block means relative to K0
+  std::vector<double> block_means_;  // [series][width], scratch for flush()
 };
 
 }  // namespace chaosweep::stats

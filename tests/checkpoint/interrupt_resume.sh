@@ -25,6 +25,9 @@ expect_status() {  # expect_status WANT GOT WHAT
 
 run 1 reference.h5 || fail "uninterrupted reference run"
 [ ! -e reference.h5.checkpoints ] || fail "checkpoints left after a complete run"
+# The members' standard errors (blocking levels saved in every batch state) are in the
+# archives compared below, and consistent with the ensemble datasets (duration 20000, dt 0.005).
+$check stderr-ensemble reference.h5 20000 0.005 || fail "standard errors of the reference run"
 
 # 1. SIGTERM on one rank at a given round, resumed on another rank count (sometimes twice).
 export CHAOSWEEP_TEST_ROUND_SECONDS=0.05

@@ -41,12 +41,20 @@ def root_attributes(path):
         return {k: f.attrs[k] for k in f.attrs}
 
 
+# Datasets every archive holds, so that a bitwise comparison covers them.
+REQUIRED = ["/member/time_mean_stderr", "/ensemble/time_mean_stderr",
+            "/ensemble/effective_samples", "/ensemble/decorrelation_time"]
+
+
 def check_bitwise(reference, *others):
     """Every dataset (and every root attribute but the run's own) is bitwise identical."""
     ref = datasets(reference)
     ref_attrs = root_attributes(reference)
     if len(ref) < 10:
         fail(f"{reference}: only {len(ref)} datasets")
+    missing = [name for name in REQUIRED if name not in ref]
+    if missing:
+        fail(f"{reference}: lacks {missing}")
     for other in others:
         got = datasets(other)
         if sorted(got) != sorted(ref):
@@ -164,6 +172,9 @@ def check_summary_json(path, program):
         mean = f["ensemble/time_mean"][()]
         ci = f["ensemble/time_mean_ci95"][()]
         valid = f["ensemble/valid_members"][()]
+        errors = {key: f["ensemble/" + path][()] for key, path in
+                  (("stderr", "time_mean_stderr"), ("effective_samples", "effective_samples"),
+                   ("decorrelation_time", "decorrelation_time"))}
         frac = f["ensemble/regime_fraction"][()] if "ensemble/regime_fraction" in f else None
         slope = f["response/slope"][()] if "response/slope" in f else None
     if len(doc["cases"]) != mean.shape[0]:
@@ -175,6 +186,10 @@ def check_summary_json(path, program):
             entry = case["time_mean"][name]
             if entry["mean"] != float(mean[c, o]) or entry["ci95"] != [float(v) for v in ci[c, o]]:
                 fail(f"case {c} {name}: summary {entry} != archive {mean[c, o]} {ci[c, o]}")
+            for key, values in errors.items():
+                want = float(values[c, o])
+                if not (entry[key] == want or (entry[key] is None and math.isnan(want))):
+                    fail(f"case {c} {name}: summary {key} {entry[key]} != archive {values[c, o]}")
         if frac is not None:
             for k, label in enumerate(doc["regimes"]):
                 if case["regime_fraction"][label]["mean"] != float(frac[c, k]):
@@ -193,10 +208,14 @@ def check_xarray(path):
     expected = {
         "member": {"time_mean": ("case", "member", "observable"),
                    "initial_state": ("case", "member", "state"),
-                   "status": ("case", "member")},
+                   "status": ("case", "member"),
+                   "time_mean_stderr": ("case", "member", "observable")},
         "ensemble": {"time_mean": ("case", "observable"),
                      "time_mean_ci95": ("case", "observable", "bound"),
-                     "valid_members": ("case",)},
+                     "valid_members": ("case",),
+                     "time_mean_stderr": ("case", "observable"),
+                     "effective_samples": ("case", "observable"),
+                     "decorrelation_time": ("case", "observable")},
         "case": {"case": ("case",)},
     }
     for group, variables in expected.items():
@@ -238,7 +257,140 @@ def check_lyapunov_sum(path, trace):
     print(f"ok: exponents sum to {trace:.6f} within {worst:.2g}; unforced spectrum {ens[0]}")
 
 
+BASE_BLOCK = 256        # samples per base block of the member accumulator (time_moments.hpp)
+MIN_BLOCKS = 16         # blocks a level needs (blocking.hpp)
+BLOCKS_PER_TAU = 32     # plateau: block length >= 32 tau_k (blocking.hpp)
+AGREEMENT = 2.0         # ... and the next level agrees within 2 of its standard deviations
+
+
+def blocking_stderr(series):
+    """Flyvbjerg & Petersen (1989) blocking written out directly: block means of 256 * 2^k
+    consecutive samples (whole blocks only), Var(mean) = s_b^2 b / n at each level with at
+    least 16 blocks, and the documented plateau rule: the first level with b >= 32 tau_k
+    (tau_k = b s_b^2 / (2 s^2)) whose next level, if usable, agrees within 2 standard
+    deviations V_next sqrt(2 / (blocks_next - 1)); otherwise the largest estimate."""
+    n = len(series)
+    var = np.var(series, ddof=1)
+    levels, b = [], BASE_BLOCK
+    while n // b >= MIN_BLOCKS:
+        blocks = series[:(n // b) * b].reshape(-1, b).mean(axis=1)
+        levels.append((b, n // b, np.var(blocks, ddof=1) * b / n))
+        b *= 2
+    for k, (b, _, v) in enumerate(levels):
+        ok = b >= BLOCKS_PER_TAU * v * n / (2 * var)
+        if ok and k + 1 < len(levels):
+            _, blocks_next, v_next = levels[k + 1]
+            ok = abs(v - v_next) <= AGREEMENT * v_next * math.sqrt(2 / (blocks_next - 1))
+        if ok:
+            return math.sqrt(v), True
+    return (math.sqrt(max(v for _, _, v in levels)) if levels else math.nan), False
+
+
+def batch_means_stderr(series, batches=20):
+    """Batch means with a fixed number of batches (common practice: 10-30 batches):
+    the standard deviation of the batch means over sqrt(batches)."""
+    n = len(series) // batches * batches
+    means = series[:n].reshape(batches, -1).mean(axis=1)
+    return np.std(means, ddof=1) / math.sqrt(batches)
+
+
+def check_stderr_series(path, spinup, duration, dt):
+    """/member/time_mean_stderr against the stored trajectories (every step) of the first
+    members: (1) the same blocking written directly with numpy on the stored series, within
+    1e-8 relative (the accumulator forms block means from shifted sums and pairs them step by
+    step; only rounding differs); (2) numpy batch means with 20 batches, an independent
+    estimator: each has a relative error of about 1 / sqrt(2 (blocks - 1)), 15-20% here, so
+    the geometric mean of the ratios over all stored series must lie within 25% of 1 and every
+    ratio within a factor 2.5; then the checks of stderr-ensemble."""
+    spinup, dt = float(spinup), float(dt)
+    with h5py.File(path, "r") as f:
+        names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+        state_names = [n.decode() if isinstance(n, bytes) else n for n in f["member/state"][()]]
+        time = f["trajectory/time"][()]
+        traj = f["trajectory/state"][()]          # [case, sample, step, variable]
+        stderr = f["member/time_mean_stderr"][()]  # [case, member, observable]
+        mean = f["member/time_mean"][()]
+    if not np.allclose(np.diff(time), dt):
+        fail("trajectories are not stored every step")
+    first = int(round(spinup / dt)) + 1   # accumulation starts after the spin-up's last step
+    ratios, worst = [], 0.0
+    for c in range(traj.shape[0]):
+        for j in range(traj.shape[1]):
+            for o, name in enumerate(names):
+                series = traj[c, j, first:, state_names.index(name)]
+                if not np.isclose(series.mean(), mean[c, j, o], rtol=1e-9, atol=1e-9):
+                    fail(f"case {c} member {j} {name}: stored series is not the accumulated one")
+                direct, _ = blocking_stderr(series)
+                err = abs(direct - stderr[c, j, o]) / direct
+                worst = max(worst, err)
+                if not err < 1e-8:
+                    fail(f"case {c} member {j} {name}: stderr {stderr[c, j, o]} != numpy "
+                         f"blocking {direct}")
+                ratios.append(stderr[c, j, o] / batch_means_stderr(series))
+    ratios = np.array(ratios)
+    geo = math.exp(np.mean(np.log(ratios)))
+    if not (abs(geo - 1) < 0.25 and np.all(ratios > 0.4) and np.all(ratios < 2.5)):
+        fail(f"stderr / batch-means ratios {ratios} (geometric mean {geo:.3f})")
+    print(f"ok: member stderr = numpy blocking within {worst:.1e}; stderr / batch means "
+          f"geometric mean {geo:.3f} (range {ratios.min():.2f}-{ratios.max():.2f}) over "
+          f"{len(ratios)} series")
+    check_stderr_ensemble(path, duration, dt)
+
+
+def check_stderr_ensemble(path, duration, dt):
+    """(1) For every valid member and observable the stderr is at least the iid standard error
+    sqrt(s^2 / n) (the observables are positively correlated from step to step: Lorenz-63's
+    x, y, z at dt 0.005); invalid members have NaN. (2) The ensemble datasets follow from the
+    member datasets as documented (README, "Standard errors of time means"), to rounding:
+    effective_samples = sum s^2 / stderr^2, decorrelation_time = mean n stderr^2 / (2 s^2) dt,
+    time_mean_stderr = max(std / sqrt(valid), sqrt(sum stderr^2) / valid). (3) With one swept
+    axis, slope = sum a_c y_c with a_c = (x_c - mean x) / sum (x - mean x)^2 (exact for least
+    squares with an intercept), so slope_stderr = sqrt(sum a_c^2 time_mean_stderr_c^2)."""
+    dt = float(dt)
+    n = round(float(duration) / dt)
+    with h5py.File(path, "r") as f:
+        stderr = f["member/time_mean_stderr"][()]
+        var = f["member/time_variance"][()]
+        status = f["member/status"][()]
+        ens_std = f["ensemble/time_mean_std"][()]
+        ens_se = f["ensemble/time_mean_stderr"][()]
+        eff = f["ensemble/effective_samples"][()]
+        tau = f["ensemble/decorrelation_time"][()]
+        valid = f["ensemble/valid_members"][()]
+        axes = list(f["response/axis"].asstr()[()]) if "response" in f else []
+        x = f["case/" + axes[0]][()] if len(axes) == 1 else None
+        slope_se = f["response/slope_stderr"][()] if x is not None else None
+    ok = status == 0
+    if not np.all(np.isfinite(stderr[ok])):
+        fail("a valid member has no finite stderr")
+    if not np.all(stderr[ok] >= np.sqrt(var / n)[ok]):
+        fail("a member's stderr is below the iid standard error")
+    if not np.all(np.isnan(stderr[~ok])):
+        fail("invalid members must have NaN stderr")
+    for c in range(stderr.shape[0]):
+        v = ok[c]
+        n_eff = (var[c][v] / stderr[c][v] ** 2).sum(axis=0)
+        tau_c = (n * stderr[c][v] ** 2 / (2 * var[c][v]) * dt).mean(axis=0)
+        rule = np.sqrt((stderr[c][v] ** 2).sum(axis=0)) / valid[c]
+        if valid[c] >= 2:
+            rule = np.maximum(ens_std[c] / math.sqrt(valid[c]), rule)
+        for label, got, want in (("effective_samples", eff[c], n_eff),
+                                 ("decorrelation_time", tau[c], tau_c),
+                                 ("time_mean_stderr", ens_se[c], rule)):
+            if not np.allclose(got, want, rtol=1e-9):
+                fail(f"case {c}: ensemble/{label} {got} != {want} from the member datasets")
+    if slope_se is not None:
+        a = (x - x.mean()) / ((x - x.mean()) ** 2).sum()
+        want = np.sqrt((a[:, None] ** 2 * ens_se ** 2).sum(axis=0))
+        if not np.allclose(slope_se[0], want, rtol=1e-9):
+            fail(f"slope_stderr {slope_se[0]} != {want} from ensemble/time_mean_stderr")
+    print(f"ok: {ok.sum()} valid members: stderr >= iid standard error; effective samples, "
+          f"decorrelation time, ensemble stderr and slope errors follow from the members")
+
+
 CHECKS = {
+    "stderr-series": check_stderr_series,
+    "stderr-ensemble": check_stderr_ensemble,
     "lyapunov-sum": check_lyapunov_sum,
     "bitwise": check_bitwise,
     "l63-identities": check_l63_identities,

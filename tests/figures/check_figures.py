@@ -58,6 +58,9 @@ class ArchiveData:
             self.mean = f["ensemble/time_mean"][()]
             self.std = f["ensemble/time_mean_std"][()]
             self.ci = f["ensemble/time_mean_ci95"][()]
+            self.mean_stderr = f["ensemble/time_mean_stderr"][()]
+            self.effective_samples = f["ensemble/effective_samples"][()]
+            self.decorrelation = f["ensemble/decorrelation_time"][()]
             self.regimes = ([text(v) for v in f["ensemble/regime"][()]]
                             if "ensemble/regime" in f else [])
             self.regime = f["ensemble/regime_fraction"][()] if self.regimes else None
@@ -396,7 +399,10 @@ def check_summary_json(archive, program):
         for o, name in enumerate(arch.observables):
             e = case["time_mean"][name]
             if not (same(e["mean"], arch.mean[c, o]) and same(e["std"], arch.std[c, o])
-                    and all(same(x, y) for x, y in zip(e["ci95"], arch.ci[c, o]))):
+                    and all(same(x, y) for x, y in zip(e["ci95"], arch.ci[c, o]))
+                    and same(e["stderr"], arch.mean_stderr[c, o])
+                    and same(e["effective_samples"], arch.effective_samples[c, o])
+                    and same(e["decorrelation_time"], arch.decorrelation[c, o])):
                 fail(f"case {c} {name}: {e} differs from the archive")
         for k, label in enumerate(arch.regimes):
             e = case["regime_fraction"][label]
@@ -420,21 +426,24 @@ def check_summary_csv(archive, program):
     arch = ArchiveData(archive)
     rows = list(csv.reader(io.StringIO(summary(program, archive, "csv"))))
     header = ["case"] + arch.axes + ["quantity", "name", "mean", "std", "ci95_low", "ci95_high",
-                                     "valid_members", "members", "units"]
+                                     "valid_members", "members", "units", "stderr",
+                                     "effective_samples", "decorrelation_time"]
     if rows[0] != header:
         fail(f"csv header {rows[0]}, expected {header}")
     expected = []
     for c in range(arch.cases):
         for o, name in enumerate(arch.observables):
             expected.append((c, "time_mean", name, arch.mean[c, o], arch.std[c, o],
-                             arch.ci[c, o], "model units"))
+                             arch.ci[c, o], "model units",
+                             [arch.mean_stderr[c, o], arch.effective_samples[c, o],
+                              arch.decorrelation[c, o]]))
         for k, label in enumerate(arch.regimes):
             expected.append((c, "regime_fraction", label, arch.regime[c, k],
-                             arch.regime_std[c, k], arch.regime_ci[c, k], "fraction"))
+                             arch.regime_std[c, k], arch.regime_ci[c, k], "fraction", None))
     if len(rows) - 1 != len(expected):
         fail(f"csv has {len(rows) - 1} rows, expected {len(expected)}")
     n_axes = len(arch.axes)
-    for row, (c, quantity, name, mean, std, ci, units) in zip(rows[1:], expected):
+    for row, (c, quantity, name, mean, std, ci, units, errors) in zip(rows[1:], expected):
         values = [float(v) for v in row[1:1 + n_axes]]
         if int(row[0]) != c or values != [float(arch.axis_values[a][c]) for a in arch.axes]:
             fail(f"csv row {row}: case or parameters differ")
@@ -444,8 +453,14 @@ def check_summary_csv(archive, program):
         if rest[0] != quantity or rest[1] != name or not all(
                 x == y or (math.isnan(x) and math.isnan(y)) for x, y in zip(numbers, wanted)):
             fail(f"csv row {row} differs from the archive {wanted}")
-        if rest[6:] != [str(int(arch.valid[c])), str(arch.members), units]:
+        if rest[6:9] != [str(int(arch.valid[c])), str(arch.members), units]:
             fail(f"csv row {row}: members or units")
+        if errors is None:
+            if rest[9:] != ["", "", ""]:
+                fail(f"csv row {row}: error columns should be empty")
+        elif not all(float(x) == float(y) or (math.isnan(float(x)) and math.isnan(y))
+                     for x, y in zip(rest[9:], errors)) or len(rest[9:]) != 3:
+            fail(f"csv row {row}: errors differ from the archive {errors}")
     print(f"ok: summary csv equals the archive ({len(expected)} rows)")
 
 
@@ -467,6 +482,8 @@ def check_summary_table(archive, program):
             block = "regime"
         elif line.startswith("response slope"):
             block = "slope"
+        elif line.startswith("errors of the time means"):
+            block = "errors"
         if not line.strip():
             continue
         cells = re.split(r"\s{2,}", line.strip())
@@ -495,6 +512,18 @@ def check_summary_table(archive, program):
                 k = names.index(name)
                 check_estimate(cell, mean[c, k], ci[c, k], f"table case {c} {name}")
                 seen.add((block, c, name))
+        elif block == "errors" and columns and cells[0].isdigit() and len(cells) == len(columns):
+            c, lead = int(cells[0]), 2 + len(arch.axes)
+            for name, cell in zip(columns[lead:], cells[lead:]):
+                o = arch.observables.index(name)
+                got = cell.split(" | ")
+                wanted = [arch.mean_stderr[c, o], arch.effective_samples[c, o],
+                          arch.decorrelation[c, o]]
+                if len(got) != 3 or not all(
+                        (g == "nan" and math.isnan(w)) or printed_sig_close(g, w, 3)
+                        for g, w in zip(got, wanted)):
+                    fail(f"table case {c} {name}: errors {cell!r} differ from {wanted}")
+                seen.add(("errors", c, name))
         elif block == "slope" and columns and len(cells) == 4:
             a, o = arch.axes.index(cells[1]), arch.observables.index(cells[0])
             if not (printed_sig_close(cells[2], arch.slope[a, o], 4)
@@ -503,6 +532,7 @@ def check_summary_table(archive, program):
             seen.add(("slope", a, o))
     wanted = {("time", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("regime", c, n) for c in range(arch.cases) for n in arch.regimes}
+    wanted |= {("errors", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("slope", a, o) for a in range(len(arch.axes))
                for o in range(len(arch.observables))}
     if seen != wanted:

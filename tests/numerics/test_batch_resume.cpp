@@ -91,6 +91,9 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.status, b.status, "status");
   expect_same(a.time_mean, b.time_mean, "time_mean");
   expect_same(a.time_variance, b.time_variance, "time_variance");
+  expect_same(a.time_mean_stderr, b.time_mean_stderr, "time_mean_stderr");
+  expect_same(a.time_mean_tau, b.time_mean_tau, "time_mean_tau");
+  expect_same(a.time_mean_samples, b.time_mean_samples, "time_mean_samples");
   expect_same(a.regime_fraction, b.regime_fraction, "regime_fraction");
   expect_same(a.regime_mean_residence, b.regime_mean_residence, "regime_mean_residence");
   expect_same(a.regime_transitions, b.regime_transitions, "regime_transitions");

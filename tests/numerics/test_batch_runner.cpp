@@ -52,6 +52,8 @@ void expect_same_member(const run::BatchResult& a, int ja, const run::BatchResul
   EXPECT_EQ(a.status[ja], b.status[jb]);
   EXPECT_TRUE(bitwise_equal(row(a.time_mean, ja, o), row(b.time_mean, jb, o)));
   EXPECT_TRUE(bitwise_equal(row(a.time_variance, ja, o), row(b.time_variance, jb, o)));
+  EXPECT_TRUE(bitwise_equal(row(a.time_mean_stderr, ja, o), row(b.time_mean_stderr, jb, o)));
+  EXPECT_TRUE(bitwise_equal(row(a.time_mean_tau, ja, o), row(b.time_mean_tau, jb, o)));
   EXPECT_TRUE(bitwise_equal(row(a.regime_fraction, ja, r), row(b.regime_fraction, jb, r)));
   EXPECT_TRUE(bitwise_equal(row(a.regime_mean_residence, ja, r), row(b.regime_mean_residence, jb, r)));
   EXPECT_EQ(a.regime_transitions[ja], b.regime_transitions[jb]);

@@ -99,6 +99,7 @@ struct Member {
   std::vector<double> initial, mean, variance, fraction, residence, trajectory;
   std::uint8_t status;
   std::int64_t transitions;
+  std::vector<double> stderr_, tau;
 };
 Member member(const Campaign& r, int m) {
   const run::BatchResult& b = r.batches[m / r.plan.batch_size];
@@ -107,7 +108,8 @@ Member member(const Campaign& r, int m) {
   return {slice(b.initial_state, j, d), slice(b.time_mean, j, o), slice(b.time_variance, j, o),
           slice(b.regime_fraction, j, g), slice(b.regime_mean_residence, j, g),
           slice(b.trajectory, j, static_cast<std::size_t>(r.plan.trajectory_samples) * d),
-          b.status[j], b.regime_transitions[j]};
+          b.status[j], b.regime_transitions[j], slice(b.time_mean_stderr, j, o),
+          slice(b.time_mean_tau, j, o)};
 }
 
 /// The histogram summed over every batch.
@@ -127,6 +129,8 @@ void expect_same_members(const Campaign& a, const Campaign& b, int members) {
     EXPECT_EQ(x.status, y.status);
     EXPECT_TRUE(bitwise_equal(x.mean, y.mean));
     EXPECT_TRUE(bitwise_equal(x.variance, y.variance));
+    EXPECT_TRUE(bitwise_equal(x.stderr_, y.stderr_));
+    EXPECT_TRUE(bitwise_equal(x.tau, y.tau));
     EXPECT_TRUE(bitwise_equal(x.fraction, y.fraction));
     EXPECT_TRUE(bitwise_equal(x.residence, y.residence));
     EXPECT_EQ(x.transitions, y.transitions);
