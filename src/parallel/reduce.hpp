@@ -29,6 +29,16 @@ struct EnsembleResults {
   std::vector<double> lyapunov;                 // [case][exponent] (when requested)
   std::vector<double> lyapunov_std;             // [case][exponent]
   std::vector<double> lyapunov_ci95;            // [case][exponent][2]
+  // Twin experiment (statistics.twins; empty otherwise), see parallel/reduce_twins.cpp.
+  std::vector<double> twin_log_separation;      // [case][lead], mean over valid pairs
+  std::vector<double> twin_log_separation_std;  // [case][lead], across valid pairs
+  std::vector<std::int64_t> twin_pairs;         // [case], valid member-twin pairs
+  std::vector<double> growth_rate;              // [case], per time unit
+  std::vector<double> growth_window;            // [case][2], first and last lead of the fit
+  std::vector<double> horizon;                  // [case], mean over members that reached it
+  std::vector<double> horizon_std;              // [case]
+  std::vector<double> horizon_ci95;             // [case][2]
+  std::vector<std::int64_t> horizon_reached;    // [case], members with a finite horizon
   std::vector<double> slope;                    // [axis][observable]
   std::vector<double> slope_stderr;             // [axis][observable]
   std::int64_t non_finite_members = 0;          // over the whole campaign
@@ -36,6 +46,10 @@ struct EnsembleResults {
 
 /// Reduces the batches this rank ran (`local`, in batch order, a contiguous share of the plan's
 /// batches) into campaign-wide estimates on every rank. Collective.
+/// The twin part of reduce() (fills the twin fields of `r`). Collective.
+void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                  const std::vector<run::BatchResult>& local, EnsembleResults& r);
+
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local);
 

@@ -94,6 +94,10 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
     if (i >= s.state_dim) s.needs_derived = true;
   }
   s.kernel = choose_kernel(s);
+  s.twins.times = twin_times(spec, plan);
+  s.twins.scale = spec.statistics.twins.scale;
+  s.twins.threshold = spec.statistics.twins.threshold;
+  s.twins.seed = spec.ensemble.seed;
   return s;
 }
 
