@@ -123,6 +123,36 @@ TEST(Twins, HorizonIsNaNWhenTheThresholdIsUnreachable) {
   expect_same(far.twin_moments, near.twin_moments, "twin_moments");  // threshold-independent
 }
 
+// Exact by design (run/twins.hpp): members started far off the attractor with a large step
+// overflow; their pairs leave the twin moments and get NaN spread and horizon, while the other
+// members' pairs count at every lead.
+TEST(Twins, NonFiniteMembersAreLeftOut) {
+  spec::Spec s = base_spec("lorenz63");
+  s.ensemble.initial.kind = spec::InitialKind::given;
+  s.ensemble.initial.state = {1.0, 1.0, 20.0};
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 300.0};
+  s.integration.dt = 0.01;
+  s.integration.spinup = 1.0;
+  s.integration.duration = 5.0;
+  const run::BatchResult r = run_batch(with_twins(s, 1e-6, 0.5));
+  int valid = 0;
+  for (int j = 0; j < r.count; ++j) {
+    if (r.status[j] == run::kValid) {
+      ++valid;
+      EXPECT_TRUE(std::isfinite(r.spread[j])) << j;
+    } else {
+      EXPECT_TRUE(std::isnan(r.spread[j])) << j;
+      EXPECT_TRUE(std::isnan(r.horizon[j])) << j;
+    }
+  }
+  ASSERT_GE(valid, 1) << "the campaign needs a valid member";
+  ASSERT_LT(valid, r.count) << "and a non-finite one";
+  for (std::size_t k = 0; k < r.twin_moments.size(); k += 3) {
+    EXPECT_EQ(r.twin_moments[k], static_cast<double>(valid)) << "lead " << k / 3;
+    EXPECT_TRUE(std::isfinite(r.twin_moments[k + 1])) << "lead " << k / 3;
+  }
+}
+
 // Exact: the direction is a unit vector, drawn from a stream other than the perturbation's.
 TEST(Twins, DirectionIsAUnitVectorOfItsOwnStream) {
   for (std::int64_t member = 0; member < 20; ++member) {
