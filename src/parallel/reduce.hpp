@@ -46,11 +46,11 @@ struct EnsembleResults {
 
 /// Reduces the batches this rank ran (`local`, in batch order, a contiguous share of the plan's
 /// batches) into campaign-wide estimates on every rank. Collective.
-/// The twin part of reduce() (fills the twin fields of `r`). Collective.
-void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                  const std::vector<run::BatchResult>& local, EnsembleResults& r);
-
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local);
+
+/// The twin part of reduce() (fills the twin fields of `r`; nothing without twins). Collective.
+void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                  const std::vector<run::BatchResult>& local, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

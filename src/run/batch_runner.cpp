@@ -6,6 +6,8 @@
 //   steps 1 .. S      spin-up: integrated, not accumulated
 //   steps S+1 .. S+A  after each step the selected observables feed the accumulators (A samples)
 //   every k steps     (k = plan.trajectory_every_steps) the stored members' states are sampled
+//   with twins        from step S every member has a twin integrated beside it and their
+//                     separation is sampled every statistics.twins.every (run/twins.hpp)
 // Every 32 steps and at the end each member's state is checked for finiteness; a non-finite
 // member is flagged, its column reset to the base state (so the batch arithmetic stays finite)
 // and all its statistics reported as NaN (transition count 0, no histogram counts).

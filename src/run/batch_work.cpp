@@ -81,7 +81,8 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
 
 // Steps step_+1 .. step_+max_steps (at most to the end), in segments that end wherever
 // something happens: a finiteness check (every 32 steps), a trajectory sample, the end of the
-// spin-up, the end of a moments block. Every event is keyed to the absolute step number, so
+// spin-up, the end of a moments block, a twin lead. The twins take the segment's steps after
+// the members (run/twins.hpp). Every event is keyed to the absolute step number, so
 // chunking changes nothing.
 void BatchWork::advance(std::int64_t max_steps) {
   if (finished_) throw Error("a finished batch cannot be advanced");
@@ -114,7 +115,7 @@ std::int64_t BatchWork::segment_end(std::int64_t last) const {
   return std::min(end, step_ + moments_.block_room());
 }
 
-// Events at the end of step `step`: finiteness check, trajectory sample.
+// Events at the end of step `step`: finiteness check, trajectory sample, twins (start, lead).
 void BatchWork::after_step(std::int64_t step) {
   const Setup& s = setup_;
   const bool check = step % kFiniteCheckEvery == 0 || step == s.total_steps;
