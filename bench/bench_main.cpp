@@ -146,7 +146,7 @@ std::string json_summary(const Summary& s) {
 }
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
-                const Summary& peak) {
+                const std::vector<Row>& twins, const Summary& peak) {
   std::ostringstream out;
   out << "{\n  \"cpu\": \"" << first_line_of("/proc/cpuinfo", "model name") << "\",\n"
       << "  \"load_average\": \"" << first_line_of("/proc/loadavg", "") << "\",\n"
@@ -171,6 +171,14 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
         << ", \"production\": " << json_summary(r.production) << "}";
     sep = ",\n";
   }
+  out << "\n  ],\n  \"twins\": [";
+  sep = "\n";
+  for (const Row& r : twins) {
+    out << sep << "    {\"model\": \"" << r.model << "\", \"statistics\": \"" << r.statistics
+        << "\", \"width\": " << r.width << ", \"production\": " << json_summary(r.production)
+        << "}";
+    sep = ",\n";
+  }
   out << "\n  ]\n}\n";
   std::cout << out.str();
 }
@@ -190,7 +198,7 @@ int run(const Options& o) {
     for (int every : {0, 10, 64}) twins.push_back(measure_twins(o, m, every));
   }
   if (o.json) {
-    print_json(o, main, widths, peak);
+    print_json(o, main, widths, twins, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
