@@ -104,15 +104,13 @@ void TwinPairs::start(const double* x) {
 // the spread accumulator.
 void TwinPairs::sample(std::int64_t lead, const double* x) {
   double* out = log_separation_.data() + static_cast<std::size_t>(lead) * width_;
-  for (int m = 0; m < width_; ++m) {
-    double sum = 0.0;
-    for (int i = 0; i < dim_; ++i) {
-      const std::size_t k = static_cast<std::size_t>(i) * width_ + m;
-      const double d = twin_[k] - x[k];
-      sum += d * d;
-    }
-    out[m] = non_finite_[m] ? kNaN : std::log(std::sqrt(sum));
+  std::fill(out, out + width_, 0.0);  // sum over i of the squared differences, i in order
+  for (int i = 0; i < dim_; ++i) {
+    const double* t = twin_.data() + static_cast<long>(i) * width_;
+    const double* v = x + static_cast<long>(i) * width_;
+    for (int m = 0; m < width_; ++m) out[m] += (t[m] - v[m]) * (t[m] - v[m]);
   }
+  for (int m = 0; m < width_; ++m) out[m] = non_finite_[m] ? kNaN : std::log(std::sqrt(out[m]));
   std::vector<const double*> rows(static_cast<std::size_t>(dim_));
   for (int i = 0; i < dim_; ++i) rows[i] = x + static_cast<long>(i) * width_;
   spread_.add(rows.data());
