@@ -1,7 +1,8 @@
 // chaosweep-bench: member-steps per second per core of the production batch kernel and of the
 // scalar reference integrator, measured side by side in one run, for forced Lorenz-63 and
 // Lorenz-96 (n 40) with time moments and sign regimes on (and with a histogram on as well),
-// the rate at several batch widths, and the core's FMA throughput for scale.
+// the rate at several batch widths, the cost of twin experiments, and the core's FMA
+// throughput for scale.
 //
 //   chaosweep-bench [--model lorenz63|lorenz96|all] [--members N] [--steps S]
 //                   [--widths 16,32,64,...] [--repeats R] [--json]
@@ -74,6 +75,34 @@ Row measure(const Options& o, const std::string& model, bool histogram, int widt
   return row;
 }
 
+/// The production kernel (moments+regimes) with twins sampled every `every_steps` steps
+/// (statistics.twins; every_steps 0: no twins). The rate counts the members' steps only, so
+/// its ratio to the run without twins is the cost of the twins.
+Row measure_twins(const Options& o, const std::string& model, int every_steps) {
+  spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
+  if (every_steps > 0) {
+    s.statistics.twins = {true, 1e-8, every_steps * s.integration.dt, 0.5};
+  }
+  Row row{model, every_steps > 0 ? "twins every " + std::to_string(every_steps) + " steps"
+                                 : "no twins",
+          o.width, 0.0, {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  return row;
+}
+
+void print_twins(const std::vector<Row>& twins) {
+  if (twins.empty()) return;
+  std::printf("\ntwin experiments (production kernel, moments+regimes, width %d): members' "
+              "steps per CPU second\n", twins.front().width);
+  double base = 0.0;
+  for (const Row& r : twins) {
+    if (r.statistics == "no twins") base = r.production.median;
+    std::printf("%-9s %-22s %9.3g (%8.3g-%8.3g)  cost %4.2fx\n", r.model.c_str(),
+                r.statistics.c_str(), r.production.median, r.production.min, r.production.max,
+                base / r.production.median);
+  }
+}
+
 void print_text(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const Summary& peak) {
   std::printf("chaosweep-bench\n");
@@ -117,7 +146,7 @@ std::string json_summary(const Summary& s) {
 }
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
-                const Summary& peak) {
+                const std::vector<Row>& twins, const Summary& peak) {
   std::ostringstream out;
   out << "{\n  \"cpu\": \"" << first_line_of("/proc/cpuinfo", "model name") << "\",\n"
       << "  \"load_average\": \"" << first_line_of("/proc/loadavg", "") << "\",\n"
@@ -142,6 +171,14 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
         << ", \"production\": " << json_summary(r.production) << "}";
     sep = ",\n";
   }
+  out << "\n  ],\n  \"twins\": [";
+  sep = "\n";
+  for (const Row& r : twins) {
+    out << sep << "    {\"model\": \"" << r.model << "\", \"statistics\": \"" << r.statistics
+        << "\", \"width\": " << r.width << ", \"production\": " << json_summary(r.production)
+        << "}";
+    sep = ",\n";
+  }
   out << "\n  ]\n}\n";
   std::cout << out.str();
 }
@@ -150,17 +187,21 @@ int run(const Options& o) {
   std::vector<std::string> models = {"lorenz63", "lorenz96"};
   if (o.model != "all") models = {o.model};
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths;
+  std::vector<Row> main, widths, twins;
   for (const std::string& m : models) {
     for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
   }
   for (const std::string& m : models) {
     for (int w : o.widths) widths.push_back(measure(o, m, true, w, false));
   }
+  for (const std::string& m : models) {
+    for (int every : {0, 10, 64}) twins.push_back(measure_twins(o, m, every));
+  }
   if (o.json) {
-    print_json(o, main, widths, peak);
+    print_json(o, main, widths, twins, peak);
   } else {
     print_text(o, main, widths, peak);
+    print_twins(twins);
   }
   return 0;
 }

@@ -81,6 +81,8 @@ class Archive:
                                  if "snapshot/regime" in f else self.regimes)
             self.twin_lead = _get(f, "twins/lead")
             self.twin_log_sep = _get(f, "twins/log_separation")  # case, lead
+            self.twin_growth_rate = _get(f, "twins/growth_rate")      # case
+            self.twin_growth_window = _get(f, "twins/growth_window")  # case, bound
             self.lyapunov = _get(f, "member/lyapunov")           # case, member, exponent
             self.horizon = _get(f, "member/horizon")             # case, member
 

@@ -498,12 +498,23 @@ def fig_twins(arch, outdir):
     for c, color in zip(cases, _colors(len(cases))):
         ax.plot(arch.twin_lead, arch.twin_log_sep[c], color=color, linewidth=1.5,
                 label=arch.case_label(c))
+        if arch.twin_growth_rate is not None and np.isfinite(arch.twin_growth_rate[c]):
+            first, last = arch.twin_growth_window[c]
+            inside = (arch.twin_lead >= first) & (arch.twin_lead <= last)
+            t, rate = arch.twin_lead[inside], arch.twin_growth_rate[c]
+            offset = np.mean(arch.twin_log_sep[c][inside] - rate * t)
+            ax.plot(t, offset + rate * t, color="black", linestyle="--", linewidth=0.9)
     ax.set_xlabel("lead time (model time units)")
     ax.set_ylabel("mean log separation of the twins (log of model units)")
     ax.grid(alpha=0.3)
-    ax.legend(loc="best")
+    handles, _ = ax.get_legend_handles_labels()
+    if arch.twin_growth_rate is not None:
+        handles.append(Line2D([], [], color="black", linestyle="--",
+                              label="least-squares fit over the linear phase"))
+    ax.legend(handles=handles, loc="best")
     caption = ("Mean logarithm of the distance between each member and its slightly perturbed "
-               "twin against lead time; the initial slope is the growth rate of small errors.")
+               "twin against lead time; the slope of the straight part (dashed: the fit over "
+               "the linear phase, /twins/growth_rate) is the growth rate of small errors.")
     return [_save(fig, outdir, "twins", title, caption)]
 
 

@@ -7,6 +7,7 @@
 #include "core/error.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
+#include "run/twins.hpp"
 #include "spec/load.hpp"
 
 namespace chaosweep::app {
@@ -47,6 +48,20 @@ double per_member_doubles(const plan::Plan& plan) {
 double trajectory_doubles(const plan::Plan& plan) {
   return static_cast<double>(plan.cases.size()) * plan.trajectory_members *
          plan.trajectory_samples * plan.state_dim;
+}
+
+/// Twin experiment: the twin state and log-separation series of a batch in progress and the
+/// per-lead moments of each finished batch (memory), or the archive's twin datasets.
+double twin_doubles(const spec::Spec& spec, const plan::Plan& plan, double batches,
+                    bool archive) {
+  const run::TwinTimes t = run::twin_times(spec, plan);
+  if (t.every_steps == 0) return 0.0;
+  const double leads = static_cast<double>(t.leads);
+  if (archive) {
+    return 2.0 * static_cast<double>(plan.member_count()) +
+           static_cast<double>(plan.cases.size()) * (2.0 * leads + 8.0);
+  }
+  return (leads + 4.0 * plan.state_dim) * plan.batch_size + batches * 3.0 * leads;
 }
 
 /// Member-steps per second of one core, measured on one batch of the first case.
@@ -108,9 +123,11 @@ int check_command(const CheckOptions& options) {
 
   const double per_rank_bytes =
       8.0 * (share * plan.batch_size * per_member_doubles(plan) +
-             trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim);
+             trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim +
+             twin_doubles(spec, plan, share, false));
   const double archive_bytes =
-      8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan)) + 65536.0;
+      8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan) +
+             twin_doubles(spec, plan, 0.0, true)) + 65536.0;
   std::printf("  memory         about %s per rank\n", bytes_text(per_rank_bytes).c_str());
   std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());
 

@@ -76,6 +76,18 @@ double kaplan_yorke(const ArchiveSummary& s, std::int64_t c) {
   }
 }
 
+/// The twin experiment of case c: horizon over the members that reached the threshold, and the
+/// growth rate of the mean log separation with its fit window.
+void print_json_twins(const ArchiveSummary& s, std::int64_t c) {
+  std::printf(",\n     \"twins\": {\"horizon\": %s, \"horizon_reached\": %lld, \"pairs\": %lld, "
+              "\"growth_rate\": %s, \"growth_window\": [%s, %s]}",
+              json_estimate(s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c]).c_str(),
+              static_cast<long long>(s.horizon_reached[c]),
+              static_cast<long long>(s.twin_pairs[c]), json_number(s.growth_rate[c]).c_str(),
+              json_number(s.growth_window[2 * c]).c_str(),
+              json_number(s.growth_window[2 * c + 1]).c_str());
+}
+
 void print_json(const ArchiveSummary& s) {
   const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
   std::printf("{\n  \"campaign\": %s,\n  \"model\": %s,\n  \"status\": %s,\n",
@@ -135,6 +147,7 @@ void print_json(const ArchiveSummary& s) {
       std::printf("], \"kaplan_yorke_dimension\": %s",
                   json_number(kaplan_yorke(s, c)).c_str());
     }
+    if (s.twins) print_json_twins(s, c);
     std::printf("}%s\n", c + 1 < s.cases ? "," : "");
   }
   std::printf("  ],\n  \"response\": [");
@@ -190,6 +203,17 @@ void print_csv(const ArchiveSummary& s) {
       const std::size_t i = idx(c, s.exponents, k);
       row(c, "lyapunov", "lambda" + std::to_string(k + 1), s.lyapunov[i], s.lyapunov_std[i],
           &s.lyapunov_ci95[2 * i], "per model time unit");
+    }
+    if (s.twins) {
+      const double none[2] = {NAN, NAN};
+      row(c, "horizon", "horizon", s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c],
+          "model time units");
+      row(c, "horizon_reached", "members", static_cast<double>(s.horizon_reached[c]), NAN, none,
+          "members");
+      row(c, "twin_pairs", "pairs", static_cast<double>(s.twin_pairs[c]), NAN, none, "pairs");
+      row(c, "growth_rate", "log_separation", s.growth_rate[c], NAN, none, "per model time unit");
+      row(c, "growth_window", "first", s.growth_window[2 * c], NAN, none, "model time units");
+      row(c, "growth_window", "last", s.growth_window[2 * c + 1], NAN, none, "model time units");
     }
   }
 }
@@ -306,6 +330,35 @@ void print_errors_block(const ArchiveSummary& s) {
                    });
 }
 
+/// Per case: the mean horizon [95% interval] over the members that reached the threshold, how
+/// many did (of the valid pairs), and the growth rate of the mean log separation.
+void print_twins_table(const ArchiveSummary& s) {
+  std::printf("\ntwin experiment: horizon in model time units, ensemble mean [95%% confidence "
+              "interval] over the members that reached the threshold; growth rate of the mean log "
+              "separation per model time unit over its linear phase\n");
+  std::vector<std::vector<std::string>> rows(1);
+  rows[0].push_back("case");
+  for (const std::string& a : s.axes) rows[0].push_back(a);
+  for (const char* h : {"horizon", "reached/pairs", "growth rate", "fit window"}) {
+    rows[0].push_back(h);
+  }
+  for (std::int64_t c = 0; c < s.cases; ++c) {
+    std::vector<std::string> row{std::to_string(c)};
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      row.push_back(number_text("%.6g", s.axis_values[a][c]));
+    }
+    row.push_back(estimate_text(s.horizon[c], &s.horizon_ci95[2 * c]));
+    row.push_back(std::to_string(s.horizon_reached[c]) + "/" + std::to_string(s.twin_pairs[c]));
+    row.push_back(number_text("%.4g", s.growth_rate[c]));
+    row.push_back(std::isfinite(s.growth_window[2 * c])
+                      ? number_text("%.4g", s.growth_window[2 * c]) + " - " +
+                            number_text("%.4g", s.growth_window[2 * c + 1])
+                      : "n/a");
+    rows.push_back(row);
+  }
+  print_aligned(rows);
+}
+
 void print_table(const ArchiveSummary& s) {
   std::int64_t valid = 0;
   for (std::int64_t v : s.valid_members) valid += v;
@@ -329,6 +382,7 @@ void print_table(const ArchiveSummary& s) {
     for (std::int64_t c = 0; c < s.cases; ++c) std::printf(" %.4g", kaplan_yorke(s, c));
     std::printf("  (by case; nan when the %d exponents do not reach it)\n", s.exponents);
   }
+  if (s.twins) print_twins_table(s);
   if (!s.axes.empty()) {
     std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
                 "parameter (least squares over the cases)\n");

@@ -64,6 +64,16 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
     s.lyapunov_ci95 = read_all<double>(root, "ensemble/lyapunov_ci95");
     s.exponents = static_cast<int>(read_all<std::int64_t>(root, "ensemble/exponent").size());
   }
+  if (root.has_group("twins")) {
+    s.twins = true;
+    s.horizon = read_all<double>(root, "ensemble/horizon");
+    s.horizon_std = read_all<double>(root, "ensemble/horizon_std");
+    s.horizon_ci95 = read_all<double>(root, "ensemble/horizon_ci95");
+    s.horizon_reached = read_all<std::int64_t>(root, "ensemble/horizon_reached");
+    s.twin_pairs = read_all<std::int64_t>(root, "twins/pairs");
+    s.growth_rate = read_all<double>(root, "twins/growth_rate");
+    s.growth_window = read_all<double>(root, "twins/growth_window");
+  }
   if (root.has_group("response")) {
     s.axes = read_all<std::string>(root, "response/axis");
     s.slope = read_all<double>(root, "response/slope");
@@ -81,6 +91,12 @@ void check_shapes(const ArchiveSummary& s) {
             s.slope.size() == s.axes.size() * n_obs &&
             s.lyapunov.size() == cases * static_cast<std::size_t>(s.exponents) &&
             s.lyapunov_ci95.size() == 2 * s.lyapunov.size();
+  if (s.twins) {
+    ok = ok && s.horizon.size() == cases && s.horizon_std.size() == cases &&
+         s.horizon_ci95.size() == 2 * cases && s.horizon_reached.size() == cases &&
+         s.twin_pairs.size() == cases && s.growth_rate.size() == cases &&
+         s.growth_window.size() == 2 * cases;
+  }
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
   for (const std::vector<double>* v :
        {&s.time_mean_stderr, &s.effective_samples, &s.decorrelation_time}) {

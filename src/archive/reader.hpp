@@ -37,6 +37,13 @@ struct ArchiveSummary {
   int exponents = 0;                             // Lyapunov exponents per member (0: none)
   std::vector<double> lyapunov, lyapunov_std;    // [case][exponent]
   std::vector<double> lyapunov_ci95;             // [case][exponent][2]
+  bool twins = false;                            // the archive has a twin experiment
+  std::vector<double> horizon, horizon_std;      // [case], model time units
+  std::vector<double> horizon_ci95;              // [case][2]
+  std::vector<std::int64_t> horizon_reached;     // [case]
+  std::vector<std::int64_t> twin_pairs;          // [case]
+  std::vector<double> growth_rate;               // [case], per model time unit
+  std::vector<double> growth_window;             // [case][2], model time units
 };
 
 /// Reads `path`. A missing file, a file that is not an HDF5 archive of this tool, a truncated,

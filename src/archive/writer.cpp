@@ -14,6 +14,7 @@
 #include "core/version.hpp"
 #include "h5/h5.hpp"
 #include "parallel/communicator.hpp"
+#include "run/twins.hpp"
 #include "stats/histogram.hpp"
 
 namespace chaosweep::archive {
@@ -239,6 +240,12 @@ void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& pla
     d = g.dataset("lyapunov", {n_cases, M, k});
     rows.write(d, {k}, gather(local, &run::BatchResult::lyapunov));
   }
+  if (spec.statistics.twins.enabled) {
+    d = g.dataset("spread", {n_cases, M});
+    rows.write(d, {}, gather(local, &run::BatchResult::spread));
+    d = g.dataset("horizon", {n_cases, M});
+    rows.write(d, {}, gather(local, &run::BatchResult::horizon));
+  }
   if (n_reg == 0) return;
   g.labels("regime", plan.regime_labels, "regime label");
   d = g.dataset("regime_fraction", {n_cases, M, n_reg});
@@ -272,6 +279,12 @@ void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
     g.dataset("lyapunov_std", {n_cases, k}).write_from_rank0(e.lyapunov_std);
     g.dataset("lyapunov_ci95", {n_cases, k, 2}).write_from_rank0(e.lyapunov_ci95);
   }
+  if (spec.statistics.twins.enabled) {
+    g.dataset("horizon", {n_cases}).write_from_rank0(e.horizon);
+    g.dataset("horizon_std", {n_cases}).write_from_rank0(e.horizon_std);
+    g.dataset("horizon_ci95", {n_cases, 2}).write_from_rank0(e.horizon_ci95);
+    g.dataset("horizon_reached", {n_cases}).write_from_rank0(e.horizon_reached);
+  }
   if (n_reg == 0) return;
   g.labels("regime", plan.regime_labels, "regime label");
   g.dataset("regime_fraction", {n_cases, n_reg}).write_from_rank0(e.regime_fraction);
@@ -290,6 +303,24 @@ void write_response(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
   g.labels("observable", plan.observables, "observable");
   g.dataset("slope", {n_axes, n_obs}).write_from_rank0(e.slope);
   g.dataset("slope_stderr", {n_axes, n_obs}).write_from_rank0(e.slope_stderr);
+}
+
+/// The twin experiment's curves per case against lead time (statistics.twins).
+void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
+                 const parallel::EnsembleResults& e) {
+  const run::TwinTimes times = run::twin_times(spec, plan);
+  if (times.every_steps == 0) return;
+  GroupWriter g(file, "twins");
+  const std::uint64_t n_cases = plan.cases.size(), leads = static_cast<std::uint64_t>(times.leads);
+  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.coordinate("lead", run::twin_leads(times, spec.integration.dt),
+               archive::dataset("/twins/lead").long_name);
+  g.labels("bound", {"first", "last"}, "bound of the window");
+  g.dataset("log_separation", {n_cases, leads}).write_from_rank0(e.twin_log_separation);
+  g.dataset("log_separation_std", {n_cases, leads}).write_from_rank0(e.twin_log_separation_std);
+  g.dataset("pairs", {n_cases}).write_from_rank0(e.twin_pairs);
+  g.dataset("growth_rate", {n_cases}).write_from_rank0(e.growth_rate);
+  g.dataset("growth_window", {n_cases, 2}).write_from_rank0(e.growth_window);
 }
 
 void write_histogram(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
@@ -351,6 +382,7 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   write_members(file, spec, plan, local);
   write_ensemble(file, spec, plan, ensemble);
   write_response(file, spec, plan, ensemble);
+  write_twins(file, spec, plan, ensemble);
   write_histogram(file, spec, plan, ensemble);
   write_trajectories(file, plan, local, spec.integration.dt);
   file.close();

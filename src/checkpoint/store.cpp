@@ -45,7 +45,10 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
                {"regime_fraction", r.regime_fraction},
                {"regime_mean_residence", r.regime_mean_residence},
                {"trajectory", r.trajectory},
-               {"lyapunov", r.lyapunov}};
+               {"lyapunov", r.lyapunov},
+               {"twin_moments", r.twin_moments},
+               {"spread", r.spread},
+               {"horizon", r.horizon}};
   rec.bytes = {{"status", r.status}};
   return rec;
 }
@@ -71,6 +74,9 @@ run::BatchResult to_result(const Record& rec) {
   r.regime_mean_residence = rec.real("regime_mean_residence");
   r.trajectory = rec.real("trajectory");
   r.lyapunov = rec.real("lyapunov");
+  r.twin_moments = rec.real("twin_moments");
+  r.spread = rec.real("spread");
+  r.horizon = rec.real("horizon");
   r.status = rec.byte_array("status");
   return r;
 }

@@ -149,6 +149,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   r.non_finite_members = comm.sum(local_bad);
   reduce_time_mean_errors(comm, plan, local, r);
   fit_slopes(plan, spec.sweep.size(), r);
+  reduce_twins(comm, spec, plan, local, r);
   return r;
 }
 

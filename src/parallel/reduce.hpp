@@ -34,6 +34,16 @@ struct EnsembleResults {
   std::vector<double> time_mean_stderr;         // [case][observable]
   std::vector<double> effective_samples;        // [case][observable]
   std::vector<double> decorrelation_time;       // [case][observable], model time units
+  // Twin experiment (statistics.twins; empty otherwise), see parallel/reduce_twins.cpp.
+  std::vector<double> twin_log_separation;      // [case][lead], mean over valid pairs
+  std::vector<double> twin_log_separation_std;  // [case][lead], across valid pairs
+  std::vector<std::int64_t> twin_pairs;         // [case], valid member-twin pairs
+  std::vector<double> growth_rate;              // [case], per time unit
+  std::vector<double> growth_window;            // [case][2], first and last lead of the fit
+  std::vector<double> horizon;                  // [case], mean over members that reached it
+  std::vector<double> horizon_std;              // [case]
+  std::vector<double> horizon_ci95;             // [case][2]
+  std::vector<std::int64_t> horizon_reached;    // [case], members with a finite horizon
   std::vector<double> slope;                    // [axis][observable]
   std::vector<double> slope_stderr;             // [axis][observable]
   std::int64_t non_finite_members = 0;          // over the whole campaign
@@ -43,5 +53,9 @@ struct EnsembleResults {
 /// batches) into campaign-wide estimates on every rank. Collective.
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local);
+
+/// The twin part of reduce() (fills the twin fields of `r`; nothing without twins). Collective.
+void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                  const std::vector<run::BatchResult>& local, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

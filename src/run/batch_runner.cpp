@@ -6,6 +6,8 @@
 //   steps 1 .. S      spin-up: integrated, not accumulated
 //   steps S+1 .. S+A  after each step the selected observables feed the accumulators (A samples)
 //   every k steps     (k = plan.trajectory_every_steps) the stored members' states are sampled
+//   with twins        from step S every member has a twin integrated beside it and their
+//                     separation is sampled every statistics.twins.every (run/twins.hpp)
 // Every 32 steps and at the end each member's state is checked for finiteness; a non-finite
 // member is flagged, its column reset to the base state (so the batch arithmetic stays finite)
 // and all its statistics reported as NaN (transition count 0, no histogram counts).
@@ -94,6 +96,10 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
     if (i >= s.state_dim) s.needs_derived = true;
   }
   s.kernel = choose_kernel(s);
+  s.twins.times = twin_times(spec, plan);
+  s.twins.scale = spec.statistics.twins.scale;
+  s.twins.threshold = spec.statistics.twins.threshold;
+  s.twins.seed = spec.ensemble.seed;
   return s;
 }
 

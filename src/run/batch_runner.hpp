@@ -44,6 +44,11 @@ struct BatchResult {
   std::vector<double> trajectory;              // [stored members in this batch][samples][state_dim]
   int trajectory_members = 0;                  // members of this batch among the stored ones
   std::vector<double> lyapunov;                // [count][exponents] when requested, else empty
+  // Twin experiment (statistics.twins, see run/twins.hpp); empty when not requested.
+  std::vector<double> twin_moments;            // [leads][3]: n, mean, m2 of the log separation
+                                               // over the batch's valid pairs
+  std::vector<double> spread;                  // [count], NaN if the pair is not valid
+  std::vector<double> horizon;                 // [count], time units, NaN if never reached
 };
 
 /// Complete state of a batch in progress: everything needed to continue it and obtain bitwise

@@ -45,6 +45,10 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   kernel_ = make_kernel(setup, model,
                         {&moments_, regimes_ ? &*regimes_ : nullptr,
                          histogram_ ? &*histogram_ : nullptr});
+  if (setup.twins.enabled()) {
+    twins_.emplace(setup.twins, setup.state_dim, w, batch.case_index, batch.first_member,
+                   batch.count, make_kernel(setup, model, {&moments_, nullptr, nullptr}));
+  }
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;
   result_.first_member = batch.first_member;
@@ -65,6 +69,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   load_initial_states();
   check_finite();
   sample_trajectory(0);
+  if (twins_) twins_->after_step(0, x_.data(), base_, true);
 }
 
 BatchWork::BatchWork(const Setup& setup, const models::Model& model,
@@ -76,7 +81,8 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
 
 // Steps step_+1 .. step_+max_steps (at most to the end), in segments that end wherever
 // something happens: a finiteness check (every 32 steps), a trajectory sample, the end of the
-// spin-up, the end of a moments block. Every event is keyed to the absolute step number, so
+// spin-up, the end of a moments block, a twin lead. The twins take the segment's steps after
+// the members (run/twins.hpp). Every event is keyed to the absolute step number, so
 // chunking changes nothing.
 void BatchWork::advance(std::int64_t max_steps) {
   if (finished_) throw Error("a finished batch cannot be advanced");
@@ -90,6 +96,7 @@ void BatchWork::advance(std::int64_t max_steps) {
     } else {
       kernel_->accumulate(x_.data(), steps);
     }
+    if (twins_) twins_->advance(step_, end);
     step_ = end;
     after_step(end);
   }
@@ -102,18 +109,21 @@ std::int64_t BatchWork::segment_end(std::int64_t last) const {
   if (s.trajectory_every > 0) {
     end = std::min(end, (step_ / s.trajectory_every + 1) * s.trajectory_every);
   }
+  if (twins_) end = std::min(end, twins_->next_event(step_));
   if (step_ < s.spinup_steps) return std::min(end, s.spinup_steps);
   end = std::min(end, step_ + kMaxSegment);
   return std::min(end, step_ + moments_.block_room());
 }
 
-// Events at the end of step `step`: finiteness check, trajectory sample.
+// Events at the end of step `step`: finiteness check, trajectory sample, twins (start, lead).
 void BatchWork::after_step(std::int64_t step) {
   const Setup& s = setup_;
-  if (step % kFiniteCheckEvery == 0 || step == s.total_steps) check_finite();
+  const bool check = step % kFiniteCheckEvery == 0 || step == s.total_steps;
+  if (check) check_finite();
   if (s.trajectory_every > 0 && step % s.trajectory_every == 0) {
     sample_trajectory(step / s.trajectory_every);
   }
+  if (twins_) twins_->after_step(step, x_.data(), base_, check);
 }
 
 BatchResult BatchWork::finish() {
@@ -125,6 +135,7 @@ BatchResult BatchWork::finish() {
   collect_moments();
   collect_regimes();
   collect_histogram();
+  if (twins_) twins_->finish(non_finite_, setup_.dt, result_);
   return std::move(result_);
 }
 
@@ -140,6 +151,7 @@ BatchState BatchWork::save() const {
   moments_.save("moments.", out);
   if (regimes_) regimes_->save("regimes.", out);
   if (histogram_) histogram_->save("histogram.", out);
+  if (twins_) twins_->save(out);
   BatchState state;
   state.batch_index = result_.batch_index;
   state.step = step_;
@@ -169,6 +181,7 @@ void BatchWork::restore(const BatchState& state) {
   moments_.load("moments.", in);
   if (regimes_) regimes_->load("regimes.", in);
   if (histogram_) histogram_->load("histogram.", in);
+  if (twins_) twins_->load(in);
   in.finish();
   step_ = state.step;
 }

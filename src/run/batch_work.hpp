@@ -12,6 +12,7 @@
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/kernels.hpp"
+#include "run/twins.hpp"
 #include "spec/spec.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
@@ -39,6 +40,7 @@ struct Setup {
   std::optional<spec::Histogram> histogram;
   int histogram_observable = -1;
   bool needs_derived = false;  // some used observable is a derived one
+  TwinSetup twins;             // twins.enabled() when statistics.twins is given
 };
 
 /// One batch from its initial states to its BatchResult, advanced in chunks of any size.
@@ -85,6 +87,7 @@ class BatchWork final : public BatchProgress {
   std::optional<stats::RegimeCounter> regimes_;
   std::optional<stats::MemberHistogram> histogram_;
   std::unique_ptr<Kernel> kernel_;
+  std::optional<TwinPairs> twins_;
   BatchResult result_;
   std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
   bool finished_ = false;

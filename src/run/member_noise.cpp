@@ -28,6 +28,12 @@ MemberNoise::MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64
   key_ = mix64(k ^ (static_cast<std::uint64_t>(member) + 3 * kGolden));
 }
 
+MemberNoise::MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member,
+                         std::uint64_t stream)
+    : MemberNoise(seed, case_index, member) {
+  key_ = mix64(key_ ^ (stream + 4 * kGolden));
+}
+
 std::uint64_t MemberNoise::bits(std::uint64_t j) const { return mix64(key_ + (j + 1) * kGolden); }
 
 double MemberNoise::uniform(std::uint64_t i) const { return 2.0 * unit(bits(i)) - 1.0; }

@@ -15,6 +15,12 @@ class MemberNoise {
  public:
   MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member);
 
+  /// Another stream of the same member: its key is the member's key mixed with `stream`
+  /// (>= 1), so its draws are unrelated to the initial perturbation's (stream 0 above).
+  /// Streams: 1 the twin direction (run/twins.hpp).
+  MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member,
+              std::uint64_t stream);
+
   /// 64 random bits of draw j.
   std::uint64_t bits(std::uint64_t j) const;
 

@@ -1,6 +1,7 @@
 // The campaign, integration, ensemble, statistics, output and run sections.
 #include <climits>
 #include <algorithm>
+#include <cmath>
 #include <limits>
 
 #include "spec/sections.hpp"
@@ -131,6 +132,30 @@ void read_lyapunov(const Field& f, const ModelFacts& facts, const Spec& spec, Ly
   }
 }
 
+/// A time that is a whole number (>= 1) of steps of dt, up to rounding of the decimal values.
+void check_whole_steps(const Field& f, double value, double dt) {
+  const double steps = value / dt;
+  const double whole = std::round(steps);
+  if (whole < 1.0 || std::fabs(steps - whole) > 1e-9 * std::max(1.0, whole)) {
+    f.fail("must be a whole number of steps of integration.dt (" + format_number(dt) +
+           "), got " + format_number(value) + " (" + format_number(steps) + " steps)");
+  }
+}
+
+void read_twins(const Field& f, const Spec& spec, Twins& out) {
+  const Map map(f, {{"scale", "every", "threshold"}, {}, "key", ""});
+  out.enabled = true;
+  out.scale = map.required("scale").number_above(0.0);
+  const Field every = map.required("every");
+  out.every = every.number_above(0.0);
+  check_whole_steps(every, out.every, spec.integration.dt);
+  if (out.every > spec.integration.duration) {
+    every.fail("must be at most integration.duration (" +
+               format_number(spec.integration.duration) + "), got " + format_number(out.every));
+  }
+  out.threshold = map.required("threshold").number_above(0.0);
+}
+
 /// members * cases and state_dim * members * cases must fit in int64 (the sweep has already
 /// checked that the number of cases does).
 void check_sizes(const Field& members, const Spec& spec, const ModelFacts& facts) {
@@ -190,13 +215,14 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
 }
 
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {
-  const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov"},
-                             {"snapshots", "twins"}, "key", ""});
+  const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov", "twins"},
+                             {"snapshots"}, "key", ""});
   Statistics& out = spec.statistics;
   if (map.has("observables")) out.observables = read_observable_names(map.get("observables"), facts);
   if (map.has("regimes")) read_regimes(map.get("regimes"), facts, out.regimes);
   if (map.has("histogram")) read_histogram(map.get("histogram"), facts, out.histogram);
   if (map.has("lyapunov")) read_lyapunov(map.get("lyapunov"), facts, spec, out.lyapunov);
+  if (map.has("twins")) read_twins(map.get("twins"), spec, out.twins);
 }
 
 void read_output(const Field& output, Spec& spec) {

@@ -86,11 +86,24 @@ struct Lyapunov {
   double renormalise_every = 0.0;  // time units, >= integration.dt
 };
 
+/// Twin experiment (statistics.twins): at the end of the spin-up every member gets a twin
+/// `scale` away along a random unit direction; the log of their Euclidean separation is sampled
+/// every `every` time units (a whole number of steps), and a member's horizon is the first such
+/// lead at which the separation exceeds `threshold` times the member's spread (README, "Twin
+/// experiments").
+struct Twins {
+  bool enabled = false;
+  double scale = 0.0;      // > 0, model units (Euclidean norm over the state variables)
+  double every = 0.0;      // time units, a whole multiple of integration.dt, <= duration
+  double threshold = 0.0;  // > 0, in units of the member's spread
+};
+
 struct Statistics {
   std::vector<std::string> observables;  // default: every observable of the model
   Regimes regimes;
   Histogram histogram;
   Lyapunov lyapunov;
+  Twins twins;
 };
 
 /// Full state paths of the first `members` members of every case, sampled every `every` time

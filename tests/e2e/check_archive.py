@@ -177,6 +177,12 @@ def check_summary_json(path, program):
                    ("decorrelation_time", "decorrelation_time"))}
         frac = f["ensemble/regime_fraction"][()] if "ensemble/regime_fraction" in f else None
         slope = f["response/slope"][()] if "response/slope" in f else None
+        twins = None
+        if "twins" in f:
+            twins = {k: f[p][()] for k, p in (
+                ("horizon", "ensemble/horizon"), ("ci", "ensemble/horizon_ci95"),
+                ("reached", "ensemble/horizon_reached"), ("pairs", "twins/pairs"),
+                ("rate", "twins/growth_rate"), ("window", "twins/growth_window"))}
     if len(doc["cases"]) != mean.shape[0]:
         fail("summary has the wrong number of cases")
     for c, case in enumerate(doc["cases"]):
@@ -194,6 +200,21 @@ def check_summary_json(path, program):
             for k, label in enumerate(doc["regimes"]):
                 if case["regime_fraction"][label]["mean"] != float(frac[c, k]):
                     fail(f"case {c} regime {label}: summary differs from archive")
+    def same(value, stored):  # json null stands for NaN
+        return (value is None and math.isnan(stored)) or value == float(stored)
+    for c, case in enumerate(doc["cases"]):
+        if twins is None:
+            if "twins" in case:
+                fail(f"case {c}: twins in the summary of an archive without them")
+            continue
+        t = case["twins"]
+        if not (same(t["horizon"]["mean"], twins["horizon"][c])
+                and all(same(v, w) for v, w in zip(t["horizon"]["ci95"], twins["ci"][c]))
+                and t["horizon_reached"] == int(twins["reached"][c])
+                and t["pairs"] == int(twins["pairs"][c])
+                and same(t["growth_rate"], twins["rate"][c])
+                and all(same(v, w) for v, w in zip(t["growth_window"], twins["window"][c]))):
+            fail(f"case {c}: summary twins {t} differ from the archive")
     if slope is not None:
         for row in doc["response"]:
             a, o = doc["axes"].index(row["axis"]), names.index(row["observable"])
@@ -230,6 +251,23 @@ def check_xarray(path):
                 x = ds.time_mean.sel(observable=obs[0])
                 if x.shape != (ds.sizes["case"],):
                     fail("selecting an observable by name failed")
+    with h5py.File(path, "r") as f:
+        twins = "twins" in f
+    if twins:
+        for group, variables in {
+                "twins": {"log_separation": ("case", "lead"), "growth_rate": ("case",),
+                          "growth_window": ("case", "bound")},
+                "member": {"horizon": ("case", "member"), "spread": ("case", "member")},
+                "ensemble": {"horizon": ("case",), "horizon_ci95": ("case", "bound"),
+                             "horizon_reached": ("case",)}}.items():
+            with xr.open_dataset(path, engine="h5netcdf", group=group) as ds:
+                for name, dims in variables.items():
+                    if ds[name].dims != dims:
+                        fail(f"{group}/{name}: dims {ds[name].dims}, expected {dims}")
+                    if "units" not in ds[name].attrs or "long_name" not in ds[name].attrs:
+                        fail(f"{group}/{name}: missing units or long_name")
+                if group == "twins" and float(ds["lead"][0]) != 0.0:
+                    fail("twins/lead does not start at 0")
     with xr.open_dataset(path, engine="h5netcdf") as ds:
         if "spec_yaml" not in ds.attrs or ds.attrs.get("status") != "complete":
             fail(f"root attributes: {sorted(ds.attrs)}")
@@ -388,9 +426,100 @@ def check_stderr_ensemble(path, duration, dt):
           f"decorrelation time, ensemble stderr and slope errors follow from the members")
 
 
+TWIN_DATASETS = ("/twins/", "/member/horizon", "/member/spread", "/ensemble/horizon")
+
+
+def check_twins_unchanged(with_twins, without):
+    """Turning twins on leaves every other dataset bitwise unchanged (exact by design: the twins
+    are a separate array), and adds the twin datasets."""
+    on, off = datasets(with_twins), datasets(without)
+    extra = sorted(set(on) - set(off))
+    if set(off) - set(on):
+        fail(f"{with_twins} lacks {sorted(set(off) - set(on))}")
+    for name in extra:
+        if not name.startswith(TWIN_DATASETS):
+            fail(f"{with_twins}: unexpected extra dataset {name}")
+    for want in ("/twins/lead", "/twins/log_separation", "/member/horizon", "/ensemble/horizon"):
+        if want not in on:
+            fail(f"{with_twins}: no {want}")
+    for name, value in off.items():
+        if on[name] != value:
+            fail(f"{name} differs when twins are on")
+    print(f"ok: {len(off)} datasets bitwise unchanged by twins; {len(extra)} twin datasets added")
+
+
+def check_twins_unreachable(far, near):
+    """With threshold 100 spreads (beyond the attractor's diameter: exact, two points of a
+    bounded set are never farther apart than its diameter; the Lorenz-63 attractor lies within
+    |x|, |y| < 30, 0 < z < 60, from memory with margins, so its diameter is below 104, while its
+    spread is about 14) every horizon is NaN and none is reached; the separations do not depend
+    on the threshold (bitwise), and with threshold 0.5 the valid members do reach it."""
+    with h5py.File(far, "r") as f, h5py.File(near, "r") as g:
+        if not np.all(np.isnan(f["member/horizon"][()])):
+            fail(f"{far}: a finite horizon with an unreachable threshold")
+        if np.any(f["ensemble/horizon_reached"][()] != 0) or not np.all(np.isnan(f["ensemble/horizon"][()])):
+            fail(f"{far}: ensemble horizon reached")
+        spread = f["member/spread"][()]
+        if not np.all(100 * spread > 104):
+            fail(f"{far}: a spread of {spread.min():.3g} makes 100 spreads reachable")
+        if f["twins/log_separation"][()].tobytes() != g["twins/log_separation"][()].tobytes():
+            fail("the log separation depends on the threshold")
+        valid = g["member/status"][()] == 0
+        reached = g["ensemble/horizon_reached"][()]
+        if not np.all(np.isfinite(g["member/horizon"][()][valid])) or np.any(reached != valid.sum(axis=1)):
+            fail(f"{near}: not every valid member reached threshold 0.5: {reached}")
+    print(f"ok: horizon NaN for threshold 100 (smallest spread {spread.min():.3g}); "
+          f"threshold 0.5 reached by {reached} members")
+
+
+def check_twins_growth(path, scale, lyapunov, case):
+    """Twin error growth of Lorenz-63 (sigma 10, rho 28, beta 8/3) against its leading Lyapunov
+    exponent 0.9056 (published: Sprott (2003) Chaos and Time-Series Analysis, App. A).
+    - lead 0 equals log(scale) up to rounding (exact: |u| = 1; rounding of x + scale u with
+      |x| < 60 is at most 60 * 2^-53 per component, a relative 2e-6 of scale = 1e-8).
+    - the archived growth rate is the least-squares slope of the archived mean over the archived
+      window (exact: recomputed with numpy.polyfit, to 1e-9).
+    - that slope is within tolerance of 0.9056. The mean log separation over the linear phase is
+      the ensemble mean of finite-time exponents over the window (about 13 time units), whose
+      expectation is lambda1 but which scatter from member to member. The tolerance is 3
+      standard errors of the slope, bounded from the archived spread of the log separation
+      across the pairs at the window's ends: (std_start + std_end) / (window length
+      sqrt(pairs)), an upper bound whatever the correlation of the two ends (the standard
+      deviation of a difference is at most the sum of the two); plus 0.01 for what is left of
+      the turning of the random initial direction towards the fastest-growing one at the
+      window's start, 2 e-folds in (common practice: a few e-folds suffice)."""
+    scale, lyapunov, case = float(scale), float(lyapunov), int(case)
+    with h5py.File(path, "r") as f:
+        lead = f["twins/lead"][()]
+        mean = f["twins/log_separation"][()][case]
+        std = f["twins/log_separation_std"][()][case]
+        pairs = int(f["twins/pairs"][()][case])
+        rate = float(f["twins/growth_rate"][()][case])
+        window = f["twins/growth_window"][()][case]
+    if abs(mean[0] - math.log(scale)) > 2e-6:
+        fail(f"lead 0: {mean[0]!r} != log({scale}) = {math.log(scale)!r}")
+    inside = (lead >= window[0]) & (lead <= window[1])
+    if inside.sum() < 20:
+        fail(f"fit window {window} holds only {inside.sum()} leads")
+    refit = np.polyfit(lead[inside], mean[inside], 1)[0]
+    if abs(refit - rate) > 1e-9:
+        fail(f"archived growth rate {rate} != numpy refit {refit}")
+    i0, i1 = np.flatnonzero(inside)[[0, -1]]
+    se = (std[i0] + std[i1]) / ((lead[i1] - lead[i0]) * math.sqrt(pairs))
+    tol = 3 * se + 0.01
+    if abs(rate - lyapunov) > tol:
+        fail(f"growth rate {rate:.4f} vs lambda1 {lyapunov} (tolerance {tol:.3f}, window {window})")
+    print(f"ok: growth rate {rate:.4f} over leads {window[0]:.2f}-{window[1]:.2f} vs lambda1 "
+          f"{lyapunov} (tolerance {tol:.3f}, se {se:.3f}, {pairs} pairs); lead 0 = log(scale) "
+          f"within {abs(mean[0] - math.log(scale)):.2g}")
+
+
 CHECKS = {
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
+    "twins-unchanged": check_twins_unchanged,
+    "twins-unreachable": check_twins_unreachable,
+    "twins-growth": check_twins_growth,
     "lyapunov-sum": check_lyapunov_sum,
     "bitwise": check_bitwise,
     "l63-identities": check_l63_identities,

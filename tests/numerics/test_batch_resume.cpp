@@ -52,6 +52,13 @@ spec::Spec l96_spec() {
   return s;
 }
 
+/// The same campaign with twins sampled every 7 steps (not a divisor of 32 or of the moment
+/// blocks, and the 601 accumulation steps end between two leads).
+spec::Spec with_twins(spec::Spec s) {
+  s.statistics.twins = {true, 1e-6, 7 * s.integration.dt, 0.5};
+  return s;
+}
+
 struct Campaign {
   spec::Spec spec;
   plan::Plan plan;
@@ -99,9 +106,15 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.regime_transitions, b.regime_transitions, "regime_transitions");
   expect_same(a.histogram, b.histogram, "histogram");
   expect_same(a.trajectory, b.trajectory, "trajectory");
+  expect_same(a.twin_moments, b.twin_moments, "twin_moments");
+  expect_same(a.spread, b.spread, "spread");
+  expect_same(a.horizon, b.horizon, "horizon");
 }
 
-std::vector<spec::Spec> all_specs() { return {l63_spec(), blow_up_spec(), l96_spec()}; }
+std::vector<spec::Spec> all_specs() {
+  return {l63_spec(), blow_up_spec(), l96_spec(), with_twins(l63_spec()),
+          with_twins(blow_up_spec()), with_twins(l96_spec())};
+}
 
 // Exact by design (batch_runner.hpp: chunking cannot change anything, since every periodic
 // event is keyed to the absolute step number): random chunk sizes from 1 to 300 steps, with a
@@ -109,7 +122,7 @@ std::vector<spec::Spec> all_specs() { return {l63_spec(), blow_up_spec(), l96_sp
 TEST(BatchResume, ChunkedAdvanceEqualsOneGo) {
   std::mt19937_64 gen(5);
   for (const spec::Spec& s : all_specs()) {
-    SCOPED_TRACE(s.model);
+    SCOPED_TRACE(s.model + (s.statistics.twins.enabled ? " with twins" : ""));
     const Campaign c(s);
     const run::CaseRunner runner = c.runner();
     for (const plan::Batch& b : {batch(0, 8), batch(8, 5)}) {
@@ -136,7 +149,7 @@ TEST(BatchResume, ChunkedAdvanceEqualsOneGo) {
 // CaseRunner (another "process") and finished, gives bitwise the uninterrupted result.
 TEST(BatchResume, SaveAndResumeInAFreshRunnerEqualsOneGo) {
   for (const spec::Spec& s : all_specs()) {
-    SCOPED_TRACE(s.model);
+    SCOPED_TRACE(s.model + (s.statistics.twins.enabled ? " with twins" : ""));
     const Campaign c(s);
     const std::int64_t total = c.plan.total_steps(), spin = c.plan.spinup_steps;
     ASSERT_GT(spin, 100);

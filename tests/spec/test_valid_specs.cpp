@@ -181,6 +181,19 @@ TEST(ValidSpec, TwoScaleLyapunov) {
   EXPECT_FALSE(load_spec(valid("lorenz96_defaults.yaml")).statistics.lyapunov.enabled);
 }
 
+// statistics.twins as written; `every` is accepted as a whole number of steps of dt up to the
+// rounding of the decimal values (0.07 / 0.01 = 7.000000000000001 in binary floating point).
+TEST(ValidSpec, Lorenz96Twins) {
+  const Spec s = load_spec(valid("lorenz96_twins.yaml"));
+  EXPECT_TRUE(s.statistics.twins.enabled);
+  EXPECT_EQ(s.statistics.twins.scale, 1.0e-6);
+  EXPECT_EQ(s.statistics.twins.every, 0.07);
+  EXPECT_EQ(s.statistics.twins.threshold, 0.4);
+  EXPECT_NE(0.07 / 0.01, 7.0);  // the case the rounding tolerance is for
+  // Without the section there are no twins.
+  EXPECT_FALSE(load_spec(valid("lorenz96_defaults.yaml")).statistics.twins.enabled);
+}
+
 // Every valid fixture loads (so a fixture added later is at least parsed).
 TEST(ValidSpec, EveryValidFixtureLoads) {
   int count = 0;
