@@ -59,6 +59,11 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
     s.lyapunov_ci95 = read_all<double>(root, "ensemble/lyapunov_ci95");
     s.exponents = static_cast<int>(read_all<std::int64_t>(root, "ensemble/exponent").size());
   }
+  if (root.has_dataset("snapshot/time")) {
+    s.snapshot_time = read_all<double>(root, "snapshot/time");
+    s.snapshot_mean = read_all<double>(root, "snapshot/mean");
+    s.snapshot_variance = read_all<double>(root, "snapshot/variance");
+  }
   if (root.has_group("response")) {
     s.axes = read_all<std::string>(root, "response/axis");
     s.slope = read_all<double>(root, "response/slope");
@@ -75,7 +80,9 @@ void check_shapes(const ArchiveSummary& s) {
             s.regime_fraction.size() == cases * s.regimes.size() &&
             s.slope.size() == s.axes.size() * n_obs &&
             s.lyapunov.size() == cases * static_cast<std::size_t>(s.exponents) &&
-            s.lyapunov_ci95.size() == 2 * s.lyapunov.size();
+            s.lyapunov_ci95.size() == 2 * s.lyapunov.size() &&
+            s.snapshot_mean.size() == cases * s.snapshot_time.size() * n_obs &&
+            s.snapshot_variance.size() == s.snapshot_mean.size();
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
   if (!ok) throw UsageError(s.path + ": archive is inconsistent (dataset shapes disagree)");
 }

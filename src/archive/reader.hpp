@@ -34,6 +34,8 @@ struct ArchiveSummary {
   int exponents = 0;                             // Lyapunov exponents per member (0: none)
   std::vector<double> lyapunov, lyapunov_std;    // [case][exponent]
   std::vector<double> lyapunov_ci95;             // [case][exponent][2]
+  std::vector<double> snapshot_time;             // [time] (empty: no snapshots)
+  std::vector<double> snapshot_mean, snapshot_variance;  // [case][time][observable]
 };
 
 /// Reads `path`. A missing file, a file that is not an HDF5 archive of this tool, a truncated

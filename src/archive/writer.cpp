@@ -333,6 +333,23 @@ void write_trajectories(h5::File& file, const plan::Plan& plan,
   }
 }
 
+/// Across-member statistics at the snapshot times; /snapshot/time is the `time` coordinate.
+void write_snapshots(h5::File& file, const plan::Plan& plan,
+                     const parallel::EnsembleResults& e) {
+  if (plan.snapshot_count == 0) return;
+  GroupWriter g(file, "snapshot");
+  const std::uint64_t n_cases = plan.cases.size(), times = e.snapshot_time.size();
+  const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
+  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.coordinate("time", e.snapshot_time, archive::dataset("/snapshot/time").long_name);
+  g.labels("observable", plan.observables, "observable");
+  g.dataset("mean", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_mean);
+  g.dataset("variance", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_variance);
+  if (n_reg == 0) return;
+  g.labels("regime", plan.regime_labels, "regime label");
+  g.dataset("regime_fraction", {n_cases, times, n_reg}).write_from_rank0(e.snapshot_regime_fraction);
+}
+
 }  // namespace
 
 void write_archive(const std::string& path, const spec::Spec& spec, const plan::Plan& plan,
@@ -347,6 +364,7 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   write_response(file, spec, plan, ensemble);
   write_histogram(file, spec, plan, ensemble);
   write_trajectories(file, plan, local, spec.integration.dt);
+  write_snapshots(file, plan, ensemble);
   file.close();
 
   // Rank 0 renames the complete file into place; every rank learns the outcome.

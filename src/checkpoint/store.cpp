@@ -35,14 +35,16 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
   rec.integers = {{"ids", {r.batch_index, r.case_index, r.first_member, r.count,
                            r.trajectory_members}},
                   {"regime_transitions", r.regime_transitions},
-                  {"histogram", r.histogram}};
+                  {"histogram", r.histogram},
+                  {"snapshot_regimes", r.snapshot_regimes}};
   rec.reals = {{"initial_state", r.initial_state},
                {"time_mean", r.time_mean},
                {"time_variance", r.time_variance},
                {"regime_fraction", r.regime_fraction},
                {"regime_mean_residence", r.regime_mean_residence},
                {"trajectory", r.trajectory},
-               {"lyapunov", r.lyapunov}};
+               {"lyapunov", r.lyapunov},
+               {"snapshot_moments", r.snapshot_moments}};
   rec.bytes = {{"status", r.status}};
   return rec;
 }
@@ -65,6 +67,8 @@ run::BatchResult to_result(const Record& rec) {
   r.regime_mean_residence = rec.real("regime_mean_residence");
   r.trajectory = rec.real("trajectory");
   r.lyapunov = rec.real("lyapunov");
+  r.snapshot_moments = rec.real("snapshot_moments");
+  r.snapshot_regimes = rec.integer("snapshot_regimes");
   r.status = rec.byte_array("status");
   return r;
 }

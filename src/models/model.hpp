@@ -71,6 +71,23 @@ class Model {
     throw std::logic_error("this model has no tangent-linear product");
   }
 
+  /// Slot through which set_parameter() changes the scalar, non-structural parameter `name`
+  /// in place, or -1 when this model cannot (then the parameter cannot follow a schedule).
+  /// Resolved once per case, so the hot path never looks names up.
+  virtual int parameter_slot(const std::string& name) const {
+    (void)name;
+    return -1;
+  }
+
+  /// Sets the parameter of `slot` (from parameter_slot()) to `value`: afterwards every call
+  /// computes bitwise what a model built with that value computes. O(1), no allocation, no
+  /// I/O: it runs between RK4 stages for a time-dependent parameter (spec `schedule:`).
+  /// The base version throws std::logic_error (a caller error).
+  virtual void set_parameter(int slot, double value) {
+    (void)slot; (void)value;
+    throw std::logic_error("this model cannot change a parameter in place");
+  }
+
   /// Largest time step for which classical RK4 is clearly stable on this model's attractor
   /// (a generous bound: a step above it is refused as a spec error).
   virtual double max_stable_dt() const = 0;

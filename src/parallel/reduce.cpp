@@ -148,6 +148,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   }
   r.non_finite_members = comm.sum(local_bad);
   fit_slopes(plan, spec.sweep.size(), r);
+  reduce_snapshots(comm, spec, plan, local, r);
   return r;
 }
 

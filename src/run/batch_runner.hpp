@@ -41,6 +41,9 @@ struct BatchResult {
   std::vector<double> trajectory;              // [stored members in this batch][samples][state_dim]
   int trajectory_members = 0;                  // members of this batch among the stored ones
   std::vector<double> lyapunov;                // [count][exponents] when requested, else empty
+  /// Snapshots (when requested, else empty), summarised over the batch's valid members:
+  std::vector<double> snapshot_moments;        // [snapshots][observables][3]: n, mean, m2
+  std::vector<std::int64_t> snapshot_regimes;  // [snapshots][regimes]: valid members in each
 };
 
 /// Complete state of a batch in progress: everything needed to continue it and obtain bitwise

@@ -12,6 +12,7 @@
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/kernels.hpp"
+#include "run/snapshots.hpp"
 #include "spec/spec.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
@@ -39,6 +40,9 @@ struct Setup {
   std::optional<spec::Histogram> histogram;
   int histogram_observable = -1;
   bool needs_derived = false;  // some used observable is a derived one
+  std::optional<spec::Schedule> schedule;  // a time-dependent parameter (generic kernel only)
+  double schedule_offset = 0.0;            // the case's swept value of that parameter, or 0
+  std::int64_t snapshot_every = 0, snapshot_count = 0;  // 0: no snapshots
 };
 
 /// One batch from its initial states to its BatchResult, advanced in chunks of any size.
@@ -70,6 +74,7 @@ class BatchWork final : public BatchProgress {
   void after_step(std::int64_t step);
   void check_finite();
   void sample_trajectory(std::int64_t sample);
+  void take_snapshot(std::int64_t step);
   void collect_moments();
   void collect_regimes();
   void collect_histogram();
@@ -84,6 +89,7 @@ class BatchWork final : public BatchProgress {
   std::vector<int> moment_series_;        // selected observable -> its series in moments_
   std::optional<stats::RegimeCounter> regimes_;
   std::optional<stats::MemberHistogram> histogram_;
+  std::optional<SnapshotRecorder> snapshots_;
   std::unique_ptr<Kernel> kernel_;
   BatchResult result_;
   std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
