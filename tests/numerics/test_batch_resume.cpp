@@ -70,6 +70,20 @@ spec::Spec l96_spec() {
   return s;
 }
 
+/// Lorenz-96 (n 12) with a periodic forcing (the generic kernel, parameter set at every RK4
+/// stage) and snapshots every 0.25 from the end of the spin-up, with regimes.
+spec::Spec scheduled_spec() {
+  spec::Spec s = l96_spec();
+  s.schedule.kind = spec::ScheduleKind::periodic;
+  s.schedule.parameter = "F";
+  s.schedule.mean = 8.0;
+  s.schedule.amplitude = 2.0;
+  s.schedule.period = 1.3;
+  s.schedule.phase = 0.4;
+  s.statistics.snapshots = {true, 0.25};
+  return s;
+}
+
 struct Campaign {
   spec::Spec spec;
   plan::Plan plan;
@@ -114,9 +128,13 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.regime_transitions, b.regime_transitions, "regime_transitions");
   expect_same(a.histogram, b.histogram, "histogram");
   expect_same(a.trajectory, b.trajectory, "trajectory");
+  expect_same(a.snapshot_moments, b.snapshot_moments, "snapshot_moments");
+  expect_same(a.snapshot_regimes, b.snapshot_regimes, "snapshot_regimes");
 }
 
-std::vector<spec::Spec> all_specs() { return {l63_spec(), blow_up_spec(), l96_spec()}; }
+std::vector<spec::Spec> all_specs() {
+  return {l63_spec(), blow_up_spec(), l96_spec(), scheduled_spec()};
+}
 
 // Exact by design (batch_runner.hpp: chunking cannot change anything, since every periodic
 // event is keyed to the absolute step number): random chunk sizes from 1 to 300 steps, with a
