@@ -187,6 +187,10 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   root.set_attribute("dt", spec.integration.dt);
   root.set_attribute("spinup", spec.integration.spinup);
   root.set_attribute("duration", spec.integration.duration);
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    // the swept values of this parameter (/case/<parameter>) are offsets added to its schedule
+    root.set_attribute("scheduled_parameter", spec.schedule.parameter);
+  }
   GroupWriter top(file, "");
   top.labels("observable", plan.observables, "name of each observable");
 }

@@ -318,9 +318,9 @@ def check_later_datasets(plot, archive, outdir):
         obs = [names.index(n) for n in ("x", "y", "z")]
         snap = state[:, :, ::every, :][..., obs]          # case, sample, time, observable
         f["snapshot/time"] = t[::every]
-        f["snapshot/mean"] = snap.mean(axis=1).transpose(1, 0, 2)
-        f["snapshot/variance"] = snap.var(axis=1, ddof=1).transpose(1, 0, 2)
-        positive = (snap[..., 0] >= 0).mean(axis=1).T     # time, case
+        f["snapshot/mean"] = snap.mean(axis=1)             # case, time, observable
+        f["snapshot/variance"] = snap.var(axis=1, ddof=1)
+        positive = (snap[..., 0] >= 0).mean(axis=1)        # case, time
         f["snapshot/regime_fraction"] = np.stack([positive, 1 - positive], axis=2)
         distance = np.linalg.norm(state[:, 0] - state[:, 1], axis=2)   # case, step
         lead = t <= 20
