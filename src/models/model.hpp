@@ -54,6 +54,8 @@ class Model {
   virtual void rhs(const double* x, double* dxdt, int width) const = 0;
 
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
+  /// They depend on the state and structural parameters only (snapshots of a run with a
+  /// time-dependent parameter evaluate them with the parameter's value at t = 0).
   virtual void derived(const double* x, double* out, int width) const {
     (void)x; (void)out; (void)width;
   }

@@ -142,6 +142,9 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
                             {}, "key", ""});
   read_campaign(top.required("campaign"), spec);
   ModelFacts facts = read_model(top.required("model"), spec);
+  if (top.has("schedule")) {  // a sweep of the scheduled parameter holds offsets
+    spec.schedule.parameter = scheduled_parameter(top.get("schedule"));
+  }
   if (top.has("sweep")) read_sweep(top.get("sweep"), facts, spec);
   if (top.has("schedule")) {
     read_schedule(top.get("schedule"), top.required("model"), facts, spec);

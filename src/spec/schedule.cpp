@@ -182,6 +182,12 @@ void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts,
   check_extremes(schedule, *p, facts, spec);
 }
 
+std::string scheduled_parameter(const Field& schedule) {
+  if (!schedule.is_map()) return "";
+  const YAML::Node name = schedule.node()["parameter"];
+  return name && name.IsScalar() ? name.Scalar() : "";
+}
+
 void refuse_with_schedule(const Field& statistics) {
   if (!statistics.is_map()) return;
   for (auto it = statistics.node().begin(); it != statistics.node().end(); ++it) {

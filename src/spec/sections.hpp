@@ -46,6 +46,9 @@ void read_run(const Field& run, Spec& spec);
 /// (with any sweep offset) against the parameter's bounds and the stable dt. `model` is the
 /// model section (the parameter must not also be set there). Read after the sweep.
 void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts, Spec& spec);
+/// The name under schedule.parameter as written ("" when absent or not a plain string);
+/// read_schedule() checks it.
+std::string scheduled_parameter(const Field& schedule);
 /// Refuses statistics.lyapunov and statistics.twins beside a schedule.
 void refuse_with_schedule(const Field& statistics);
 /// statistics.snapshots {every}; read after the integration section.
