@@ -35,6 +35,8 @@ class Archive:
             self.ranks = int(attrs.get("ranks", 0))
             self.spinup = float(attrs.get("spinup", np.nan))
             self.duration = float(attrs.get("duration", np.nan))
+            # A parameter that follows a schedule: its sweep values are offsets added to it.
+            self.scheduled = _text(attrs.get("scheduled_parameter", ""))
             self.observables = _names(f["observable"])
 
             # Swept axes in spec order (the order of /response/axis), each a value per case.
@@ -72,9 +74,9 @@ class Archive:
 
             # Datasets of later features (DESIGN.md's archive table); None until an archive has them.
             self.snap_time = _get(f, "snapshot/time")
-            self.snap_mean = _get(f, "snapshot/mean")          # time, case, observable
-            self.snap_variance = _get(f, "snapshot/variance")  # time, case, observable
-            self.snap_regime = _get(f, "snapshot/regime_fraction")  # time, case, regime
+            self.snap_mean = _get(f, "snapshot/mean")          # case, time, observable
+            self.snap_variance = _get(f, "snapshot/variance")  # case, time, observable
+            self.snap_regime = _get(f, "snapshot/regime_fraction")  # case, time, regime
             self.snap_observables = (_names(f["snapshot/observable"])
                                      if "snapshot/observable" in f else self.observables)
             self.snap_regimes = (_names(f["snapshot/regime"])
@@ -100,10 +102,14 @@ class Archive:
         per_case = f"{lo} per case" if lo == hi else f"{lo}-{hi} per case"
         return f"valid members: {int(self.valid.sum())} of {total} ({per_case})"
 
+    def axis_name(self, axis):
+        """An axis as it reads on a figure: a scheduled parameter's sweep is an offset."""
+        return f"{axis} offset" if axis == self.scheduled else axis
+
     def case_label(self, c):
         if not self.axes:
             return f"case {c}"
-        return ", ".join(f"{a} = {self.axis_values[a][c]:g}" for a in self.axes)
+        return ", ".join(f"{self.axis_name(a)} = {self.axis_values[a][c]:g}" for a in self.axes)
 
     def few_cases(self, n=3):
         """Up to n cases spread over the sweep: first, last and evenly between."""

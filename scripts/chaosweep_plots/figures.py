@@ -216,7 +216,7 @@ def fig_response(arch, outdir):
                     slope = (f"\nslope {arch.slope[a, o]:.3g} \u00b1 "
                              f"{arch.slope_stderr[a, o]:.2g} per unit {axis}")
                 ax.set_title(f"<{name}>{slope}")
-                ax.set_xlabel(f"{axis} (model units)")
+                ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
                 ax.set_ylabel(f"time mean of {name} (model units)")
                 ax.grid(alpha=0.3)
             _hide_unused(axes, len(obs))
@@ -283,7 +283,7 @@ def fig_regimes(arch, outdir):
                 Line2D([], [], color=c, marker="o", label=lab)
                 for (lab, _), c in zip(groups, colors)], loc="best")
         for ax in panels:
-            ax.set_xlabel(f"{axis} (model units)")
+            ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
             ax.set_ylabel("share of time in the regime (fraction, 0-1)")
             ax.grid(alpha=0.3)
         caption = (f"Ensemble-mean share of time spent in each regime against {axis}, with the "
@@ -464,10 +464,10 @@ def fig_snapshots(arch, outdir):
     for ax, name in zip(axes.flat, names):
         o = arch.snap_observables.index(name)
         for c, color in zip(cases, colors):
-            mean = arch.snap_mean[:, c, o]
+            mean = arch.snap_mean[c, :, o]
             ax.plot(t, mean, color=color, linewidth=1.4, label=arch.case_label(c))
             if arch.snap_variance is not None:
-                spread = np.sqrt(arch.snap_variance[:, c, o])
+                spread = np.sqrt(arch.snap_variance[c, :, o])
                 ax.fill_between(t, mean - spread, mean + spread, color=color, alpha=0.2,
                                 linewidth=0)
         ax.set_ylabel(f"{name} across members (model units)")
@@ -475,7 +475,7 @@ def fig_snapshots(arch, outdir):
     if arch.snap_regime is not None:
         ax = axes.flat[len(names)]
         for c, color in zip(cases, colors):
-            ax.plot(t, arch.snap_regime[:, c, 0], color=color, linewidth=1.4)
+            ax.plot(t, arch.snap_regime[c, :, 0], color=color, linewidth=1.4)
         label = arch.snap_regimes[0] if arch.snap_regimes else "0"
         ax.set_ylabel("share of members (fraction, 0-1)")
         ax.set_title(f"members in regime {label}")
@@ -534,7 +534,7 @@ def fig_lyapunov(arch, outdir):
             handles = _per_member_vs_axis(arch, axis, ax, arch.lyapunov[:, :, k],
                                           arch.valid_mask, colors)
             ax.axhline(0, color="grey", linewidth=0.8)
-            ax.set_xlabel(f"{axis} (model units)")
+            ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
             ax.set_ylabel(f"exponent {k + 1} (per model time unit)")
             ax.set_title(f"Lyapunov exponent {k + 1}")
             ax.grid(alpha=0.3)
@@ -560,7 +560,7 @@ def fig_horizon(arch, outdir):
         ax = fig.subplots()
         handles = _per_member_vs_axis(arch, axis, ax, arch.horizon, arch.valid_mask, colors)
         reached = np.isfinite(arch.horizon) & arch.valid_mask
-        ax.set_xlabel(f"{axis} (model units)")
+        ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
         ax.set_ylabel("horizon (model time units)")
         ax.set_title(f"time for the twin separation to pass the threshold "
                      f"({int(reached.sum())} valid members reached it)")

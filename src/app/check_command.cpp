@@ -45,6 +45,16 @@ double per_member_doubles(const plan::Plan& plan) {
   return plan.state_dim + 2 * n_obs + 2 * n_reg + 2;
 }
 
+/// Snapshot statistics per rank (doubles): the batch in progress keeps every member's values
+/// at every snapshot time; a finished batch keeps (n, mean, m2) per time and observable and a
+/// count per time and regime.
+double snapshot_doubles_per_rank(const plan::Plan& plan, double batches) {
+  const double times = static_cast<double>(plan.snapshot_count);
+  const double n_obs = static_cast<double>(plan.observables.size());
+  const double n_reg = static_cast<double>(plan.regime_labels.size());
+  return times * (n_obs * plan.batch_size + batches * (3 * n_obs + n_reg));
+}
+
 double trajectory_doubles(const plan::Plan& plan) {
   return static_cast<double>(plan.cases.size()) * plan.trajectory_members *
          plan.trajectory_samples * plan.state_dim;
@@ -72,6 +82,8 @@ double calibrate(const spec::Spec& spec, const plan::Plan& plan) {
   probe.trajectory_members = 0;
   probe.trajectory_every_steps = 0;
   probe.trajectory_samples = 0;
+  probe.snapshot_every_steps = 0;
+  probe.snapshot_count = 0;
   const run::CaseRunner runner(spec, probe, probe.cases.front());
   const auto start = std::chrono::steady_clock::now();
   runner.run(probe.batches.front());
@@ -124,10 +136,22 @@ int check_command(const CheckOptions& options) {
   const double per_rank_bytes =
       8.0 * (share * plan.batch_size * per_member_doubles(plan) +
              trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim +
-             twin_doubles(spec, plan, share, false));
+             twin_doubles(spec, plan, share, false) + snapshot_doubles_per_rank(plan, share));
   const double archive_bytes =
       8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan) +
-             twin_doubles(spec, plan, 0.0, true)) + 65536.0;
+             twin_doubles(spec, plan, 0.0, true) +
+             cases * plan.snapshot_count *
+                 (2.0 * plan.observables.size() + plan.regime_labels.size())) +
+      65536.0;
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    std::printf("  schedule       %s varies in time%s\n", spec.schedule.parameter.c_str(),
+                spec.schedule.offset_by_sweep ? " (offset by the swept value)" : "");
+  }
+  if (plan.snapshot_count > 0) {
+    std::printf("  snapshots      %lld times per case, every %g from t = %g\n",
+                static_cast<long long>(plan.snapshot_count), spec.statistics.snapshots.every,
+                static_cast<double>(plan.spinup_steps) * spec.integration.dt);
+  }
   std::printf("  memory         about %s per rank\n", bytes_text(per_rank_bytes).c_str());
   std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());
 

@@ -528,6 +528,11 @@ void print_as_written(const spec::Spec& spec, const plan::Plan& plan, const Pilo
 
 void check_pilot_options(const spec::Spec& spec, const plan::Plan& plan,
                          const PilotOptions& options) {
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    throw UsageError("--pilot: " + spec.source_path +
+                     " has a schedule; a pilot over a shortened window would measure other "
+                     "time means, so this version does not run one");
+  }
   parse_targets(options.target_halfwidth, plan.observables, "--target-halfwidth");
   parse_targets(options.target_slope_halfwidth, plan.observables, "--target-slope-halfwidth");
   if (!options.target_slope_halfwidth.empty() && spec.sweep.empty()) {

@@ -8,6 +8,7 @@
 
 #include "app/commands.hpp"
 #include "archive/reader.hpp"
+#include "stats/ensemble.hpp"
 #include "stats/lyapunov.hpp"
 
 namespace chaosweep::app {
@@ -88,6 +89,49 @@ void print_json_twins(const ArchiveSummary& s, std::int64_t c) {
               json_number(s.growth_window[2 * c + 1]).c_str());
 }
 
+/// Snapshot statistics shown by `summary`: the first observable at the first, middle and last
+/// snapshot time, with the 95% interval of the across-member mean,
+///   mean +- t(0.975, n-1) sqrt(variance / n),  n = the case's valid members.
+struct SnapshotView {
+  std::vector<std::size_t> times;  // snapshot indices shown (distinct, ascending)
+  std::vector<double> mean, std, ci95;  // [case][shown], ci95 [case][shown][2]
+};
+
+SnapshotView snapshot_view(const ArchiveSummary& s) {
+  SnapshotView v;
+  const std::size_t n = s.snapshot_time.size(), n_obs = s.observables.size();
+  if (n == 0 || n_obs == 0) return v;
+  for (std::size_t k : {std::size_t{0}, (n - 1) / 2, n - 1}) {
+    if (v.times.empty() || v.times.back() != k) v.times.push_back(k);
+  }
+  for (std::int64_t c = 0; c < s.cases; ++c) {
+    const double members = static_cast<double>(s.valid_members[c]);
+    const double t = stats::student_t975(members - 1.0);
+    for (std::size_t k : v.times) {
+      const std::size_t i = (static_cast<std::size_t>(c) * n + k) * n_obs;  // observable 0
+      const double mean = s.snapshot_mean[i], var = s.snapshot_variance[i];
+      const double half = t * std::sqrt(var / members);
+      v.mean.push_back(mean);
+      v.std.push_back(std::sqrt(var));
+      v.ci95.push_back(mean - half);
+      v.ci95.push_back(mean + half);
+    }
+  }
+  return v;
+}
+
+/// "<observable>@<time>" names of the shown snapshot statistics (csv and table).
+std::vector<std::string> snapshot_names(const ArchiveSummary& s, const SnapshotView& v,
+                                        const char* format) {
+  std::vector<std::string> names;
+  for (std::size_t k : v.times) {
+    char text[64];
+    std::snprintf(text, sizeof text, format, s.snapshot_time[k]);
+    names.push_back(s.observables[0] + text);
+  }
+  return names;
+}
+
 void print_json(const ArchiveSummary& s) {
   const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
   std::printf("{\n  \"campaign\": %s,\n  \"model\": %s,\n  \"status\": %s,\n",
@@ -107,6 +151,13 @@ void print_json(const ArchiveSummary& s) {
               "std / sqrt(n) and the members' blocking standard errors pooled, "
               "sqrt(sum stderr^2) / n; effective_samples: sum over valid members of "
               "n_steps / (2 tau_int); decorrelation_time: mean tau_int, model time units\",\n");
+  if (!s.snapshot_time.empty()) {
+    std::printf("  \"snapshot_times\": %zu,\n  \"snapshots\": \"per case: the first "
+                "observable across the valid members at the first, middle and last snapshot "
+                "time (model time units from the start of the integration); std across "
+                "members, ci95 of their mean as above\",\n",
+                s.snapshot_time.size());
+  }
   auto list = [](const std::vector<std::string>& v) {
     std::string out = "[";
     for (std::size_t i = 0; i < v.size(); ++i) out += (i ? ", " : "") + json_string(v[i]);
@@ -137,6 +188,20 @@ void print_json(const ArchiveSummary& s) {
                                 &s.regime_fraction_ci95[2 * i]).c_str());
     }
     std::printf("}");
+    const SnapshotView snap = snapshot_view(s);
+    if (!snap.times.empty()) {
+      std::printf(",\n     \"snapshots\": [");
+      for (std::size_t j = 0; j < snap.times.size(); ++j) {
+        const std::size_t i = idx(c, snap.times.size(), j);
+        std::printf("%s{\"time\": %s, \"observable\": %s, \"mean\": %s, \"std\": %s, "
+                    "\"ci95\": [%s, %s]}",
+                    j ? ", " : "", json_number(s.snapshot_time[snap.times[j]]).c_str(),
+                    json_string(s.observables[0]).c_str(), json_number(snap.mean[i]).c_str(),
+                    json_number(snap.std[i]).c_str(), json_number(snap.ci95[2 * i]).c_str(),
+                    json_number(snap.ci95[2 * i + 1]).c_str());
+      }
+      std::printf("]");
+    }
     if (s.exponents > 0) {
       std::printf(",\n     \"lyapunov\": [");
       for (int k = 0; k < s.exponents; ++k) {
@@ -198,6 +263,13 @@ void print_csv(const ArchiveSummary& s) {
       const std::size_t i = idx(c, n_reg, k);
       row(c, "regime_fraction", s.regimes[k], s.regime_fraction[i], s.regime_fraction_std[i],
           &s.regime_fraction_ci95[2 * i], "fraction");
+    }
+    const SnapshotView snap = snapshot_view(s);
+    const std::vector<std::string> snap_names = snapshot_names(s, snap, "@%.17g");
+    for (std::size_t j = 0; j < snap.times.size(); ++j) {
+      const std::size_t i = idx(c, snap.times.size(), j);
+      row(c, "snapshot_mean", snap_names[j], snap.mean[i], snap.std[i], &snap.ci95[2 * i],
+          "model units");
     }
     for (int k = 0; k < s.exponents; ++k) {
       const std::size_t i = idx(c, s.exponents, k);
@@ -383,6 +455,13 @@ void print_table(const ArchiveSummary& s) {
     std::printf("  (by case; nan when the %d exponents do not reach it)\n", s.exponents);
   }
   if (s.twins) print_twins_table(s);
+  const SnapshotView snap = snapshot_view(s);
+  if (!snap.times.empty()) {
+    print_block(s, "snapshots of " + s.observables[0] + " across members at model time t (of " +
+                       std::to_string(s.snapshot_time.size()) + " snapshot times): ensemble "
+                       "mean [95% confidence interval of the mean]",
+                snapshot_names(s, snap, " t=%g"), snap.mean, snap.ci95);
+  }
   if (!s.axes.empty()) {
     std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
                 "parameter (least squares over the cases)\n");

@@ -74,6 +74,11 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
     s.growth_rate = read_all<double>(root, "twins/growth_rate");
     s.growth_window = read_all<double>(root, "twins/growth_window");
   }
+  if (root.has_dataset("snapshot/time")) {
+    s.snapshot_time = read_all<double>(root, "snapshot/time");
+    s.snapshot_mean = read_all<double>(root, "snapshot/mean");
+    s.snapshot_variance = read_all<double>(root, "snapshot/variance");
+  }
   if (root.has_group("response")) {
     s.axes = read_all<std::string>(root, "response/axis");
     s.slope = read_all<double>(root, "response/slope");
@@ -90,7 +95,9 @@ void check_shapes(const ArchiveSummary& s) {
             s.regime_fraction.size() == cases * s.regimes.size() &&
             s.slope.size() == s.axes.size() * n_obs &&
             s.lyapunov.size() == cases * static_cast<std::size_t>(s.exponents) &&
-            s.lyapunov_ci95.size() == 2 * s.lyapunov.size();
+            s.lyapunov_ci95.size() == 2 * s.lyapunov.size() &&
+            s.snapshot_mean.size() == cases * s.snapshot_time.size() * n_obs &&
+            s.snapshot_variance.size() == s.snapshot_mean.size();
   if (s.twins) {
     ok = ok && s.horizon.size() == cases && s.horizon_std.size() == cases &&
          s.horizon_ci95.size() == 2 * cases && s.horizon_reached.size() == cases &&

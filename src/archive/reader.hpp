@@ -44,6 +44,8 @@ struct ArchiveSummary {
   std::vector<std::int64_t> twin_pairs;          // [case]
   std::vector<double> growth_rate;               // [case], per model time unit
   std::vector<double> growth_window;             // [case][2], model time units
+  std::vector<double> snapshot_time;             // [time] (empty: no snapshots)
+  std::vector<double> snapshot_mean, snapshot_variance;  // [case][time][observable]
 };
 
 /// Reads `path`. A missing file, a file that is not an HDF5 archive of this tool, a truncated,

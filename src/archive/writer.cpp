@@ -189,6 +189,10 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   root.set_attribute("dt", spec.integration.dt);
   root.set_attribute("spinup", spec.integration.spinup);
   root.set_attribute("duration", spec.integration.duration);
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    // the swept values of this parameter (/case/<parameter>) are offsets added to its schedule
+    root.set_attribute("scheduled_parameter", spec.schedule.parameter);
+  }
   GroupWriter top(file, "");
   top.labels("observable", plan.observables, "name of each observable");
 }
@@ -370,6 +374,23 @@ void write_trajectories(h5::File& file, const plan::Plan& plan,
   }
 }
 
+/// Across-member statistics at the snapshot times; /snapshot/time is the `time` coordinate.
+void write_snapshots(h5::File& file, const plan::Plan& plan,
+                     const parallel::EnsembleResults& e) {
+  if (plan.snapshot_count == 0) return;
+  GroupWriter g(file, "snapshot");
+  const std::uint64_t n_cases = plan.cases.size(), times = e.snapshot_time.size();
+  const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
+  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.coordinate("time", e.snapshot_time, archive::dataset("/snapshot/time").long_name);
+  g.labels("observable", plan.observables, "observable");
+  g.dataset("mean", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_mean);
+  g.dataset("variance", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_variance);
+  if (n_reg == 0) return;
+  g.labels("regime", plan.regime_labels, "regime label");
+  g.dataset("regime_fraction", {n_cases, times, n_reg}).write_from_rank0(e.snapshot_regime_fraction);
+}
+
 }  // namespace
 
 void write_archive(const std::string& path, const spec::Spec& spec, const plan::Plan& plan,
@@ -385,6 +406,7 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   write_twins(file, spec, plan, ensemble);
   write_histogram(file, spec, plan, ensemble);
   write_trajectories(file, plan, local, spec.integration.dt);
+  write_snapshots(file, plan, ensemble);
   file.close();
 
   // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it

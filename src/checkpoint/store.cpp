@@ -35,7 +35,8 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
   rec.integers = {{"ids", {r.batch_index, r.case_index, r.first_member, r.count,
                            r.trajectory_members}},
                   {"regime_transitions", r.regime_transitions},
-                  {"histogram", r.histogram}};
+                  {"histogram", r.histogram},
+                  {"snapshot_regimes", r.snapshot_regimes}};
   rec.reals = {{"initial_state", r.initial_state},
                {"time_mean", r.time_mean},
                {"time_variance", r.time_variance},
@@ -48,7 +49,8 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
                {"lyapunov", r.lyapunov},
                {"twin_moments", r.twin_moments},
                {"spread", r.spread},
-               {"horizon", r.horizon}};
+               {"horizon", r.horizon},
+               {"snapshot_moments", r.snapshot_moments}};
   rec.bytes = {{"status", r.status}};
   return rec;
 }
@@ -77,6 +79,8 @@ run::BatchResult to_result(const Record& rec) {
   r.twin_moments = rec.real("twin_moments");
   r.spread = rec.real("spread");
   r.horizon = rec.real("horizon");
+  r.snapshot_moments = rec.real("snapshot_moments");
+  r.snapshot_regimes = rec.integer("snapshot_regimes");
   r.status = rec.byte_array("status");
   return r;
 }

@@ -21,7 +21,8 @@ Rk4Batch::Rk4Batch(const models::Model& model, int width)
   for (auto* buffer : {&k1_, &k2_, &k3_, &k4_, &stage_}) buffer->assign(size_, 0.0);
 }
 
-void Rk4Batch::step(double* x, double dt) {
+template <class Before>
+void Rk4Batch::advance(double* x, double dt, Before before) {
   const long n = size_;
   const double half = 0.5 * dt;
   const double sixth = dt / 6.0;
@@ -31,14 +32,26 @@ void Rk4Batch::step(double* x, double dt) {
   double* __restrict k4 = k4_.data();
   double* __restrict s = stage_.data();
 
+  before(1);
   model_.rhs(x, k1, width_);
   for (long i = 0; i < n; ++i) s[i] = x[i] + half * k1[i];
+  before(2);
   model_.rhs(s, k2, width_);
   for (long i = 0; i < n; ++i) s[i] = x[i] + half * k2[i];
   model_.rhs(s, k3, width_);
   for (long i = 0; i < n; ++i) s[i] = x[i] + dt * k3[i];
+  before(4);
   model_.rhs(s, k4, width_);
   for (long i = 0; i < n; ++i) x[i] += sixth * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+}
+
+void Rk4Batch::step(double* x, double dt) {
+  advance(x, dt, [](int) {});
+}
+
+void Rk4Batch::step_at(double* x, double dt, double t0, double t1, StageClock& clock) {
+  const double mid = t0 + 0.5 * dt;
+  advance(x, dt, [&](int stage) { clock.set_time(stage == 1 ? t0 : stage == 2 ? mid : t1); });
 }
 
 }  // namespace chaosweep::integrators

@@ -17,9 +17,28 @@ class Rk4Batch {
   /// Advances x ([state_dim][width]) by one step dt in place.
   void step(double* x, double dt);
 
+  /// Told each stage's time before the stage's right-hand side is evaluated, so that a
+  /// time-dependent parameter can be set (Model::set_parameter). Must not allocate.
+  class StageClock {
+   public:
+    virtual void set_time(double t) = 0;
+
+   protected:
+    ~StageClock() = default;
+  };
+
+  /// One step from time t0 to t1 (= t0 + dt, given by the caller so that times come from
+  /// step counts, never from accumulated sums), with the same arithmetic as step(). The
+  /// clock is set to t0 before k1, t0 + dt/2 before k2 (k3 shares it), t1 before k4.
+  void step_at(double* x, double dt, double t0, double t1, StageClock& clock);
+
   int width() const { return width_; }
 
  private:
+  /// The step; before(stage) runs before stage 1, 2 and 4's right-hand side.
+  template <class Before>
+  void advance(double* x, double dt, Before before);
+
   const models::Model& model_;
   int width_;
   long size_;  // state_dim * width

@@ -106,6 +106,21 @@ class Lorenz84 final : public Model {
 
   std::vector<double> default_initial_state() const override { return {1.0, 0.0, 0.0}; }
 
+  // Slots 0..3: a, b, F, G (rhs() reads the members directly).
+  int parameter_slot(const std::string& name) const override {
+    static const char* const names[] = {"a", "b", "F", "G"};
+    for (int i = 0; i < 4; ++i) {
+      if (name == names[i]) return i;
+    }
+    return -1;
+  }
+
+  void set_parameter(int slot, double value) override {
+    double* const fields[] = {&a_, &b_, &F_, &G_};
+    if (slot < 0 || slot > 3) Model::set_parameter(slot, value);
+    *fields[slot] = value;
+  }
+
  private:
   double a_, b_, F_, G_;
 };

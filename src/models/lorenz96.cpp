@@ -129,6 +129,14 @@ class Lorenz96 final : public Model {
     return x;
   }
 
+  // Slot 0: F (n is structural).
+  int parameter_slot(const std::string& name) const override { return name == "F" ? 0 : -1; }
+
+  void set_parameter(int slot, double value) override {
+    if (slot != 0) Model::set_parameter(slot, value);
+    forcing_ = equations_.F = value;
+  }
+
  private:
   int n_;
   double forcing_;

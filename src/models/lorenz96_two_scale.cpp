@@ -201,6 +201,21 @@ class Lorenz96TwoScale final : public Model {
     return s;
   }
 
+  // Slots 0..3: F, h, c, b (K and J are structural; rhs() reads the members directly).
+  int parameter_slot(const std::string& name) const override {
+    static const char* const names[] = {"F", "h", "c", "b"};
+    for (int i = 0; i < 4; ++i) {
+      if (name == names[i]) return i;
+    }
+    return -1;
+  }
+
+  void set_parameter(int slot, double value) override {
+    double* const fields[] = {&F_, &h_, &c_, &b_};
+    if (slot < 0 || slot > 3) Model::set_parameter(slot, value);
+    *fields[slot] = value;
+  }
+
  private:
   int K_, J_;
   double F_, h_, c_, b_;

@@ -54,6 +54,8 @@ class Model {
   virtual void rhs(const double* x, double* dxdt, int width) const = 0;
 
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
+  /// They depend on the state and structural parameters only (snapshots of a run with a
+  /// time-dependent parameter evaluate them with the parameter's value at t = 0).
   virtual void derived(const double* x, double* out, int width) const {
     (void)x; (void)out; (void)width;
   }
@@ -69,6 +71,23 @@ class Model {
   virtual void tangent(const double* x, const double* v, double* out, int width) const {
     (void)x; (void)v; (void)out; (void)width;
     throw std::logic_error("this model has no tangent-linear product");
+  }
+
+  /// Slot through which set_parameter() changes the scalar, non-structural parameter `name`
+  /// in place, or -1 when this model cannot (then the parameter cannot follow a schedule).
+  /// Resolved once per case, so the hot path never looks names up.
+  virtual int parameter_slot(const std::string& name) const {
+    (void)name;
+    return -1;
+  }
+
+  /// Sets the parameter of `slot` (from parameter_slot()) to `value`: afterwards every call
+  /// computes bitwise what a model built with that value computes. O(1), no allocation, no
+  /// I/O: it runs between RK4 stages for a time-dependent parameter (spec `schedule:`).
+  /// The base version throws std::logic_error (a caller error).
+  virtual void set_parameter(int slot, double value) {
+    (void)slot; (void)value;
+    throw std::logic_error("this model cannot change a parameter in place");
   }
 
   /// Largest time step for which classical RK4 is clearly stable on this model's attractor

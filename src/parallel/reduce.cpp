@@ -150,6 +150,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   reduce_time_mean_errors(comm, plan, local, r);
   fit_slopes(plan, spec.sweep.size(), r);
   reduce_twins(comm, spec, plan, local, r);
+  reduce_snapshots(comm, spec, plan, local, r);
   return r;
 }
 

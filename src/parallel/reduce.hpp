@@ -47,6 +47,11 @@ struct EnsembleResults {
   std::vector<double> slope;                    // [axis][observable]
   std::vector<double> slope_stderr;             // [axis][observable]
   std::int64_t non_finite_members = 0;          // over the whole campaign
+  // statistics.snapshots: across the valid members at each snapshot time
+  std::vector<double> snapshot_time;            // [time], model time units from t = 0
+  std::vector<double> snapshot_mean;            // [case][time][observable]
+  std::vector<double> snapshot_variance;        // [case][time][observable] (n-1 denominator)
+  std::vector<double> snapshot_regime_fraction; // [case][time][regime]
 };
 
 /// Reduces the batches this rank ran (`local`, in batch order, a contiguous share of the plan's
@@ -57,5 +62,9 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
 /// The twin part of reduce() (fills the twin fields of `r`; nothing without twins). Collective.
 void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                   const std::vector<run::BatchResult>& local, EnsembleResults& r);
+/// The snapshot part of reduce() (snapshot_reduce.cpp): the batches' per-snapshot moments and
+/// regime counts merged per case in batch order. Collective; nothing when there are none.
+void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                      const std::vector<run::BatchResult>& local, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

@@ -98,6 +98,11 @@ Plan make_plan(const spec::Spec& spec) {
     plan.trajectory_every_steps = std::max<std::int64_t>(1, whole_steps(traj.every, dt));
     plan.trajectory_samples = plan.total_steps() / plan.trajectory_every_steps + 1;
   }
+  const spec::Snapshots& snap = spec.statistics.snapshots;
+  if (snap.enabled) {
+    plan.snapshot_every_steps = std::max<std::int64_t>(1, whole_steps(snap.every, dt));
+    plan.snapshot_count = plan.accumulate_steps / plan.snapshot_every_steps + 1;
+  }
   return plan;
 }
 

@@ -8,6 +8,10 @@
 //   every k steps     (k = plan.trajectory_every_steps) the stored members' states are sampled
 //   with twins        from step S every member has a twin integrated beside it and their
 //                     separation is sampled every statistics.twins.every (run/twins.hpp)
+//   steps S + j e     (e = plan.snapshot_every_steps, j = 0 .. plan.snapshot_count - 1) the
+//                     selected observables and regime of every member are recorded (snapshots)
+// With a schedule, the scheduled parameter takes its value at each RK4 stage time (step n runs
+// from n dt to (n + 1) dt); the base spin-up to the attractor uses its value at t = 0.
 // Every 32 steps and at the end each member's state is checked for finiteness; a non-finite
 // member is flagged, its column reset to the base state (so the batch arithmetic stays finite)
 // and all its statistics reported as NaN (transition count 0, no histogram counts).
@@ -22,6 +26,7 @@
 #include "integrators/rk4.hpp"
 #include "run/batch_work.hpp"
 #include "run/member_noise.hpp"
+#include "run/schedule.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -68,7 +73,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
                  const models::Model& model) {
   Setup s;
   s.model = spec.model;
-  s.parameters = c.parameters;
+  s.parameters = parameters_at_start(spec, c);
   s.width = plan.batch_size;
   s.state_dim = model.state_dim();
   s.n_model_observables = static_cast<int>(model.observables().size());
@@ -95,6 +100,12 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
     if (i < 0 || i >= s.n_model_observables) throw Error("observable index out of range");
     if (i >= s.state_dim) s.needs_derived = true;
   }
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    s.schedule = spec.schedule;
+    s.schedule_offset = schedule_offset(spec, c);
+  }
+  s.snapshot_every = plan.snapshot_every_steps;
+  s.snapshot_count = plan.snapshot_count;
   s.kernel = choose_kernel(s);
   s.twins.times = twin_times(spec, plan);
   s.twins.scale = spec.statistics.twins.scale;
@@ -161,7 +172,7 @@ CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const pla
   if (!info) throw Error("unknown model `" + spec.model + "`");
   impl_->case_index = c.index;
   impl_->ensemble = spec.ensemble;
-  impl_->model = info->make(c.parameters);
+  impl_->model = info->make(parameters_at_start(spec, c));
   impl_->setup = make_setup(spec, plan, c, *impl_->model);
   const spec::InitialState& initial = spec.ensemble.initial;
   if (initial.kind == spec::InitialKind::attractor) {

@@ -49,6 +49,9 @@ struct BatchResult {
                                                // over the batch's valid pairs
   std::vector<double> spread;                  // [count], NaN if the pair is not valid
   std::vector<double> horizon;                 // [count], time units, NaN if never reached
+  /// Snapshots (when requested, else empty), summarised over the batch's valid members:
+  std::vector<double> snapshot_moments;        // [snapshots][observables][3]: n, mean, m2
+  std::vector<std::int64_t> snapshot_regimes;  // [snapshots][regimes]: valid members in each
 };
 
 /// Complete state of a batch in progress: everything needed to continue it and obtain bitwise

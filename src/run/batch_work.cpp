@@ -42,6 +42,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   if (setup.histogram) {
     histogram_.emplace(setup.histogram->bins, setup.histogram->low, setup.histogram->high, w);
   }
+  if (setup.snapshot_count > 0) snapshots_.emplace(setup, model, batch.count);
   kernel_ = make_kernel(setup, model,
                         {&moments_, regimes_ ? &*regimes_ : nullptr,
                          histogram_ ? &*histogram_ : nullptr});
@@ -70,6 +71,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   check_finite();
   sample_trajectory(0);
   if (twins_) twins_->after_step(0, x_.data(), base_, true);
+  take_snapshot(0);
 }
 
 BatchWork::BatchWork(const Setup& setup, const models::Model& model,
@@ -91,6 +93,7 @@ void BatchWork::advance(std::int64_t max_steps) {
   while (step_ < last) {
     const std::int64_t end = segment_end(last);
     const int steps = static_cast<int>(end - step_);
+    kernel_->set_step(step_);
     if (step_ < setup_.spinup_steps) {
       kernel_->spin(x_.data(), steps);
     } else {
@@ -111,11 +114,16 @@ std::int64_t BatchWork::segment_end(std::int64_t last) const {
   }
   if (twins_) end = std::min(end, twins_->next_event(step_));
   if (step_ < s.spinup_steps) return std::min(end, s.spinup_steps);
+  if (s.snapshot_every > 0) {
+    const std::int64_t since = step_ - s.spinup_steps;
+    end = std::min(end, s.spinup_steps + (since / s.snapshot_every + 1) * s.snapshot_every);
+  }
   end = std::min(end, step_ + kMaxSegment);
   return std::min(end, step_ + moments_.block_room());
 }
 
-// Events at the end of step `step`: finiteness check, trajectory sample, twins (start, lead).
+// Events at the end of step `step`: finiteness check, trajectory sample, twins (start, lead),
+// snapshot.
 void BatchWork::after_step(std::int64_t step) {
   const Setup& s = setup_;
   const bool check = step % kFiniteCheckEvery == 0 || step == s.total_steps;
@@ -124,6 +132,16 @@ void BatchWork::after_step(std::int64_t step) {
     sample_trajectory(step / s.trajectory_every);
   }
   if (twins_) twins_->after_step(step, x_.data(), base_, check);
+  take_snapshot(step);
+}
+
+// Snapshot k at step spinup_steps + k * snapshot_every (step 0 itself when there is no
+// spin-up: the initial states).
+void BatchWork::take_snapshot(std::int64_t step) {
+  const Setup& s = setup_;
+  if (!snapshots_ || step < s.spinup_steps) return;
+  const std::int64_t since = step - s.spinup_steps;
+  if (since % s.snapshot_every == 0) snapshots_->record(since / s.snapshot_every, x_.data());
 }
 
 BatchResult BatchWork::finish() {
@@ -136,6 +154,7 @@ BatchResult BatchWork::finish() {
   collect_regimes();
   collect_histogram();
   if (twins_) twins_->finish(non_finite_, setup_.dt, result_);
+  if (snapshots_) snapshots_->collect(non_finite_, result_);
   return std::move(result_);
 }
 
@@ -152,6 +171,7 @@ BatchState BatchWork::save() const {
   if (regimes_) regimes_->save("regimes.", out);
   if (histogram_) histogram_->save("histogram.", out);
   if (twins_) twins_->save(out);
+  if (snapshots_) snapshots_->save("snapshots.", out);
   BatchState state;
   state.batch_index = result_.batch_index;
   state.step = step_;
@@ -182,6 +202,7 @@ void BatchWork::restore(const BatchState& state) {
   if (regimes_) regimes_->load("regimes.", in);
   if (histogram_) histogram_->load("histogram.", in);
   if (twins_) twins_->load(in);
+  if (snapshots_) snapshots_->load("snapshots.", in);
   in.finish();
   step_ = state.step;
 }

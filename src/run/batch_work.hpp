@@ -13,6 +13,7 @@
 #include "run/batch_runner.hpp"
 #include "run/kernels.hpp"
 #include "run/twins.hpp"
+#include "run/snapshots.hpp"
 #include "spec/spec.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
@@ -41,6 +42,9 @@ struct Setup {
   int histogram_observable = -1;
   bool needs_derived = false;  // some used observable is a derived one
   TwinSetup twins;             // twins.enabled() when statistics.twins is given
+  std::optional<spec::Schedule> schedule;  // a time-dependent parameter (generic kernel only)
+  double schedule_offset = 0.0;            // the case's swept value of that parameter, or 0
+  std::int64_t snapshot_every = 0, snapshot_count = 0;  // 0: no snapshots
 };
 
 /// One batch from its initial states to its BatchResult, advanced in chunks of any size.
@@ -72,6 +76,7 @@ class BatchWork final : public BatchProgress {
   void after_step(std::int64_t step);
   void check_finite();
   void sample_trajectory(std::int64_t sample);
+  void take_snapshot(std::int64_t step);
   void collect_moments();
   void collect_regimes();
   void collect_histogram();
@@ -86,6 +91,7 @@ class BatchWork final : public BatchProgress {
   std::vector<int> moment_series_;        // selected observable -> its series in moments_
   std::optional<stats::RegimeCounter> regimes_;
   std::optional<stats::MemberHistogram> histogram_;
+  std::optional<SnapshotRecorder> snapshots_;
   std::unique_ptr<Kernel> kernel_;
   std::optional<TwinPairs> twins_;
   BatchResult result_;

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <vector>
 
+#include "core/error.hpp"
 #include "integrators/lanes.hpp"
 #include "integrators/rk4.hpp"
 #include "integrators/rk4_ring.hpp"
@@ -12,6 +13,7 @@
 #include "run/batch_work.hpp"
 #include "run/fused_kernel.hpp"
 #include "run/ring_kernel.hpp"
+#include "run/schedule.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -74,6 +76,8 @@ class Stepper {
  public:
   virtual ~Stepper() = default;
   virtual void step(double* x) = 0;
+  /// The index of the next step (time-dependent steppers only).
+  virtual void set_step(std::int64_t step) { (void)step; }
 };
 
 /// Rk4Batch over the model's batched rhs (any model, any width).
@@ -86,6 +90,47 @@ class GenericStepper final : public Stepper {
  private:
   integrators::Rk4Batch rk4_;
   double dt_;
+};
+
+/// Rk4Batch over the stepper's own copy of the model whose scheduled parameter is set at every
+/// stage time: step n runs from t0 = n dt to t1 = (n + 1) dt (both from the step count), with
+/// the value at t0 for k1, at t0 + dt/2 for k2 and k3, at t1 for k4.
+class ScheduledStepper final : public Stepper, integrators::Rk4Batch::StageClock {
+ public:
+  explicit ScheduledStepper(const Setup& s)
+      : model_(build(s)),
+        slot_(model_->parameter_slot(s.schedule->parameter)),
+        schedule_(*s.schedule, s.schedule_offset),
+        rk4_(*model_, s.width),
+        dt_(s.dt) {
+    if (slot_ < 0) {
+      throw Error(s.model + " cannot vary `" + s.schedule->parameter + "` in time");
+    }
+  }
+  void set_step(std::int64_t step) override { step_ = step; }
+  void step(double* x) override {
+    const double t0 = static_cast<double>(step_) * dt_;
+    const double t1 = static_cast<double>(step_ + 1) * dt_;
+    rk4_.step_at(x, dt_, t0, t1, *this);
+    ++step_;
+  }
+  void set_time(double t) override { model_->set_parameter(slot_, schedule_.at(t)); }
+  /// The model as of the last stage (for derived observables after a step).
+  const models::Model& model() const { return *model_; }
+
+ private:
+  static std::unique_ptr<models::Model> build(const Setup& s) {
+    const models::ModelInfo* info = models::Registry::instance().find(s.model);
+    if (!info) throw Error("unknown model `" + s.model + "`");
+    return info->make(s.parameters);
+  }
+
+  std::unique_ptr<models::Model> model_;
+  int slot_;
+  ParameterSchedule schedule_;
+  integrators::Rk4Batch rk4_;
+  double dt_;
+  std::int64_t step_ = 0;
 };
 
 /// The fused ring RK4 (integrators/rk4_ring.hpp), one Lanes at a time; width % kLanes == 0.
@@ -113,6 +158,7 @@ class SteppedKernel final : public Kernel {
   SteppedKernel(std::unique_ptr<Stepper> stepper, const Setup& s, const models::Model& model,
                 const Accumulators& acc)
       : stepper_(std::move(stepper)), feed_(s, model, acc) {}
+  void set_step(std::int64_t step) override { stepper_->set_step(step); }
   void spin(double* x, int steps) override {
     for (int t = 0; t < steps; ++t) stepper_->step(x);
   }
@@ -133,6 +179,7 @@ bool is_state(const Setup& s, int observable) { return observable < s.state_dim;
 }  // namespace
 
 KernelKind choose_kernel(const Setup& s) {
+  if (s.schedule) return KernelKind::generic;
   if (s.width % integrators::kLanes != 0) return KernelKind::generic;
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
@@ -156,6 +203,11 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
       return make_ring_kernel(s, acc);
     case KernelKind::generic:
       break;
+  }
+  if (s.schedule) {  // derived observables from the scheduled copy, as of the step's end
+    auto stepper = std::make_unique<ScheduledStepper>(s);
+    const models::Model& scheduled = stepper->model();
+    return std::make_unique<SteppedKernel>(std::move(stepper), s, scheduled, acc);
   }
   // lorenz96 with nearest regimes: the ring RK4 with the generic per-step feed
   if (s.model == "lorenz96" && s.width % integrators::kLanes == 0) {

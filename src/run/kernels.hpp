@@ -11,11 +11,14 @@
 //  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes, the
 //             accumulators fed as each site's new value comes out of the last sweep.
 //  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
+//             The only kernel for a scheduled (time-dependent) parameter: it integrates the
+//             batch's own copy of the model and sets the parameter at every RK4 stage time.
 // The fused and ring kernels need a batch width that is a multiple of kLanes (every width the
 // spec allows, a multiple of 8, is). Every member of a batch sees the same operations whatever
 // its column, so results never depend on it.
 #pragma once
 
+#include <cstdint>
 #include <memory>
 
 #include "models/model.hpp"
@@ -29,8 +32,8 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: fused or ring when the model has one, the width is a multiple of kLanes
-/// and (fused) every observable, the regime coordinate and the histogram observable are state
+/// The kernel for a case: generic with a schedule; otherwise fused or ring when the model has
+/// one, the width is a multiple of kLanes and (fused) every observable, the regime coordinate and the histogram observable are state
 /// variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);
 
@@ -45,6 +48,9 @@ struct Accumulators {
 class Kernel {
  public:
   virtual ~Kernel() = default;
+  /// The step index the next spin() or accumulate() starts from (its first step runs from
+  /// time step * dt); kernels whose equations depend on time use it, the others ignore it.
+  virtual void set_step(std::int64_t step) { (void)step; }
   /// `steps` RK4 steps of x ([state_dim][width]) without accumulation.
   virtual void spin(double* x, int steps) = 0;
   /// `steps` RK4 steps, feeding the accumulators after each. steps <= kMaxSegment and the

@@ -138,11 +138,18 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
   const Field top_field(&source_name, root, "", location_of(root, Location{1, 1}));
   if (!root.IsMap()) top_field.fail("the top level must be a map of sections, got " + top_field.kind());
   const Map top(top_field, {{"campaign", "model", "sweep", "ensemble", "integration",
-                             "statistics", "output", "checkpoint", "run"},
-                            {"schedule"}, "key", ""});
+                             "statistics", "output", "checkpoint", "run", "schedule"},
+                            {}, "key", ""});
   read_campaign(top.required("campaign"), spec);
   ModelFacts facts = read_model(top.required("model"), spec);
+  if (top.has("schedule")) {  // a sweep of the scheduled parameter holds offsets
+    spec.schedule.parameter = scheduled_parameter(top.get("schedule"));
+  }
   if (top.has("sweep")) read_sweep(top.get("sweep"), facts, spec);
+  if (top.has("schedule")) {
+    read_schedule(top.get("schedule"), top.required("model"), facts, spec);
+    if (top.has("statistics")) refuse_with_schedule(top.get("statistics"));
+  }
   read_integration(top.required("integration"), facts, spec);
   read_ensemble(top.required("ensemble"), facts, spec);
   if (top.has("statistics")) read_statistics(top.get("statistics"), facts, spec);

@@ -138,11 +138,10 @@ void axis_values(const Map& axis, std::vector<double>& values, std::vector<Field
   }
 }
 
-/// Checks one axis's values and builds the model at each (other parameters at their base).
-void check_axis_values(const models::ParameterInfo& p, const std::vector<double>& values,
-                       const std::vector<Field>& where, ModelFacts& facts, const Spec& spec) {
+/// Refuses a value that appears twice on one axis.
+void check_distinct(const models::ParameterInfo& p, const std::vector<double>& values,
+                    const std::vector<Field>& where) {
   for (std::size_t i = 0; i < values.size(); ++i) {
-    check_component(where[i], p, values[i]);
     for (std::size_t j = 0; j < i; ++j) {
       if (values[j] == values[i]) {
         where[i].fail("value " + format_number(values[i]) + " of `" + p.name +
@@ -150,6 +149,13 @@ void check_axis_values(const models::ParameterInfo& p, const std::vector<double>
       }
     }
   }
+}
+
+/// Checks one axis's values and builds the model at each (other parameters at their base).
+void check_axis_values(const models::ParameterInfo& p, const std::vector<double>& values,
+                       const std::vector<Field>& where, ModelFacts& facts, const Spec& spec) {
+  for (std::size_t i = 0; i < values.size(); ++i) check_component(where[i], p, values[i]);
+  check_distinct(p, values, where);
   models::ParameterValues params = spec.parameters;
   for (std::size_t i = 0; i < values.size(); ++i) {
     params[p.name] = {values[i]};
@@ -196,7 +202,13 @@ SweepAxis read_axis(const Field& item, ModelFacts& facts, const Spec& spec,
   }
   std::vector<Field> where;
   axis_values(axis, out.values, where);
-  check_axis_values(*p, out.values, where, facts, spec);
+  if (out.parameter == spec.schedule.parameter) {
+    // offsets added to the parameter's schedule: distinct values; the sums are checked
+    // against the bounds and the stable step with the schedule
+    check_distinct(*p, out.values, where);
+  } else {
+    check_axis_values(*p, out.values, where, facts, spec);
+  }
   return out;
 }
 

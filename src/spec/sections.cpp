@@ -215,14 +215,16 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
 }
 
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {
-  const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov", "twins"},
-                             {"snapshots"}, "key", ""});
+  const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov", "twins",
+                              "snapshots"},
+                             {}, "key", ""});
   Statistics& out = spec.statistics;
   if (map.has("observables")) out.observables = read_observable_names(map.get("observables"), facts);
   if (map.has("regimes")) read_regimes(map.get("regimes"), facts, out.regimes);
   if (map.has("histogram")) read_histogram(map.get("histogram"), facts, out.histogram);
   if (map.has("lyapunov")) read_lyapunov(map.get("lyapunov"), facts, spec, out.lyapunov);
   if (map.has("twins")) read_twins(map.get("twins"), spec, out.twins);
+  if (map.has("snapshots")) read_snapshots(map.get("snapshots"), spec, out.snapshots);
 }
 
 void read_output(const Field& output, Spec& spec) {

@@ -41,6 +41,19 @@ void read_output(const Field& output, Spec& spec);
 void read_checkpoint(const Field& checkpoint, Spec& spec);
 void read_run(const Field& run, Spec& spec);
 
+// schedule.cpp
+/// `schedule`: one scalar, non-structural parameter as a function of time; checks its values
+/// (with any sweep offset) against the parameter's bounds and the stable dt. `model` is the
+/// model section (the parameter must not also be set there). Read after the sweep.
+void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts, Spec& spec);
+/// The name under schedule.parameter as written ("" when absent or not a plain string);
+/// read_schedule() checks it.
+std::string scheduled_parameter(const Field& schedule);
+/// Refuses statistics.lyapunov and statistics.twins beside a schedule.
+void refuse_with_schedule(const Field& statistics);
+/// statistics.snapshots {every}; read after the integration section.
+void read_snapshots(const Field& snapshots, const Spec& spec, Snapshots& out);
+
 // regimes.cpp
 void read_regimes(const Field& regimes, const ModelFacts& facts, Regimes& out);
 /// A list of observable names of the model: non-empty, no repeats, each one known.

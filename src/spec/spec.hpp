@@ -98,12 +98,21 @@ struct Twins {
   double threshold = 0.0;  // > 0, in units of the member's spread
 };
 
+/// Ensemble statistics across members at snapshot times (statistics.snapshots): at
+/// t_k = spinup + k * every, k = 0 .. floor(duration / every), the mean and variance across
+/// the case's valid members of every selected observable, and the share of them in each regime.
+struct Snapshots {
+  bool enabled = false;
+  double every = 0.0;  // time units, a whole number of steps dt, at most integration.duration
+};
+
 struct Statistics {
   std::vector<std::string> observables;  // default: every observable of the model
   Regimes regimes;
   Histogram histogram;
   Lyapunov lyapunov;
   Twins twins;
+  Snapshots snapshots;
 };
 
 /// Full state paths of the first `members` members of every case, sampled every `every` time
@@ -127,6 +136,27 @@ struct Checkpoint {
   int keep = 2;                  // checkpoint generations kept (>= 1)
 };
 
+enum class ScheduleKind { none, constant, ramp, step, periodic };
+
+/// A time-dependent value of one scalar, non-structural model parameter (`schedule:`), as a
+/// function of model time t counted from the start of the integration (t = 0 at the start of
+/// the spin-up, as for output.trajectories):
+///   constant  value
+///   ramp      from (t <= start), from + (to - from) (t - start) / (end - start), to (t >= end)
+///   step      before (t < at), after (t >= at)
+///   periodic  mean + amplitude sin(2 pi t / period + phase), phase in radians
+/// When a sweep axis varies the same parameter, the case's swept value is added (an offset).
+struct Schedule {
+  ScheduleKind kind = ScheduleKind::none;
+  std::string parameter;
+  double value = 0.0;                                      // constant
+  double from = 0.0, to = 0.0, start = 0.0, end = 0.0;     // ramp: start < end
+  double before = 0.0, after = 0.0, at = 0.0;              // step
+  double mean = 0.0, amplitude = 0.0, period = 0.0, phase = 0.0;  // periodic: period > 0
+  bool offset_by_sweep = false;  // a sweep axis on `parameter` adds its value
+  Location where;
+};
+
 struct Run {
   int batch_size = 64;  // members per work unit, a multiple of 8
 };
@@ -140,6 +170,7 @@ struct Spec {
   std::string model;                    // registry name
   models::ParameterValues parameters;   // complete: defaults with the spec's overrides
   std::vector<SweepAxis> sweep;         // may be empty: one case with the base parameters
+  Schedule schedule;                    // kind none: every parameter constant in time
   Ensemble ensemble;
   Integration integration;
   Statistics statistics;

@@ -2,11 +2,12 @@
 # Interrupted campaigns finish with the same archive, bitwise, whatever the interruption
 # (SIGTERM at several points, SIGKILL of the whole job during a run and during a checkpoint
 # write, damaged checkpoint files) and whatever the rank count of the resume.
-# Usage: interrupt_resume.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC
+# Usage: interrupt_resume.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC [SPEC]
+# (SPEC defaults to tests/checkpoint/specs/restart.yaml; its seed must be `seed: 3`.)
 set -uo pipefail
 prog=$1 work=$2 src=$3 mpiexec=$4
 check="/usr/bin/python3 $src/tests/e2e/check_archive.py"
-spec=$src/tests/checkpoint/specs/restart.yaml
+spec=${5:-$src/tests/checkpoint/specs/restart.yaml}
 rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
 failures=0
 fail() { echo "FAIL: $*"; failures=$((failures + 1)); }

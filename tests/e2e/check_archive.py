@@ -183,6 +183,9 @@ def check_summary_json(path, program):
                 ("horizon", "ensemble/horizon"), ("ci", "ensemble/horizon_ci95"),
                 ("reached", "ensemble/horizon_reached"), ("pairs", "twins/pairs"),
                 ("rate", "twins/growth_rate"), ("window", "twins/growth_window"))}
+        snap_t = f["snapshot/time"][()] if "snapshot/time" in f else None
+        snap_mean = f["snapshot/mean"][()] if snap_t is not None else None
+        snap_var = f["snapshot/variance"][()] if snap_t is not None else None
     if len(doc["cases"]) != mean.shape[0]:
         fail("summary has the wrong number of cases")
     for c, case in enumerate(doc["cases"]):
@@ -196,6 +199,17 @@ def check_summary_json(path, program):
                 want = float(values[c, o])
                 if not (entry[key] == want or (entry[key] is None and math.isnan(want))):
                     fail(f"case {c} {name}: summary {key} {entry[key]} != archive {values[c, o]}")
+        if snap_t is not None:
+            shown = case["snapshots"]
+            if [s["time"] for s in shown] != [float(snap_t[k]) for k in
+                                             sorted({0, (len(snap_t) - 1) // 2, len(snap_t) - 1})]:
+                fail(f"case {c}: snapshot times {[s['time'] for s in shown]}")
+            for s in shown:
+                k = int(np.flatnonzero(snap_t == s["time"])[0])
+                o = names.index(s["observable"])
+                if s["mean"] != float(snap_mean[c, k, o]) or \
+                        s["std"] != float(np.sqrt(snap_var[c, k, o])):
+                    fail(f"case {c}: snapshot {s} differs from the archive")
         if frac is not None:
             for k, label in enumerate(doc["regimes"]):
                 if case["regime_fraction"][label]["mean"] != float(frac[c, k]):
@@ -223,6 +237,128 @@ def check_summary_json(path, program):
     print(f"ok: summary json equals the archive for {len(doc['cases'])} cases")
 
 
+def check_schedule_identity(reference, other, parameter=None, constant=None):
+    """A constant schedule gives bitwise the numbers of the same campaign without a schedule
+    (exact by design: the parameter then has the same value at every RK4 stage, and the generic
+    kernel a scheduled run takes performs the same floating-point operations as the fused
+    kernels the reference takes). Every dataset is compared; with the schedule offset by a
+    swept axis (PARAMETER, CONSTANT given), /case/PARAMETER holds the offsets, which must equal
+    the reference's values minus CONSTANT exactly (both exact in binary here), and the response
+    slopes, fitted against the offsets rather than the values, agree to 1e-12 relative (the
+    same fit of shifted abscissae; only rounding differs)."""
+    ref, got = datasets(reference), datasets(other)
+    if len(ref) < 10 or sorted(ref) != sorted(got):
+        fail(f"{other}: datasets differ from {reference}: {sorted(set(ref) ^ set(got))}")
+    loose = set()
+    if parameter is not None:
+        loose = {f"/case/{parameter}", "/response/slope", "/response/slope_stderr"}
+        with h5py.File(reference, "r") as a, h5py.File(other, "r") as b:
+            if not np.array_equal(a[f"case/{parameter}"][()] - float(constant),
+                                  b[f"case/{parameter}"][()]):
+                fail(f"/case/{parameter}: offsets are not the reference's values - {constant}")
+            for name in ("response/slope", "response/slope_stderr"):
+                if not np.allclose(a[name][()], b[name][()], rtol=1e-12, atol=0):
+                    fail(f"/{name} differs beyond rounding")
+    for name, value in ref.items():
+        if name not in loose and got[name] != value:
+            fail(f"{other}: {name} differs from {reference}")
+    print(f"ok: {other} == {reference} bitwise ({len(ref) - len(loose)} datasets)")
+
+
+def stored_snapshot_values(f):
+    """Every member's observables at the snapshot times from /trajectory/state (which must hold
+    every member, sampled at the snapshot times): (case, member, time, observable) and the
+    validity mask (case, member)."""
+    names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+    variables = [n.decode() if isinstance(n, bytes) else n for n in f["trajectory/variable"][()]]
+    state = f["trajectory/state"][()]                    # case, member, step, variable
+    members = f["member/status"].shape[1]
+    if state.shape[1] != members:
+        fail("the spec must store the trajectories of every member")
+    t_traj, t_snap = f["trajectory/time"][()], f["snapshot/time"][()]
+    steps = [int(np.argmin(np.abs(t_traj - t))) for t in t_snap]
+    if not np.array_equal(t_traj[steps], t_snap):
+        fail("snapshot times are not trajectory sample times")
+    x = state[:, :, steps, :]
+    columns = []
+    for name in names:
+        if name in variables:
+            columns.append(x[..., variables.index(name)])
+        elif name == "mean":       # lorenz96's derived observables (README)
+            columns.append(x.mean(axis=3))
+        elif name == "energy":
+            columns.append(0.5 * (x ** 2).sum(axis=3))
+        else:
+            fail(f"cannot recompute observable {name}")
+    return names, np.stack(columns, axis=3), f["member/status"][()] == 0
+
+
+def check_snapshots(path):
+    """/snapshot/mean, /snapshot/variance and /snapshot/regime_fraction equal numpy's mean, var
+    (ddof=1) and sign-regime shares over the valid members' stored states at each snapshot time
+    (numpy as the outside reference; 1e-12 relative allows for the different order of summation
+    in Welford/Chan updates and numpy's pairwise sums)."""
+    with h5py.File(path, "r") as f:
+        names, values, valid = stored_snapshot_values(f)
+        mean, var = f["snapshot/mean"][()], f["snapshot/variance"][()]   # case, time, observable
+        regimes = f["snapshot/regime_fraction"][()] if "snapshot/regime_fraction" in f else None
+        spec = f.attrs["spec_yaml"]
+    cases = mean.shape[0]
+    for c in range(cases):
+        v = values[c][valid[c]]                          # member, time, observable
+        if not np.allclose(mean[c], v.mean(axis=0), rtol=1e-12, atol=1e-12):
+            fail(f"case {c}: snapshot mean differs from numpy")
+        if not np.allclose(var[c], v.var(axis=0, ddof=1), rtol=1e-12, atol=1e-12):
+            fail(f"case {c}: snapshot variance differs from numpy")
+        if regimes is not None:
+            # sign regimes on the first observable (the test specs use `observable: x0`)
+            if "observable: " + names[0] not in str(spec):
+                fail("the check assumes sign regimes on the first observable")
+            positive = (v[:, :, 0] >= 0).mean(axis=0)
+            if not np.allclose(regimes[c, :, 0], positive, rtol=0, atol=1e-15) or \
+                    not np.allclose(regimes[c, :, 0] + regimes[c, :, 1], 1.0, atol=1e-15):
+                fail(f"case {c}: snapshot regime fractions differ from the member counts")
+    print(f"ok: snapshot statistics of {cases} cases x {mean.shape[1]} times equal numpy's over "
+          f"the stored members")
+
+
+def check_ramp_energy(path, n_sites, start_value, end_value, start, end):
+    """Energy budget of Lorenz-96 under a time-dependent forcing F(t): per member
+    d/dt (sum x_k^2 / 2) = -sum x_k^2 + F(t) sum x_k (exact: the advection term conserves
+    energy, Lorenz 1996), hence for the ensemble means at the snapshot times
+    E(t_end) - E(t_0) = integral of (-2 <E> + F(t) n <mean>) dt, with F(t) the ramp plus the
+    case's offset (/case/F). The integral is taken by the trapezoid rule on the snapshots;
+    its error on these smooth ensemble-mean curves was measured near 1e-4 of the integral of
+    the integrand's magnitude, so 1e-3 is allowed; the same budget with F held at its mean
+    misses by about a third of that magnitude, so the check sees whether the forcing followed
+    the ramp.
+    It also checks that the ensemble mean of `mean` at the end of the ramp exceeds its value at
+    the start (the ring's mean grows with F in this range: from memory, about 2.3 at F = 8)."""
+    n, a, b = int(n_sites), float(start_value), float(end_value)
+    start, end = float(start), float(end)
+    with h5py.File(path, "r") as f:
+        names = [x.decode() if isinstance(x, bytes) else x for x in f["observable"][()]]
+        t, snap = f["snapshot/time"][()], f["snapshot/mean"][()]
+        offsets = f["case/F"][()]
+    energy, mean = snap[:, :, names.index("energy")], snap[:, :, names.index("mean")]
+    ramp = a + (b - a) * np.clip((t - start) / (end - start), 0.0, 1.0)
+    for c, offset in enumerate(offsets):
+        forcing = ramp + offset
+        integrand = -2.0 * energy[c] + forcing * n * mean[c]
+        change = energy[c, -1] - energy[c, 0]
+        residual = change - np.trapz(integrand, t)
+        scale = np.trapz(np.abs(integrand), t)
+        if not abs(residual) < 1e-3 * scale:
+            fail(f"case {c}: energy budget misses by {residual:.3g} (scale {scale:.3g})")
+        held = -2.0 * energy[c] + np.mean(forcing) * n * mean[c]
+        print(f"case {c}: budget residual {residual:.3g} of {scale:.3g} "
+              f"(with F held at its mean: {change - np.trapz(held, t):.3g})")
+        early, late = mean[c, t <= start + 2].mean(), mean[c, t >= end].mean()
+        if not late > early:
+            fail(f"case {c}: mean did not rise with the forcing ({early:.3g} -> {late:.3g})")
+    print(f"ok: energy budget holds under the ramp for {len(offsets)} cases; the mean rises")
+
+
 def check_xarray(path):
     """The archive opens with xarray (h5netcdf engine) with named dimensions in every group."""
     import xarray as xr
@@ -239,6 +375,13 @@ def check_xarray(path):
                      "decorrelation_time": ("case", "observable")},
         "case": {"case": ("case",)},
     }
+    with h5py.File(path, "r") as f:
+        if "snapshot" in f:
+            expected["snapshot"] = {"mean": ("case", "time", "observable"),
+                                    "variance": ("case", "time", "observable"),
+                                    "time": ("time",)}
+            if "snapshot/regime_fraction" in f:
+                expected["snapshot"]["regime_fraction"] = ("case", "time", "regime")
     for group, variables in expected.items():
         with xr.open_dataset(path, engine="h5netcdf", group=group) as ds:
             for name, dims in variables.items():
@@ -246,6 +389,11 @@ def check_xarray(path):
                     fail(f"{group}/{name}: dims {ds[name].dims}, expected {dims}")
                 if "units" not in ds[name].attrs or "long_name" not in ds[name].attrs:
                     fail(f"{group}/{name}: missing units or long_name")
+            if group == "snapshot":
+                obs = [str(v) for v in ds["observable"].values]
+                series = ds["mean"].sel(observable=obs[0], case=0)
+                if series.dims != ("time",) or not np.all(np.diff(ds["time"].values) > 0):
+                    fail("snapshot series does not select by observable and case over time")
             if group == "ensemble":
                 obs = [str(v) for v in ds["observable"].values]
                 x = ds.time_mean.sel(observable=obs[0])
@@ -527,6 +675,9 @@ CHECKS = {
     "mirror": check_mirror,
     "summary-json": check_summary_json,
     "xarray": check_xarray,
+    "schedule-identity": check_schedule_identity,
+    "snapshots": check_snapshots,
+    "ramp-energy": check_ramp_energy,
 }
 
 if __name__ == "__main__":

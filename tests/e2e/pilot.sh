@@ -94,6 +94,7 @@ expect_refusal "a target that is not a number" "$spec" --pilot --target-halfwidt
 expect_refusal "a target for an unknown observable" "$spec" --pilot --target-halfwidth w=1
 grep -v "^sweep:\|parameter: forcing" "$spec" > single.yaml
 expect_refusal "a slope target without a sweep" single.yaml --pilot --target-slope-halfwidth 0.1
+expect_refusal "a spec with a schedule" "$src/tests/e2e/specs/l63-schedule-constant.yaml" --pilot
 
 [ "$failures" -eq 0 ] || { echo "$failures failures"; exit 1; }
 echo "all pilot checks passed"

@@ -68,7 +68,32 @@ class ArchiveData:
             self.regime_ci = f["ensemble/regime_fraction_ci95"][()] if self.regimes else None
             self.slope = f["response/slope"][()] if self.axes else None
             self.slope_stderr = f["response/slope_stderr"][()] if self.axes else None
+            self.snap_time = f["snapshot/time"][()] if "snapshot" in f else None
+            self.snap_mean = f["snapshot/mean"][()] if "snapshot" in f else None
+            self.snap_var = f["snapshot/variance"][()] if "snapshot" in f else None
         self.cases = self.status.shape[0]
+
+    def snapshots_shown(self):
+        """What `summary` shows of the snapshots (README, "Summary formats"): the first
+        observable at the first, middle and last snapshot time, per case (mean, std across
+        members, 95% interval of the mean with Student's t from scipy), as
+        {case: [(k, time, mean, std, (low, high))]}."""
+        if self.snap_time is None:
+            return {}
+        from scipy.stats import t as student
+        n = len(self.snap_time)
+        picks = sorted({0, (n - 1) // 2, n - 1})
+        out = {}
+        for c in range(self.cases):
+            valid = float(self.valid[c])
+            q = student.ppf(0.975, valid - 1)
+            rows = []
+            for k in picks:
+                mean, var = self.snap_mean[c, k, 0], self.snap_var[c, k, 0]
+                half = q * np.sqrt(var / valid)
+                rows.append((k, self.snap_time[k], mean, np.sqrt(var), (mean - half, mean + half)))
+            out[c] = rows
+        return out
 
     def valid_text(self):
         return f"valid members: {int(self.valid.sum())} of {self.status.size}"
@@ -321,9 +346,9 @@ def check_later_datasets(plot, archive, outdir):
         obs = [names.index(n) for n in ("x", "y", "z")]
         snap = state[:, :, ::every, :][..., obs]          # case, sample, time, observable
         f["snapshot/time"] = t[::every]
-        f["snapshot/mean"] = snap.mean(axis=1).transpose(1, 0, 2)
-        f["snapshot/variance"] = snap.var(axis=1, ddof=1).transpose(1, 0, 2)
-        positive = (snap[..., 0] >= 0).mean(axis=1).T     # time, case
+        f["snapshot/mean"] = snap.mean(axis=1)             # case, time, observable
+        f["snapshot/variance"] = snap.var(axis=1, ddof=1)
+        positive = (snap[..., 0] >= 0).mean(axis=1)        # case, time
         f["snapshot/regime_fraction"] = np.stack([positive, 1 - positive], axis=2)
         distance = np.linalg.norm(state[:, 0] - state[:, 1], axis=2)   # case, step
         lead = t <= 20
@@ -440,6 +465,9 @@ def check_summary_csv(archive, program):
         for k, label in enumerate(arch.regimes):
             expected.append((c, "regime_fraction", label, arch.regime[c, k],
                              arch.regime_std[c, k], arch.regime_ci[c, k], "fraction", None))
+        for k, time, mean, std, ci in arch.snapshots_shown().get(c, []):
+            expected.append((c, "snapshot_mean", f"{arch.observables[0]}@{time:.17g}", mean, std,
+                             ci, "model units", None))
     if len(rows) - 1 != len(expected):
         fail(f"csv has {len(rows) - 1} rows, expected {len(expected)}")
     n_axes = len(arch.axes)
@@ -450,8 +478,12 @@ def check_summary_csv(archive, program):
         rest = row[1 + n_axes:]
         numbers = [float(v) for v in rest[2:6]]
         wanted = [float(mean), float(std), float(ci[0]), float(ci[1])]
+        # a snapshot's interval is not an archive dataset: recomputed here with scipy's t
+        # quantile, equal to rounding (1e-12 relative)
+        tol = 1e-12 if quantity == "snapshot_mean" else 0.0
         if rest[0] != quantity or rest[1] != name or not all(
-                x == y or (math.isnan(x) and math.isnan(y)) for x, y in zip(numbers, wanted)):
+                abs(x - y) <= tol * abs(y) or (math.isnan(x) and math.isnan(y))
+                for x, y in zip(numbers, wanted)):
             fail(f"csv row {row} differs from the archive {wanted}")
         if rest[6:9] != [str(int(arch.valid[c])), str(arch.members), units]:
             fail(f"csv row {row}: members or units")
@@ -484,6 +516,8 @@ def check_summary_table(archive, program):
             block = "slope"
         elif line.startswith("errors of the time means"):
             block = "errors"
+        elif line.startswith("snapshots of"):
+            block = "snapshot"
         if not line.strip():
             continue
         cells = re.split(r"\s{2,}", line.strip())
@@ -524,6 +558,15 @@ def check_summary_table(archive, program):
                         for g, w in zip(got, wanted)):
                     fail(f"table case {c} {name}: errors {cell!r} differ from {wanted}")
                 seen.add(("errors", c, name))
+        elif block == "snapshot" and columns and cells[0].isdigit():
+            c = int(cells[0])
+            lead = 2 + len(arch.axes)
+            shown = arch.snapshots_shown()[c]
+            if columns[lead:] != [f"{arch.observables[0]} t={time:g}" for _, time, *_ in shown]:
+                fail(f"snapshot columns {columns[lead:]}")
+            for cell, (k, time, mean, _, ci) in zip(cells[lead:], shown):
+                check_estimate(cell, mean, ci, f"table case {c} snapshot t={time:g}")
+                seen.add(("snapshot", c, k))
         elif block == "slope" and columns and len(cells) == 4:
             a, o = arch.axes.index(cells[1]), arch.observables.index(cells[0])
             if not (printed_sig_close(cells[2], arch.slope[a, o], 4)
@@ -535,6 +578,8 @@ def check_summary_table(archive, program):
     wanted |= {("errors", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("slope", a, o) for a in range(len(arch.axes))
                for o in range(len(arch.observables))}
+    wanted |= {("snapshot", c, k) for c, rows in arch.snapshots_shown().items()
+               for k, *_ in rows}
     if seen != wanted:
         fail(f"table lacks {sorted(wanted - seen)[:5]}")
     print(f"ok: summary table aligned and equal to the archive ({len(seen)} entries)")

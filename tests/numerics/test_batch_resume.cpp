@@ -59,6 +59,20 @@ spec::Spec with_twins(spec::Spec s) {
   return s;
 }
 
+/// Lorenz-96 (n 12) with a periodic forcing (the generic kernel, parameter set at every RK4
+/// stage) and snapshots every 0.25 from the end of the spin-up, with regimes.
+spec::Spec scheduled_spec() {
+  spec::Spec s = l96_spec();
+  s.schedule.kind = spec::ScheduleKind::periodic;
+  s.schedule.parameter = "F";
+  s.schedule.mean = 8.0;
+  s.schedule.amplitude = 2.0;
+  s.schedule.period = 1.3;
+  s.schedule.phase = 0.4;
+  s.statistics.snapshots = {true, 0.25};
+  return s;
+}
+
 struct Campaign {
   spec::Spec spec;
   plan::Plan plan;
@@ -109,11 +123,13 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.twin_moments, b.twin_moments, "twin_moments");
   expect_same(a.spread, b.spread, "spread");
   expect_same(a.horizon, b.horizon, "horizon");
+  expect_same(a.snapshot_moments, b.snapshot_moments, "snapshot_moments");
+  expect_same(a.snapshot_regimes, b.snapshot_regimes, "snapshot_regimes");
 }
 
 std::vector<spec::Spec> all_specs() {
   return {l63_spec(), blow_up_spec(), l96_spec(), with_twins(l63_spec()),
-          with_twins(blow_up_spec()), with_twins(l96_spec())};
+          with_twins(blow_up_spec()), with_twins(l96_spec()), scheduled_spec()};
 }
 
 // Exact by design (batch_runner.hpp: chunking cannot change anything, since every periodic

@@ -195,6 +195,32 @@ TEST(ValidSpec, Lorenz96Twins) {
 }
 
 // Every valid fixture loads (so a fixture added later is at least parsed).
+// schedule and statistics.snapshots as written: a periodic forcing offset by the sweep of the
+// same parameter (phase defaults to 0), and a step without a sweep (no offset).
+TEST(ValidSpec, SchedulesAndSnapshots) {
+  const Spec s = load_spec(valid("lorenz63_periodic_schedule.yaml"));
+  EXPECT_EQ(s.schedule.kind, ScheduleKind::periodic);
+  EXPECT_EQ(s.schedule.parameter, "forcing");
+  EXPECT_EQ(s.schedule.mean, 1.0);
+  EXPECT_EQ(s.schedule.amplitude, 0.5);
+  EXPECT_EQ(s.schedule.period, 10.0);
+  EXPECT_EQ(s.schedule.phase, 0.0);
+  EXPECT_TRUE(s.schedule.offset_by_sweep);
+  EXPECT_EQ(s.schedule.where.line, 9);
+  EXPECT_TRUE(s.statistics.snapshots.enabled);
+  EXPECT_EQ(s.statistics.snapshots.every, 0.5);
+  const Spec step = load_spec(valid("lorenz96_step_schedule.yaml"));
+  EXPECT_EQ(step.schedule.kind, ScheduleKind::step);
+  EXPECT_EQ(step.schedule.parameter, "F");
+  EXPECT_EQ(step.schedule.before, 8.0);
+  EXPECT_EQ(step.schedule.after, 9.5);
+  EXPECT_EQ(step.schedule.at, 30.0);
+  EXPECT_FALSE(step.schedule.offset_by_sweep);
+  EXPECT_FALSE(step.statistics.snapshots.enabled);
+  // without a schedule the kind is none (every parameter constant in time)
+  EXPECT_EQ(load_spec(valid("lorenz96_defaults.yaml")).schedule.kind, ScheduleKind::none);
+}
+
 TEST(ValidSpec, EveryValidFixtureLoads) {
   int count = 0;
   for (const auto& entry :
