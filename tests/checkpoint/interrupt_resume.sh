@@ -27,8 +27,11 @@ expect_status() {  # expect_status WANT GOT WHAT
 run 1 reference.h5 || fail "uninterrupted reference run"
 [ ! -e reference.h5.checkpoints ] || fail "checkpoints left after a complete run"
 # The members' standard errors (blocking levels saved in every batch state) are in the
-# archives compared below, and consistent with the ensemble datasets (duration 20000, dt 0.005).
-$check stderr-ensemble reference.h5 20000 0.005 || fail "standard errors of the reference run"
+# archives compared below, and consistent with the ensemble datasets (duration and dt from the
+# spec).
+duration=$(sed -n 's/^integration:.*duration: *\([0-9.e+-]*\).*/\1/p' "$spec")
+dt=$(sed -n 's/^integration:.*dt: *\([0-9.e+-]*\).*/\1/p' "$spec")
+$check stderr-ensemble reference.h5 "$duration" "$dt" || fail "standard errors of the reference run"
 
 # 1. SIGTERM on one rank at a given round, resumed on another rank count (sometimes twice).
 export CHAOSWEEP_TEST_ROUND_SECONDS=0.05
