@@ -477,6 +477,12 @@ void print_table(const ArchiveSummary& s) {
   }
   std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
               "mean +- t(0.975, n-1) s / sqrt(n), n = valid members.\n");
+  for (const std::string& a : s.axes) {
+    if (a == s.scheduled_parameter) {
+      std::printf("%s follows a schedule: its column holds the offset added to the schedule, "
+                  "and its slopes are per unit of that offset.\n", a.c_str());
+    }
+  }
   if (!s.time_mean_stderr.empty()) {
     std::printf("Standard error of the ensemble mean (used for the slopes): the larger of "
                 "s / sqrt(n) and sqrt(sum of the members' blocking standard errors^2) / n.\n");

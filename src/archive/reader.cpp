@@ -36,6 +36,9 @@ void read_identity(const h5::Group& root, ArchiveSummary& s) {
   s.campaign = root.string_attribute("campaign");
   s.model = root.string_attribute("model");
   s.status = root.string_attribute("status");
+  if (root.has_attribute("scheduled_parameter")) {
+    s.scheduled_parameter = root.string_attribute("scheduled_parameter");
+  }
   s.tool_version = root.string_attribute("tool_version");
   s.created_utc = root.string_attribute("created_utc");
   s.spec_sha256 = root.string_attribute("spec_sha256");

@@ -13,6 +13,7 @@ struct ArchiveSummary {
   std::string campaign;
   std::string model;
   std::string status;
+  std::string scheduled_parameter;  // the parameter that follows a schedule, or empty
   std::string tool_version;
   std::string created_utc;
   std::string spec_sha256;
