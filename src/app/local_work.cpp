@@ -5,8 +5,10 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <optional>
 
 #include "run/lyapunov.hpp"
+#include "run/schedule.hpp"
 
 namespace chaosweep::app {
 namespace {
@@ -89,17 +91,24 @@ void LocalWork::start_next() {
 namespace {
 
 /// The leading Lyapunov exponents of a finished batch's members, from their initial states
-/// (a second integration with tangent vectors; NaN for members that became non-finite).
+/// (a second integration with tangent vectors; NaN for members that became non-finite). With a
+/// schedule, its own model copy starts at the t = 0 value and the scheduled parameter is set
+/// at every stage time by the same clock the members' kernel uses (run/schedule.hpp).
 void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& r) {
   const spec::Lyapunov& l = spec.statistics.lyapunov;
   if (!l.enabled) return;
   const models::ModelInfo* info = models::Registry::instance().find(spec.model);
-  const std::unique_ptr<models::Model> model =
-      info->make(plan.cases[static_cast<std::size_t>(r.case_index)].parameters);
+  const plan::Case& c = plan.cases[static_cast<std::size_t>(r.case_index)];
+  const std::unique_ptr<models::Model> model = info->make(run::parameters_at_start(spec, c));
+  std::optional<run::ScheduledParameter> clock;
+  if (spec.schedule.kind != spec::ScheduleKind::none) {
+    clock.emplace(*model, spec.schedule, run::schedule_offset(spec, c));
+  }
   const double dt = spec.integration.dt;
   const std::int64_t every = std::max<std::int64_t>(1, std::llround(l.renormalise_every / dt));
   r.lyapunov = run::lyapunov_exponents(*model, r.initial_state, r.count, dt, plan.spinup_steps,
-                                       plan.accumulate_steps, l.exponents, every);
+                                       plan.accumulate_steps, l.exponents, every,
+                                       clock ? &*clock : nullptr);
   for (int m = 0; m < r.count; ++m) {
     if (r.status[static_cast<std::size_t>(m)] == run::kValid) continue;
     for (int k = 0; k < l.exponents; ++k) {

@@ -50,8 +50,7 @@ void Rk4Batch::step(double* x, double dt) {
 }
 
 void Rk4Batch::step_at(double* x, double dt, double t0, double t1, StageClock& clock) {
-  const double mid = t0 + 0.5 * dt;
-  advance(x, dt, [&](int stage) { clock.set_time(stage == 1 ? t0 : stage == 2 ? mid : t1); });
+  advance(x, dt, [&](int stage) { clock.set_time(stage_time(stage, t0, t1, dt)); });
 }
 
 }  // namespace chaosweep::integrators

@@ -32,6 +32,12 @@ class Rk4Batch {
   /// clock is set to t0 before k1, t0 + dt/2 before k2 (k3 shares it), t1 before k4.
   void step_at(double* x, double dt, double t0, double t1, StageClock& clock);
 
+  /// The time step_at gives the clock before stage 1 (t0), 2 (t0 + dt/2, shared by k3) or
+  /// 4 (t1), for integrators that evaluate the same stages outside this class.
+  static double stage_time(int stage, double t0, double t1, double dt) {
+    return stage == 1 ? t0 : stage == 2 ? t0 + 0.5 * dt : t1;
+  }
+
   int width() const { return width_; }
 
  private:

@@ -94,27 +94,21 @@ class GenericStepper final : public Stepper {
 
 /// Rk4Batch over the stepper's own copy of the model whose scheduled parameter is set at every
 /// stage time: step n runs from t0 = n dt to t1 = (n + 1) dt (both from the step count), with
-/// the value at t0 for k1, at t0 + dt/2 for k2 and k3, at t1 for k4.
-class ScheduledStepper final : public Stepper, integrators::Rk4Batch::StageClock {
+/// the value at t0 for k1, at t0 + dt/2 for k2 and k3, at t1 for k4. Each stepper owns its
+/// model copy, so a batch's member and twin kernels never share a parameter that changes.
+class ScheduledStepper final : public Stepper {
  public:
   explicit ScheduledStepper(const Setup& s)
       : model_(build(s)),
-        slot_(model_->parameter_slot(s.schedule->parameter)),
-        schedule_(*s.schedule, s.schedule_offset),
+        clock_(*model_, *s.schedule, s.schedule_offset),
         rk4_(*model_, s.width),
-        dt_(s.dt) {
-    if (slot_ < 0) {
-      throw Error(s.model + " cannot vary `" + s.schedule->parameter + "` in time");
-    }
-  }
+        dt_(s.dt) {}
   void set_step(std::int64_t step) override { step_ = step; }
   void step(double* x) override {
-    const double t0 = static_cast<double>(step_) * dt_;
-    const double t1 = static_cast<double>(step_ + 1) * dt_;
-    rk4_.step_at(x, dt_, t0, t1, *this);
+    const StepTimes t = step_times(step_, dt_);
+    rk4_.step_at(x, dt_, t.t0, t.t1, clock_);
     ++step_;
   }
-  void set_time(double t) override { model_->set_parameter(slot_, schedule_.at(t)); }
   /// The model as of the last stage (for derived observables after a step).
   const models::Model& model() const { return *model_; }
 
@@ -126,8 +120,7 @@ class ScheduledStepper final : public Stepper, integrators::Rk4Batch::StageClock
   }
 
   std::unique_ptr<models::Model> model_;
-  int slot_;
-  ParameterSchedule schedule_;
+  ScheduledParameter clock_;
   integrators::Rk4Batch rk4_;
   double dt_;
   std::int64_t step_ = 0;

@@ -7,6 +7,7 @@
 #include <limits>
 #include <stdexcept>
 
+#include "run/schedule.hpp"
 #include "stats/lyapunov.hpp"
 
 namespace chaosweep::run {
@@ -37,8 +38,15 @@ class Batch {
     dead_[m] = false;
   }
 
-  /// One RK4 step of the state and the tangent step of every tangent vector.
-  void step() {
+  /// One RK4 step of the state and the tangent step of every tangent vector. With a clock,
+  /// this is step n of the run (from n dt to (n + 1) dt, run/schedule.hpp step_times): the
+  /// clock is set to each stage's time before that stage's rhs and tangent products, the times
+  /// Rk4Batch::step_at gives, so the state follows the members' own scheduled integration.
+  void step(std::int64_t n, integrators::Rk4Batch::StageClock* clock) {
+    const StepTimes t = step_times(n, dt_);
+    const auto at = [&](int stage) {
+      if (clock) clock->set_time(integrators::Rk4Batch::stage_time(stage, t.t0, t.t1, dt_));
+    };
     // State: stage states s_i and slopes k_i kept for the tangent step.
     double* s1 = stage_.data();
     double* s2 = s1 + size_;
@@ -49,12 +57,15 @@ class Batch {
     double* k3 = k2 + size_;
     double* k4 = k3 + size_;
     std::copy(x_.begin(), x_.end(), s1);
+    at(1);
     model_.rhs(s1, k1, kWidth);
     for (long i = 0; i < size_; ++i) s2[i] = x_[i] + half_ * k1[i];
+    at(2);
     model_.rhs(s2, k2, kWidth);
     for (long i = 0; i < size_; ++i) s3[i] = x_[i] + half_ * k2[i];
     model_.rhs(s3, k3, kWidth);
     for (long i = 0; i < size_; ++i) s4[i] = x_[i] + dt_ * k3[i];
+    at(4);
     model_.rhs(s4, k4, kWidth);
     for (long i = 0; i < size_; ++i) x_[i] += sixth_ * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
 
@@ -64,12 +75,15 @@ class Batch {
     double* d4 = d3 + size_;
     for (int j = 0; j < k_; ++j) {
       double* v = tangents_.data() + j * size_;
+      at(1);
       model_.tangent(s1, v, d1, kWidth);
       for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d1[i];
+      at(2);
       model_.tangent(s2, w_.data(), d2, kWidth);
       for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d2[i];
       model_.tangent(s3, w_.data(), d3, kWidth);
       for (long i = 0; i < size_; ++i) w_[i] = v[i] + dt_ * d3[i];
+      at(4);
       model_.tangent(s4, w_.data(), d4, kWidth);
       for (long i = 0; i < size_; ++i) v[i] += sixth_ * (d1[i] + 2.0 * d2[i] + 2.0 * d3[i] + d4[i]);
     }
@@ -124,7 +138,8 @@ class Batch {
 std::vector<double> lyapunov_exponents(const models::Model& model,
                                        const std::vector<double>& initial, int count, double dt,
                                        std::int64_t spinup_steps, std::int64_t steps,
-                                       int exponents, std::int64_t renormalise_every_steps) {
+                                       int exponents, std::int64_t renormalise_every_steps,
+                                       integrators::Rk4Batch::StageClock* clock) {
   const int n = model.state_dim();
   if (!model.has_tangent()) {
     throw std::invalid_argument("lyapunov_exponents: the model has no tangent-linear product");
@@ -157,12 +172,12 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
       batch.load(m, initial.data() + static_cast<std::size_t>(member) * n);
     }
     for (std::int64_t s = 1; s <= spinup_steps; ++s) {
-      batch.step();
+      batch.step(s - 1, clock);
       if (s % renormalise_every_steps == 0 || s == spinup_steps) batch.renormalise(nullptr);
     }
     std::fill(sums.begin(), sums.end(), 0.0);
     for (std::int64_t s = 1; s <= steps; ++s) {
-      batch.step();
+      batch.step(spinup_steps + s - 1, clock);
       if (s % renormalise_every_steps == 0 || s == steps) batch.renormalise(sums.data());
     }
     for (int m = 0; m < live; ++m) {

@@ -6,6 +6,7 @@
 #include <cstdint>
 #include <vector>
 
+#include "integrators/rk4.hpp"
 #include "models/model.hpp"
 
 namespace chaosweep::run {
@@ -23,6 +24,14 @@ namespace chaosweep::run {
 ///   exponents k, the number of exponents, 1 <= k <= state_dim
 ///   renormalise_every_steps  steps between QR re-orthonormalisations (>= 1); also done at the
 ///             end of spin-up and at the last step
+///   clock     null for an autonomous model; else told each RK4 stage's time before the stage's
+///             rhs and tangent products (step n, counted from 0 at the start of the spin-up,
+///             runs from n dt to (n + 1) dt; stage times as Rk4Batch::step_at gives them). The
+///             clock may change `model`'s parameters (run::ScheduledParameter on the same model
+///             object sets a scheduled parameter), so the state follows exactly the trajectory
+///             of the members' scheduled integration, and the tangent vectors its linearisation.
+///             The exponents are then finite-time averages of the growth rates over the
+///             accumulation window of this time-dependent system.
 ///
 /// Returns [count][k], member-major, per member in descending order: exponent i is the sum of
 /// log|R_ii| over the accumulation divided by steps * dt. The tangent vectors start as the
@@ -36,6 +45,7 @@ namespace chaosweep::run {
 std::vector<double> lyapunov_exponents(const models::Model& model,
                                        const std::vector<double>& initial, int count, double dt,
                                        std::int64_t spinup_steps, std::int64_t steps,
-                                       int exponents, std::int64_t renormalise_every_steps);
+                                       int exponents, std::int64_t renormalise_every_steps,
+                                       integrators::Rk4Batch::StageClock* clock = nullptr);
 
 }  // namespace chaosweep::run

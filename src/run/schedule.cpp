@@ -3,6 +3,8 @@
 
 #include <cmath>
 
+#include "core/error.hpp"
+
 namespace chaosweep::run {
 
 ParameterSchedule::ParameterSchedule(const spec::Schedule& schedule, double offset)
@@ -33,6 +35,18 @@ double ParameterSchedule::at(double t) const {
   }
   return v + offset_;
 }
+
+StepTimes step_times(std::int64_t step, double dt) {
+  return {static_cast<double>(step) * dt, static_cast<double>(step + 1) * dt};
+}
+
+ScheduledParameter::ScheduledParameter(models::Model& model, const spec::Schedule& schedule,
+                                       double offset)
+    : model_(model), slot_(model.parameter_slot(schedule.parameter)), schedule_(schedule, offset) {
+  if (slot_ < 0) throw Error("the model cannot vary `" + schedule.parameter + "` in time");
+}
+
+void ScheduledParameter::set_time(double t) { model_.set_parameter(slot_, schedule_.at(t)); }
 
 double schedule_offset(const spec::Spec& spec, const plan::Case& c) {
   if (!spec.schedule.offset_by_sweep) return 0.0;

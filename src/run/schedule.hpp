@@ -7,6 +7,9 @@
 // is split into chunks or resumed.
 #pragma once
 
+#include <cstdint>
+
+#include "integrators/rk4.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "spec/spec.hpp"
@@ -24,6 +27,29 @@ class ParameterSchedule {
  private:
   spec::Schedule s_;
   double offset_;
+};
+
+/// Start and end time of step n of a run: t0 = n dt, t1 = (n + 1) dt, both from the step
+/// count (never from a running sum), so every integration of the same step has the same times.
+struct StepTimes {
+  double t0, t1;
+};
+StepTimes step_times(std::int64_t step, double dt);
+
+/// The stage clock (integrators::Rk4Batch::StageClock) of a scheduled parameter: set_time(t)
+/// sets the parameter of `model` to schedule(t) + offset. Every integration under a schedule
+/// (the generic kernel's members and twins, the Lyapunov run) evaluates the parameter here.
+/// The model must outlive the clock; the clock is the only writer of that parameter.
+class ScheduledParameter final : public integrators::Rk4Batch::StageClock {
+ public:
+  /// Throws chaosweep::Error when the model cannot vary the parameter in time.
+  ScheduledParameter(models::Model& model, const spec::Schedule& schedule, double offset);
+  void set_time(double t) override;
+
+ private:
+  models::Model& model_;
+  int slot_;
+  ParameterSchedule schedule_;
 };
 
 /// The offset a case adds to the schedule: its swept value of the scheduled parameter, or 0.

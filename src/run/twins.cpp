@@ -75,7 +75,11 @@ std::int64_t TwinPairs::next_event(std::int64_t step) const {
 void TwinPairs::advance(std::int64_t from, std::int64_t to) {
   const std::int64_t lo = std::max(from, setup_.times.start_step);
   const std::int64_t hi = std::min(to, setup_.times.last_step());
-  if (hi > lo) kernel_->spin(twin_.data(), static_cast<int>(hi - lo));
+  if (hi <= lo) return;
+  // Step lo + 1 runs from time lo * dt: a scheduled parameter takes the values the members saw
+  // over the same steps (the twin kernel sets it in its own model copy at each stage).
+  kernel_->set_step(lo);
+  kernel_->spin(twin_.data(), static_cast<int>(hi - lo));
 }
 
 void TwinPairs::after_step(std::int64_t step, const double* x, const std::vector<double>& base,

@@ -6,7 +6,9 @@
 //                 norm over all state variables) from member m's own noise stream 1
 //                 (gaussian components, normalised); lead 0 is sampled
 //   steps S+1 ..  the twins take the same RK4 steps as the members (a second SoA array advanced
-//                 by a kernel of the member's own kind, so the arithmetic is the same)
+//                 by a kernel of the member's own kind, so the arithmetic is the same; with a
+//                 schedule the kernel is told the step index, so a twin sees the scheduled
+//                 parameter at the same stage times as its member)
 //   step S + k E  lead k: log |twin - member| (Euclidean, all state variables) is stored per
 //                 member, and the member's state feeds its spread accumulator (k = 0 .. K)
 //   step S + K E  the twins stop; members continue to the end of the run

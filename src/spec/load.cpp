@@ -146,10 +146,7 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
     spec.schedule.parameter = scheduled_parameter(top.get("schedule"));
   }
   if (top.has("sweep")) read_sweep(top.get("sweep"), facts, spec);
-  if (top.has("schedule")) {
-    read_schedule(top.get("schedule"), top.required("model"), facts, spec);
-    if (top.has("statistics")) refuse_with_schedule(top.get("statistics"));
-  }
+  if (top.has("schedule")) read_schedule(top.get("schedule"), top.required("model"), facts, spec);
   read_integration(top.required("integration"), facts, spec);
   read_ensemble(top.required("ensemble"), facts, spec);
   if (top.has("statistics")) read_statistics(top.get("statistics"), facts, spec);

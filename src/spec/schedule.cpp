@@ -188,18 +188,6 @@ std::string scheduled_parameter(const Field& schedule) {
   return name && name.IsScalar() ? name.Scalar() : "";
 }
 
-void refuse_with_schedule(const Field& statistics) {
-  if (!statistics.is_map()) return;
-  for (auto it = statistics.node().begin(); it != statistics.node().end(); ++it) {
-    if (!it->first.IsScalar()) continue;
-    const std::string key = it->first.Scalar();
-    if (key != "lyapunov" && key != "twins") continue;
-    fail_at(statistics.source(), location_of(it->first, statistics.where()),
-            child_path(statistics.path(), key),
-            "`" + key + "` and `schedule` are not supported together yet");
-  }
-}
-
 void read_snapshots(const Field& snapshots, const Spec& spec, Snapshots& out) {
   const Map map(snapshots, {{"every"}, {}, "key", ""});
   const Field every = map.required("every");

@@ -49,8 +49,6 @@ void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts,
 /// The name under schedule.parameter as written ("" when absent or not a plain string);
 /// read_schedule() checks it.
 std::string scheduled_parameter(const Field& schedule);
-/// Refuses statistics.lyapunov and statistics.twins beside a schedule.
-void refuse_with_schedule(const Field& statistics);
 /// statistics.snapshots {every}; read after the integration section.
 void read_snapshots(const Field& snapshots, const Spec& spec, Snapshots& out);
 

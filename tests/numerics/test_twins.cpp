@@ -8,12 +8,15 @@
 #include <string>
 #include <vector>
 
+#include "integrators/rk4.hpp"
 #include "numerics_fixtures.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/member_noise.hpp"
+#include "run/schedule.hpp"
 #include "run/twins.hpp"
 #include "spec/spec.hpp"
+#include "stats/saved_state.hpp"
 #include "stats/error_growth.hpp"
 
 namespace chaosweep::testing {
@@ -173,6 +176,61 @@ TEST(Twins, DirectionIsAUnitVectorOfItsOwnStream) {
 // Exact: least squares through points on a line returns the line's slope; the window is the
 // part of the curve between 10% and 70% of its rise (stats/error_growth.hpp). The curve here
 // is flat at -10 up to t = 1, rises with slope 0.9 up to 0, then is flat.
+/// The named real array of a saved batch state.
+std::vector<double> saved(const run::BatchState& state, const std::string& name) {
+  for (const auto& [key, values] : state.reals) {
+    if (key == name) return values;
+  }
+  ADD_FAILURE() << "no saved array " << name;
+  return {};
+}
+
+/// `x` ([3][8]) advanced over steps first+1 .. last by Rk4Batch::step_at with the forcing set
+/// at every stage time by `schedule` (step n from n dt to (n + 1) dt).
+std::vector<double> scheduled_rk4(std::vector<double> x, const spec::Spec& s, std::int64_t first,
+                                  std::int64_t last) {
+  auto model = make_model(s.model, s.parameters);
+  run::ScheduledParameter clock(*model, s.schedule, 0.0);
+  integrators::Rk4Batch rk4(*model, 8);
+  for (std::int64_t n = first; n < last; ++n) {
+    const run::StepTimes t = run::step_times(n, s.integration.dt);
+    rk4.step_at(x.data(), s.integration.dt, t.t0, t.t1, clock);
+  }
+  return x;
+}
+
+// Under a schedule a twin sees the forcing at the same stage times as its member: from the
+// twins' start (step S, the end of the spin-up) the twin array is exactly the scheduled RK4
+// integration (Rk4Batch::step_at, checked against closed-form solutions in test_schedule.cpp)
+// of its start state over steps S+1 .., as the members' array is of theirs (exact by design:
+// the same operations). The same integration with the stage times of steps 1 .. (a twin
+// kernel not told the step) must differ, or this test could not see that error.
+TEST(Twins, TwinsFollowTheScheduleAtTheMembersStageTimes) {
+  spec::Spec s = with_twins(base_spec("lorenz63"), 1e-3, 0.5);
+  s.schedule.kind = spec::ScheduleKind::ramp;
+  s.schedule.parameter = "forcing";
+  s.schedule.from = 0.0;
+  s.schedule.to = 6.0;
+  s.schedule.start = 0.0;
+  s.schedule.end = 25.0;
+  const plan::Plan plan = plan::make_plan(s);
+  const run::CaseRunner runner(s, plan, plan.cases[0]);
+  const std::unique_ptr<run::BatchProgress> batch = runner.start(plan.batches[0]);
+  const std::int64_t start = plan.spinup_steps, steps = 137;
+  batch->advance(start);
+  const run::BatchState at_start = batch->save();
+  batch->advance(steps);
+  const run::BatchState later = batch->save();
+  ASSERT_EQ(later.step, start + steps);
+  const std::vector<double> twins = saved(later, "twins.state");
+  expect_same(scheduled_rk4(saved(at_start, "twins.state"), s, start, start + steps), twins,
+              "twins.state");
+  expect_same(scheduled_rk4(saved(at_start, "state"), s, start, start + steps),
+              saved(later, "state"), "state");
+  const std::vector<double> from_zero = scheduled_rk4(saved(at_start, "twins.state"), s, 0, steps);
+  EXPECT_NE(from_zero, twins);
+}
+
 TEST(Twins, GrowthFitRecoversTheSlopeOfALinearPhase) {
   std::vector<double> t, L;
   for (int k = 0; k <= 400; ++k) {

@@ -194,6 +194,21 @@ TEST(ValidSpec, Lorenz96Twins) {
   EXPECT_FALSE(load_spec(valid("lorenz96_defaults.yaml")).statistics.twins.enabled);
 }
 
+// A schedule beside lyapunov, twins and snapshots: every section read as written.
+TEST(ValidSpec, ScheduleWithLyapunovAndTwins) {
+  const Spec s = load_spec(valid("lorenz63_ramp_twins_lyapunov.yaml"));
+  EXPECT_EQ(s.schedule.kind, ScheduleKind::ramp);
+  EXPECT_EQ(s.schedule.parameter, "forcing");
+  EXPECT_EQ(s.schedule.to, 4.0);
+  EXPECT_EQ(s.schedule.end, 10.0);
+  EXPECT_TRUE(s.statistics.lyapunov.enabled);
+  EXPECT_EQ(s.statistics.lyapunov.exponents, 2);
+  EXPECT_EQ(s.statistics.lyapunov.renormalise_every, 0.5);
+  EXPECT_TRUE(s.statistics.twins.enabled);
+  EXPECT_EQ(s.statistics.twins.every, 0.1);
+  EXPECT_TRUE(s.statistics.snapshots.enabled);
+}
+
 // Every valid fixture loads (so a fixture added later is at least parsed).
 // schedule and statistics.snapshots as written: a periodic forcing offset by the sweep of the
 // same parameter (phase defaults to 0), and a step without a sweep (no offset).
