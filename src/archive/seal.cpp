@@ -1,15 +1,13 @@
 // The archive's seal (see seal.hpp).
 #include "archive/seal.hpp"
 
-#include <fcntl.h>
-#include <unistd.h>
-
 #include <cerrno>
 #include <cstring>
 #include <fstream>
 #include <sstream>
 #include <vector>
 
+#include "checkpoint/files.hpp"
 #include "core/error.hpp"
 #include "core/sha256.hpp"
 #include "core/version.hpp"
@@ -77,40 +75,13 @@ void seal_file(const std::string& path) {
     digest = body_digest(in, size);
   }
   const std::string header = header_text(kArchiveFormatVersion, size, digest);
-  const int fd = ::open(path.c_str(), O_WRONLY);
-  if (fd < 0) io_fail("cannot open", path);
-  std::size_t done = 0;
-  while (done < header.size()) {
-    const ssize_t n = ::pwrite(fd, header.data() + done, header.size() - done,
-                               static_cast<off_t>(done));
-    if (n < 0 && errno == EINTR) continue;
-    if (n <= 0) {
-      const int saved = errno;
-      ::close(fd);
-      errno = saved;
-      io_fail("cannot write the header of", path);
-    }
-    done += static_cast<std::size_t>(n);
+  {
+    std::fstream out(path, std::ios::binary | std::ios::in | std::ios::out);
+    out.write(header.data(), static_cast<std::streamsize>(header.size()));
+    out.flush();
+    if (!out) io_fail("cannot write the header of", path);
   }
-  if (::fsync(fd) != 0) {
-    const int saved = errno;
-    ::close(fd);
-    errno = saved;
-    io_fail("cannot sync", path);
-  }
-  if (::close(fd) != 0) io_fail("cannot close", path);
-}
-
-void sync_directory_of(const std::string& path) {
-  const std::string::size_type slash = path.find_last_of('/');
-  const std::string dir = slash == std::string::npos ? "." : slash == 0 ? "/" : path.substr(0, slash);
-  const int fd = ::open(dir.c_str(), O_RDONLY | O_DIRECTORY);
-  if (fd < 0) io_fail("cannot open the directory", dir);
-  const int rc = ::fsync(fd);
-  const int saved = errno;
-  ::close(fd);
-  errno = saved;
-  if (rc != 0) io_fail("cannot sync the directory", dir);
+  checkpoint::sync_file(path);
 }
 
 void verify_seal(const std::string& path) {

@@ -23,9 +23,6 @@ inline constexpr std::uint64_t kSealBytes = 512;
 /// file to disk. Throws chaosweep::IoError.
 void seal_file(const std::string& path);
 
-/// Syncs the directory holding `path` (after a rename into it). Throws chaosweep::IoError.
-void sync_directory_of(const std::string& path);
-
 /// Checks the header of the file at `path` against its content. Throws chaosweep::UsageError
 /// with a one-line message starting with `path` when it is not a sealed chaosweep archive, is of
 /// a newer format than this program reads, or its size or digest disagree with the header.

@@ -6,10 +6,12 @@
 #include <cmath>
 #include <cstdio>
 #include <cstring>
+#include <filesystem>
 #include <map>
 
 #include "archive/schema.hpp"
 #include "archive/seal.hpp"
+#include "checkpoint/files.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "h5/h5.hpp"
@@ -419,7 +421,8 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
       if (std::rename(partial.c_str(), path.c_str()) != 0) {
         failure = "cannot rename " + partial + " to " + path + ": " + std::strerror(errno);
       } else {
-        sync_directory_of(path);
+        const std::filesystem::path dir = std::filesystem::path(path).parent_path();
+        checkpoint::sync_directory(dir.empty() ? "." : dir.string());
       }
     } catch (const Error& e) {
       failure = e.what();
