@@ -11,21 +11,7 @@ namespace {
 
 /// Per-batch summary layout: for each observable (n, mean, m2), then for each regime
 /// (n, mean, m2) of the regime fraction. Histogram counts travel separately (integers).
-constexpr int kMomentWidth = 3;
-
-void append(std::vector<double>& out, const stats::Moments& m) {
-  out.push_back(m.n);
-  out.push_back(m.mean);
-  out.push_back(m.m2);
-}
-
-stats::Moments read_moments(const double* p) {
-  stats::Moments m;
-  m.n = p[0];
-  m.mean = p[1];
-  m.m2 = p[2];
-  return m;
-}
+constexpr int kMomentWidth = stats::Moments::kPacked;
 
 /// Moments across the valid members of one batch of a quantity stored [count][width].
 stats::Moments batch_moments(const run::BatchResult& b, const std::vector<double>& values,
@@ -43,9 +29,9 @@ std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_
   std::vector<double> out;
   out.reserve(local.size() * kMomentWidth * (n_obs + n_reg + n_lyap));
   for (const run::BatchResult& b : local) {
-    for (int o = 0; o < n_obs; ++o) append(out, batch_moments(b, b.time_mean, n_obs, o));
-    for (int r = 0; r < n_reg; ++r) append(out, batch_moments(b, b.regime_fraction, n_reg, r));
-    for (int k = 0; k < n_lyap; ++k) append(out, batch_moments(b, b.lyapunov, n_lyap, k));
+    for (int o = 0; o < n_obs; ++o) batch_moments(b, b.time_mean, n_obs, o).append_to(out);
+    for (int r = 0; r < n_reg; ++r) batch_moments(b, b.regime_fraction, n_reg, r).append_to(out);
+    for (int k = 0; k < n_lyap; ++k) batch_moments(b, b.lyapunov, n_lyap, k).append_to(out);
   }
   return out;
 }
@@ -108,9 +94,9 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   for (const plan::Batch& b : plan.batches) {
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     const std::size_t c = static_cast<std::size_t>(b.case_index);
-    for (int o = 0; o < n_obs; ++o, p += kMomentWidth) obs[c * n_obs + o].merge(read_moments(p));
-    for (int k = 0; k < n_reg; ++k, p += kMomentWidth) reg[c * n_reg + k].merge(read_moments(p));
-    for (int k = 0; k < n_lyap; ++k, p += kMomentWidth) lyap[c * n_lyap + k].merge(read_moments(p));
+    for (int o = 0; o < n_obs; ++o, p += kMomentWidth) obs[c * n_obs + o].merge(stats::Moments::unpack(p));
+    for (int k = 0; k < n_reg; ++k, p += kMomentWidth) reg[c * n_reg + k].merge(stats::Moments::unpack(p));
+    for (int k = 0; k < n_lyap; ++k, p += kMomentWidth) lyap[c * n_lyap + k].merge(stats::Moments::unpack(p));
     for (int k = 0; k < bins; ++k)
       r.histogram[c * bins + k] += counts[static_cast<std::size_t>(b.index) * bins + k];
   }

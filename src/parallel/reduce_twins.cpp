@@ -18,15 +18,7 @@
 namespace chaosweep::parallel {
 namespace {
 
-constexpr int kMomentWidth = 3;  // n, mean, m2
-
-stats::Moments read_moments(const double* p) {
-  stats::Moments m;
-  m.n = p[0];
-  m.mean = p[1];
-  m.m2 = p[2];
-  return m;
-}
+constexpr int kMomentWidth = stats::Moments::kPacked;  // n, mean, m2
 
 /// Per batch: [leads][3] log-separation moments, then the horizon's (n, mean, m2).
 std::vector<double> summarise_twins(const std::vector<run::BatchResult>& local,
@@ -41,9 +33,7 @@ std::vector<double> summarise_twins(const std::vector<run::BatchResult>& local,
     for (int i = 0; i < b.count; ++i) {
       if (b.status[i] == run::kValid && std::isfinite(b.horizon[i])) h.add(b.horizon[i]);
     }
-    out.push_back(h.n);
-    out.push_back(h.mean);
-    out.push_back(h.m2);
+    h.append_to(out);
   }
   return out;
 }
@@ -64,9 +54,9 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     const std::size_t c = static_cast<std::size_t>(b.case_index);
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
-      sep[c * leads + k].merge(read_moments(p));
+      sep[c * leads + k].merge(stats::Moments::unpack(p));
     }
-    horizon[c].merge(read_moments(p));
+    horizon[c].merge(stats::Moments::unpack(p));
   }
 
   const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);

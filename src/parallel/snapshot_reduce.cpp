@@ -34,11 +34,7 @@ void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const pl
     const std::size_t c = static_cast<std::size_t>(b.case_index);
     const double* p = moments.data() + static_cast<std::size_t>(b.index) * per_batch;
     for (std::size_t i = 0; i < times * n_obs; ++i, p += 3) {
-      stats::Moments m;
-      m.n = p[0];
-      m.mean = p[1];
-      m.m2 = p[2];
-      merged[c * times * n_obs + i].merge(m);
+      merged[c * times * n_obs + i].merge(stats::Moments::unpack(p));
     }
     const std::int64_t* q = counts.data() + static_cast<std::size_t>(b.index) * per_batch_counts;
     for (std::size_t i = 0; i < per_batch_counts; ++i) members[c * per_batch_counts + i] += q[i];

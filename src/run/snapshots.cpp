@@ -63,7 +63,8 @@ void SnapshotRecorder::collect(const std::vector<std::uint8_t>& non_finite,
                                BatchResult& out) const {
   const std::size_t times = static_cast<std::size_t>(setup_.snapshot_count);
   const std::size_t n_reg = regime_.empty() ? 0 : static_cast<std::size_t>(setup_.n_regimes);
-  out.snapshot_moments.assign(times * n_obs_ * 3, 0.0);
+  out.snapshot_moments.clear();
+  out.snapshot_moments.reserve(times * n_obs_ * stats::Moments::kPacked);
   out.snapshot_regimes.assign(times * n_reg, 0);
   for (std::size_t k = 0; k < times; ++k) {
     for (int o = 0; o < n_obs_; ++o) {
@@ -72,10 +73,7 @@ void SnapshotRecorder::collect(const std::vector<std::uint8_t>& non_finite,
       for (int j = 0; j < count_; ++j) {
         if (!non_finite[j]) m.add(v[j]);
       }
-      double* p = out.snapshot_moments.data() + (k * n_obs_ + o) * 3;
-      p[0] = m.n;
-      p[1] = m.mean;
-      p[2] = m.m2;
+      m.append_to(out.snapshot_moments);
     }
     for (int j = 0; j < count_ && n_reg > 0; ++j) {
       if (non_finite[j]) continue;

@@ -173,11 +173,7 @@ void TwinPairs::finish(const std::vector<std::uint8_t>& member_non_finite, doubl
   }
   result.twin_moments.clear();
   result.twin_moments.reserve(static_cast<std::size_t>(leads) * 3);
-  for (const stats::Moments& m : per_lead) {
-    result.twin_moments.push_back(m.n);
-    result.twin_moments.push_back(m.mean);
-    result.twin_moments.push_back(m.m2);
-  }
+  for (const stats::Moments& m : per_lead) m.append_to(result.twin_moments);
 }
 
 }  // namespace chaosweep::run

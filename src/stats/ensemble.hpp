@@ -19,6 +19,16 @@ struct Moments {
   void merge(const Moments& other);   // Chan's pairwise update; exact for n == 0 on either side
   double variance() const;            // m2 / (n - 1), NaN when n < 2
   double stddev() const;
+
+  /// Packed form, how partial moments travel between ranks and sit in batch results:
+  /// kPacked doubles n, mean, m2.
+  static constexpr int kPacked = 3;
+  void append_to(std::vector<double>& out) const {
+    out.push_back(n);
+    out.push_back(mean);
+    out.push_back(m2);
+  }
+  static Moments unpack(const double* p) { return Moments{p[0], p[1], p[2]}; }
 };
 
 /// Across-member summary of one quantity for one case.
