@@ -221,15 +221,7 @@ void BatchWork::load_initial_states() {
 
 // Flags every column with a non-finite component and resets flagged columns to the base state.
 void BatchWork::check_finite() {
-  const int w = setup_.width, d = setup_.state_dim;
-  for (int i = 0; i < d; ++i) {
-    const double* row = x_.data() + static_cast<long>(i) * w;
-    for (int m = 0; m < w; ++m) non_finite_[m] |= !std::isfinite(row[m]);
-  }
-  for (int m = 0; m < w; ++m) {
-    if (!non_finite_[m]) continue;
-    for (int i = 0; i < d; ++i) x_[static_cast<std::size_t>(i) * w + m] = base_[i];
-  }
+  flag_non_finite_columns(x_.data(), setup_.state_dim, setup_.width, base_, non_finite_);
 }
 
 // trajectory[j][sample][i] = state of stored member j (NaN once the member is flagged).

@@ -3,6 +3,7 @@
 #include "run/kernels.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <vector>
 
 #include "core/error.hpp"
@@ -185,6 +186,18 @@ KernelKind choose_kernel(const Setup& s) {
                         is_state(s, s.regime_coordinates[0]));
   const bool histogram = !s.histogram || is_state(s, s.histogram_observable);
   return observables && regimes && histogram ? KernelKind::fused : KernelKind::generic;
+}
+
+void flag_non_finite_columns(double* x, int dim, int width, const std::vector<double>& base,
+                             std::vector<std::uint8_t>& flags) {
+  for (int i = 0; i < dim; ++i) {
+    const double* row = x + static_cast<long>(i) * width;
+    for (int m = 0; m < width; ++m) flags[m] |= !std::isfinite(row[m]);
+  }
+  for (int m = 0; m < width; ++m) {
+    if (!flags[m]) continue;
+    for (int i = 0; i < dim; ++i) x[static_cast<std::size_t>(i) * width + m] = base[i];
+  }
 }
 
 std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,

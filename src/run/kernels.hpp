@@ -20,6 +20,7 @@
 
 #include <cstdint>
 #include <memory>
+#include <vector>
 
 #include "models/model.hpp"
 #include "stats/histogram.hpp"
@@ -62,6 +63,12 @@ class Kernel {
 constexpr int kMaxSegment = 32;
 
 /// The kernel of kind setup.kernel for one batch. `model` must outlive it.
+/// Flags (flags[m] = 1) every column m of the batch x ([dim][width], SoA) that has a
+/// non-finite component, and resets every flagged column to `base`, so that a blown-up member
+/// keeps the vectorised arithmetic of its batch finite.
+void flag_non_finite_columns(double* x, int dim, int width, const std::vector<double>& base,
+                             std::vector<std::uint8_t>& flags);
+
 std::unique_ptr<Kernel> make_kernel(const Setup& setup, const models::Model& model,
                                     const Accumulators& acc);
 

@@ -121,14 +121,7 @@ void TwinPairs::sample(std::int64_t lead, const double* x) {
 }
 
 void TwinPairs::check_twins_finite(const std::vector<double>& base) {
-  for (int i = 0; i < dim_; ++i) {
-    const double* row = twin_.data() + static_cast<long>(i) * width_;
-    for (int m = 0; m < width_; ++m) non_finite_[m] |= !std::isfinite(row[m]);
-  }
-  for (int m = 0; m < width_; ++m) {
-    if (!non_finite_[m]) continue;
-    for (int i = 0; i < dim_; ++i) twin_[static_cast<std::size_t>(i) * width_ + m] = base[i];
-  }
+  flag_non_finite_columns(twin_.data(), dim_, width_, base, non_finite_);
 }
 
 void TwinPairs::save(stats::SavedState& out) const {
