@@ -87,6 +87,10 @@ class Archive:
             self.twin_growth_window = _get(f, "twins/growth_window")  # case, bound
             self.lyapunov = _get(f, "member/lyapunov")           # case, member, exponent
             self.horizon = _get(f, "member/horizon")             # case, member
+            self.twin_unseparated = _get(f, "twins/unseparated_fraction")  # case, lead
+            self.horizon_median = _get(f, "twins/horizon_median")            # case
+            self.horizon_median_ci = _get(f, "twins/horizon_median_ci95")    # case, bound
+            self.non_chaotic = _get(f, "ensemble/non_chaotic")               # case
 
     # --- helpers shared by the figures and the report -------------------------------------
 

@@ -493,28 +493,50 @@ def fig_twins(arch, outdir):
     if arch.twin_lead is None or arch.twin_log_sep is None:
         return [Skip("twins", "the archive has no twin experiment (/twins)")]
     fig, title = _new_figure(arch, "twin experiment: error growth")
-    ax = fig.subplots()
+    survival = arch.twin_unseparated is not None
+    axes = fig.subplots(1, 2 if survival else 1, squeeze=False)[0]
+    ax = axes[0]
     cases = arch.few_cases(6)
+    fitted = False
     for c, color in zip(cases, _colors(len(cases))):
-        ax.plot(arch.twin_lead, arch.twin_log_sep[c], color=color, linewidth=1.5,
-                label=arch.case_label(c))
-        if arch.twin_growth_rate is not None and np.isfinite(arch.twin_growth_rate[c]):
+        has_rate = arch.twin_growth_rate is not None and np.isfinite(arch.twin_growth_rate[c])
+        label = arch.case_label(c) + ("" if has_rate or arch.twin_growth_rate is None
+                                      else " (no growth rate)")
+        ax.plot(arch.twin_lead, arch.twin_log_sep[c], color=color, linewidth=1.5, label=label)
+        if has_rate:
             first, last = arch.twin_growth_window[c]
             inside = (arch.twin_lead >= first) & (arch.twin_lead <= last)
             t, rate = arch.twin_lead[inside], arch.twin_growth_rate[c]
             offset = np.mean(arch.twin_log_sep[c][inside] - rate * t)
             ax.plot(t, offset + rate * t, color="black", linestyle="--", linewidth=0.9)
+            fitted = True
+        if survival:
+            axes[1].step(arch.twin_lead, arch.twin_unseparated[c], where="post", color=color,
+                         linewidth=1.5)
+            if arch.horizon_median is not None and np.isfinite(arch.horizon_median[c]):
+                axes[1].plot([arch.horizon_median[c]], [0.5], marker="o", color=color)
     ax.set_xlabel("lead time (model time units)")
     ax.set_ylabel("mean log separation of the twins (log of model units)")
     ax.grid(alpha=0.3)
     handles, _ = ax.get_legend_handles_labels()
-    if arch.twin_growth_rate is not None:
+    if fitted:
         handles.append(Line2D([], [], color="black", linestyle="--",
                               label="least-squares fit over the linear phase"))
     ax.legend(handles=handles, loc="best")
     caption = ("Mean logarithm of the distance between each member and its slightly perturbed "
                "twin against lead time; the slope of the straight part (dashed: the fit over "
-               "the linear phase, /twins/growth_rate) is the growth rate of small errors.")
+               "the linear phase, /twins/growth_rate) is the growth rate of small errors. A "
+               "case whose separation does not rise significantly gets no fit.")
+    if survival:
+        axes[1].axhline(0.5, color="grey", linewidth=0.8, linestyle=":")
+        axes[1].set_ylim(-0.02, 1.02)
+        axes[1].set_xlabel("lead time (model time units)")
+        axes[1].set_ylabel("share of pairs not yet separated")
+        axes[1].set_title("survival of the pairs (Kaplan-Meier); dots: median horizon")
+        axes[1].grid(alpha=0.3)
+        caption += (" Right: the share of the pairs whose separation has not yet passed the "
+                    "threshold (/twins/unseparated_fraction); where it crosses one half is the "
+                    "median horizon, which counts the pairs that never separated.")
     return [_save(fig, outdir, "twins", title, caption)]
 
 
@@ -547,6 +569,25 @@ def fig_lyapunov(arch, outdir):
     return out
 
 
+def _draw_medians(arch, axis, ax):
+    """The Kaplan-Meier median horizon of each case with its interval against `axis`; an upper
+    end beyond the window is drawn to the last lead with a caret. Returns the legend handle."""
+    x = arch.axis_values[axis]
+    last = arch.twin_lead[-1] if arch.twin_lead is not None else np.nan
+    for c in range(arch.cases):
+        m = arch.horizon_median[c]
+        if not np.isfinite(m):
+            continue
+        low, high = arch.horizon_median_ci[c]
+        top = high if np.isfinite(high) else last
+        ax.plot([x[c], x[c]], [low, top], color="black", linewidth=1.0)
+        ax.plot([x[c]], [m], marker="D", color="black", markersize=4)
+        if not np.isfinite(high):
+            ax.plot([x[c]], [top], marker="^", color="black", markersize=5)
+    return Line2D([], [], color="black", marker="D", markersize=4,
+                  label="median horizon, 95% interval")
+
+
 def fig_horizon(arch, outdir):
     if arch.horizon is None:
         return [Skip("horizon", "the archive has no predictability horizon (/member/horizon)")]
@@ -565,10 +606,16 @@ def fig_horizon(arch, outdir):
         ax.set_title(f"time for the twin separation to pass the threshold "
                      f"({int(reached.sum())} valid members reached it)")
         ax.grid(alpha=0.3)
-        ax.legend(handles=_standard_handles(fit=False) + handles, loc="best")
+        handles = _standard_handles(fit=False) + handles
         caption = (f"Ensemble mean time for a member and its twin to separate beyond the "
                    f"threshold, against {axis}, with the 95% confidence interval of the mean; "
                    f"members that never passed it are left out.")
+        if arch.horizon_median is not None:
+            handles.append(_draw_medians(arch, axis, ax))
+            caption += (" Black diamonds: the median horizon of all valid pairs (Kaplan-Meier, "
+                        "pairs not separated by the end of the window counted as such) with "
+                        "its 95% interval; a caret marks an interval open beyond the window.")
+        ax.legend(handles=handles, loc="best")
         out.append(_save(fig, outdir, f"horizon-{axis}", title, caption))
     return out
 

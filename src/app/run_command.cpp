@@ -4,6 +4,7 @@
 #include <unistd.h>
 
 #include <chrono>
+#include <cmath>
 #include <ctime>
 #include <filesystem>
 #include <functional>
@@ -252,6 +253,31 @@ std::int64_t restore(const parallel::Communicator& comm, const RunOptions& optio
 
 }  // namespace
 
+/// Warns (rank 0) about cases whose estimates need care: non-chaotic cases, and twin pairs of
+/// which fewer than kMostPairs separated within the window.
+void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
+                          const parallel::EnsembleResults& e) {
+  for (std::size_t c = 0; c < e.non_chaotic.size(); ++c) {
+    if (e.non_chaotic[c] == 0) continue;
+    spdlog::warn("{} does not behave chaotically: {}", plan::describe_case(spec, plan.cases[c]),
+                 e.non_chaotic_reason[c]);
+  }
+  for (std::size_t c = 0; c < e.twin_pairs.size(); ++c) {
+    const double pairs = static_cast<double>(e.twin_pairs[c]);
+    const double reached = static_cast<double>(e.horizon_reached[c]);
+    if (!(pairs > 0.0) || reached >= parallel::kMostPairs * pairs) continue;
+    if (reached == 0.0 && !std::isfinite(e.growth_rate[c])) continue;  // flagged above
+    if (std::isfinite(e.suggested_duration[c])) {
+      spdlog::warn("{}: only {} of {} twin pairs separated within the window; a duration "
+                   "of about {:.3g} would let about 90% separate",
+                   plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c], e.suggested_duration[c]);
+    } else {
+      spdlog::warn("{}: only {} of {} twin pairs separated within the window",
+                   plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c]);
+    }
+  }
+}
+
 int run_command(const RunOptions& options) {
   const parallel::Communicator comm;
   setup_logging(comm.rank(), comm.size(), options.verbose);
@@ -315,6 +341,7 @@ int run_command(const RunOptions& options) {
                  "estimate and marked in /member/status",
                  ensemble.non_finite_members, plan.member_count());
   }
+  if (comm.rank() == 0) warn_about_estimates(spec, plan, ensemble);
   const Clock::time_point integrated = Clock::now();
 
   archive::RunInfo info;

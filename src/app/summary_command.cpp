@@ -81,12 +81,37 @@ double kaplan_yorke(const ArchiveSummary& s, std::int64_t c) {
 /// growth rate of the mean log separation with its fit window.
 void print_json_twins(const ArchiveSummary& s, std::int64_t c) {
   std::printf(",\n     \"twins\": {\"horizon\": %s, \"horizon_reached\": %lld, \"pairs\": %lld, "
-              "\"growth_rate\": %s, \"growth_window\": [%s, %s]}",
+              "\"growth_rate\": %s, \"growth_window\": [%s, %s]",
               json_estimate(s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c]).c_str(),
               static_cast<long long>(s.horizon_reached[c]),
               static_cast<long long>(s.twin_pairs[c]), json_number(s.growth_rate[c]).c_str(),
               json_number(s.growth_window[2 * c]).c_str(),
               json_number(s.growth_window[2 * c + 1]).c_str());
+  if (!s.growth_note.empty()) {
+    std::printf(", \"growth_note\": %s", json_string(s.growth_note[c]).c_str());
+  }
+  if (!s.horizon_median.empty()) {
+    std::printf(", \"horizon_median\": {\"median\": %s, \"ci95\": [%s, %s]}, "
+                "\"suggested_duration\": %s",
+                json_number(s.horizon_median[c]).c_str(),
+                json_number(s.horizon_median_ci95[2 * c]).c_str(),
+                json_number(s.horizon_median_ci95[2 * c + 1]).c_str(),
+                json_number(s.suggested_duration[c]).c_str());
+  }
+  std::printf("}");
+}
+
+/// Whether case c is flagged non-chaotic (archives without the flag: no).
+bool non_chaotic(const ArchiveSummary& s, std::int64_t c) {
+  return !s.non_chaotic.empty() && s.non_chaotic[static_cast<std::size_t>(c)] != 0;
+}
+
+/// A CSV field: quoted (quotes doubled) when it holds a comma, a quote or a line break.
+std::string csv_field(const std::string& text) {
+  if (text.find_first_of(",\"\n") == std::string::npos) return text;
+  std::string out = "\"";
+  for (char ch : text) out += ch == '"' ? std::string("\"\"") : std::string(1, ch);
+  return out + "\"";
 }
 
 /// Snapshot statistics shown by `summary`: the first observable at the first, middle and last
@@ -146,7 +171,10 @@ void print_json(const ArchiveSummary& s) {
               "\"slope\": \"model units per unit of the parameter\", "
               "\"time\": \"model time units\"},\n");
   std::printf("  \"interval\": \"ci95: 95%% confidence interval of the ensemble mean, "
-              "mean +- t(0.975, n-1) s / sqrt(n), n = valid members\",\n");
+              "mean +- t(0.975, n-1) se, n = valid members; for time means se is stderr "
+              "(below), for the other quantities s / sqrt(n) with s their std across members\",\n");
+  std::printf("  \"non_chaotic\": \"true when the case does not behave chaotically (its "
+              "intervals then describe no chaotic variability); non_chaotic_reason says why\",\n");
   std::printf("  \"stderr\": \"standard error of the ensemble time mean: the larger of "
               "std / sqrt(n) and the members' blocking standard errors pooled, "
               "sqrt(sum stderr^2) / n; effective_samples: sum over valid members of "
@@ -171,10 +199,16 @@ void print_json(const ArchiveSummary& s) {
       params += (a ? ", " : "") + json_string(s.axes[a]) + ": " + json_number(s.axis_values[a][c]);
     }
     std::printf("    {\"index\": %lld, \"parameters\": {%s}, \"members\": %lld, "
-                "\"valid_members\": %lld, \"effective_members\": %s,\n     \"time_mean\": {",
+                "\"valid_members\": %lld, \"effective_members\": %s,\n     ",
                 static_cast<long long>(c), params.c_str(), static_cast<long long>(s.members),
                 static_cast<long long>(s.valid_members[c]),
                 json_number(s.effective_members[c]).c_str());
+    if (!s.non_chaotic.empty()) {
+      std::printf("\"non_chaotic\": %s, \"non_chaotic_reason\": %s,\n     ",
+                  non_chaotic(s, c) ? "true" : "false",
+                  json_string(s.non_chaotic_reason[static_cast<std::size_t>(c)]).c_str());
+    }
+    std::printf("\"time_mean\": {");
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(c, n_obs, o);
       std::printf("%s%s: %s", o ? ", " : "", json_string(s.observables[o]).c_str(),
@@ -250,6 +284,7 @@ void print_csv(const ArchiveSummary& s) {
       std::printf(",,,\n");
     }
   };
+  const double none_interval[2] = {NAN, NAN};
   for (std::int64_t c = 0; c < s.cases; ++c) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(c, n_obs, o);
@@ -286,6 +321,20 @@ void print_csv(const ArchiveSummary& s) {
       row(c, "growth_rate", "log_separation", s.growth_rate[c], NAN, none, "per model time unit");
       row(c, "growth_window", "first", s.growth_window[2 * c], NAN, none, "model time units");
       row(c, "growth_window", "last", s.growth_window[2 * c + 1], NAN, none, "model time units");
+      if (!s.growth_note.empty() && !s.growth_note[c].empty()) {
+        row(c, "growth_note", csv_field(s.growth_note[c]), NAN, NAN, none, "");
+      }
+      if (!s.horizon_median.empty()) {
+        row(c, "horizon_median", "horizon", s.horizon_median[c], NAN, &s.horizon_median_ci95[2 * c],
+            "model time units");
+        row(c, "suggested_duration", "duration", s.suggested_duration[c], NAN, none,
+            "model time units");
+      }
+    }
+    if (!s.non_chaotic.empty()) {
+      row(c, "non_chaotic",
+          csv_field(s.non_chaotic_reason[static_cast<std::size_t>(c)]),
+          non_chaotic(s, c) ? 1.0 : 0.0, NAN, none_interval, "flag");
     }
   }
 }
@@ -311,6 +360,11 @@ std::string number_text(const char* format, double v) {
   char text[48];
   std::snprintf(text, sizeof text, format, v);
   return text;
+}
+
+/// The case index, marked "*" when the case is flagged non-chaotic.
+std::string case_label(const ArchiveSummary& s, std::int64_t c) {
+  return std::to_string(c) + (non_chaotic(s, c) ? "*" : "");
 }
 
 /// Rows of cells printed with every column right-aligned to its widest cell (header included),
@@ -344,7 +398,7 @@ void print_case_block(const ArchiveSummary& s, const std::string& title,
   lead[0].push_back("valid/total");
   cells[0] = names;
   for (std::int64_t c = 0; c < s.cases; ++c) {
-    std::vector<std::string> row{std::to_string(c)};
+    std::vector<std::string> row{case_label(s, c)};
     for (std::size_t a = 0; a < s.axes.size(); ++a) {
       row.push_back(number_text("%.6g", s.axis_values[a][c]));
     }
@@ -402,25 +456,69 @@ void print_errors_block(const ArchiveSummary& s) {
                    });
 }
 
+/// "median [low, high]" of the Kaplan-Meier median horizon ("> last" for an open upper end).
+std::string median_text(const ArchiveSummary& s, std::int64_t c) {
+  const double median = s.horizon_median[c], low = s.horizon_median_ci95[2 * c],
+               high = s.horizon_median_ci95[2 * c + 1];
+  if (!std::isfinite(median)) return "n/a";
+  return number_text("%.4g", median) + " [" + number_text("%.4g", low) + ", " +
+         (std::isfinite(high) ? number_text("%.4g", high) : std::string("beyond the window")) +
+         "]";
+}
+
+/// Why case c's twin estimates need care: no growth rate, or too few pairs separated.
+void print_twin_notes(const ArchiveSummary& s) {
+  for (std::int64_t c = 0; c < s.cases; ++c) {
+    if (!s.growth_note.empty() && !s.growth_note[c].empty()) {
+      std::printf("case %lld: no growth rate: %s\n", static_cast<long long>(c),
+                  s.growth_note[c].c_str());
+    }
+    const double pairs = static_cast<double>(s.twin_pairs[c]);
+    const double reached = static_cast<double>(s.horizon_reached[c]);
+    if (reached == 0.0 && !std::isfinite(s.growth_rate[c])) continue;  // they do not separate
+    if (pairs > 0 && reached < 0.9 * pairs) {
+      const bool median = !s.horizon_median.empty() && std::isfinite(s.horizon_median[c]);
+      std::printf("case %lld: only %lld of %lld pairs separated within the window: the mean "
+                  "horizon over them is biased low; %s",
+                  static_cast<long long>(c), static_cast<long long>(s.horizon_reached[c]),
+                  static_cast<long long>(s.twin_pairs[c]),
+                  median ? "read the median" : "fewer than half separated, so no median");
+      if (!s.suggested_duration.empty() && std::isfinite(s.suggested_duration[c])) {
+        std::printf("; a duration of about %.3g would let about 90%% separate",
+                    s.suggested_duration[c]);
+      }
+      std::printf("\n");
+    }
+  }
+}
+
 /// Per case: the mean horizon [95% interval] over the members that reached the threshold, how
-/// many did (of the valid pairs), and the growth rate of the mean log separation.
+/// many did (of the valid pairs), the median horizon of all valid pairs, and the growth rate
+/// of the mean log separation.
 void print_twins_table(const ArchiveSummary& s) {
+  const bool median = !s.horizon_median.empty();
   std::printf("\ntwin experiment: horizon in model time units, ensemble mean [95%% confidence "
-              "interval] over the members that reached the threshold; growth rate of the mean log "
-              "separation per model time unit over its linear phase\n");
+              "interval] over the members that reached the threshold%s; growth rate of the mean "
+              "log separation per model time unit over its linear phase\n",
+              median ? "; median [95% interval] over all valid pairs (Kaplan-Meier, pairs not "
+                       "separated by the last lead censored there)"
+                     : "");
   std::vector<std::vector<std::string>> rows(1);
   rows[0].push_back("case");
   for (const std::string& a : s.axes) rows[0].push_back(a);
-  for (const char* h : {"horizon", "reached/pairs", "growth rate", "fit window"}) {
-    rows[0].push_back(h);
-  }
+  rows[0].push_back("horizon");
+  rows[0].push_back("reached/pairs");
+  if (median) rows[0].push_back("median horizon");
+  rows[0].push_back("growth rate");
+  rows[0].push_back("fit window");
   for (std::int64_t c = 0; c < s.cases; ++c) {
-    std::vector<std::string> row{std::to_string(c)};
+    std::vector<std::string> row{case_label(s, c)};
     for (std::size_t a = 0; a < s.axes.size(); ++a) {
       row.push_back(number_text("%.6g", s.axis_values[a][c]));
     }
     row.push_back(estimate_text(s.horizon[c], &s.horizon_ci95[2 * c]));
     row.push_back(std::to_string(s.horizon_reached[c]) + "/" + std::to_string(s.twin_pairs[c]));
+    if (median) row.push_back(median_text(s, c));
     row.push_back(number_text("%.4g", s.growth_rate[c]));
     row.push_back(std::isfinite(s.growth_window[2 * c])
                       ? number_text("%.4g", s.growth_window[2 * c]) + " - " +
@@ -429,6 +527,26 @@ void print_twins_table(const ArchiveSummary& s) {
     rows.push_back(row);
   }
   print_aligned(rows);
+  print_twin_notes(s);
+}
+
+/// The cases flagged non-chaotic, with the reasons.
+void print_non_chaotic(const ArchiveSummary& s) {
+  bool any = false;
+  for (std::int64_t c = 0; c < s.cases; ++c) any = any || non_chaotic(s, c);
+  if (!any) return;
+  std::printf("\nnon-chaotic cases (marked * above): their intervals describe no chaotic "
+              "variability\n");
+  for (std::int64_t c = 0; c < s.cases; ++c) {
+    if (!non_chaotic(s, c)) continue;
+    std::string params;
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      params += (a ? ", " : " (") + s.axes[a] + " " + number_text("%.6g", s.axis_values[a][c]);
+    }
+    if (!params.empty()) params += ")";
+    std::printf("case %lld%s: %s\n", static_cast<long long>(c), params.c_str(),
+                s.non_chaotic_reason[static_cast<std::size_t>(c)].c_str());
+  }
 }
 
 void print_table(const ArchiveSummary& s) {
@@ -455,6 +573,7 @@ void print_table(const ArchiveSummary& s) {
     std::printf("  (by case; nan when the %d exponents do not reach it)\n", s.exponents);
   }
   if (s.twins) print_twins_table(s);
+  print_non_chaotic(s);
   const SnapshotView snap = snapshot_view(s);
   if (!snap.times.empty()) {
     print_block(s, "snapshots of " + s.observables[0] + " across members at model time t (of " +
@@ -476,7 +595,8 @@ void print_table(const ArchiveSummary& s) {
     print_aligned(rows);
   }
   std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
-              "mean +- t(0.975, n-1) s / sqrt(n), n = valid members.\n");
+              "mean +- t(0.975, n-1) se, n = valid members; se is the standard error below for "
+              "time means, s / sqrt(n) (s the std across members) otherwise.\n");
   for (const std::string& a : s.axes) {
     if (a == s.scheduled_parameter) {
       std::printf("%s follows a schedule: its column holds the offset added to the schedule, "

@@ -57,6 +57,8 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
   s.time_mean_stderr = read_optional<double>(root, "ensemble/time_mean_stderr");
   s.effective_samples = read_optional<double>(root, "ensemble/effective_samples");
   s.decorrelation_time = read_optional<double>(root, "ensemble/decorrelation_time");
+  s.non_chaotic = read_optional<std::uint8_t>(root, "ensemble/non_chaotic");
+  s.non_chaotic_reason = read_optional<std::string>(root, "ensemble/non_chaotic_reason");
   s.regimes = read_optional<std::string>(root, "ensemble/regime");
   s.regime_fraction = read_optional<double>(root, "ensemble/regime_fraction");
   s.regime_fraction_std = read_optional<double>(root, "ensemble/regime_fraction_std");
@@ -76,6 +78,10 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
     s.twin_pairs = read_all<std::int64_t>(root, "twins/pairs");
     s.growth_rate = read_all<double>(root, "twins/growth_rate");
     s.growth_window = read_all<double>(root, "twins/growth_window");
+    s.growth_note = read_optional<std::string>(root, "twins/growth_note");
+    s.horizon_median = read_optional<double>(root, "twins/horizon_median");
+    s.horizon_median_ci95 = read_optional<double>(root, "twins/horizon_median_ci95");
+    s.suggested_duration = read_optional<double>(root, "twins/suggested_duration");
   }
   if (root.has_dataset("snapshot/time")) {
     s.snapshot_time = read_all<double>(root, "snapshot/time");
@@ -107,6 +113,12 @@ void check_shapes(const ArchiveSummary& s) {
          s.twin_pairs.size() == cases && s.growth_rate.size() == cases &&
          s.growth_window.size() == 2 * cases;
   }
+  ok = ok && (s.non_chaotic.empty() || s.non_chaotic.size() == cases) &&
+       s.non_chaotic_reason.size() == s.non_chaotic.size() &&
+       (s.growth_note.empty() || s.growth_note.size() == cases) &&
+       (s.horizon_median.empty() || s.horizon_median.size() == cases) &&
+       s.horizon_median_ci95.size() == 2 * s.horizon_median.size() &&
+       (s.suggested_duration.empty() || s.suggested_duration.size() == cases);
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
   for (const std::vector<double>* v :
        {&s.time_mean_stderr, &s.effective_samples, &s.decorrelation_time}) {

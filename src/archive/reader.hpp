@@ -32,6 +32,9 @@ struct ArchiveSummary {
   // standard error of the ensemble mean, effective samples, decorrelation time (empty in
   // archives written before they existed)
   std::vector<double> time_mean_stderr, effective_samples, decorrelation_time;  // [case][obs]
+  // non-chaotic cases (empty in archives written before the check existed)
+  std::vector<std::uint8_t> non_chaotic;         // [case]
+  std::vector<std::string> non_chaotic_reason;   // [case]
   std::vector<double> regime_fraction, regime_fraction_std;  // [case][regime]
   std::vector<double> regime_fraction_ci95;                  // [case][regime][2]
   std::vector<double> slope, slope_stderr;       // [axis][observable]
@@ -45,6 +48,11 @@ struct ArchiveSummary {
   std::vector<std::int64_t> twin_pairs;          // [case]
   std::vector<double> growth_rate;               // [case], per model time unit
   std::vector<double> growth_window;             // [case][2], model time units
+  // (empty in archives written before they existed)
+  std::vector<std::string> growth_note;          // [case], why there is no growth rate
+  std::vector<double> horizon_median;            // [case], Kaplan-Meier median
+  std::vector<double> horizon_median_ci95;       // [case][2]
+  std::vector<double> suggested_duration;        // [case]
   std::vector<double> snapshot_time;             // [time] (empty: no snapshots)
   std::vector<double> snapshot_mean, snapshot_variance;  // [case][time][observable]
 };

@@ -93,6 +93,14 @@ std::vector<DatasetDef> make_table() {
       {"/ensemble/decorrelation_time", {"case", "observable"}, T::float64, "1",
        "ensemble mean of the members' integrated autocorrelation times tau_int, in model "
        "time units", "always"},
+      {"/ensemble/non_chaotic", {"case"}, T::uint8, "1",
+       "1 when the case does not behave chaotically (leading Lyapunov exponent below "
+       "max(0.01, 2/duration), members settled on fixed points, members' time means "
+       "coinciding, or twins not separating), else 0; the attribute reason lists the flagged "
+       "cases",
+       "always"},
+      {"/ensemble/non_chaotic_reason", {"case"}, T::text, "1",
+       "why the case is flagged non-chaotic (empty when it is not)", "always"},
       {"/response/slope", {"axis", "observable"}, T::float64, "1",
        "least-squares slope of the ensemble time mean against the swept parameter", "sweep"},
       {"/response/slope_stderr", {"axis", "observable"}, T::float64, "1",
@@ -113,6 +121,25 @@ std::vector<DatasetDef> make_table() {
        "statistics.twins"},
       {"/twins/growth_window", {"case", "bound"}, T::float64, "1",
        "first and last lead time of the linear phase the growth rate is fitted over",
+       "statistics.twins"},
+      {"/twins/growth_note", {"case"}, T::text, "1",
+       "why the case has no growth rate (empty when it has one)", "statistics.twins"},
+      {"/twins/horizon_median", {"case"}, T::float64, "1",
+       "median horizon of the valid pairs, model time units: the first lead at which the "
+       "Kaplan-Meier share of pairs not yet separated is 0.5 or below (pairs never separated "
+       "count as censored at the last lead; NaN when half never separated)",
+       "statistics.twins"},
+      {"/twins/horizon_median_ci95", {"case", "bound"}, T::float64, "1",
+       "95% confidence interval of the median horizon (Brookmeyer-Crowley, Greenwood standard "
+       "errors; NaN upper bound: beyond the last lead)",
+       "statistics.twins"},
+      {"/twins/unseparated_fraction", {"case", "lead"}, T::float64, "1",
+       "Kaplan-Meier share of the valid pairs whose separation has not yet exceeded the "
+       "threshold at the lead",
+       "statistics.twins"},
+      {"/twins/suggested_duration", {"case"}, T::float64, "1",
+       "when fewer than 90% of the pairs separated: the duration by which about 90% would, "
+       "extrapolated from the growth rate (NaN otherwise or without a growth rate)",
        "statistics.twins"},
       {"/histogram/edges", {"edges"}, T::float64, "1", "bin edges of the histogram",
        "statistics.histogram"},

@@ -262,6 +262,16 @@ void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& pla
   rows.write(d, {}, gather(local, &run::BatchResult::regime_transitions));
 }
 
+/// "case 0: reason; case 3: reason" over the flagged cases, or "none".
+std::string flagged_cases(const std::vector<std::string>& reasons) {
+  std::string text;
+  for (std::size_t c = 0; c < reasons.size(); ++c) {
+    if (reasons[c].empty()) continue;
+    text += (text.empty() ? "" : " | ") + ("case " + std::to_string(c) + ": ") + reasons[c];
+  }
+  return text.empty() ? "none" : text;
+}
+
 void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                     const parallel::EnsembleResults& e) {
   GroupWriter g(file, "ensemble");
@@ -278,6 +288,10 @@ void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
   g.dataset("time_mean_stderr", {n_cases, n_obs}).write_from_rank0(e.time_mean_stderr);
   g.dataset("effective_samples", {n_cases, n_obs}).write_from_rank0(e.effective_samples);
   g.dataset("decorrelation_time", {n_cases, n_obs}).write_from_rank0(e.decorrelation_time);
+  h5::Dataset flag = g.dataset("non_chaotic", {n_cases});
+  flag.write_from_rank0(e.non_chaotic);
+  flag.set_attribute("reason", flagged_cases(e.non_chaotic_reason));
+  g.dataset("non_chaotic_reason", {n_cases}).write_strings_from_rank0(e.non_chaotic_reason);
   if (spec.statistics.lyapunov.enabled) {
     const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
     g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
@@ -327,6 +341,11 @@ void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   g.dataset("pairs", {n_cases}).write_from_rank0(e.twin_pairs);
   g.dataset("growth_rate", {n_cases}).write_from_rank0(e.growth_rate);
   g.dataset("growth_window", {n_cases, 2}).write_from_rank0(e.growth_window);
+  g.dataset("growth_note", {n_cases}).write_strings_from_rank0(e.growth_note);
+  g.dataset("horizon_median", {n_cases}).write_from_rank0(e.horizon_median);
+  g.dataset("horizon_median_ci95", {n_cases, 2}).write_from_rank0(e.horizon_median_ci95);
+  g.dataset("unseparated_fraction", {n_cases, leads}).write_from_rank0(e.unseparated_fraction);
+  g.dataset("suggested_duration", {n_cases}).write_from_rank0(e.suggested_duration);
 }
 
 void write_histogram(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,

@@ -4,6 +4,7 @@
 #include <cmath>
 
 #include "parallel/reduce_errors.hpp"
+#include "stats/dynamics_check.hpp"
 #include "stats/ensemble.hpp"
 
 namespace chaosweep::parallel {
@@ -63,6 +64,34 @@ void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) 
       r.slope[a * n_obs + o] = fits[a].slope;
       r.slope_stderr[a * n_obs + o] = fits[a].stderr_;
     }
+  }
+}
+
+/// Flags the cases that do not behave chaotically (stats/dynamics_check.hpp); needs the
+/// time-mean errors, the Lyapunov exponents and the twins already reduced.
+void check_cases(const spec::Spec& spec, const plan::Plan& plan, int n_lyap, EnsembleResults& r) {
+  const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
+  r.non_chaotic.assign(n_cases, 0);
+  r.non_chaotic_reason.assign(n_cases, "");
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    auto slice = [&](const std::vector<double>& v) {
+      return std::vector<double>(v.begin() + c * n_obs, v.begin() + (c + 1) * n_obs);
+    };
+    stats::CaseEvidence e;
+    e.valid_members = r.valid_members[c];
+    e.time_mean = slice(r.time_mean);
+    e.across_std = slice(r.time_mean_std);
+    e.member_stderr_rms = slice(r.member_stderr_rms);
+    e.within_variance = slice(r.member_time_variance);
+    e.leading_exponent = n_lyap > 0 ? r.lyapunov[c * n_lyap] : NAN;
+    e.exponent_tolerance = stats::exponent_tolerance(spec.integration.duration);
+    if (!r.twins_not_separating.empty()) {
+      e.twins_not_separating = r.twins_not_separating[c] != 0;
+      e.twin_note = r.growth_note[c];
+    }
+    const stats::CaseVerdict v = stats::check_dynamics(e);
+    r.non_chaotic[c] = v.non_chaotic ? 1 : 0;
+    r.non_chaotic_reason[c] = v.reason;
   }
 }
 
@@ -137,6 +166,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   fit_slopes(plan, spec.sweep.size(), r);
   reduce_twins(comm, spec, plan, local, r);
   reduce_snapshots(comm, spec, plan, local, r);
+  check_cases(spec, plan, n_lyap, r);
   return r;
 }
 

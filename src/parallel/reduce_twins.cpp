@@ -1,12 +1,17 @@
 // Fixed-order reduction of the twin experiment (statistics.twins): per case, the mean and
 // standard deviation of the log separation over the valid member-twin pairs at each lead, the
-// growth rate of that mean over its linear phase, and the ensemble horizon over the members
-// that reached the threshold.
+// growth rate of that mean over its linear phase (when its rise is significant), the ensemble
+// horizon over the members that reached the threshold, and the survival curve of the pairs
+// (the share not yet separated at each lead, pairs that never separated censored at the last
+// lead) with its median and the median's interval.
 //
 // Per batch: the moments (n, mean, m2) of the log separation at each lead over the batch's
-// valid pairs (run/twins.cpp, in member order) and the moments of the finite horizons of its
-// valid members. They are gathered in batch order and merged per case in that order, so the
-// results do not depend on the rank count.
+// valid pairs (run/twins.cpp, in member order), the moments of the finite horizons of its
+// valid members and of the logs of their threshold distances, the number of pairs that
+// separated at each lead and the number that did not by the last lead. They are gathered in
+// batch order and merged per case in that order, so the results do not depend on the rank
+// count.
+#include <algorithm>
 #include <cmath>
 
 #include "core/error.hpp"
@@ -14,29 +19,61 @@
 #include "run/twins.hpp"
 #include "stats/ensemble.hpp"
 #include "stats/error_growth.hpp"
+#include "stats/survival.hpp"
 
 namespace chaosweep::parallel {
 namespace {
 
 constexpr int kMomentWidth = stats::Moments::kPacked;  // n, mean, m2
 
-/// Per batch: [leads][3] log-separation moments, then the horizon's (n, mean, m2).
+/// Doubles per batch: [leads][3] log-separation moments, the horizon's and the log threshold
+/// distance's (n, mean, m2), [leads] separations first seen at each lead, the unseparated.
+std::size_t per_batch_width(std::size_t leads) { return (leads + 2) * kMomentWidth + leads + 1; }
+
 std::vector<double> summarise_twins(const std::vector<run::BatchResult>& local,
-                                    std::size_t leads) {
+                                    const std::vector<double>& lead, double threshold) {
+  const std::size_t leads = lead.size();
   std::vector<double> out;
+  out.reserve(local.size() * per_batch_width(leads));
   for (const run::BatchResult& b : local) {
     if (b.twin_moments.size() != leads * kMomentWidth) {
       throw Error("batch " + std::to_string(b.batch_index) + " has no twin results");
     }
     out.insert(out.end(), b.twin_moments.begin(), b.twin_moments.end());
-    stats::Moments h;
+    stats::Moments h, level;
+    std::vector<double> separated(leads, 0.0);
+    double unseparated = 0.0;
     for (int i = 0; i < b.count; ++i) {
-      if (b.status[i] == run::kValid && std::isfinite(b.horizon[i])) h.add(b.horizon[i]);
+      // a valid pair: a valid member whose spread (and so its twin) is finite
+      if (b.status[i] != run::kValid || !std::isfinite(b.spread[i])) continue;
+      level.add(std::log(threshold * b.spread[i]));
+      if (!std::isfinite(b.horizon[i])) {
+        unseparated += 1.0;
+        continue;
+      }
+      h.add(b.horizon[i]);
+      // horizons are lead times, computed exactly as the lead coordinate is
+      const auto k = std::lower_bound(lead.begin(), lead.end(), b.horizon[i]) - lead.begin();
+      if (k == static_cast<std::ptrdiff_t>(leads) || lead[static_cast<std::size_t>(k)] != b.horizon[i]) {
+        throw Error("batch " + std::to_string(b.batch_index) + ": a horizon is not a lead time");
+      }
+      separated[static_cast<std::size_t>(k)] += 1.0;
     }
     h.append_to(out);
+    level.append_to(out);
+    out.insert(out.end(), separated.begin(), separated.end());
+    out.push_back(unseparated);
   }
   return out;
 }
+
+/// Merged twin partials of one case.
+struct CaseTwins {
+  std::vector<stats::Moments> separation;  // [lead]
+  stats::Moments horizon, level;
+  std::vector<double> separated;           // [lead]
+  double unseparated = 0.0;
+};
 
 }  // namespace
 
@@ -46,48 +83,87 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
   if (times.every_steps == 0) return;
   const std::size_t leads = static_cast<std::size_t>(times.leads);
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_batch = (leads + 1) * kMomentWidth;
-  const std::vector<double> all = comm.allgather_in_rank_order(summarise_twins(local, leads));
+  const std::size_t per_batch = per_batch_width(leads);
+  const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);
+  const std::vector<double> all = comm.allgather_in_rank_order(
+      summarise_twins(local, lead, spec.statistics.twins.threshold));
 
-  std::vector<stats::Moments> sep(n_cases * leads), horizon(n_cases);
+  std::vector<CaseTwins> cases(n_cases);
+  for (CaseTwins& c : cases) {
+    c.separation.resize(leads);
+    c.separated.assign(leads, 0.0);
+  }
   for (const plan::Batch& b : plan.batches) {
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    const std::size_t c = static_cast<std::size_t>(b.case_index);
+    CaseTwins& c = cases[static_cast<std::size_t>(b.case_index)];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
-      sep[c * leads + k].merge(stats::Moments::unpack(p));
+      c.separation[k].merge(stats::Moments::unpack(p));
     }
-    horizon[c].merge(stats::Moments::unpack(p));
+    c.horizon.merge(stats::Moments::unpack(p));
+    p += kMomentWidth;
+    c.level.merge(stats::Moments::unpack(p));
+    p += kMomentWidth;
+    for (std::size_t k = 0; k < leads; ++k) c.separated[k] += *p++;
+    c.unseparated += *p;
   }
 
-  const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);
   r.twin_log_separation.assign(n_cases * leads, NAN);
   r.twin_log_separation_std.assign(n_cases * leads, NAN);
   r.twin_pairs.assign(n_cases, 0);
   r.growth_rate.assign(n_cases, NAN);
   r.growth_window.assign(n_cases * 2, NAN);
+  r.growth_note.assign(n_cases, "");
+  r.twins_not_separating.assign(n_cases, 0);
   r.horizon.assign(n_cases, NAN);
   r.horizon_std.assign(n_cases, NAN);
   r.horizon_ci95.assign(n_cases * 2, NAN);
   r.horizon_reached.assign(n_cases, 0);
+  r.horizon_median.assign(n_cases, NAN);
+  r.horizon_median_ci95.assign(n_cases * 2, NAN);
+  r.unseparated_fraction.assign(n_cases * leads, NAN);
+  r.suggested_duration.assign(n_cases, NAN);
   for (std::size_t c = 0; c < n_cases; ++c) {
-    std::vector<double> mean(leads);
+    const CaseTwins& t = cases[c];
+    std::vector<double> mean(leads), se(leads);
     for (std::size_t k = 0; k < leads; ++k) {
-      const stats::Moments& m = sep[c * leads + k];
+      const stats::Moments& m = t.separation[k];
       mean[k] = m.n > 0.0 ? m.mean : NAN;
+      se[k] = m.stddev() / std::sqrt(m.n);
       r.twin_log_separation[c * leads + k] = mean[k];
       r.twin_log_separation_std[c * leads + k] = m.stddev();
     }
-    r.twin_pairs[c] = static_cast<std::int64_t>(sep[c * leads].n);
-    const stats::GrowthFit fit = stats::fit_growth_rate(lead, mean);
+    r.twin_pairs[c] = static_cast<std::int64_t>(t.separation[0].n);
+    const stats::GrowthFit fit = stats::fit_growth_rate(lead, mean, se);
     r.growth_rate[c] = fit.rate;
     r.growth_window[2 * c] = fit.start;
     r.growth_window[2 * c + 1] = fit.end;
-    const stats::EnsembleEstimate e = stats::estimate(horizon[c]);
+    r.growth_note[c] = fit.note;
+    r.twins_not_separating[c] = r.twin_pairs[c] > 0 && fit.not_separating() ? 1 : 0;
+
+    const stats::EnsembleEstimate e = stats::estimate(t.horizon);
     r.horizon[c] = e.mean;
     r.horizon_std[c] = e.std;
     r.horizon_ci95[2 * c] = e.ci_low;
     r.horizon_ci95[2 * c + 1] = e.ci_high;
     r.horizon_reached[c] = e.n;
+
+    std::vector<double> censored(leads, 0.0);
+    censored[leads - 1] = t.unseparated;  // pairs not separated by the last lead
+    const stats::Survival s = stats::kaplan_meier(lead, t.separated, censored);
+    std::copy(s.survival.begin(), s.survival.end(), r.unseparated_fraction.begin() + c * leads);
+    r.horizon_median[c] = s.median;
+    r.horizon_median_ci95[2 * c] = s.median_low;
+    r.horizon_median_ci95[2 * c + 1] = s.median_high;
+
+    // Fewer than 90% separated: the lead by which about 90% would, from the fitted growth.
+    const double pairs = static_cast<double>(r.twin_pairs[c]);
+    if (pairs > 0.0 && static_cast<double>(e.n) < kMostPairs * pairs) {
+      const std::size_t end = static_cast<std::size_t>(
+          std::find(lead.begin(), lead.end(), fit.end) - lead.begin());
+      const double sd_end = end < leads ? t.separation[end].stddev() : NAN;
+      r.suggested_duration[c] =
+          stats::lead_for_share(fit, sd_end, t.level.n > 0.0 ? t.level.mean : NAN, kMostPairs);
+    }
   }
 }
 

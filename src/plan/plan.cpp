@@ -1,6 +1,8 @@
 // Spec -> cases x members -> batches. Pure: no MPI, no HDF5, no YAML.
 #include "plan/plan.hpp"
 
+#include <cstdio>
+
 #include <algorithm>
 #include <cmath>
 #include <memory>
@@ -113,6 +115,16 @@ Range share(std::int64_t n, int rank, int size) {
   r.first = rank * base + std::min<std::int64_t>(rank, extra);
   r.last = r.first + base + (rank < extra ? 1 : 0);
   return r;
+}
+
+std::string describe_case(const spec::Spec& spec, const Case& c) {
+  std::string text = "case " + std::to_string(c.index);
+  for (std::size_t a = 0; a < spec.sweep.size() && a < c.axis_values.size(); ++a) {
+    char value[32];
+    std::snprintf(value, sizeof value, "%.6g", c.axis_values[a]);
+    text += (a == 0 ? " (" : ", ") + spec.sweep[a].parameter + " " + value;
+  }
+  return spec.sweep.empty() ? text : text + ")";
 }
 
 }  // namespace chaosweep::plan

@@ -50,6 +50,9 @@ struct Plan {
   std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }
 };
 
+/// "case 3 (F 6, rho 24)": the case index with its swept values ("case 0" without a sweep).
+std::string describe_case(const spec::Spec& spec, const Case& c);
+
 /// Builds the plan; throws SpecError for inconsistent combinations the loader cannot see.
 Plan make_plan(const spec::Spec& spec);
 

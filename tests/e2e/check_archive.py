@@ -182,7 +182,9 @@ def check_summary_json(path, program):
             twins = {k: f[p][()] for k, p in (
                 ("horizon", "ensemble/horizon"), ("ci", "ensemble/horizon_ci95"),
                 ("reached", "ensemble/horizon_reached"), ("pairs", "twins/pairs"),
-                ("rate", "twins/growth_rate"), ("window", "twins/growth_window"))}
+                ("rate", "twins/growth_rate"), ("window", "twins/growth_window"),
+                ("median", "twins/horizon_median"), ("median_ci", "twins/horizon_median_ci95"),
+                ("duration", "twins/suggested_duration"), ("note", "twins/growth_note"))}
         snap_t = f["snapshot/time"][()] if "snapshot/time" in f else None
         snap_mean = f["snapshot/mean"][()] if snap_t is not None else None
         snap_var = f["snapshot/variance"][()] if snap_t is not None else None
@@ -227,7 +229,12 @@ def check_summary_json(path, program):
                 and t["horizon_reached"] == int(twins["reached"][c])
                 and t["pairs"] == int(twins["pairs"][c])
                 and same(t["growth_rate"], twins["rate"][c])
-                and all(same(v, w) for v, w in zip(t["growth_window"], twins["window"][c]))):
+                and all(same(v, w) for v, w in zip(t["growth_window"], twins["window"][c]))
+                and same(t["horizon_median"]["median"], twins["median"][c])
+                and all(same(v, w) for v, w in zip(t["horizon_median"]["ci95"],
+                                                   twins["median_ci"][c]))
+                and same(t["suggested_duration"], twins["duration"][c])
+                and t["growth_note"] == twins["note"][c].decode()):
             fail(f"case {c}: summary twins {t} differ from the archive")
     if slope is not None:
         for row in doc["response"]:
@@ -669,6 +676,159 @@ def check_twins_growth(path, scale, lyapunov, case):
           f"within {abs(mean[0] - math.log(scale)):.2g}")
 
 
+def check_intervals(path):
+    """Every ensemble time-mean interval is mean +- t(0.975, n-1) se with se the archived
+    /ensemble/time_mean_stderr (the larger of the across-member and the pooled within-member
+    errors) and t from scipy (Student t, n = valid members), to 1e-8 of the half-width (GSL's
+    t quantile, which chaosweep uses, agrees with scipy's to about 5e-9 relative); and se is at
+    least the across-member error std / sqrt(n)."""
+    from scipy.stats import t as student
+    with h5py.File(path, "r") as f:
+        mean = f["ensemble/time_mean"][()]
+        ci = f["ensemble/time_mean_ci95"][()]
+        se = f["ensemble/time_mean_stderr"][()]
+        std = f["ensemble/time_mean_std"][()]
+        n = f["ensemble/valid_members"][()].astype(float)
+    half = student.ppf(0.975, n - 1)[:, None] * se
+    for bound, sign in ((0, -1), (1, 1)):
+        want = mean + sign * half
+        if not np.all(np.abs(ci[..., bound] - want) <= 1e-8 * half):
+            fail(f"{path}: interval bound {bound} is not mean +- t se: {ci[..., bound]} vs {want}")
+    if np.any(se < std / np.sqrt(n)[:, None] * (1 - 1e-12)):
+        fail(f"{path}: a standard error below the across-member error")
+    print(f"ok: {mean.size} time-mean intervals are mean +- t(0.975, n-1) stderr")
+
+
+def km_reference(horizon, lead):
+    """Kaplan-Meier (1958) with Greenwood's (1926) standard error and Brookmeyer & Crowley's
+    (1982) interval of the median, unit by unit from the horizons (NaN: not separated by the
+    last lead, censored there), at each lead: (S, se, median, low, high)."""
+    z = 1.959963984540054
+    failed = np.isfinite(horizon)
+    times = np.where(failed, horizon, lead[-1])
+    S, g, surv, se = 1.0, 0.0, [], []
+    for t in lead:
+        at_risk = np.sum(times >= t)
+        d = np.sum((times == t) & failed)
+        if d > 0:
+            S *= 1.0 - d / at_risk
+            if at_risk > d:
+                g += d / (at_risk * (at_risk - d))
+        surv.append(S)
+        se.append(S * math.sqrt(g) if S > 0 else 0.0)
+    surv, se = np.array(surv), np.array(se)
+
+    def first(mask):
+        hits = np.flatnonzero(mask)
+        return lead[hits[0]] if hits.size else math.nan
+
+    return surv, se, first(surv <= 0.5), first(surv - z * se <= 0.5), first(surv + z * se <= 0.5)
+
+
+def same_or_nan(a, b):
+    return (math.isnan(a) and math.isnan(b)) or a == b
+
+
+def check_horizon_survival(path):
+    """/twins/unseparated_fraction, /twins/horizon_median and its interval against the
+    published formulas evaluated by numpy on the members' horizons (/member/horizon over the
+    valid pairs: valid members with a finite spread): equal to rounding (1e-12)."""
+    with h5py.File(path, "r") as f:
+        lead = f["twins/lead"][()]
+        horizon = f["member/horizon"][()]
+        spread = f["member/spread"][()]
+        status = f["member/status"][()]
+        fraction = f["twins/unseparated_fraction"][()]
+        median = f["twins/horizon_median"][()]
+        interval = f["twins/horizon_median_ci95"][()]
+    for c in range(horizon.shape[0]):
+        valid = (status[c] == 0) & np.isfinite(spread[c])
+        if not valid.any():
+            if not np.all(np.isnan(fraction[c])):
+                fail(f"case {c}: a survival curve without valid pairs")
+            continue
+        surv, _, m, low, high = km_reference(horizon[c][valid], lead)
+        if not np.allclose(fraction[c], surv, rtol=1e-12, atol=1e-15):
+            fail(f"case {c}: unseparated fraction {fraction[c]} != {surv}")
+        got = (median[c], interval[c][0], interval[c][1])
+        if not all(same_or_nan(a, b) for a, b in zip(got, (m, low, high))):
+            fail(f"case {c}: median and interval {got} != {(m, low, high)}")
+        print(f"ok: case {c}: {valid.sum()} pairs, {np.isfinite(horizon[c][valid]).sum()} "
+              f"separated, median {m} [{low}, {high}] as numpy computes it")
+
+
+def check_non_chaotic(path, flagged_csv):
+    """Exactly the listed cases carry /ensemble/non_chaotic = 1, each with a reason; a case
+    whose mean leading exponent is below max(0.01, 2 / duration) is among them; a flagged case
+    whose twins do not separate has no growth rate and says why in /twins/growth_note, and its
+    mean log separation falls back within 3 standard errors of its start after the rise (the
+    stated test, recomputed here), while a chaotic case keeps a finite growth rate."""
+    flagged = {int(c) for c in flagged_csv.split(",") if c}
+    with h5py.File(path, "r") as f:
+        flag = f["ensemble/non_chaotic"][()]
+        reason = [v.decode() if isinstance(v, bytes) else v
+                  for v in f["ensemble/non_chaotic_reason"][()]]
+        attribute = f["ensemble/non_chaotic"].attrs["reason"]
+        duration = float(f.attrs["duration"])
+        lyap = f["ensemble/lyapunov"][()][:, 0] if "ensemble/lyapunov" in f else None
+        twins = "twins" in f
+        if twins:
+            rate = f["twins/growth_rate"][()]
+            note = [v.decode() if isinstance(v, bytes) else v for v in f["twins/growth_note"][()]]
+            L = f["twins/log_separation"][()]
+            sd = f["twins/log_separation_std"][()]
+            pairs = f["twins/pairs"][()]
+    got = {c for c in range(len(flag)) if flag[c]}
+    if got != flagged:
+        fail(f"flagged cases {sorted(got)}, expected {sorted(flagged)}: {reason}")
+    for c in range(len(flag)):
+        if bool(reason[c]) != bool(flag[c]):
+            fail(f"case {c}: flag {flag[c]} with reason {reason[c]!r}")
+        if flag[c] and f"case {c}: " not in str(attribute):
+            fail(f"the reason attribute does not name case {c}: {attribute}")
+        if lyap is not None and lyap[c] < max(0.01, 2.0 / duration) and not flag[c]:
+            fail(f"case {c}: leading exponent {lyap[c]} below the tolerance but not flagged")
+        if not twins:
+            continue
+        if flag[c] and "twins do not separate" in reason[c]:
+            if not (math.isnan(rate[c]) and note[c]):
+                fail(f"case {c}: growth rate {rate[c]} without a note for non-separating twins")
+            se = sd[c] / math.sqrt(pairs[c])
+            top = int(np.argmax(L[c]))
+            back = L[c][top:] - L[c][0] <= 3 * np.hypot(se[top:], se[0])
+            if L[c][top] > L[c][0] and not back.any():
+                fail(f"case {c}: the curve does not fall back, yet no growth rate")
+        if not flag[c] and not (np.isfinite(rate[c]) and rate[c] > 0 and note[c] == ""):
+            fail(f"case {c}: chaotic case without a growth rate ({note[c]})")
+    print(f"ok: non-chaotic cases {sorted(got)}: " + " | ".join(r for r in reason if r))
+
+
+def check_fixed_point(path, case, rho, beta):
+    """A case below the onset of the strange attractor (rho < 24.06, from memory: Sparrow 1982,
+    The Lorenz Equations, Springer) settles on a fixed point C+- = (+-sqrt(beta (rho - 1)),
+    +-sqrt(beta (rho - 1)), rho - 1) (exact: Lorenz 1963); its time means equal C+- (to 1e-6
+    relative: what is left of the decaying spiral over the window), the case is flagged, and
+    its interval is as narrow as its spread says (zero spread reported as such, not hidden)."""
+    case, rho, beta = int(case), float(rho), float(beta)
+    with h5py.File(path, "r") as f:
+        mean = f["ensemble/time_mean"][()][case]
+        names = [v.decode() for v in f["observable"][()]]
+        flag = f["ensemble/non_chaotic"][()][case]
+        reason = f["ensemble/non_chaotic_reason"][()][case].decode()
+        std = f["ensemble/time_mean_std"][()][case]
+    c = math.sqrt(beta * (rho - 1))
+    sign = 1.0 if mean[names.index("x")] > 0 else -1.0
+    want = {"x": sign * c, "y": sign * c, "z": rho - 1}
+    for name, value in want.items():
+        got = mean[names.index(name)]
+        if abs(got - value) > 1e-6 * abs(value):
+            fail(f"case {case}: time mean of {name} {got!r} != fixed point {value!r}")
+    if not flag or "coincide" not in reason:
+        fail(f"case {case}: a fixed point not flagged as collapsed: {reason!r}")
+    print(f"ok: case {case} settles on C{'+' if sign > 0 else '-'} = ({sign * c:.9g}, "
+          f"{sign * c:.9g}, {rho - 1:g}); spread {std.max():.2g}; flagged: {reason}")
+
+
 CHECKS = {
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
@@ -685,6 +845,10 @@ CHECKS = {
     "schedule-identity": check_schedule_identity,
     "snapshots": check_snapshots,
     "ramp-energy": check_ramp_energy,
+    "intervals": check_intervals,
+    "horizon-survival": check_horizon_survival,
+    "non-chaotic": check_non_chaotic,
+    "fixed-point": check_fixed_point,
 }
 
 if __name__ == "__main__":

@@ -71,6 +71,8 @@ class ArchiveData:
             self.snap_time = f["snapshot/time"][()] if "snapshot" in f else None
             self.snap_mean = f["snapshot/mean"][()] if "snapshot" in f else None
             self.snap_var = f["snapshot/variance"][()] if "snapshot" in f else None
+            self.non_chaotic = f["ensemble/non_chaotic"][()]
+            self.non_chaotic_reason = [text(v) for v in f["ensemble/non_chaotic_reason"][()]]
         self.cases = self.status.shape[0]
 
     def snapshots_shown(self):
@@ -421,6 +423,9 @@ def check_summary_json(archive, program):
         for a in arch.axes:
             if not same(case["parameters"][a], arch.axis_values[a][c]):
                 fail(f"case {c}: parameter {a}")
+        if (case["non_chaotic"], case["non_chaotic_reason"]) != (
+                bool(arch.non_chaotic[c]), arch.non_chaotic_reason[c]):
+            fail(f"case {c}: non-chaotic flag or reason differs from the archive")
         for o, name in enumerate(arch.observables):
             e = case["time_mean"][name]
             if not (same(e["mean"], arch.mean[c, o]) and same(e["std"], arch.std[c, o])
@@ -468,6 +473,8 @@ def check_summary_csv(archive, program):
         for k, time, mean, std, ci in arch.snapshots_shown().get(c, []):
             expected.append((c, "snapshot_mean", f"{arch.observables[0]}@{time:.17g}", mean, std,
                              ci, "model units", None))
+        expected.append((c, "non_chaotic", arch.non_chaotic_reason[c], arch.non_chaotic[c],
+                         math.nan, (math.nan, math.nan), "flag", None))
     if len(rows) - 1 != len(expected):
         fail(f"csv has {len(rows) - 1} rows, expected {len(expected)}")
     n_axes = len(arch.axes)
@@ -521,6 +528,13 @@ def check_summary_table(archive, program):
         if not line.strip():
             continue
         cells = re.split(r"\s{2,}", line.strip())
+        if block in ("time", "regime", "errors") and re.fullmatch(r"\d+\*", cells[0]):
+            # a case flagged non-chaotic is marked "*"
+            if not arch.non_chaotic[int(cells[0][:-1])]:
+                fail(f"table marks case {cells[0]} non-chaotic, the archive does not")
+            cells[0] = cells[0][:-1]
+        elif block in ("time", "regime") and cells[0].isdigit() and arch.non_chaotic[int(cells[0])]:
+            fail(f"table does not mark the non-chaotic case {cells[0]}")
         if cells[0] in ("case", "observable"):
             columns = cells
             # Aligned: every column ends at the same character on the header and data rows.

@@ -3,6 +3,7 @@
 // Lyapunov exponent) runs on a whole campaign in tests/e2e (check_archive.py, twins-growth).
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <string>
@@ -238,13 +239,82 @@ TEST(Twins, GrowthFitRecoversTheSlopeOfALinearPhase) {
     t.push_back(tk);
     L.push_back(std::min(0.0, tk < 1.0 ? -10.0 : -10.0 + 0.9 * (tk - 1.0)));
   }
-  const stats::GrowthFit fit = stats::fit_growth_rate(t, L);
+  const std::vector<double> se(t.size(), 0.05);
+  const stats::GrowthFit fit = stats::fit_growth_rate(t, L, se);
+  EXPECT_EQ(fit.outcome, stats::GrowthOutcome::fitted);
+  EXPECT_TRUE(fit.note.empty());
   EXPECT_NEAR(fit.rate, 0.9, 1e-12);
+  EXPECT_NEAR(fit.intercept, -10.9, 1e-12);  // the line -10 + 0.9 (t - 1)
   // 10% of the rise of 10 is reached at t = 1 + 1/0.9, 70% at t = 1 + 7/0.9 (first leads at or
   // above these levels).
   EXPECT_NEAR(fit.start, 0.05 * std::ceil((1.0 + 1.0 / 0.9) / 0.05 - 1e-9), 1e-12);
   EXPECT_NEAR(fit.end, 0.05 * std::ceil((1.0 + 7.0 / 0.9) / 0.05 - 1e-9), 1e-12);
-  EXPECT_TRUE(std::isnan(stats::fit_growth_rate({0, 1, 2}, {1, 1, 1}).rate));  // no rise
+  const stats::GrowthFit flat = stats::fit_growth_rate({0, 1, 2}, {1, 1, 1}, {0, 0.1, 0.1});
+  EXPECT_TRUE(std::isnan(flat.rate));
+  EXPECT_EQ(flat.outcome, stats::GrowthOutcome::no_rise);
+  EXPECT_TRUE(flat.not_separating());
+}
+
+// Exact: on a periodic orbit the separation of a twin follows the speed along the orbit, so
+// its mean log oscillates about its start. A curve L = L0 + 2 sin(2 pi t / 5) rises by 2 (far
+// beyond its standard errors of 0.05) and falls back: no rate, whatever its first flank looks
+// like. The same curve lifted after its first swing (a separation that grew and stayed, 1.5
+// above its start at the lowest, 21 standard errors) keeps a fit.
+TEST(Twins, GrowthFitRefusesARiseThatFallsBack) {
+  std::vector<double> t, L, held;
+  for (int k = 0; k <= 200; ++k) {
+    const double tk = 0.1 * k;
+    t.push_back(tk);
+    const double swing = 2.0 * std::sin(2.0 * M_PI * tk / 5.0);
+    L.push_back(-18.0 + swing);
+    held.push_back(-18.0 + (tk < 1.25 ? swing : 2.5 + 0.5 * swing));
+  }
+  const std::vector<double> se(t.size(), 0.05);
+  const stats::GrowthFit fit = stats::fit_growth_rate(t, L, se);
+  EXPECT_TRUE(std::isnan(fit.rate));
+  EXPECT_TRUE(std::isnan(fit.start));
+  EXPECT_EQ(fit.outcome, stats::GrowthOutcome::not_sustained);
+  EXPECT_TRUE(fit.not_separating());
+  EXPECT_NE(fit.note.find("no significant sustained rise"), std::string::npos) << fit.note;
+  const stats::GrowthFit kept = stats::fit_growth_rate(t, held, se);
+  EXPECT_EQ(kept.outcome, stats::GrowthOutcome::fitted) << kept.note;
+  EXPECT_GT(kept.rate, 0.0);
+}
+
+// Exact: the one-sided test compares L_k - L_0 with 3 sqrt(se_k^2 + se_0^2) from the window's
+// end on. A curve that rises to 1 and holds, its window ending at 0.7, passes with standard
+// errors of 0.2 (0.7 is 3.5 of them) and fails with 0.25 (2.8 of them).
+TEST(Twins, GrowthFitSignificanceUsesTheStandardErrors) {
+  std::vector<double> t, L;
+  for (int k = 0; k <= 20; ++k) {
+    t.push_back(k);
+    L.push_back(std::min(1.0, 0.1 * k));
+  }
+  std::vector<double> se(t.size(), 0.2);
+  se[0] = 0.0;
+  EXPECT_EQ(stats::fit_growth_rate(t, L, se).outcome, stats::GrowthOutcome::fitted);
+  std::fill(se.begin() + 1, se.end(), 0.25);
+  EXPECT_EQ(stats::fit_growth_rate(t, L, se).outcome, stats::GrowthOutcome::not_sustained);
+}
+
+// Exact: for L = a + r t with across-pair sd s(t) = s_end sqrt(t / t_end), the lead solving
+// a + r t - z s(t) = level, z = 1.2815515655446004 (the normal 0.9 quantile, GSL), satisfies
+// that equation; with s_end = 0 it is (level - a) / r.
+TEST(Twins, LeadForShareSolvesTheExtrapolation) {
+  stats::GrowthFit fit;
+  fit.outcome = stats::GrowthOutcome::fitted;
+  fit.rate = 0.5;
+  fit.intercept = -18.0;
+  fit.start = 2.0;
+  fit.end = 20.0;
+  const double level = -1.0;
+  EXPECT_NEAR(stats::lead_for_share(fit, 0.0, level, 0.9), 34.0, 1e-12);
+  const double t = stats::lead_for_share(fit, 3.0, level, 0.9);
+  const double z = 1.2815515655446004;
+  EXPECT_NEAR(-18.0 + 0.5 * t - z * 3.0 * std::sqrt(t / 20.0), level, 1e-10);
+  EXPECT_GT(t, 34.0);
+  fit.outcome = stats::GrowthOutcome::not_sustained;
+  EXPECT_TRUE(std::isnan(stats::lead_for_share(fit, 3.0, level, 0.9)));
 }
 
 }  // namespace

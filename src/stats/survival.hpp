@@ -1,0 +1,33 @@
+// Kaplan-Meier survival estimate with Greenwood's standard error, its median and the median's
+// 95% confidence interval (Brookmeyer and Crowley). Pure numerics.
+//
+// Used for the twin horizons: a pair "survives" while its separation stays below the
+// threshold; pairs that have not separated by the last lead are right-censored there, so the
+// mean over the pairs that separated is biased low and the survival curve is the honest
+// summary.
+#pragma once
+
+#include <vector>
+
+namespace chaosweep::stats {
+
+struct Survival {
+  std::vector<double> survival;  // S(t_k): share not yet failed after the events at t_k
+  std::vector<double> stderr_;   // Greenwood's standard error of S(t_k) (0 where S is 0 or 1)
+  double median = 0.0;           // first t_k with S <= 1/2 (NaN if none)
+  double median_low = 0.0;       // first t_k with S - z se <= 1/2 (NaN if none)
+  double median_high = 0.0;      // first t_k with S + z se <= 1/2 (NaN if none: beyond t_max)
+};
+
+/// Kaplan-Meier on the increasing times t_k, with events[k] failures and censored[k]
+/// right-censored units at t_k (censored units count as at risk at their own time):
+///   n_k = N - sum_{j<k} (events_j + censored_j),   S(t_k) = prod_{j<=k} (1 - events_j / n_j),
+///   Var S(t_k) = S(t_k)^2 sum_{j<=k} events_j / (n_j (n_j - events_j))   (Greenwood 1926).
+/// The median and its interval invert the pointwise band S +- z se at 1/2: the interval is
+/// the set of t where |S(t) - 1/2| <= z se(t), the test-based interval of Brookmeyer and
+/// Crowley (1982) on the untransformed survival, z = 1.959964 (95%). Counts are doubles
+/// holding whole numbers. With no units (N = 0) every value is NaN.
+Survival kaplan_meier(const std::vector<double>& t, const std::vector<double>& events,
+                      const std::vector<double>& censored);
+
+}  // namespace chaosweep::stats
