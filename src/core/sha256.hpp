@@ -1,11 +1,11 @@
-// SHA-256 of a byte string, as lower-case hex. Pure: no dependencies.
+// SHA-256 of a byte string, as lower-case hex, computed by Nettle (Debian's nettle-dev).
 // Used to fingerprint the campaign spec (archive attribute spec_sha256, checkpoint keys) and
 // to seal archives (archive/seal.hpp).
 #pragma once
 
-#include <array>
+#include <nettle/sha2.h>
+
 #include <cstddef>
-#include <cstdint>
 #include <string>
 
 namespace chaosweep {
@@ -23,10 +23,7 @@ class Sha256 {
   std::string hex();
 
  private:
-  std::array<std::uint32_t, 8> h_;
-  std::array<unsigned char, 64> block_{};  // bytes not yet compressed
-  std::size_t used_ = 0;                   // of block_
-  std::uint64_t length_ = 0;               // bytes given so far
+  sha256_ctx context_;
 };
 
 }  // namespace chaosweep
