@@ -115,7 +115,7 @@ def check_l96_identity(path, n_sites, forcing_csv, duration):
     n_sites, duration = int(n_sites), float(duration)
     forcing = [float(v) for v in forcing_csv.split(",")]
     names, mean, _, status, _ = member_arrays(path)
-    im, ie = names.index("mean"), names.index("energy")
+    im, ie = names.index("site_mean"), names.index("energy")
     for c, F in enumerate(forcing):
         tol = F * F / (2 * duration)
         for m in range(mean.shape[1]):
@@ -284,7 +284,7 @@ def stored_snapshot_values(f):
     for name in names:
         if name in variables:
             columns.append(x[..., variables.index(name)])
-        elif name == "mean":       # lorenz96's derived observables (README)
+        elif name == "site_mean":  # lorenz96's derived observables (README)
             columns.append(x.mean(axis=3))
         elif name == "energy":
             columns.append(0.5 * (x ** 2).sum(axis=3))
@@ -340,7 +340,7 @@ def check_ramp_energy(path, n_sites, start_value, end_value, start, end):
         names = [x.decode() if isinstance(x, bytes) else x for x in f["observable"][()]]
         t, snap = f["snapshot/time"][()], f["snapshot/mean"][()]
         offsets = f["case/F"][()]
-    energy, mean = snap[:, :, names.index("energy")], snap[:, :, names.index("mean")]
+    energy, mean = snap[:, :, names.index("energy")], snap[:, :, names.index("site_mean")]
     ramp = a + (b - a) * np.clip((t - start) / (end - start), 0.0, 1.0)
     for c, offset in enumerate(offsets):
         forcing = ramp + offset
