@@ -120,7 +120,7 @@ int main(int argc, char** argv) {
                         "Seconds between the warning signal and the time limit (default: estimated)");
 
   CLI::App* schema_cmd =
-      cli.add_subcommand("schema", "Print the archive's dataset table (Markdown)");
+      cli.add_subcommand("schema", "Print the archive's dataset and dimension tables (Markdown)");
 
   try {
     cli.parse(argc, argv);
