@@ -9,6 +9,7 @@
 #include <cstring>
 #include <filesystem>
 #include <map>
+#include <stdexcept>
 
 #include "archive/schema.hpp"
 #include "archive/seal.hpp"
@@ -42,8 +43,9 @@ class GroupWriter {
       : group_(name.empty() ? file.root() : file.root().create_group(name)),
         prefix_(name.empty() ? "/" : "/" + name + "/") {}
 
-  /// A dimension without coordinate values.
+  /// A dimension without coordinate values (one of the schema's dimensions).
   void dimension(const std::string& name, std::uint64_t size) {
+    archive::dimension(name);  // throws for a dimension the schema does not define
     scales_.emplace(name, group_.create_dimension(name, size));
   }
 
@@ -61,8 +63,12 @@ class GroupWriter {
   /// A dimension whose coordinate values are names.
   void labels(const std::string& name, const std::vector<std::string>& values,
               const std::string& long_name) {
+    const DimensionDef& def = archive::dimension(name);
+    if (!def.labels.empty() && values != def.labels) {
+      throw std::logic_error("the archive schema fixes the coordinate values of " + name);
+    }
     h5::Dataset d = group_.create_dataset(name, h5::ElementType::String, {values.size()});
-    describe(d, archive::dimension(name).units, long_name);
+    describe(d, def.units, long_name);
     d.make_scale(name);
     d.write_strings_from_rank0(values);
     scales_.emplace(name, std::move(d));
