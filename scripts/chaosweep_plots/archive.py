@@ -72,7 +72,7 @@ class Archive:
             self.traj_variables = (_names(f["trajectory/variable"])
                                    if "trajectory/variable" in f else [])
 
-            # Datasets of later features (DESIGN.md's archive table); None until an archive has them.
+            # Datasets of optional features (the schema, `chaosweep schema`); None when absent.
             self.snap_time = _get(f, "snapshot/time")
             self.snap_mean = _get(f, "snapshot/mean")          # case, time, observable
             self.snap_variance = _get(f, "snapshot/variance")  # case, time, observable
@@ -84,7 +84,7 @@ class Archive:
             self.twin_lead = _get(f, "twins/lead")
             self.twin_log_sep = _get(f, "twins/log_separation")  # case, lead
             self.twin_growth_rate = _get(f, "twins/growth_rate")      # case
-            self.twin_growth_window = _get(f, "twins/growth_window")  # case, bound
+            self.twin_growth_window = _get(f, "twins/growth_window")  # case, window_edge
             self.lyapunov = _get(f, "member/lyapunov")           # case, member, exponent
             self.horizon = _get(f, "member/horizon")             # case, member
             self.twin_unseparated = _get(f, "twins/unseparated_fraction")  # case, lead

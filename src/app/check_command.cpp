@@ -1,10 +1,13 @@
 // `chaosweep check`: validate a spec and print the plan, sizes and a calibrated cost estimate.
+#include <algorithm>
+#include <charconv>
 #include <chrono>
 #include <cstdio>
 #include <string>
 
 #include "app/commands.hpp"
 #include "core/error.hpp"
+#include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/twins.hpp"
@@ -91,6 +94,59 @@ double calibrate(const spec::Spec& spec, const plan::Plan& plan) {
   return static_cast<double>(probe.batch_size) * probe.accumulate_steps / s;
 }
 
+/// Numbers as the shortest text that reads back to the same double; vectors in brackets.
+std::string value_text(const std::vector<double>& values) {
+  std::string text;
+  for (const double v : values) {
+    char buf[32];
+    const auto end = std::to_chars(buf, buf + sizeof buf, v).ptr;
+    text += (text.empty() ? "" : ", ") + std::string(buf, end);
+  }
+  return values.size() == 1 ? text : "[" + text + "]";
+}
+
+const char* schedule_kind_name(spec::ScheduleKind kind) {
+  switch (kind) {
+    case spec::ScheduleKind::constant: return "constant";
+    case spec::ScheduleKind::ramp: return "ramp";
+    case spec::ScheduleKind::step: return "step";
+    case spec::ScheduleKind::periodic: return "periodic";
+    case spec::ScheduleKind::none: break;
+  }
+  return "none";
+}
+
+/// Every parameter of the model after the defaults are filled in, in the model's order: its
+/// value, or how the sweep or the schedule sets it. "(default)" marks the values the spec left
+/// to the model.
+void print_parameters(const spec::Spec& spec) {
+  const models::ModelInfo& info = *models::Registry::instance().find(spec.model);
+  int width = 0;
+  for (const models::ParameterInfo& p : info.parameters) {
+    width = std::max(width, static_cast<int>(p.name.size()));
+  }
+  const char* label = "parameters";
+  for (const models::ParameterInfo& p : info.parameters) {
+    const auto axis = std::find_if(spec.sweep.begin(), spec.sweep.end(),
+                                   [&](const spec::SweepAxis& a) { return a.parameter == p.name; });
+    const bool swept = axis != spec.sweep.end();
+    std::string text;
+    if (spec.schedule.kind != spec::ScheduleKind::none && spec.schedule.parameter == p.name) {
+      text = std::string("follows the schedule (") + schedule_kind_name(spec.schedule.kind) + ")" +
+             (swept ? ", offset by the swept value" : "");
+    } else if (swept) {
+      text = "swept: " + std::to_string(axis->values.size()) + " values from " +
+             value_text({axis->values.front()}) + " to " + value_text({axis->values.back()});
+    } else {
+      const bool given = std::find(spec.parameters_given.begin(), spec.parameters_given.end(),
+                                   p.name) != spec.parameters_given.end();
+      text = value_text(spec.parameters.at(p.name)) + (given ? "" : " (default)");
+    }
+    std::printf("  %-14s %-*s  %s\n", label, width, p.name.c_str(), text.c_str());
+    label = "";
+  }
+}
+
 void print_sweep(const spec::Spec& spec) {
   if (spec.sweep.empty()) std::printf("  sweep          none (one case)\n");
   for (const spec::SweepAxis& axis : spec.sweep) {
@@ -122,6 +178,7 @@ int check_command(const CheckOptions& options) {
   std::printf("  campaign       %s\n", spec.name.c_str());
   std::printf("  model          %s (%d state variables, %zu observables)\n", spec.model.c_str(),
               plan.state_dim, plan.observables.size());
+  print_parameters(spec);
   print_sweep(spec);
   std::printf("  cases          %.0f\n", cases);
   std::printf("  members        %lld per case, %.0f in all\n",

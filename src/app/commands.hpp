@@ -53,4 +53,9 @@ int run_command(const RunOptions& options);  // needs MPI initialised
 int summary_command(const SummaryOptions& options);
 int slurm_command(const SlurmOptions& options);
 
+/// `chaosweep models`: models_reference() on standard output.
+int models_command();
+/// Every registered model's parameters, state variables and derived observables (Markdown).
+std::string models_reference();
+
 }  // namespace chaosweep::app

@@ -120,7 +120,10 @@ int main(int argc, char** argv) {
                         "Seconds between the warning signal and the time limit (default: estimated)");
 
   CLI::App* schema_cmd =
-      cli.add_subcommand("schema", "Print the archive's dataset table (Markdown)");
+      cli.add_subcommand("schema", "Print the archive's dataset and dimension tables (Markdown)");
+  CLI::App* models_cmd = cli.add_subcommand(
+      "models", "Print every model's parameters, defaults, state variables and observables "
+                "(Markdown)");
 
   try {
     cli.parse(argc, argv);
@@ -136,6 +139,7 @@ int main(int argc, char** argv) {
     if (*check_cmd) return app::check_command(check);
     if (*summary_cmd) return app::summary_command(summary);
     if (*slurm_cmd) return app::slurm_command(slurm);
+    if (*models_cmd) return app::models_command();
     if (*schema_cmd) {
       std::fputs(archive::markdown_table().c_str(), stdout);
       return kExitComplete;

@@ -1,5 +1,6 @@
-// Collective archive writer (see writer.hpp). Layout: DESIGN.md's archive table, with the
-// definitions (dimensions, units, long names) taken from schema.cpp.
+// Collective archive writer (see writer.hpp). Layout: the schema's tables (schema.cpp), from
+// which every dataset's dimensions, units and long name and every dimension's units and fixed
+// coordinate values are taken.
 #include "archive/writer.hpp"
 
 #include <array>
@@ -8,6 +9,7 @@
 #include <cstring>
 #include <filesystem>
 #include <map>
+#include <stdexcept>
 
 #include "archive/schema.hpp"
 #include "archive/seal.hpp"
@@ -41,17 +43,18 @@ class GroupWriter {
       : group_(name.empty() ? file.root() : file.root().create_group(name)),
         prefix_(name.empty() ? "/" : "/" + name + "/") {}
 
-  /// A dimension without coordinate values.
+  /// A dimension without coordinate values (one of the schema's dimensions).
   void dimension(const std::string& name, std::uint64_t size) {
+    archive::dimension(name);  // throws for a dimension the schema does not define
     scales_.emplace(name, group_.create_dimension(name, size));
   }
 
-  /// A dimension whose coordinate values are `values` (numbers).
+  /// A dimension whose coordinate values are `values` (numbers, in the dimension's units).
   template <class T>
   void coordinate(const std::string& name, const std::vector<T>& values,
                   const std::string& long_name) {
     h5::Dataset d = group_.create_dataset(name, h5::element_type_of<T>(), {values.size()});
-    describe(d, "1", long_name);
+    describe(d, archive::dimension(name).units, long_name);
     d.make_scale(name);
     d.write_from_rank0(values);
     scales_.emplace(name, std::move(d));
@@ -60,11 +63,21 @@ class GroupWriter {
   /// A dimension whose coordinate values are names.
   void labels(const std::string& name, const std::vector<std::string>& values,
               const std::string& long_name) {
+    const DimensionDef& def = archive::dimension(name);
+    if (!def.labels.empty() && values != def.labels) {
+      throw std::logic_error("the archive schema fixes the coordinate values of " + name);
+    }
     h5::Dataset d = group_.create_dataset(name, h5::ElementType::String, {values.size()});
-    describe(d, "1", long_name);
+    describe(d, def.units, long_name);
     d.make_scale(name);
     d.write_strings_from_rank0(values);
     scales_.emplace(name, std::move(d));
+  }
+
+  /// A dimension whose coordinate values the schema fixes (`bound`: lower, upper).
+  void fixed_labels(const std::string& name) {
+    const DimensionDef& def = archive::dimension(name);
+    labels(name, def.labels, def.long_name);
   }
 
   /// Creates the schema dataset `name` of this group with `shape`, its attributes and scales.
@@ -279,7 +292,7 @@ void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
   const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
   g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
   g.labels("observable", plan.observables, "observable");
-  g.labels("bound", {"lower", "upper"}, "bound of the interval");
+  g.fixed_labels("bound");
   g.dataset("time_mean", {n_cases, n_obs}).write_from_rank0(e.time_mean);
   g.dataset("time_mean_std", {n_cases, n_obs}).write_from_rank0(e.time_mean_std);
   g.dataset("time_mean_ci95", {n_cases, n_obs, 2}).write_from_rank0(e.time_mean_ci95);
@@ -335,7 +348,8 @@ void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
   g.coordinate("lead", run::twin_leads(times, spec.integration.dt),
                archive::dataset("/twins/lead").long_name);
-  g.labels("bound", {"first", "last"}, "bound of the window");
+  g.fixed_labels("window_edge");
+  g.fixed_labels("bound");
   g.dataset("log_separation", {n_cases, leads}).write_from_rank0(e.twin_log_separation);
   g.dataset("log_separation_std", {n_cases, leads}).write_from_rank0(e.twin_log_separation_std);
   g.dataset("pairs", {n_cases}).write_from_rank0(e.twin_pairs);

@@ -5,7 +5,7 @@
 //   dz/dt = x y - beta z       + forcing * d2
 //
 // Source: E. N. Lorenz (1963), "Deterministic nonperiodic flow", J. Atmos. Sci. 20, 130
-// (the unforced equations); the forcing term f*d is added as in DESIGN.md (a constant
+// (the unforced equations); the forcing term f*d is this project's addition (a constant
 // tendency along the direction d = forcing_direction). Time and state are nondimensional.
 //
 // Parameters (defaults): sigma 10 (Prandtl number), rho 28 (reduced Rayleigh number),

@@ -10,8 +10,8 @@
 // dimension), F 8 (forcing). Time unit: about 5 days in Lorenz's interpretation.
 //
 // Observables: x0 .. x{n-1} (the state), then derived
-//   mean   = (1/n) sum_k x_k        (domain mean)
-//   energy = sum_k x_k^2 / 2        (total energy)
+//   site_mean = (1/n) sum_k x_k     (mean over the sites)
+//   energy    = sum_k x_k^2 / 2     (total energy)
 // Pure numerics: no allocation in rhs() or derived(), no I/O.
 #include <cmath>
 #include <memory>
@@ -40,7 +40,7 @@ class Lorenz96 final : public Model {
     for (int k = 0; k < n_; ++k) {
       observables_.push_back({"x" + std::to_string(k), "site " + std::to_string(k) + " variable"});
     }
-    observables_.push_back({"mean", "domain mean of the site variables"});
+    observables_.push_back({"site_mean", "mean of the site variables over the ring"});
     observables_.push_back({"energy", "total energy, sum of x_k^2 / 2"});
   }
 
@@ -94,7 +94,7 @@ class Lorenz96 final : public Model {
     }
   }
 
-  // out: [2][width]: row 0 the domain mean, row 1 the energy; sites summed in order 0..n-1
+  // out: [2][width]: row 0 site_mean, row 1 the energy; sites summed in order 0..n-1
   // with Lorenz96Equations' derived-observable arithmetic (shared with the ring kernel).
   void derived(const double* x, double* out, int width) const override {
     const Lorenz96Equations e = equations_;

@@ -31,7 +31,7 @@ struct Lorenz96Equations {
     return (xp1 - xm2) * xm1 - x0 + F;
   }
 
-  /// The derived observables mean = (1/n) sum_k x_k and energy = sum_k x_k^2 / 2: sums over
+  /// The derived observables site_mean = (1/n) sum_k x_k and energy = sum_k x_k^2 / 2: sums over
   /// the sites in order 0..n-1 from 0.0 with add_site(), then mean() and energy().
   template <typename T>
   static void add_site(T x, T& sum, T& squares) {

@@ -16,8 +16,8 @@
 // l = k J + j: Y_{0,0} .. Y_{J-1,0}, Y_{0,1} .. Y_{J-1,K-1}.
 // Observables: x0 .. x{K-1} (the slow variables), y{k}_{j} (the fast variables, same order),
 // then derived ones of the SLOW variables only:
-//   mean   = (1/K) sum_k X_k
-//   energy = sum_k X_k^2 / 2
+//   site_mean = (1/K) sum_k X_k
+//   energy    = sum_k X_k^2 / 2
 // Pure numerics: no allocation in rhs(), tangent() or derived(), no I/O.
 #include <cmath>
 #include <memory>
@@ -63,7 +63,7 @@ class Lorenz96TwoScale final : public Model {
                                     std::to_string(k)});
       }
     }
-    observables_.push_back({"mean", "mean of the slow variables"});
+    observables_.push_back({"site_mean", "mean of the slow variables over the ring"});
     observables_.push_back({"energy", "energy of the slow variables, sum of x_k^2 / 2"});
   }
 
@@ -162,7 +162,7 @@ class Lorenz96TwoScale final : public Model {
     }
   }
 
-  // out: [2][width]: row 0 the mean, row 1 the energy of the slow variables (k in order).
+  // out: [2][width]: row 0 site_mean, row 1 the energy of the slow variables (k in order).
   void derived(const double* s, double* out, int width) const override {
     double* mean = out;
     double* energy = out + width;

@@ -5,7 +5,7 @@
 // accumulators are fed as the last sweep produces each site's new value:
 //   a selected site:        TimeMoments::add_sample on its local row (shift set at a block's
 //                           first sample, origin at the very first);
-//   mean and energy:        Lorenz96Equations::add_site over the sites in order 0..n-1, then
+//   site_mean and energy:   Lorenz96Equations::add_site over the sites in order 0..n-1, then
 //                           mean() and energy(), exactly as the model's derived() does;
 //   sign regimes:           RegimeLanes (lane_regimes.hpp) on the regime observable;
 //   histogram:              its observable stored to a [steps][width] buffer, counted after

@@ -234,6 +234,7 @@ ModelFacts read_model(const Field& model, Spec& spec) {
                      {parameter_names(*info), {}, "parameter", "of " + info->name});
     for (const auto& key : params.keys()) {
       overrides[key] = read_parameter(params.get(key), *find_parameter(*info, key));
+      spec.parameters_given.push_back(key);
     }
   }
   // Errors of the complete parameter set are reported at model.parameters (or at model).

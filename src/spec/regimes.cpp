@@ -97,7 +97,7 @@ std::string read_observable(const Field& name, const ModelFacts& facts) {
     if (o == value) return value;
   }
   name.fail(facts.info->name + " has no observable `" + printable(value) + "`" +
-            did_you_mean(value, facts.observables, "it has"));
+            did_you_mean_qualified(value, facts.observables, "it has"));
 }
 
 std::vector<std::string> read_observable_names(const Field& list, const ModelFacts& facts) {

@@ -169,6 +169,7 @@ struct Spec {
   std::string description;
   std::string model;                    // registry name
   models::ParameterValues parameters;   // complete: defaults with the spec's overrides
+  std::vector<std::string> parameters_given;  // set in model.parameters; the others are defaults
   std::vector<SweepAxis> sweep;         // may be empty: one case with the base parameters
   Schedule schedule;                    // kind none: every parameter constant in time
   Ensemble ensemble;

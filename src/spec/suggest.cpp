@@ -9,6 +9,20 @@ namespace {
 
 char fold(char c) { return static_cast<char>(std::tolower(static_cast<unsigned char>(c))); }
 
+/// Whether `text` holds `word` (case ignored) as one of its underscore-separated parts.
+bool holds_part(const std::string& text, const std::string& word) {
+  for (std::size_t at = 0; at + word.size() <= text.size(); ++at) {
+    const bool starts = at == 0 || text[at - 1] == '_';
+    const bool ends = at + word.size() == text.size() || text[at + word.size()] == '_';
+    if (starts && ends &&
+        std::equal(word.begin(), word.end(), text.begin() + static_cast<long>(at),
+                   [](char a, char b) { return fold(a) == fold(b); })) {
+      return true;
+    }
+  }
+  return false;
+}
+
 /// Candidate list as "`a`, `b` or `c`".
 std::string join_alternatives(const std::vector<std::string>& words, const char* last_sep) {
   std::string out;
@@ -68,6 +82,21 @@ std::string did_you_mean(const std::string& word, const std::vector<std::string>
   if (!near.empty()) return "; did you mean " + join_alternatives(near, " or ") + "?";
   if (list_if_none.empty() || candidates.empty() || candidates.size() > 16) return "";
   return " (" + list_if_none + " " + join_alternatives(candidates, ", ") + ")";
+}
+
+std::string did_you_mean_qualified(const std::string& word,
+                                   const std::vector<std::string>& candidates,
+                                   const std::string& list_if_none) {
+  if (!nearest(word, candidates).empty() || word.empty()) {
+    return did_you_mean(word, candidates, list_if_none);
+  }
+  std::vector<std::string> holding;
+  for (const auto& c : candidates) {
+    if (c != word && holds_part(c, word)) holding.push_back(c);
+  }
+  if (holding.size() > 3) holding.resize(3);
+  if (!holding.empty()) return "; did you mean " + join_alternatives(holding, " or ") + "?";
+  return did_you_mean(word, candidates, list_if_none);
 }
 
 std::string printable(const std::string& text) {

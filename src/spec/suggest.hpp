@@ -21,6 +21,13 @@ std::vector<std::string> nearest(const std::string& word,
 std::string did_you_mean(const std::string& word, const std::vector<std::string>& candidates,
                          const std::string& list_if_none = "expected one of");
 
+/// As did_you_mean(), but when no candidate is a near miss, also suggests the candidates that
+/// hold `word` as one of their underscore-separated parts (`mean` -> `site_mean`): for names
+/// of quantities, where a short generic word is often the last part of a qualified name.
+std::string did_you_mean_qualified(const std::string& word,
+                                   const std::vector<std::string>& candidates,
+                                   const std::string& list_if_none = "expected one of");
+
 /// `text` made printable on one line: control characters escaped, at most 60 characters.
 std::string printable(const std::string& text);
 

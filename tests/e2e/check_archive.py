@@ -115,7 +115,7 @@ def check_l96_identity(path, n_sites, forcing_csv, duration):
     n_sites, duration = int(n_sites), float(duration)
     forcing = [float(v) for v in forcing_csv.split(",")]
     names, mean, _, status, _ = member_arrays(path)
-    im, ie = names.index("mean"), names.index("energy")
+    im, ie = names.index("site_mean"), names.index("energy")
     for c, F in enumerate(forcing):
         tol = F * F / (2 * duration)
         for m in range(mean.shape[1]):
@@ -291,7 +291,7 @@ def stored_snapshot_values(f):
     for name in names:
         if name in variables:
             columns.append(x[..., variables.index(name)])
-        elif name == "mean":       # lorenz96's derived observables (README)
+        elif name == "site_mean":  # lorenz96's derived observables (README)
             columns.append(x.mean(axis=3))
         elif name == "energy":
             columns.append(0.5 * (x ** 2).sum(axis=3))
@@ -347,7 +347,7 @@ def check_ramp_energy(path, n_sites, start_value, end_value, start, end):
         names = [x.decode() if isinstance(x, bytes) else x for x in f["observable"][()]]
         t, snap = f["snapshot/time"][()], f["snapshot/mean"][()]
         offsets = f["case/F"][()]
-    energy, mean = snap[:, :, names.index("energy")], snap[:, :, names.index("mean")]
+    energy, mean = snap[:, :, names.index("energy")], snap[:, :, names.index("site_mean")]
     ramp = a + (b - a) * np.clip((t - start) / (end - start), 0.0, 1.0)
     for c, offset in enumerate(offsets):
         forcing = ramp + offset
@@ -411,7 +411,7 @@ def check_xarray(path):
     if twins:
         for group, variables in {
                 "twins": {"log_separation": ("case", "lead"), "growth_rate": ("case",),
-                          "growth_window": ("case", "bound")},
+                          "growth_window": ("case", "window_edge")},
                 "member": {"horizon": ("case", "member"), "spread": ("case", "member")},
                 "ensemble": {"horizon": ("case",), "horizon_ci95": ("case", "bound"),
                              "horizon_reached": ("case",)}}.items():
@@ -427,6 +427,104 @@ def check_xarray(path):
         if "spec_yaml" not in ds.attrs or ds.attrs.get("status") != "complete":
             fail(f"root attributes: {sorted(ds.attrs)}")
     print(f"ok: {path} opens in xarray with named dimensions")
+
+
+# Units by meaning (the README's units convention: the models are non-dimensional, so a time is
+# in the model's own time unit, a rate per that unit, anything else in the model's own scale).
+TIME_UNIT, RATE_UNIT = "model_time_unit", "1/model_time_unit"
+TIMES = {"member/regime_mean_residence", "member/horizon", "ensemble/horizon",
+         "ensemble/horizon_std", "ensemble/horizon_ci95", "ensemble/decorrelation_time",
+         "twins/lead", "twins/growth_window", "twins/horizon_median",
+         "twins/horizon_median_ci95", "twins/suggested_duration", "snapshot/time",
+         "trajectory/time"}
+RATES = {"member/lyapunov", "ensemble/lyapunov", "ensemble/lyapunov_std",
+         "ensemble/lyapunov_ci95", "twins/growth_rate"}
+
+
+def open_groups(path):
+    """{group: xarray Dataset} for the root ("") and every group of the archive, loaded."""
+    import xarray as xr
+    with h5py.File(path, "r") as f:
+        groups = [""] + sorted(k for k, v in f.items() if isinstance(v, h5py.Group))
+    out = {}
+    for group in groups:
+        with xr.open_dataset(path, engine="h5netcdf", group=group or None) as ds:
+            out[group] = ds.load()
+    return out
+
+
+def check_dimensions(path):
+    """Every dimension name means one thing across the archive's groups, so that xarray can
+    merge them (common practice, netCDF data model: a dimension's coordinate variable labels
+    its positions, and xarray aligns datasets on it by value):
+    - wherever a group gives a dimension coordinate values, they and their units are those of
+      every other group; xr.merge of all the groups' coordinates with join="exact" (which
+      raises on any difference) succeeds;
+    - `bound` is (lower, upper) everywhere; the growth rate's fit window has its own dimension
+      `window_edge` (first, last), and its edges are lead times (exact: the window runs from
+      one lead to another), as are the members' horizons (exact: the first lead over the
+      threshold); the ensemble and twin groups merge and select by either dimension;
+    - no observable's name shadows an attribute of xarray's Dataset (e.g. its method `mean`),
+      so every observable can be reached as a variable after ds.to_dataset(dim="observable");
+    - units: times in model_time_unit, rates in 1/model_time_unit (the lists above; the rate
+      is per the unit the leads are in), every other dataset in one of "1" and those two."""
+    import xarray as xr
+    groups = open_groups(path)
+    seen = {}
+    for group, ds in groups.items():
+        for dim in ds.dims:
+            if dim not in ds.coords:
+                continue
+            values, units = ds[dim].values, ds[dim].attrs.get("units")
+            if dim not in seen:
+                seen[dim] = (group, values, units)
+                continue
+            first, v0, u0 = seen[dim]
+            if not np.array_equal(values, v0) or units != u0:
+                fail(f"dimension {dim}: /{group} has {list(values)} [{units}], "
+                     f"/{first} has {list(v0)} [{u0}]")
+    try:
+        xr.merge([ds.coords.to_dataset() for ds in groups.values()], join="exact",
+                 combine_attrs="drop")
+    except ValueError as e:
+        fail(f"the groups' coordinates do not merge exactly: {e}")
+    if "bound" in seen and list(seen["bound"][1]) != ["lower", "upper"]:
+        fail(f"bound is {list(seen['bound'][1])}, expected lower, upper")
+    if "twins" in groups:
+        twins, ensemble = groups["twins"], groups["ensemble"]
+        if twins["growth_window"].dims != ("case", "window_edge"):
+            fail(f"twins/growth_window dims {twins['growth_window'].dims}")
+        if list(twins["window_edge"].values) != ["first", "last"]:
+            fail(f"window_edge is {list(twins['window_edge'].values)}, expected first, last")
+        lead = twins["lead"].values
+        edges = twins["growth_window"].values
+        horizons = groups["member"]["horizon"].values
+        for name, v in (("growth window edge", edges), ("member horizon", horizons)):
+            v = v[np.isfinite(v)]
+            if v.size == 0 or not np.all(np.isin(v, lead)):
+                fail(f"a {name} is not a lead time (or none is finite)")
+        both = xr.merge([ensemble, twins], join="exact")
+        low = both["horizon_ci95"].sel(bound="lower").values
+        start = both["growth_window"].sel(window_edge="first").values
+        if not (np.array_equal(low, ensemble["horizon_ci95"].values[:, 0], equal_nan=True)
+                and np.array_equal(start, edges[:, 0], equal_nan=True)):
+            fail("selecting bound=lower / window_edge=first after a merge picks other values")
+    for name in (str(v) for v in groups[""]["observable"].values):
+        if hasattr(xr.Dataset, name):
+            fail(f"observable {name!r} shadows xarray's Dataset.{name}")
+    lead_units = groups["twins"]["lead"].attrs["units"] if "twins" in groups else TIME_UNIT
+    for group, ds in groups.items():
+        for name, var in ds.variables.items():
+            key = f"{group}/{name}"
+            units = var.attrs.get("units")
+            if key in TIMES and units != TIME_UNIT:
+                fail(f"{key}: units {units!r}, expected {TIME_UNIT}")
+            if key in RATES and units != "1/" + lead_units:
+                fail(f"{key}: units {units!r}, expected 1/{lead_units}")
+            if units not in ("1", TIME_UNIT, RATE_UNIT):
+                fail(f"{key}: units {units!r}")
+    print(f"ok: {path}: {len(seen)} dimensions with one set of coordinates each across "
+          f"{len(groups)} groups; units name model time")
 
 
 def check_lyapunov_sum(path, trace, unforced_case="0"):
@@ -842,6 +940,7 @@ CHECKS = {
     "mirror": check_mirror,
     "summary-json": check_summary_json,
     "xarray": check_xarray,
+    "dimensions": check_dimensions,
     "schedule-identity": check_schedule_identity,
     "snapshots": check_snapshots,
     "ramp-energy": check_ramp_energy,

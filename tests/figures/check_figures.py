@@ -333,9 +333,9 @@ def check_plot(plot, archive, outdir, program, expect_csv, skip_csv):
 
 def check_later_datasets(plot, archive, outdir):
     """The figures of snapshot, twin, Lyapunov and horizon datasets are drawn when an archive
-    holds them. Their layout is DESIGN.md's archive table; the values are derived from this
-    archive's own stored trajectories (two members per case), so the drawing runs on numbers
-    of the project's scenario. This checks that the figures are drawn, not those numbers."""
+    holds them. Their layout is the archive schema's (`chaosweep schema`); the values are
+    derived from this archive's own stored trajectories (two members per case), so the drawing
+    runs on numbers of the project's scenario. This checks that the figures are drawn, not those numbers."""
     os.makedirs(outdir, exist_ok=True)
     copy = os.path.join(outdir, "later.h5")
     shutil.copyfile(archive, copy)

@@ -48,7 +48,7 @@ spec::Spec l96_spec() {
   s.statistics.regimes.coordinates = {"x0", "energy"};
   s.statistics.regimes.centroids = {{2.0, 100.0}, {-1.0, 150.0}};
   s.statistics.regimes.labels = {"a", "b"};
-  s.statistics.histogram = {true, "mean", 10, -5.0, 10.0};
+  s.statistics.histogram = {true, "site_mean", 10, -5.0, 10.0};
   return s;
 }
 

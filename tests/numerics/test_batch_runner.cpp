@@ -506,7 +506,7 @@ L96Residuals lorenz96_residuals(double dt) {
   spec.integration.duration = 50.0;
   spec.output.trajectories = {8, 5.0};
   const plan::Plan plan = plan::make_plan(spec);
-  EXPECT_EQ(plan.observables.size(), static_cast<std::size_t>(n + 2));  // x0..x39, mean, energy
+  EXPECT_EQ(plan.observables.size(), static_cast<std::size_t>(n + 2));  // x0..x39, site_mean, energy
   const run::CaseRunner runner(spec, plan, plan.cases[0]);
   const run::BatchResult res = runner.run(batch(0, 0, 8));
   const auto model = make_model("lorenz96");

@@ -89,7 +89,7 @@ struct L63Parameters {
   double sigma, rho, beta, f, d[3];
 };
 
-/// Lorenz (1963) with forcing f*d, written here from the equations in DESIGN.md, for GSL.
+/// Lorenz (1963) with forcing f*d, written here from the README's equations, for GSL.
 int l63_gsl(double, const double y[], double dydt[], void* params) {
   const auto* p = static_cast<const L63Parameters*>(params);
   dydt[0] = p->sigma * (y[1] - y[0]) + p->f * p->d[0];

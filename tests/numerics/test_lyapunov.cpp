@@ -195,7 +195,7 @@ TEST(Lorenz96TwoScale, ObservablesAreSlowThenFastThenMeanAndEnergy) {
   EXPECT_EQ(obs[5].name, "y0_1");
   EXPECT_EQ(obs[6].name, "y1_0");
   EXPECT_EQ(obs[11].name, "y3_1");
-  EXPECT_EQ(obs[12].name, "mean");
+  EXPECT_EQ(obs[12].name, "site_mean");
   EXPECT_EQ(obs[13].name, "energy");
   // Exact: small integers, no rounding. Only the slow variables count.
   const std::vector<double> s = {1, 2, 3, 4, 9, 9, 9, 9, 9, 9, 9, 9};

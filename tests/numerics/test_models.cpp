@@ -199,7 +199,7 @@ TEST(Lorenz63, DivergenceIsConstant) {
   }
 }
 
-// Exact (DESIGN.md equations): the forcing adds the constant tendency f*d, with d used as
+// Exact (the README's equations): the forcing adds the constant tendency f*d, with d used as
 // given (here |d| != 1). Each component is one extra addition: tolerance a few ulps of |f|.
 TEST(Lorenz63, ForcingAddsTheGivenTendency) {
   const double f = 3.5;
@@ -284,7 +284,7 @@ TEST(Lorenz96, JacobianTraceIsMinusN) {
   }
 }
 
-// Exact (definitions in lorenz96.cpp): mean = sum x_k / n, energy = sum x_k^2 / 2. Tolerance:
+// Exact (definitions in lorenz96.cpp): site_mean = sum x_k / n, energy = sum x_k^2 / 2. Tolerance:
 // summation rounding, n eps times the sums of magnitudes.
 TEST(Lorenz96, DerivedObservables) {
   const int n = 40;
@@ -293,7 +293,7 @@ TEST(Lorenz96, DerivedObservables) {
   ASSERT_EQ(obs.size(), static_cast<std::size_t>(n + 2));
   EXPECT_EQ(obs[0].name, "x0");
   EXPECT_EQ(obs[n - 1].name, "x39");
-  EXPECT_EQ(obs[n].name, "mean");
+  EXPECT_EQ(obs[n].name, "site_mean");
   EXPECT_EQ(obs[n + 1].name, "energy");
   const std::vector<double> x = random_batch(std::vector<double>(n, 2.0), 6.0, 1, 21);
   double sum = 0.0, abs_sum = 0.0, sq = 0.0;

@@ -6,6 +6,7 @@
 namespace {
 
 using chaosweep::spec::did_you_mean;
+using chaosweep::spec::did_you_mean_qualified;
 using chaosweep::spec::edit_distance;
 using chaosweep::spec::nearest;
 using chaosweep::spec::printable;
@@ -45,6 +46,19 @@ TEST(Suggest, MessageFragments) {
   EXPECT_EQ(did_you_mean("qqq", {"a", "b"}, ""), "");
   EXPECT_EQ(did_you_mean("lorenz36", {"lorenz63", "lorenz96"}),
             "; did you mean `lorenz63` or `lorenz96`?");
+}
+
+// Common practice for qualified names: a bare part (`mean`) points at the names that hold it
+// as a whole underscore-separated part, and only when no name is a near miss.
+TEST(Suggest, QualifiedNames) {
+  const std::vector<std::string> ring = {"x0", "x1", "site_mean", "energy"};
+  EXPECT_EQ(did_you_mean_qualified("mean", ring), "; did you mean `site_mean`?");
+  EXPECT_EQ(did_you_mean_qualified("MEAN", ring), "; did you mean `site_mean`?");
+  EXPECT_EQ(did_you_mean_qualified("site_meen", ring), "; did you mean `site_mean`?");
+  EXPECT_EQ(did_you_mean_qualified("energi", ring), "; did you mean `energy`?");
+  // a part must be whole: `ean` is inside `site_mean` but not one of its parts
+  EXPECT_EQ(did_you_mean_qualified("ean", ring, ""), "");
+  EXPECT_EQ(did_you_mean_qualified("site", ring, ""), "; did you mean `site_mean`?");
 }
 
 TEST(Suggest, PrintableKeepsOneLine) {

@@ -1,6 +1,6 @@
 // Valid fixtures parse to the values written in them, with every default filled in.
 // Expected values are read off the fixture files (tests/fixtures/specs/valid/); defaults are
-// those of the public spec contract (DESIGN.md, "The campaign spec").
+// those of the public spec contract (README, "The campaign spec").
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -111,9 +111,9 @@ TEST(ValidSpec, Lorenz96Defaults) {
   EXPECT_EQ(s.run.batch_size, 64);
 
   // Default observables: every observable of the model, in its order (state variables
-  // x0..x7, then mean and energy, per the lorenz96 contract).
+  // x0..x7, then site_mean and energy, per the lorenz96 contract).
   const std::vector<std::string> expected = {"x0", "x1", "x2", "x3", "x4",
-                                             "x5", "x6", "x7", "mean", "energy"};
+                                             "x5", "x6", "x7", "site_mean", "energy"};
   EXPECT_EQ(s.statistics.observables, expected);
 }
 
@@ -153,10 +153,10 @@ TEST(ValidSpec, Lorenz96RegimesInDerivedObservables) {
   EXPECT_TRUE(s.sweep.empty());
   EXPECT_EQ(s.ensemble.initial.kind, InitialKind::attractor);
   EXPECT_EQ(s.ensemble.initial.spinup, 50.0);
-  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"mean", "energy", "x0"}));
+  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"site_mean", "energy", "x0"}));
   const Regimes& r = s.statistics.regimes;
   EXPECT_EQ(r.kind, RegimeKind::nearest);
-  EXPECT_EQ(r.coordinates, (std::vector<std::string>{"mean", "energy"}));
+  EXPECT_EQ(r.coordinates, (std::vector<std::string>{"site_mean", "energy"}));
   ASSERT_EQ(r.centroids.size(), 3u);
   EXPECT_EQ(r.centroids[2], (std::vector<double>{3.0, 500.0}));
   EXPECT_EQ(r.labels, (std::vector<std::string>{"low", "middle", "high"}));
@@ -176,7 +176,7 @@ TEST(ValidSpec, TwoScaleLyapunov) {
   EXPECT_TRUE(s.statistics.lyapunov.enabled);
   EXPECT_EQ(s.statistics.lyapunov.exponents, 5);
   EXPECT_EQ(s.statistics.lyapunov.renormalise_every, 0.05);
-  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"x0", "mean", "energy"}));
+  EXPECT_EQ(s.statistics.observables, (std::vector<std::string>{"x0", "site_mean", "energy"}));
   // Without the section the exponents are off.
   EXPECT_FALSE(load_spec(valid("lorenz96_defaults.yaml")).statistics.lyapunov.enabled);
 }
