@@ -268,11 +268,13 @@ void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
     if (!(pairs > 0.0) || reached >= parallel::kMostPairs * pairs) continue;
     if (reached == 0.0 && !std::isfinite(e.growth_rate[c])) continue;  // flagged above
     if (std::isfinite(e.suggested_duration[c])) {
-      spdlog::warn("{}: only {} of {} twin pairs separated within the window; a duration "
-                   "of about {:.3g} would let about 90% separate",
+      spdlog::warn("{}: only {} of {} twin pairs separated within the window; at the pace so "
+                   "far a duration of about {:.3g} would let about 90% separate",
                    plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c], e.suggested_duration[c]);
     } else {
-      spdlog::warn("{}: only {} of {} twin pairs separated within the window",
+      spdlog::warn("{}: only {} of {} twin pairs separated within the window, and their "
+                   "survival curve levelled off or too few separated to extrapolate: a longer "
+                   "window may not separate the rest",
                    plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c]);
     }
   }

@@ -484,8 +484,11 @@ void print_twin_notes(const ArchiveSummary& s) {
                   static_cast<long long>(s.twin_pairs[c]),
                   median ? "read the median" : "fewer than half separated, so no median");
       if (!s.suggested_duration.empty() && std::isfinite(s.suggested_duration[c])) {
-        std::printf("; a duration of about %.3g would let about 90%% separate",
-                    s.suggested_duration[c]);
+        std::printf("; at the pace so far a duration of about %.3g would let about 90%% "
+                    "separate", s.suggested_duration[c]);
+      } else if (!s.suggested_duration.empty()) {
+        std::printf("; their survival curve levelled off or too few separated to extrapolate: "
+                    "a longer window may not separate the rest");
       }
       std::printf("\n");
     }

@@ -155,14 +155,23 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
     r.horizon_median_ci95[2 * c] = s.median_low;
     r.horizon_median_ci95[2 * c + 1] = s.median_high;
 
-    // Fewer than 90% separated: the lead by which about 90% would, from the fitted growth.
+    // Fewer than 90% separated: the lead by which about 90% would, from the survival curve
+    // (or, with too few separated for it, from the fitted growth); NaN where the curve has
+    // levelled off.
     const double pairs = static_cast<double>(r.twin_pairs[c]);
     if (pairs > 0.0 && static_cast<double>(e.n) < kMostPairs * pairs) {
-      const std::size_t end = static_cast<std::size_t>(
-          std::find(lead.begin(), lead.end(), fit.end) - lead.begin());
-      const double sd_end = end < leads ? t.separation[end].stddev() : NAN;
-      r.suggested_duration[c] =
-          stats::lead_for_share(fit, sd_end, t.level.n > 0.0 ? t.level.mean : NAN, kMostPairs);
+      double duration = stats::time_for_share(lead, t.separated, s, kMostPairs);
+      const double separated = static_cast<double>(e.n) / pairs;
+      if (std::isnan(duration) && separated < stats::kMinShareForFit &&
+          !stats::survival_levelled_off(lead, t.separated)) {
+        const std::size_t end = static_cast<std::size_t>(
+            std::find(lead.begin(), lead.end(), fit.end) - lead.begin());
+        const double sd_end = end < leads ? t.separation[end].stddev() : NAN;
+        duration = stats::lead_for_share(fit, sd_end, t.level.n > 0.0 ? t.level.mean : NAN,
+                                         kMostPairs);
+        if (!(duration > lead.back())) duration = NAN;
+      }
+      r.suggested_duration[c] = duration;
     }
   }
 }

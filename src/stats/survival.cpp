@@ -1,6 +1,8 @@
 // Kaplan-Meier survival estimate (see survival.hpp).
 #include "stats/survival.hpp"
 
+#include <gsl/gsl_cdf.h>
+
 #include <cmath>
 #include <limits>
 
@@ -29,6 +31,34 @@ Survival kaplan_meier(const std::vector<double>& t, const std::vector<double>& e
     if (std::isnan(s.median_high) && survival + kZ * s.stderr_[k] <= 0.5) s.median_high = t[k];
   }
   return s;
+}
+
+bool survival_levelled_off(const std::vector<double>& t, const std::vector<double>& events) {
+  if (t.empty()) return false;
+  const double late = t.front() + 0.75 * (t.back() - t.front());
+  bool any = false, recent = false;
+  for (std::size_t k = 0; k < t.size(); ++k) {
+    any = any || events[k] > 0.0;
+    recent = recent || (t[k] >= late && events[k] > 0.0);
+  }
+  return any && !recent;
+}
+
+double time_for_share(const std::vector<double>& t, const std::vector<double>& events,
+                      const Survival& s, double share) {
+  constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+  const std::size_t n = t.size();
+  if (n < 2 || !(s.survival[n - 1] > 1.0 - share) || survival_levelled_off(t, events)) {
+    return kNaN;
+  }
+  const double failed = 1.0 - s.survival[n - 1];
+  if (!(failed >= kMinShareForFit)) return kNaN;
+  std::size_t a = 0;
+  while (a < n && 1.0 - s.survival[a] < 0.5 * failed) ++a;
+  const double z_end = gsl_cdf_ugaussian_Pinv(failed);
+  const double sigma = (t[n - 1] - t[a]) / (z_end - gsl_cdf_ugaussian_Pinv(0.5 * failed));
+  if (!(sigma > 0.0)) return kNaN;
+  return t[n - 1] + (gsl_cdf_ugaussian_Pinv(share) - z_end) * sigma;
 }
 
 }  // namespace chaosweep::stats

@@ -2,6 +2,7 @@
 // non-chaotic behaviour (stats/dynamics_check.hpp). The survival estimate is also checked
 // against an independent computation from the published formulas on synthetic censored
 // samples (check_survival.py).
+#include <gsl/gsl_cdf.h>
 #include <gtest/gtest.h>
 
 #include <cmath>
@@ -47,6 +48,37 @@ TEST(Survival, NoFailuresNoMedian) {
   EXPECT_TRUE(std::isnan(s.median_low));
   const stats::Survival none = stats::kaplan_meier({1, 2}, {0, 0}, {0, 0});
   EXPECT_TRUE(std::isnan(none.survival[0]));
+}
+
+// Exact: failure times drawn from a normal law N(50, 10^2) (counts on a grid of 0.1 from
+// N = 1e6 units, GSL's normal CDF) and censored at T = 60. The two-point normal fit of the
+// observed curve recovers the law, so the time by which 90% fail is 50 + 1.2815516 * 10 =
+// 62.8155 (Gaussian 0.9 quantile, GSL), to the grid's resolution (0.1 in t_a, which moves
+// sigma by about 1%: tolerance 0.3).
+TEST(Survival, TimeForShareExtrapolatesTheObservedCurve) {
+  std::vector<double> t, events, censored;
+  const double N = 1e6;
+  double previous = 0.0, total = 0.0;
+  for (int k = 0; k <= 600; ++k) {
+    t.push_back(0.1 * k);
+    const double cdf = gsl_cdf_ugaussian_P((t.back() - 50.0) / 10.0);
+    events.push_back(std::round(N * cdf) - std::round(N * previous));
+    previous = cdf;
+    total += events.back();
+    censored.push_back(0.0);
+  }
+  censored.back() = N - total;
+  const stats::Survival s = stats::kaplan_meier(t, events, censored);
+  EXPECT_NEAR(stats::time_for_share(t, events, s, 0.9), 62.8155, 0.3);
+  EXPECT_FALSE(stats::survival_levelled_off(t, events));
+  // Stop every failure after t = 40 (a quarter of the window before its end is 45): levelled.
+  for (std::size_t k = 401; k < t.size(); ++k) {
+    censored.back() += events[k];
+    events[k] = 0.0;
+  }
+  EXPECT_TRUE(stats::survival_levelled_off(t, events));
+  EXPECT_TRUE(std::isnan(
+      stats::time_for_share(t, events, stats::kaplan_meier(t, events, censored), 0.9)));
 }
 
 /// Evidence of a case with three observables whose members behave like independent chaotic
