@@ -111,6 +111,7 @@ void end_of_run(const run::BatchProgress& work, const models::Model& model, cons
   const run::BatchState saved = work.save();
   const auto it = std::find_if(saved.reals.begin(), saved.reals.end(),
                                [](const auto& named) { return named.first == "state"; });
+  if (it == saved.reals.end()) throw Error("the pilot found no member states in its batch");
   const int dim = p.state_dim, width = p.batch_size;
   const std::vector<double>& x = it->second;  // [state_dim][width]
   const std::size_t n_all = model.observables().size();
