@@ -249,6 +249,9 @@ CaseVerdict judge_case(const MemberStats& at_dt, std::size_t n_obs, int dim) {
   }
   v.evidence.growth = rms_spread(at_dt.end_state, valid, dim) /
                       rms_spread(at_dt.start_state, valid, dim);
+  if (std::count(valid.begin(), valid.end(), true) < 2) {
+    v.evidence.rest = v.evidence.together = v.evidence.growth = NAN;  // nothing to judge
+  }
   v.behaviour = stats::classify(v.evidence);
   return v;
 }
