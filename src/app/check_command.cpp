@@ -2,10 +2,13 @@
 #include <algorithm>
 #include <charconv>
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <string>
+#include <vector>
 
 #include "app/commands.hpp"
+#include "app/local_work.hpp"
 #include "core/error.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
@@ -77,21 +80,95 @@ double twin_doubles(const spec::Spec& spec, const plan::Plan& plan, double batch
   return (leads + 4.0 * plan.state_dim) * plan.batch_size + batches * 3.0 * leads;
 }
 
-/// Member-steps per second of one core, measured on one batch of the first case.
-double calibrate(const spec::Spec& spec, const plan::Plan& plan) {
-  plan::Plan probe = plan;
-  probe.spinup_steps = 0;
-  probe.accumulate_steps = std::min<std::int64_t>(plan.accumulate_steps, 4000);
-  probe.trajectory_members = 0;
-  probe.trajectory_every_steps = 0;
-  probe.trajectory_samples = 0;
-  probe.snapshot_every_steps = 0;
-  probe.snapshot_count = 0;
-  const run::CaseRunner runner(spec, probe, probe.cases.front());
+/// The calibration: a short piece of the campaign itself, timed.
+struct Calibration {
+  double rate = 0.0;                // member-steps per second of one core
+  double seconds = 0.0;             // of the timed piece
+  std::int64_t spinup_steps = 0;    // of the timed piece
+  std::int64_t accumulate_steps = 0;
+  int width = 0;                    // members integrated side by side (the batch width)
+};
+
+constexpr double kCalibrationSeconds = 0.2;  // aim of the timed piece
+constexpr std::int64_t kFirstPieceSteps = 200;
+
+/// The campaign's plan cut to `steps` steps of its first batch, spin-up and accumulation in the
+/// campaign's proportions (at least one accumulated step), with every statistic at the spec's
+/// own spacing: snapshots, twin leads and trajectory samples keep their step intervals, so the
+/// piece has the same events per step as the campaign. Lyapunov exponents, the histogram,
+/// regimes and a schedule come with the spec.
+plan::Plan calibration_plan(const plan::Plan& plan, std::int64_t steps) {
+  plan::Plan p = plan;
+  const std::int64_t total = plan.total_steps();
+  steps = std::clamp<std::int64_t>(steps, 2, total);
+  p.spinup_steps = std::min<std::int64_t>(
+      steps - 1, std::llround(static_cast<double>(steps) * plan.spinup_steps / total));
+  p.accumulate_steps = steps - p.spinup_steps;
+  if (p.snapshot_every_steps > 0) {
+    p.snapshot_count = p.accumulate_steps / p.snapshot_every_steps + 1;
+  }
+  if (p.trajectory_every_steps > 0) {
+    p.trajectory_samples = p.total_steps() / p.trajectory_every_steps + 1;
+  }
+  p.cases = {plan.cases.front()};
+  p.batches = {plan.batches.front()};
+  return p;
+}
+
+/// Seconds to integrate the first batch of the first case over `piece` and compute everything
+/// the campaign computes for a finished batch (its Lyapunov exponents included). The case's
+/// base state (an attractor spin-up of one state) is reached before the clock starts.
+double time_piece(const spec::Spec& spec, const plan::Plan& piece) {
+  const run::CaseRunner runner(spec, piece, piece.cases.front());
   const auto start = std::chrono::steady_clock::now();
-  runner.run(probe.batches.front());
-  const double s = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-  return static_cast<double>(probe.batch_size) * probe.accumulate_steps / s;
+  run::BatchResult result = runner.run(piece.batches.front());
+  add_lyapunov(spec, piece, result);
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+/// Member-steps per second of one core for this campaign, statistics included: a first short
+/// piece, then one long enough for about kCalibrationSeconds (never longer than the campaign's
+/// own run of a batch), whose rate is the measurement.
+Calibration calibrate(const spec::Spec& spec, const plan::Plan& plan) {
+  std::int64_t steps = std::min(kFirstPieceSteps, plan.total_steps());
+  for (;;) {
+    const plan::Plan piece = calibration_plan(plan, steps);
+    const double seconds = time_piece(spec, piece);
+    const bool enough = seconds >= kCalibrationSeconds / 2 || piece.total_steps() == plan.total_steps();
+    if (enough) {
+      Calibration c;
+      c.seconds = seconds;
+      c.spinup_steps = piece.spinup_steps;
+      c.accumulate_steps = piece.accumulate_steps;
+      c.width = piece.batch_size;
+      c.rate = static_cast<double>(piece.batch_size) * piece.total_steps() / std::max(seconds, 1e-9);
+      return c;
+    }
+    const double grow = seconds > 0 ? std::clamp(kCalibrationSeconds / seconds, 2.0, 1000.0) : 1000.0;
+    steps = std::min<std::int64_t>(plan.total_steps(),
+                                   static_cast<std::int64_t>(static_cast<double>(piece.total_steps()) * grow));
+  }
+}
+
+/// What the calibration ran besides the integration and the time moments, as a list.
+std::string calibrated_statistics(const spec::Spec& spec) {
+  const spec::Statistics& st = spec.statistics;
+  std::vector<std::string> parts = {"time moments"};
+  if (st.regimes.kind == spec::RegimeKind::sign) parts.push_back("sign regimes");
+  if (st.regimes.kind == spec::RegimeKind::nearest) parts.push_back("nearest-centroid regimes");
+  if (st.histogram.enabled) parts.push_back("histogram");
+  if (st.lyapunov.enabled) {
+    parts.push_back("Lyapunov exponents (" + std::to_string(st.lyapunov.exponents) + ")");
+  }
+  if (st.twins.enabled) parts.push_back("twins");
+  if (st.snapshots.enabled) parts.push_back("snapshots");
+  if (spec.output.trajectories.members > 0) parts.push_back("trajectories");
+  if (spec.schedule.kind != spec::ScheduleKind::none) parts.push_back("schedule");
+  std::string text;
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    text += (i == 0 ? "" : i + 1 == parts.size() ? " and " : ", ") + parts[i];
+  }
+  return text;
 }
 
 /// Numbers as the shortest text that reads back to the same double; vectors in brackets.
@@ -213,8 +290,15 @@ int check_command(const CheckOptions& options) {
   std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());
 
   if (options.calibrate) {
-    const double rate = calibrate(spec, plan);
+    const Calibration c = calibrate(spec, plan);
+    const double rate = c.rate;
     const double core_seconds = member_steps / rate;
+    std::printf("  calibration    %d members x %lld steps (%lld spin-up + %lld accumulated) of "
+                "case %lld with %s: %.2g s\n",
+                c.width, static_cast<long long>(c.spinup_steps + c.accumulate_steps),
+                static_cast<long long>(c.spinup_steps), static_cast<long long>(c.accumulate_steps),
+                static_cast<long long>(plan.cases.front().index),
+                calibrated_statistics(spec).c_str(), c.seconds);
     std::printf("  cost           %.3g member-steps/s per core (measured) -> %.3g core-hours, "
                 "about %s on %d ranks\n",
                 rate, core_seconds / 3600, hours_text(share * plan.batch_size *

@@ -88,12 +88,9 @@ void LocalWork::start_next() {
   }
 }
 
-namespace {
-
-/// The leading Lyapunov exponents of a finished batch's members, from their initial states
-/// (a second integration with tangent vectors; NaN for members that became non-finite). With a
-/// schedule, its own model copy starts at the t = 0 value and the scheduled parameter is set
-/// at every stage time by the same clock the members' kernel uses (run/schedule.hpp).
+// With a schedule, the Lyapunov integration's own model copy starts at the t = 0 value and the
+// scheduled parameter is set at every stage time by the same clock the members' kernel uses
+// (run/schedule.hpp).
 void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& r) {
   const spec::Lyapunov& l = spec.statistics.lyapunov;
   if (!l.enabled) return;
@@ -116,8 +113,6 @@ void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResu
     }
   }
 }
-
-}  // namespace
 
 void LocalWork::finish_current() {
   results_[current_index_] = current_->finish();

@@ -8,10 +8,14 @@
 //   at dt/2: the same members from the same initial states (the dt run's base state is given
 //            explicitly, so an attractor spin-up is not redone at dt/2), 2x the steps, the
 //            same model time.
-// Figures (stats/pilot_estimates.hpp): the paired change of the ensemble time means between
-// dt and dt/2 against its standard error; the decorrelation time tau = T Var_m / (2 s2) from
-// the dt run; W = T Var_m, from which the 95% half-width of n members over T is
-// t_{0.975,n-1} sqrt(W / (n T)), for case means and for the response slopes.
+// Figures (stats/pilot_estimates.hpp): what each case's members do (at rest, moving as one,
+// or spread like independent samples), from their time statistics and their states at the
+// start and the end of the dt run; the paired change of the ensemble time means between dt and
+// dt/2 against the larger of its standard error and a floor (which decides when the members
+// coincide); the decorrelation time tau = T Var_m / (2 s2) from the dt run; W = T Var_m, from
+// which the 95% half-width of n members over T is t_{0.975,n-1} sqrt(W / (n T)), for case
+// means and for the response slopes. Cases whose members do not vary independently give no
+// tau, W or half-width.
 #include "app/pilot.hpp"
 
 #include <algorithm>
@@ -22,6 +26,7 @@
 #include <vector>
 
 #include "core/error.hpp"
+#include "models/model.hpp"
 #include "run/batch_runner.hpp"
 #include "stats/ensemble.hpp"
 #include "stats/pilot_estimates.hpp"
@@ -88,12 +93,38 @@ struct Timeline {
 };
 
 /// Per-member time statistics of one case at one step size, member-major [member][observable]
-/// (NaN for a member that became non-finite).
+/// (NaN for a member that became non-finite), with the members' states at the start and the end
+/// of the run, member-major [member][state] and the observables at the end [member][observable].
 struct MemberStats {
   std::vector<double> mean;
   std::vector<double> variance;
+  std::vector<double> start_state;
+  std::vector<double> end_state;
+  std::vector<double> end_value;
   std::int64_t non_finite = 0;
 };
+
+/// The members' state at the current step of `work`, member-major [count][state_dim], and the
+/// selected observables there, [count][observables].
+void end_of_run(const run::BatchProgress& work, const models::Model& model, const plan::Plan& p,
+                int count, std::vector<double>& state, std::vector<double>& value) {
+  const run::BatchState saved = work.save();
+  const auto it = std::find_if(saved.reals.begin(), saved.reals.end(),
+                               [](const auto& named) { return named.first == "state"; });
+  if (it == saved.reals.end()) throw Error("the pilot found no member states in its batch");
+  const int dim = p.state_dim, width = p.batch_size;
+  const std::vector<double>& x = it->second;  // [state_dim][width]
+  const std::size_t n_all = model.observables().size();
+  std::vector<double> derived((n_all - static_cast<std::size_t>(dim)) * width);
+  model.derived(x.data(), derived.data(), width);
+  for (int m = 0; m < count; ++m) {
+    for (int i = 0; i < dim; ++i) state.push_back(x[static_cast<std::size_t>(i) * width + m]);
+    for (int index : p.observable_index) {
+      value.push_back(index < dim ? x[static_cast<std::size_t>(index) * width + m]
+                                  : derived[static_cast<std::size_t>(index - dim) * width + m]);
+    }
+  }
+}
 
 /// The pilot's spec: the campaign's, without the extras the pilot does not look at.
 spec::Spec pilot_spec(const spec::Spec& spec, double dt) {
@@ -134,6 +165,8 @@ MemberStats run_members(const spec::Spec& spec, const plan::Plan& p, PilotProgre
                         std::vector<double>& base) {
   const run::CaseRunner runner(spec, p, p.cases.front());
   base = runner.base_state();
+  const std::unique_ptr<models::Model> model =
+      models::Registry::instance().find(spec.model)->make(p.cases.front().parameters);
   MemberStats out;
   const std::int64_t chunk = std::max<std::int64_t>(1, p.total_steps() / 50);
   for (const plan::Batch& batch : p.batches) {
@@ -143,7 +176,9 @@ MemberStats run_members(const spec::Spec& spec, const plan::Plan& p, PilotProgre
       work->advance(chunk);
       progress.add(static_cast<double>(work->step() - before) * p.batch_size);
     }
+    end_of_run(*work, *model, p, batch.count, out.end_state, out.end_value);
     const run::BatchResult r = work->finish();
+    out.start_state.insert(out.start_state.end(), r.initial_state.begin(), r.initial_state.end());
     out.mean.insert(out.mean.end(), r.time_mean.begin(), r.time_mean.end());
     out.variance.insert(out.variance.end(), r.time_variance.begin(), r.time_variance.end());
     for (std::uint8_t s : r.status) out.non_finite += s != run::kValid;
@@ -163,11 +198,67 @@ struct Row {
   std::size_t case_slot = 0;  // index into the pilot's cases
   std::size_t observable = 0;
   stats::PairedDifference dt_change;
+  double dt_floor = 0.0;  // stats::dt_change_floor of the dt run
   stats::Decorrelation decorrelation;
 };
 
+/// Root-mean-square distance of the valid members' states from their ensemble mean state,
+/// states member-major [member][dim]; `valid` marks members with finite time means.
+double rms_spread(const std::vector<double>& states, const std::vector<bool>& valid, int dim) {
+  std::vector<stats::Moments> per_variable(static_cast<std::size_t>(dim));
+  for (std::size_t m = 0; m < valid.size(); ++m) {
+    if (!valid[m]) continue;
+    for (int i = 0; i < dim; ++i) per_variable[i].add(states[m * dim + i]);
+  }
+  double sum = 0.0;
+  for (const stats::Moments& v : per_variable) sum += v.variance();
+  return std::sqrt(sum);
+}
+
+/// What the members of one pilot case do (stats::classify), from the run at dt.
+struct CaseVerdict {
+  stats::BehaviourEvidence evidence;
+  stats::CaseBehaviour behaviour = stats::CaseBehaviour::chaotic;
+  std::vector<double> means;  // ensemble time mean per observable (a fixed point's coordinates)
+  bool usable() const {       // do tau and the half-widths mean anything?
+    return behaviour == stats::CaseBehaviour::chaotic ||
+           behaviour == stats::CaseBehaviour::independent;
+  }
+};
+
+CaseVerdict judge_case(const MemberStats& at_dt, std::size_t n_obs, int dim) {
+  CaseVerdict v;
+  const std::size_t members = at_dt.mean.size() / n_obs;
+  std::vector<bool> valid(members, true);
+  for (std::size_t m = 0; m < members; ++m) {
+    for (std::size_t o = 0; o < n_obs; ++o) {
+      valid[m] = valid[m] && std::isfinite(at_dt.mean[m * n_obs + o]) &&
+                 std::isfinite(at_dt.end_value[m * n_obs + o]);
+    }
+  }
+  for (std::size_t o = 0; o < n_obs; ++o) {
+    stats::Moments mean, variance, end;
+    for (std::size_t m = 0; m < members; ++m) {
+      if (!valid[m]) continue;
+      mean.add(at_dt.mean[m * n_obs + o]);
+      variance.add(at_dt.variance[m * n_obs + o]);
+      end.add(at_dt.end_value[m * n_obs + o]);
+    }
+    v.means.push_back(mean.mean);
+    stats::add_evidence(v.evidence, mean.mean, variance.mean, end.variance());
+  }
+  v.evidence.growth = rms_spread(at_dt.end_state, valid, dim) /
+                      rms_spread(at_dt.start_state, valid, dim);
+  if (std::count(valid.begin(), valid.end(), true) < 2) {
+    v.evidence.rest = v.evidence.together = v.evidence.growth = NAN;  // nothing to judge
+  }
+  v.behaviour = stats::classify(v.evidence);
+  return v;
+}
+
 struct PilotResult {
   std::vector<plan::Case> cases;
+  std::vector<CaseVerdict> verdicts;  // per pilot case
   std::vector<Row> rows;  // case-major, then observable
   std::int64_t non_finite = 0;
   double window = 0.0;    // pilot T
@@ -203,6 +294,7 @@ PilotResult run_all(const spec::Spec& spec, const plan::Plan& plan, const PilotO
     const MemberStats at_half = run_members(half, pilot_plan(plan, c, options.members, fine),
                                             progress, same_base);
     result.non_finite += at_dt.non_finite + at_half.non_finite;
+    result.verdicts.push_back(judge_case(at_dt, n_obs, plan.state_dim));
     for (std::size_t o = 0; o < n_obs; ++o) {
       Row row;
       row.case_slot = k;
@@ -211,6 +303,8 @@ PilotResult run_all(const spec::Spec& spec, const plan::Plan& plan, const PilotO
       row.dt_change = stats::paired_difference(means, column(at_half.mean, o, n_obs));
       row.decorrelation =
           stats::decorrelation_time(means, column(at_dt.variance, o, n_obs), result.window);
+      row.dt_floor = stats::dt_change_floor(result.verdicts.back().means[o],
+                                            row.decorrelation.time_variance, dt, result.window);
       result.rows.push_back(row);
     }
   }
@@ -235,6 +329,68 @@ double core_hours(const spec::Spec& spec, const plan::Plan& plan, std::int64_t m
          3600.0;
 }
 
+/// Prints `text` wrapped at 96 columns, every line indented by `indent` spaces.
+void print_wrapped(const std::string& text, int indent) {
+  const std::size_t width = 96 - static_cast<std::size_t>(indent);
+  std::size_t start = 0;
+  while (start < text.size()) {
+    std::size_t end = start + width;
+    if (end >= text.size()) {
+      end = text.size();
+    } else {
+      const std::size_t space = text.rfind(' ', end);
+      if (space != std::string::npos && space > start) end = space;
+    }
+    std::printf("%*s%s\n", indent, "", text.substr(start, end - start).c_str());
+    start = end;
+    while (start < text.size() && text[start] == ' ') ++start;
+  }
+}
+
+/// Prints what the members of each pilot case do, and what that means for the figures below.
+void print_behaviour(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r) {
+  std::printf("\n  behaviour of each case (run at dt): rest = largest time sd / rms size of an\n"
+              "  observable; together = largest sd across members at the end of the window / time\n"
+              "  sd; growth = rms spread of the members' states at the end / at the start.\n\n");
+  std::printf("  %-22s %-22s %10s %10s %10s\n", "case", "behaviour", "rest", "together", "growth");
+  for (std::size_t k = 0; k < r.cases.size(); ++k) {
+    const CaseVerdict& v = r.verdicts[k];
+    std::printf("  %-22s %-22s %10s %10s %10s\n", case_label(spec, r.cases[k]).c_str(),
+                stats::behaviour_name(v.behaviour), num(v.evidence.rest).c_str(),
+                num(v.evidence.together).c_str(), num(v.evidence.growth).c_str());
+  }
+  for (std::size_t k = 0; k < r.cases.size(); ++k) {
+    const CaseVerdict& v = r.verdicts[k];
+    const std::string head = "case " + std::to_string(r.cases[k].index) + ": ";
+    std::string text;
+    if (v.behaviour == stats::CaseBehaviour::fixed_point) {
+      text = head + "fixed point: the members rest at";
+      for (std::size_t o = 0; o < v.means.size(); ++o) {
+        char value[40];
+        std::snprintf(value, sizeof value, "%.10g", v.means[o]);
+        text += std::string(o == 0 ? " " : ", ") + plan.observables[o] + " " + value;
+      }
+      text += " (ensemble time means). Nothing varies, so there is no decorrelation time, "
+              "half-width or sampling error to plan for.";
+    } else if (v.behaviour == stats::CaseBehaviour::together) {
+      text = head + "periodic or collapsed: the members move as one (their spread at the end "
+             "of the window is " + num(v.evidence.together) + " of their time variation): a "
+             "periodic orbit or a slow approach to a fixed point followed at the same phase, or "
+             "a pilot too short for their differences to grow. Their time means are not "
+             "independent samples, so no decorrelation time, half-width or members x duration "
+             "follows from them.";
+    } else if (v.behaviour == stats::CaseBehaviour::independent) {
+      text = head + "independent: the members spread like independent samples but started far "
+             "apart (their spread grew " + num(v.evidence.growth) + " times), so the pilot cannot "
+             "tell chaos from a regular motion visited at random phases; for a regular motion "
+             "the half-widths below shrink faster with the duration than they assume.";
+    } else {
+      continue;
+    }
+    print_wrapped(text, 2);
+  }
+}
+
 /// Prints the dt comparison; returns true when dt was flagged.
 bool print_dt_adequacy(const spec::Spec& spec, const plan::Plan& plan, const PilotResult& r,
                        int members) {
@@ -243,44 +399,58 @@ bool print_dt_adequacy(const spec::Spec& spec, const plan::Plan& plan, const Pil
               "  initial states, same model time); difference = mean(dt) - mean(dt/2) over the\n"
               "  paired members, se its standard error sd(member differences)/sqrt(n). Rule: dt\n"
               "  is too coarse when |difference| > %.3g se (Student t, n-1 = %d d.o.f., 1%% for\n"
-              "  all %zu comparisons together, Bonferroni).\n\n",
+              "  all %zu comparisons together, Bonferroni) and > floor = 1e-6 x rms size + dt x\n"
+              "  time sd / T (what sampling the same window at dt and dt/2 allows; it decides\n"
+              "  when the members coincide and se falls to rounding).\n\n",
               spec.integration.dt, spec.integration.dt / 2, threshold, members - 1,
               r.rows.size());
-  std::printf("  %-22s %-12s %12s %12s %12s %10s %7s  %s\n", "case", "observable", "mean(dt)",
-              "mean(dt/2)", "difference", "se", "|d|/se", "verdict");
+  std::printf("  %-22s %-12s %12s %12s %12s %10s %7s %10s  %s\n", "case", "observable", "mean(dt)",
+              "mean(dt/2)", "difference", "se", "|d|/se", "floor", "verdict");
   bool flagged = false;
   std::string worst;
   for (const Row& row : r.rows) {
     const stats::PairedDifference& d = row.dt_change;
     const double ratio = std::abs(d.difference) / d.stderr_;
-    const bool coarse = ratio > threshold;
+    const double tolerance = std::max(threshold * d.stderr_, row.dt_floor);
+    const bool coarse = std::abs(d.difference) > tolerance;
     flagged = flagged || coarse;
     const std::string& name = plan.observables[row.observable];
     if (coarse && (", " + worst + ", ").find(", " + name + ", ") == std::string::npos) {
       worst += (worst.empty() ? "" : ", ") + name;
     }
-    std::printf("  %-22s %-12s %12s %12s %12s %10s %7s  %s\n",
+    std::printf("  %-22s %-12s %12s %12s %12s %10s %7s %10s  %s\n",
                 case_label(spec, r.cases[row.case_slot]).c_str(),
                 plan.observables[row.observable].c_str(), num(d.mean_a).c_str(),
                 num(d.mean_b).c_str(), num(d.difference).c_str(), num(d.stderr_).c_str(),
-                num(ratio).c_str(), !std::isfinite(ratio) ? "?" : coarse ? "TOO COARSE" : "ok");
+                num(ratio).c_str(), num(row.dt_floor).c_str(),
+                !std::isfinite(d.difference) || !std::isfinite(tolerance) ? "?"
+                : coarse                                                  ? "TOO COARSE"
+                                                                          : "ok");
   }
   if (flagged) {
     std::printf("  dt %g: too coarse (the time means of %s change by more than their statistical "
-                "error when dt is halved); try dt %g\n",
+                "error and the floor when dt is halved); try dt %g\n",
                 spec.integration.dt, worst.c_str(), spec.integration.dt / 2);
   } else {
-    std::printf("  dt %g: adequate at the pilot's precision (no |d|/se above %.3g)\n",
+    std::printf("  dt %g: adequate at the pilot's precision (no |difference| above both %.3g se "
+                "and the floor)\n",
                 spec.integration.dt, threshold);
   }
   return flagged;
 }
 
-/// W = T Var_m per observable, the largest over the pilot cases (the cases between are not
-/// piloted; the largest is the cautious choice for them).
+bool any_usable(const PilotResult& r) {
+  return std::any_of(r.verdicts.begin(), r.verdicts.end(),
+                     [](const CaseVerdict& v) { return v.usable(); });
+}
+
+/// W = T Var_m per observable, the largest over the pilot cases whose members vary
+/// independently (the cases between are not piloted; the largest is the cautious choice for
+/// them). Cases at a fixed point or whose members move as one have no sampling W.
 std::vector<double> largest_w(const PilotResult& r, std::size_t n_obs) {
   std::vector<double> w(n_obs, 0.0);
   for (const Row& row : r.rows) {
+    if (!r.verdicts[row.case_slot].usable()) continue;
     const double v = row.decorrelation.variance_time();
     if (std::isfinite(v)) w[row.observable] = std::max(w[row.observable], v);
   }
@@ -358,6 +528,13 @@ void print_precision(const spec::Spec& spec, const plan::Plan& plan, const Pilot
     const stats::Decorrelation& d = row.decorrelation;
     const double w = d.variance_time();
     const std::string name = plan.observables[row.observable];
+    const CaseVerdict& verdict = r.verdicts[row.case_slot];
+    if (!verdict.usable()) {
+      std::printf("  %-22s %-12s %10s %21s %10s %12s  (%s: none)\n",
+                  case_label(spec, r.cases[row.case_slot]).c_str(), name.c_str(), "-", "-",
+                  num(d.time_variance).c_str(), "-", stats::behaviour_name(verdict.behaviour));
+      continue;
+    }
     std::printf("  %-22s %-12s %10s %21s %10s %12s", case_label(spec, r.cases[row.case_slot]).c_str(),
                 name.c_str(), num(d.tau).c_str(),
                 ("[" + num(d.tau_low) + ", " + num(d.tau_high) + "]").c_str(),
@@ -403,6 +580,11 @@ void print_slopes(const spec::Spec& spec, const plan::Plan& plan, const PilotRes
   const double t_spec = static_cast<double>(plan.accumulate_steps) * spec.integration.dt;
   const std::int64_t n_spec = plan.members;
   const bool target = any_target(targets);
+  if (!any_usable(r)) {
+    std::printf("\n  response slopes: no pilot case has members that vary independently; their\n"
+                "  sampling error cannot be estimated from this pilot.\n");
+    return;
+  }
   const std::vector<std::vector<double>> ws = slope_w(plan, r, spec.sweep.size());
   std::printf("\n  response slopes: least squares over all %zu cases, each case's sampling\n"
               "  error taken from the pilot case where it is largest; half-width for the spec's\n"
@@ -489,7 +671,9 @@ void print_suggestion(const spec::Spec& spec, const plan::Plan& plan, const Pilo
               duration_by.c_str());
   double tau = 0.0;
   for (const Row& row : r.rows) {
-    if (std::isfinite(row.decorrelation.tau)) tau = std::max(tau, row.decorrelation.tau);
+    if (r.verdicts[row.case_slot].usable() && std::isfinite(row.decorrelation.tau)) {
+      tau = std::max(tau, row.decorrelation.tau);
+    }
   }
   if (duration < kWindowsPerTau * tau) {
     warnings.push_back("a duration of " + num(duration) + " is under " + num(kWindowsPerTau) +
@@ -505,6 +689,10 @@ void print_as_written(const spec::Spec& spec, const plan::Plan& plan, const Pilo
   const std::int64_t n_spec = plan.members;
   std::printf("  as written, %lld members x duration %g: %.3g core-hours\n",
               static_cast<long long>(n_spec), t_spec, core_hours(spec, plan, n_spec, t_spec, rate));
+  if (!any_usable(r)) {
+    std::printf("    no sampling half-width: no pilot case has members that vary independently\n");
+    return;
+  }
   const std::vector<double> w = largest_w(r, plan.observables.size());
   std::printf("    case-mean half-width in the worst pilot case:");
   for (std::size_t o = 0; o < w.size(); ++o) {
@@ -565,13 +753,26 @@ void run_pilot(const spec::Spec& spec, const plan::Plan& plan, const PilotOption
     warnings.push_back(std::to_string(r.non_finite) +
                        " pilot member runs became non-finite and were left out");
   }
+  print_behaviour(spec, plan, r);
   const bool coarse = print_dt_adequacy(spec, plan, r, options.members);
   print_precision(spec, plan, r, mean_targets, warnings);
   print_slopes(spec, plan, r, slope_targets);
   std::printf("\n  campaign (%zu cases, %.3g member-steps/s per core):\n", plan.cases.size(), rate);
   print_as_written(spec, plan, r, rate);
   const std::vector<Requirement> needs = requirements(spec, plan, r, mean_targets, slope_targets);
-  if (!needs.empty()) print_suggestion(spec, plan, r, needs, rate, warnings);
+  if (!needs.empty() && any_usable(r)) {
+    print_suggestion(spec, plan, r, needs, rate, warnings);
+  } else if (!needs.empty()) {
+    std::printf("  to reach every target: nothing to plan from this pilot. A fixed point's time means\n"
+                "  are exact at any members and duration; members that move as one share one time\n"
+                "  mean, whose error is the window's cut through the motion (it shrinks like 1/T),\n"
+                "  not a sampling error that more members would reduce.\n");
+  }
+  if (any_usable(r) && !std::all_of(r.verdicts.begin(), r.verdicts.end(),
+                                    [](const CaseVerdict& v) { return v.usable(); })) {
+    warnings.push_back("the half-widths and suggestions above come from the pilot cases whose "
+                       "members vary independently only");
+  }
   if (coarse) warnings.push_back("dt is too coarse: every figure above is for a biased model");
   for (const std::string& w : warnings) std::printf("  warning: %s\n", w.c_str());
 }

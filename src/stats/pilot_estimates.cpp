@@ -60,6 +60,39 @@ PairedDifference paired_difference(const std::vector<double>& a, const std::vect
   return p;
 }
 
+double dt_change_floor(double mean, double time_variance, double dt, double window) {
+  const double sd = std::sqrt(std::max(time_variance, 0.0));
+  return kRestRelative * std::sqrt(mean * mean + sd * sd) + dt * sd / window;
+}
+
+void add_evidence(BehaviourEvidence& e, double mean, double time_variance, double end_variance) {
+  const double sd = std::sqrt(std::max(time_variance, 0.0));
+  const double size = std::sqrt(mean * mean + sd * sd);
+  if (size > 0.0) e.rest = std::max(e.rest, sd / size);
+  if (!std::isfinite(mean) || !std::isfinite(time_variance)) e.rest = kNaN;
+  if (sd > 0.0) {
+    const double ratio = std::sqrt(std::max(end_variance, 0.0)) / sd;
+    e.together = std::isnan(e.together) ? ratio : std::max(e.together, ratio);
+  }
+}
+
+CaseBehaviour classify(const BehaviourEvidence& e) {
+  if (e.rest <= kRestRelative) return CaseBehaviour::fixed_point;
+  if (e.together < kTogetherBelow) return CaseBehaviour::together;
+  if (e.growth >= kChaoticGrowth) return CaseBehaviour::chaotic;
+  return CaseBehaviour::independent;
+}
+
+const char* behaviour_name(CaseBehaviour b) {
+  switch (b) {
+    case CaseBehaviour::fixed_point: return "fixed point";
+    case CaseBehaviour::together: return "periodic or collapsed";
+    case CaseBehaviour::independent: return "independent";
+    case CaseBehaviour::chaotic: return "chaotic";
+  }
+  return "?";
+}
+
 double flag_threshold(int comparisons, std::int64_t n) {
   if (n < 2 || comparisons < 1) return kNaN;
   return gsl_cdf_tdist_Pinv(1.0 - 0.005 / comparisons, static_cast<double>(n - 1));

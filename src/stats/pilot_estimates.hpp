@@ -11,6 +11,7 @@
 #pragma once
 
 #include <cstdint>
+#include <limits>
 #include <vector>
 
 namespace chaosweep::stats {
@@ -46,6 +47,60 @@ struct PairedDifference {
   std::int64_t n = 0;       // members finite under both settings
 };
 PairedDifference paired_difference(const std::vector<double>& a, const std::vector<double>& b);
+
+/// The smallest change of an ensemble time mean between dt and dt/2 that the pilot counts,
+/// whatever its standard error: members that coincide (a fixed point, a periodic orbit all
+/// members follow at the same phase) differ by almost nothing, their paired standard error
+/// falls towards rounding, and any sampling difference between the two runs would otherwise
+/// look significant. Two terms, for an observable of time mean `mean` and time variance s2
+/// over a window T sampled at the end of every step:
+///   1e-6 sqrt(mean^2 + s2)  a millionth of the observable's root-mean-square size, far above
+///       the rounding of a time mean (1e-16 relative per operation, ~1e-10 after 1e6 steps)
+///       and below any difference a campaign of this tool resolves (this project's choice);
+///   dt sqrt(s2) / T  the sampling of the same window: the samples at dt/2 are those at dt plus
+///       the midpoints, so the two means differ by (1/2N) sum_k [x(k dt) - x((k - 1/2) dt)]
+///       = dt (x(T) - x(0)) / (4T) to leading order in dt (for a smooth x; it shrinks like dt,
+///       not like RK4's dt^4). |x(T) - x(0)| is at most the observable's range, 2 sqrt(2) sd
+///       for a sinusoid; 4 sd leaves room for other wave forms.
+double dt_change_floor(double mean, double time_variance, double dt, double window);
+
+/// What a pilot case's members do over the window, from the run at dt:
+///   fixed_point  every observable's time variation is at most 1e-6 of its size (the floor's
+///                relative term): the members rest at a fixed point;
+///   together     the members' spread across the ensemble at the end of the window is under
+///                a tenth of their own time variation for every observable: they move as one
+///                (a periodic orbit or a slow approach to a fixed point followed at the same
+///                phase, or a pilot too short for their differences to grow), so their time
+///                means are not independent samples;
+///   chaotic      they spread like independent samples (the across-member spread at one time
+///                matches the time variation of one member when they sample the same
+///                stationary law) after their initial spread grew at least tenfold;
+///   independent  spread like independent samples, but they started so far apart (growth
+///                under tenfold) that the pilot cannot tell chaos from a regular motion
+///                visited at random phases.
+/// The thresholds are this project's choice: with n >= 8 independent members the chance that
+/// the ratio of spreads falls under a tenth is below 1e-8 (chi-square with 7 degrees of
+/// freedom under 0.07), and a chaotic pilot's spread grows by far more than tenfold from the
+/// spec's small perturbations.
+enum class CaseBehaviour { fixed_point, together, independent, chaotic };
+
+struct BehaviourEvidence {
+  double rest = 0.0;      // largest over observables of sqrt(s2) / sqrt(mean^2 + s2) (0 if 0/0)
+  double together = std::numeric_limits<double>::quiet_NaN();
+                          // largest over observables with s2 > 0 of sqrt(end variance / s2),
+                          // NaN when no observable varies
+  double growth = 0.0;    // rms distance of the members' states from their ensemble mean at
+                          // the end of the window over the same at the start
+};
+constexpr double kRestRelative = 1e-6;
+constexpr double kTogetherBelow = 0.1;
+constexpr double kChaoticGrowth = 10.0;
+
+/// One observable's contribution: its ensemble time mean, mean time variance s2 and variance
+/// across members at the end of the window; merged into `e` (largest ratios win).
+void add_evidence(BehaviourEvidence& e, double mean, double time_variance, double end_variance);
+CaseBehaviour classify(const BehaviourEvidence& e);
+const char* behaviour_name(CaseBehaviour b);
 
 /// Two-sided Student-t quantile for `comparisons` simultaneous tests at a family-wise 1% level
 /// (Bonferroni): t_{1 - 0.005/k, n-1}. A pilot whose dt is adequate is then flagged by chance

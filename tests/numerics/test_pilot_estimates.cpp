@@ -147,5 +147,88 @@ TEST(DurationNeeded, MatchesStudentT) {
   EXPECT_TRUE(std::isnan(duration_needed(1.0, 1, 0.5)));
 }
 
+/// Mean and n-1 variance of x(t) = c + A sin(w t + phase) sampled at t_k = k h, k = 1 .. n
+/// (the pilot's samples: the end of every step of a window starting at t = 0).
+Moments sampled_sinusoid(double c, double amplitude, double w, double phase, double h, int n) {
+  Moments m;
+  for (int k = 1; k <= n; ++k) m.add(c + amplitude * std::sin(w * k * h + phase));
+  return m;
+}
+
+// Exact: a periodic orbit that every member follows gives the same time mean at dt and dt/2
+// except for where the samples fall: the dt/2 samples are the dt ones plus the midpoints, so the
+// means differ by (1/2N) sum_k [x(k dt) - x((k - 1/2) dt)]. Taylor expansion of each bracket
+// and the Euler-Maclaurin sums of x' and x'' give
+//   dt (x(T) - x(0)) / (4T) + dt^2 (x'(T) - x'(0)) / (16T) + O(dt^3 x^(3) / T).
+// For a sinusoid |x(T) - x(0)| <= 2A = 2 sqrt(2) sd, so the floor's dt sd / T covers the
+// leading term by a factor sqrt(2) at any phase and window, and the next is at most w dt / 4
+// of that bound (0.015 here). Checked on sampled sinusoids computed here, with the expansion to
+// dt^3 w^2 A / T, which bounds its third-order remainder for a sinusoid with room.
+TEST(DtChangeFloor, CoversTheSamplingOfOneWindowAtTwoStepSizes) {
+  int checked = 0;
+  for (double w : {0.9, 2.0 * M_PI / 7.03, 6.0}) {
+    for (double phase : {0.0, 0.4, 1.3, 2.9, 4.4}) {
+      for (double window : {37.3, 100.0, 251.9}) {
+        for (double h : {0.01, 0.005}) {
+          const int n = static_cast<int>(std::llround(window / h));
+          const double t = n * h;
+          const Moments coarse = sampled_sinusoid(0.7, 1.3, w, phase, h, n);
+          const Moments fine = sampled_sinusoid(0.7, 1.3, w, phase, h / 2, 2 * n);
+          const double difference = coarse.mean - fine.mean;
+          const double change = 1.3 * (std::sin(w * t + phase) - std::sin(phase));
+          const double slope_change = 1.3 * w * (std::cos(w * t + phase) - std::cos(phase));
+          const double expansion = h * change / (4.0 * t) + h * h * slope_change / (16.0 * t);
+          EXPECT_NEAR(difference, expansion, h * h * h * w * w * 1.3 / t) << w << " " << phase;
+          EXPECT_LE(std::abs(difference), dt_change_floor(coarse.mean, coarse.variance(), h, t))
+              << "w " << w << " phase " << phase << " T " << t << " dt " << h;
+          ++checked;
+        }
+      }
+    }
+  }
+  EXPECT_EQ(checked, 90);
+  // The relative term: a millionth of the root-mean-square size (exact arithmetic), here with
+  // no time variation (a fixed point at -7.4, where the window term vanishes).
+  EXPECT_DOUBLE_EQ(dt_change_floor(-7.4, 0.0, 0.01, 100.0), 7.4e-6);
+}
+
+// Exact: members that sample the same stationary law independently have, at any one time, the
+// law's variance across members, which is also each member's time variance; so their "together"
+// ratio is near 1 (here 256 independent AR(1) members: its sampling error is ~5%, 0.7 - 1.3
+// leaves over 5 standard errors). Members that are one series plus 1e-9 offsets move as one;
+// constant members rest. The classes follow the thresholds of the header.
+TEST(CaseBehaviour, IndependentTogetherAndResting) {
+  const Ar1Ensemble e = ar1_ensemble(0.9, 256, 2000, 7);
+  Moments mean, variance, end;
+  std::mt19937_64 rng(11);
+  std::normal_distribution<double> law(0.0, 1.0 / std::sqrt(1.0 - 0.81));
+  for (std::size_t m = 0; m < e.means.size(); ++m) {
+    mean.add(e.means[m]);
+    variance.add(e.variances[m]);
+    end.add(law(rng));  // an independent draw of each member's state at the end
+  }
+  BehaviourEvidence independent;
+  add_evidence(independent, mean.mean + 3.0, variance.mean, end.variance());
+  EXPECT_GT(independent.together, 0.7);
+  EXPECT_LT(independent.together, 1.3);
+  independent.growth = 5000.0;
+  EXPECT_EQ(classify(independent), CaseBehaviour::chaotic);
+  independent.growth = 2.0;  // started as far apart as they end: chaos not seen
+  EXPECT_EQ(classify(independent), CaseBehaviour::independent);
+
+  BehaviourEvidence together;
+  add_evidence(together, 0.7, 0.5, 1e-18);
+  add_evidence(together, 0.5, 0.6, 2e-18);
+  together.growth = 4.0;
+  EXPECT_LT(together.together, 1e-8);
+  EXPECT_EQ(classify(together), CaseBehaviour::together);
+
+  BehaviourEvidence resting;
+  add_evidence(resting, -7.4, 1e-28, 1e-30);
+  add_evidence(resting, 23.0, 0.0, 0.0);
+  EXPECT_LT(resting.rest, 1e-13);
+  EXPECT_EQ(classify(resting), CaseBehaviour::fixed_point);
+}
+
 }  // namespace
 }  // namespace chaosweep::stats
