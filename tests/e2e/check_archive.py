@@ -7,6 +7,7 @@ import json
 import math
 import subprocess
 import sys
+from pathlib import Path
 
 import h5py
 import numpy as np
@@ -800,27 +801,15 @@ def check_intervals(path):
 def km_reference(horizon, lead):
     """Kaplan-Meier (1958) with Greenwood's (1926) standard error and Brookmeyer & Crowley's
     (1982) interval of the median, unit by unit from the horizons (NaN: not separated by the
-    last lead, censored there), at each lead: (S, se, median, low, high)."""
-    z = 1.959963984540054
+    last lead, censored there), by tests/numerics/check_survival.py's reference computation;
+    S at every lead (a step function of the distinct times), then median, low, high."""
+    sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "numerics"))
+    from check_survival import reference
     failed = np.isfinite(horizon)
     times = np.where(failed, horizon, lead[-1])
-    S, g, surv, se = 1.0, 0.0, [], []
-    for t in lead:
-        at_risk = np.sum(times >= t)
-        d = np.sum((times == t) & failed)
-        if d > 0:
-            S *= 1.0 - d / at_risk
-            if at_risk > d:
-                g += d / (at_risk * (at_risk - d))
-        surv.append(S)
-        se.append(S * math.sqrt(g) if S > 0 else 0.0)
-    surv, se = np.array(surv), np.array(se)
-
-    def first(mask):
-        hits = np.flatnonzero(mask)
-        return lead[hits[0]] if hits.size else math.nan
-
-    return surv, se, first(surv <= 0.5), first(surv - z * se <= 0.5), first(surv + z * se <= 0.5)
+    grid, surv, _, (median, low, high) = reference(times, failed)
+    at = np.searchsorted(grid, lead, side="right") - 1
+    return np.where(at >= 0, surv[np.maximum(at, 0)], 1.0), median, low, high
 
 
 def same_or_nan(a, b):
@@ -845,7 +834,7 @@ def check_horizon_survival(path):
             if not np.all(np.isnan(fraction[c])):
                 fail(f"case {c}: a survival curve without valid pairs")
             continue
-        surv, _, m, low, high = km_reference(horizon[c][valid], lead)
+        surv, m, low, high = km_reference(horizon[c][valid], lead)
         if not np.allclose(fraction[c], surv, rtol=1e-12, atol=1e-15):
             fail(f"case {c}: unseparated fraction {fraction[c]} != {surv}")
         got = (median[c], interval[c][0], interval[c][1])
