@@ -10,6 +10,7 @@
 // Every rate is the median of R repetitions (minimum and maximum shown) of CPU time of the
 // benchmark's thread, so other processes on a busy machine do not count against it.
 #include <CLI/CLI.hpp>
+#include <nlohmann/json.hpp>
 
 #include <cstdio>
 #include <fstream>
@@ -138,49 +139,41 @@ void print_text(const Options& o, const std::vector<Row>& main, const std::vecto
   }
 }
 
-std::string json_summary(const Summary& s) {
-  std::ostringstream out;
-  out.precision(6);
-  out << "{\"median\": " << s.median << ", \"min\": " << s.min << ", \"max\": " << s.max << "}";
-  return out.str();
+nlohmann::ordered_json json_summary(const Summary& s) {
+  return {{"median", s.median}, {"min", s.min}, {"max", s.max}};
 }
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const std::vector<Row>& twins, const Summary& peak) {
-  std::ostringstream out;
-  out << "{\n  \"cpu\": \"" << first_line_of("/proc/cpuinfo", "model name") << "\",\n"
-      << "  \"load_average\": \"" << first_line_of("/proc/loadavg", "") << "\",\n"
-      << "  \"simd_level\": \"" << simd_level() << "\",\n"
-      << "  \"compiler\": \"" << __VERSION__ << "\",\n"
-      << "  \"fma_gflops\": " << json_summary(peak) << ",\n"
-      << "  \"members\": " << o.members << ", \"steps\": " << o.steps
-      << ", \"repeats\": " << o.repeats << ",\n  \"results\": [";
-  const char* sep = "\n";
+  using Json = nlohmann::ordered_json;
+  Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
+           {"load_average", first_line_of("/proc/loadavg", "")},
+           {"simd_level", simd_level()},
+           {"compiler", __VERSION__},
+           {"fma_gflops", json_summary(peak)},
+           {"members", o.members},
+           {"steps", o.steps},
+           {"repeats", o.repeats}};
+  Json results = Json::array(), by_width = Json::array(), twin_rows = Json::array();
   for (const Row& r : main) {
-    out << sep << "    {\"model\": \"" << r.model << "\", \"statistics\": \"" << r.statistics
-        << "\", \"width\": " << r.width << ", \"production\": " << json_summary(r.production)
-        << ", \"scalar\": " << json_summary(r.scalar)
-        << ", \"ratio\": " << r.production.median / r.scalar.median
-        << ", \"flops_per_member_step\": " << r.flops << "}";
-    sep = ",\n";
+    results.push_back(Json{{"model", r.model}, {"statistics", r.statistics}, {"width", r.width},
+                           {"production", json_summary(r.production)},
+                           {"scalar", json_summary(r.scalar)},
+                           {"ratio", r.production.median / r.scalar.median},
+                           {"flops_per_member_step", r.flops}});
   }
-  out << "\n  ],\n  \"widths\": [";
-  sep = "\n";
   for (const Row& r : widths) {
-    out << sep << "    {\"model\": \"" << r.model << "\", \"width\": " << r.width
-        << ", \"production\": " << json_summary(r.production) << "}";
-    sep = ",\n";
+    by_width.push_back(Json{{"model", r.model}, {"width", r.width},
+                            {"production", json_summary(r.production)}});
   }
-  out << "\n  ],\n  \"twins\": [";
-  sep = "\n";
   for (const Row& r : twins) {
-    out << sep << "    {\"model\": \"" << r.model << "\", \"statistics\": \"" << r.statistics
-        << "\", \"width\": " << r.width << ", \"production\": " << json_summary(r.production)
-        << "}";
-    sep = ",\n";
+    twin_rows.push_back(Json{{"model", r.model}, {"statistics", r.statistics}, {"width", r.width},
+                             {"production", json_summary(r.production)}});
   }
-  out << "\n  ]\n}\n";
-  std::cout << out.str();
+  doc["results"] = results;
+  doc["widths"] = by_width;
+  doc["twins"] = twin_rows;
+  std::cout << doc.dump(2) << "\n";
 }
 
 int run(const Options& o) {

@@ -6,6 +6,8 @@
 #include <string>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
 #include "app/commands.hpp"
 #include "archive/reader.hpp"
 #include "stats/ensemble.hpp"
@@ -15,49 +17,12 @@ namespace chaosweep::app {
 namespace {
 
 using archive::ArchiveSummary;
+using Json = nlohmann::ordered_json;
 
 std::size_t idx(std::size_t row, std::size_t width, std::size_t col) { return row * width + col; }
 
-/// A number for JSON: shortest round-trip form, null for NaN or infinity.
-std::string json_number(double v) {
-  if (!std::isfinite(v)) return "null";
-  char text[40];
-  std::snprintf(text, sizeof text, "%.17g", v);
-  return text;
-}
-
-std::string json_string(const std::string& s) {
-  std::string out = "\"";
-  for (char ch : s) {
-    if (ch == '"' || ch == '\\') out += '\\';
-    if (static_cast<unsigned char>(ch) < 0x20) {
-      char esc[8];
-      std::snprintf(esc, sizeof esc, "\\u%04x", ch);
-      out += esc;
-      continue;
-    }
-    out += ch;
-  }
-  return out + "\"";
-}
-
-std::string json_estimate(double mean, double std, const double* ci) {
-  return "{\"mean\": " + json_number(mean) + ", \"std\": " + json_number(std) + ", \"ci95\": [" +
-         json_number(ci[0]) + ", " + json_number(ci[1]) + "]}";
-}
-
 /// v[i], or NaN when the archive lacks the dataset (v empty).
 double value_or_nan(const std::vector<double>& v, std::size_t i) { return v.empty() ? NAN : v[i]; }
-
-/// A time-mean estimate with the errors that account for autocorrelation: the standard error of
-/// the ensemble mean, the effective independent samples and the decorrelation time.
-std::string json_time_mean(const ArchiveSummary& s, std::size_t i) {
-  std::string text = json_estimate(s.time_mean[i], s.time_mean_std[i], &s.time_mean_ci95[2 * i]);
-  text.pop_back();  // the closing brace
-  return text + ", \"stderr\": " + json_number(value_or_nan(s.time_mean_stderr, i)) +
-         ", \"effective_samples\": " + json_number(value_or_nan(s.effective_samples, i)) +
-         ", \"decorrelation_time\": " + json_number(value_or_nan(s.decorrelation_time, i)) + "}";
-}
 
 /// Names of the Lyapunov exponents: lambda1 (leading), lambda2, ...
 std::vector<std::string> exponent_names(const ArchiveSummary& s) {
@@ -75,30 +40,6 @@ double kaplan_yorke(const ArchiveSummary& s, std::int64_t c) {
   } catch (const std::invalid_argument&) {  // means of ties out of order by rounding
     return NAN;
   }
-}
-
-/// The twin experiment of case c: horizon over the members that reached the threshold, and the
-/// growth rate of the mean log separation with its fit window.
-void print_json_twins(const ArchiveSummary& s, std::int64_t c) {
-  std::printf(",\n     \"twins\": {\"horizon\": %s, \"horizon_reached\": %lld, \"pairs\": %lld, "
-              "\"growth_rate\": %s, \"growth_window\": [%s, %s]",
-              json_estimate(s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c]).c_str(),
-              static_cast<long long>(s.horizon_reached[c]),
-              static_cast<long long>(s.twin_pairs[c]), json_number(s.growth_rate[c]).c_str(),
-              json_number(s.growth_window[2 * c]).c_str(),
-              json_number(s.growth_window[2 * c + 1]).c_str());
-  if (!s.growth_note.empty()) {
-    std::printf(", \"growth_note\": %s", json_string(s.growth_note[c]).c_str());
-  }
-  if (!s.horizon_median.empty()) {
-    std::printf(", \"horizon_median\": {\"median\": %s, \"ci95\": [%s, %s]}, "
-                "\"suggested_duration\": %s",
-                json_number(s.horizon_median[c]).c_str(),
-                json_number(s.horizon_median_ci95[2 * c]).c_str(),
-                json_number(s.horizon_median_ci95[2 * c + 1]).c_str(),
-                json_number(s.suggested_duration[c]).c_str());
-  }
-  std::printf("}");
 }
 
 /// Whether case c is flagged non-chaotic (archives without the flag: no).
@@ -157,111 +98,126 @@ std::vector<std::string> snapshot_names(const ArchiveSummary& s, const SnapshotV
   return names;
 }
 
-void print_json(const ArchiveSummary& s) {
+/// mean, std and the 95% interval of one estimate.
+Json json_estimate(double mean, double std, const double* ci) {
+  return Json{{"mean", mean}, {"std", std}, {"ci95", {ci[0], ci[1]}}};
+}
+
+/// A time-mean estimate with the errors that account for autocorrelation: the standard error of
+/// the ensemble mean, the effective independent samples and the decorrelation time.
+Json json_time_mean(const ArchiveSummary& s, std::size_t i) {
+  Json e = json_estimate(s.time_mean[i], s.time_mean_std[i], &s.time_mean_ci95[2 * i]);
+  e["stderr"] = value_or_nan(s.time_mean_stderr, i);
+  e["effective_samples"] = value_or_nan(s.effective_samples, i);
+  e["decorrelation_time"] = value_or_nan(s.decorrelation_time, i);
+  return e;
+}
+
+/// The twin experiment of case c: horizon over the members that reached the threshold, the
+/// growth rate of the mean log separation with its fit window, and the survival summary.
+Json json_twins(const ArchiveSummary& s, std::int64_t c) {
+  Json t{{"horizon", json_estimate(s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c])},
+         {"horizon_reached", s.horizon_reached[c]},
+         {"pairs", s.twin_pairs[c]},
+         {"growth_rate", s.growth_rate[c]},
+         {"growth_window", {s.growth_window[2 * c], s.growth_window[2 * c + 1]}}};
+  if (!s.growth_note.empty()) t["growth_note"] = s.growth_note[c];
+  if (!s.horizon_median.empty()) {
+    t["horizon_median"] = Json{{"median", s.horizon_median[c]},
+                               {"ci95", {s.horizon_median_ci95[2 * c],
+                                         s.horizon_median_ci95[2 * c + 1]}}};
+    t["suggested_duration"] = s.suggested_duration[c];
+  }
+  return t;
+}
+
+Json json_case(const ArchiveSummary& s, std::int64_t c) {
   const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
-  std::printf("{\n  \"campaign\": %s,\n  \"model\": %s,\n  \"status\": %s,\n",
-              json_string(s.campaign).c_str(), json_string(s.model).c_str(),
-              json_string(s.status).c_str());
-  std::printf("  \"format_version\": %d,\n  \"members_per_case\": %lld,\n", s.format_version,
-              static_cast<long long>(s.members));
-  std::printf("  \"tool_version\": %s,\n  \"created_utc\": %s,\n",
-              json_string(s.tool_version).c_str(), json_string(s.created_utc).c_str());
-  std::printf("  \"units\": {\"parameters\": \"model units\", \"time_mean\": \"model units\", "
-              "\"regime_fraction\": \"fraction of time (0-1)\", "
-              "\"slope\": \"model units per unit of the parameter\", "
-              "\"time\": \"model time units\"},\n");
-  std::printf("  \"interval\": \"ci95: 95%% confidence interval of the ensemble mean, "
-              "mean +- t(0.975, n-1) se, n = valid members; for time means se is stderr "
-              "(below), for the other quantities s / sqrt(n) with s their std across members\",\n");
-  std::printf("  \"non_chaotic\": \"true when the case does not behave chaotically (its "
-              "intervals then describe no chaotic variability); non_chaotic_reason says why\",\n");
-  std::printf("  \"stderr\": \"standard error of the ensemble time mean: the larger of "
-              "std / sqrt(n) and the members' blocking standard errors pooled, "
-              "sqrt(sum stderr^2) / n; effective_samples: sum over valid members of "
-              "n_steps / (2 tau_int); decorrelation_time: mean tau_int, model time units\",\n");
+  Json parameters = Json::object();
+  for (std::size_t a = 0; a < s.axes.size(); ++a) parameters[s.axes[a]] = s.axis_values[a][c];
+  Json out{{"index", c}, {"parameters", parameters}, {"members", s.members},
+           {"valid_members", s.valid_members[c]}, {"effective_members", s.effective_members[c]}};
+  if (!s.non_chaotic.empty()) {
+    out["non_chaotic"] = non_chaotic(s, c);
+    out["non_chaotic_reason"] = s.non_chaotic_reason[static_cast<std::size_t>(c)];
+  }
+  Json time_mean = Json::object(), regimes = Json::object();
+  for (std::size_t o = 0; o < n_obs; ++o) {
+    time_mean[s.observables[o]] = json_time_mean(s, idx(c, n_obs, o));
+  }
+  for (std::size_t k = 0; k < n_reg; ++k) {
+    const std::size_t i = idx(c, n_reg, k);
+    regimes[s.regimes[k]] = json_estimate(s.regime_fraction[i], s.regime_fraction_std[i],
+                                          &s.regime_fraction_ci95[2 * i]);
+  }
+  out["time_mean"] = time_mean;
+  out["regime_fraction"] = regimes;
+  const SnapshotView snap = snapshot_view(s);
+  if (!snap.times.empty()) {
+    Json shown = Json::array();
+    for (std::size_t j = 0; j < snap.times.size(); ++j) {
+      const std::size_t i = idx(c, snap.times.size(), j);
+      shown.push_back(Json{{"time", s.snapshot_time[snap.times[j]]},
+                           {"observable", s.observables[0]}, {"mean", snap.mean[i]},
+                           {"std", snap.std[i]}, {"ci95", {snap.ci95[2 * i], snap.ci95[2 * i + 1]}}});
+    }
+    out["snapshots"] = shown;
+  }
+  if (s.exponents > 0) {
+    Json exponents = Json::array();
+    for (int k = 0; k < s.exponents; ++k) {
+      const std::size_t i = idx(c, s.exponents, k);
+      exponents.push_back(json_estimate(s.lyapunov[i], s.lyapunov_std[i], &s.lyapunov_ci95[2 * i]));
+    }
+    out["lyapunov"] = exponents;
+    out["kaplan_yorke_dimension"] = kaplan_yorke(s, c);
+  }
+  if (s.twins) out["twins"] = json_twins(s, c);
+  return out;
+}
+
+/// The whole summary as JSON (nlohmann's output: NaN and infinities become null, numbers print
+/// in their shortest form that reads back to the same double).
+void print_json(const ArchiveSummary& s) {
+  Json doc{{"campaign", s.campaign}, {"model", s.model}, {"status", s.status},
+           {"format_version", s.format_version}, {"members_per_case", s.members},
+           {"tool_version", s.tool_version}, {"created_utc", s.created_utc}};
+  doc["units"] = Json{{"parameters", "model units"}, {"time_mean", "model units"},
+                      {"regime_fraction", "fraction of time (0-1)"},
+                      {"slope", "model units per unit of the parameter"},
+                      {"time", "model time units"}};
+  doc["interval"] = "ci95: 95% confidence interval of the ensemble mean, mean +- t(0.975, n-1) "
+                    "se, n = valid members; for time means se is stderr (below), for the other "
+                    "quantities s / sqrt(n) with s their std across members";
+  doc["non_chaotic"] = "true when the case does not behave chaotically (its intervals then "
+                       "describe no chaotic variability); non_chaotic_reason says why";
+  doc["stderr"] = "standard error of the ensemble time mean: the larger of std / sqrt(n) and "
+                  "the members' blocking standard errors pooled, sqrt(sum stderr^2) / n; "
+                  "effective_samples: sum over valid members of n_steps / (2 tau_int); "
+                  "decorrelation_time: mean tau_int, model time units";
   if (!s.snapshot_time.empty()) {
-    std::printf("  \"snapshot_times\": %zu,\n  \"snapshots\": \"per case: the first "
-                "observable across the valid members at the first, middle and last snapshot "
-                "time (model time units from the start of the integration); std across "
-                "members, ci95 of their mean as above\",\n",
-                s.snapshot_time.size());
+    doc["snapshot_times"] = s.snapshot_time.size();
+    doc["snapshots"] = "per case: the first observable across the valid members at the first, "
+                       "middle and last snapshot time (model time units from the start of the "
+                       "integration); std across members, ci95 of their mean as above";
   }
-  auto list = [](const std::vector<std::string>& v) {
-    std::string out = "[";
-    for (std::size_t i = 0; i < v.size(); ++i) out += (i ? ", " : "") + json_string(v[i]);
-    return out + "]";
-  };
-  std::printf("  \"axes\": %s,\n  \"observables\": %s,\n  \"regimes\": %s,\n  \"cases\": [\n",
-              list(s.axes).c_str(), list(s.observables).c_str(), list(s.regimes).c_str());
-  for (std::int64_t c = 0; c < s.cases; ++c) {
-    std::string params;
-    for (std::size_t a = 0; a < s.axes.size(); ++a) {
-      params += (a ? ", " : "") + json_string(s.axes[a]) + ": " + json_number(s.axis_values[a][c]);
-    }
-    std::printf("    {\"index\": %lld, \"parameters\": {%s}, \"members\": %lld, "
-                "\"valid_members\": %lld, \"effective_members\": %s,\n     ",
-                static_cast<long long>(c), params.c_str(), static_cast<long long>(s.members),
-                static_cast<long long>(s.valid_members[c]),
-                json_number(s.effective_members[c]).c_str());
-    if (!s.non_chaotic.empty()) {
-      std::printf("\"non_chaotic\": %s, \"non_chaotic_reason\": %s,\n     ",
-                  non_chaotic(s, c) ? "true" : "false",
-                  json_string(s.non_chaotic_reason[static_cast<std::size_t>(c)]).c_str());
-    }
-    std::printf("\"time_mean\": {");
-    for (std::size_t o = 0; o < n_obs; ++o) {
-      const std::size_t i = idx(c, n_obs, o);
-      std::printf("%s%s: %s", o ? ", " : "", json_string(s.observables[o]).c_str(),
-                  json_time_mean(s, i).c_str());
-    }
-    std::printf("},\n     \"regime_fraction\": {");
-    for (std::size_t k = 0; k < n_reg; ++k) {
-      const std::size_t i = idx(c, n_reg, k);
-      std::printf("%s%s: %s", k ? ", " : "", json_string(s.regimes[k]).c_str(),
-                  json_estimate(s.regime_fraction[i], s.regime_fraction_std[i],
-                                &s.regime_fraction_ci95[2 * i]).c_str());
-    }
-    std::printf("}");
-    const SnapshotView snap = snapshot_view(s);
-    if (!snap.times.empty()) {
-      std::printf(",\n     \"snapshots\": [");
-      for (std::size_t j = 0; j < snap.times.size(); ++j) {
-        const std::size_t i = idx(c, snap.times.size(), j);
-        std::printf("%s{\"time\": %s, \"observable\": %s, \"mean\": %s, \"std\": %s, "
-                    "\"ci95\": [%s, %s]}",
-                    j ? ", " : "", json_number(s.snapshot_time[snap.times[j]]).c_str(),
-                    json_string(s.observables[0]).c_str(), json_number(snap.mean[i]).c_str(),
-                    json_number(snap.std[i]).c_str(), json_number(snap.ci95[2 * i]).c_str(),
-                    json_number(snap.ci95[2 * i + 1]).c_str());
-      }
-      std::printf("]");
-    }
-    if (s.exponents > 0) {
-      std::printf(",\n     \"lyapunov\": [");
-      for (int k = 0; k < s.exponents; ++k) {
-        const std::size_t i = idx(c, s.exponents, k);
-        std::printf("%s%s", k ? ", " : "",
-                    json_estimate(s.lyapunov[i], s.lyapunov_std[i], &s.lyapunov_ci95[2 * i]).c_str());
-      }
-      std::printf("], \"kaplan_yorke_dimension\": %s",
-                  json_number(kaplan_yorke(s, c)).c_str());
-    }
-    if (s.twins) print_json_twins(s, c);
-    std::printf("}%s\n", c + 1 < s.cases ? "," : "");
-  }
-  std::printf("  ],\n  \"response\": [");
-  bool first = true;
+  doc["axes"] = s.axes;
+  doc["observables"] = s.observables;
+  doc["regimes"] = s.regimes;
+  Json cases = Json::array();
+  for (std::int64_t c = 0; c < s.cases; ++c) cases.push_back(json_case(s, c));
+  doc["cases"] = cases;
+  Json response = Json::array();
+  const std::size_t n_obs = s.observables.size();
   for (std::size_t a = 0; a < s.axes.size(); ++a) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(a, n_obs, o);
-      std::printf("%s\n    {\"axis\": %s, \"observable\": %s, \"slope\": %s, \"stderr\": %s}",
-                  first ? "" : ",", json_string(s.axes[a]).c_str(),
-                  json_string(s.observables[o]).c_str(), json_number(s.slope[i]).c_str(),
-                  json_number(s.slope_stderr[i]).c_str());
-      first = false;
+      response.push_back(Json{{"axis", s.axes[a]}, {"observable", s.observables[o]},
+                              {"slope", s.slope[i]}, {"stderr", s.slope_stderr[i]}});
     }
   }
-  std::printf("%s]\n}\n", first ? "" : "\n  ");
+  doc["response"] = response;
+  std::printf("%s\n", doc.dump(2).c_str());
 }
 
 void print_csv(const ArchiveSummary& s) {
