@@ -3,6 +3,7 @@
 // coordinate values are taken.
 #include "archive/writer.hpp"
 
+#include <algorithm>
 #include <array>
 #include <cmath>
 #include <cstdio>
@@ -34,6 +35,12 @@ h5::ElementType h5_type(ElementType t) {
     case ElementType::text: break;
   }
   return h5::ElementType::String;
+}
+
+std::vector<std::int64_t> iota(std::int64_t n) {
+  std::vector<std::int64_t> v(static_cast<std::size_t>(n));
+  for (std::int64_t i = 0; i < n; ++i) v[static_cast<std::size_t>(i)] = i;
+  return v;
 }
 
 /// A group being written together with the dimension scales its datasets attach to.
@@ -80,6 +87,22 @@ class GroupWriter {
     labels(name, def.labels, def.long_name);
   }
 
+  /// The `case` dimension (case indices) and, with a sweep, the swept parameters as variables
+  /// on it. Every later dataset of the group with a `case` dimension names them in its CF
+  /// `coordinates` attribute, so xarray reads them as coordinates of that dimension (select a
+  /// case by its parameter value with swap_dims).
+  void cases(const spec::Spec& spec, const plan::Plan& plan, const std::string& long_name) {
+    coordinate("case", iota(static_cast<std::int64_t>(plan.cases.size())), long_name);
+    std::string names;
+    for (std::size_t a = 0; a < spec.sweep.size(); ++a) {
+      std::vector<double> values;
+      for (const plan::Case& c : plan.cases) values.push_back(c.axis_values[a]);
+      dataset(spec.sweep[a].parameter, {values.size()}, kSweptParameter).write_from_rank0(values);
+      names += (names.empty() ? "" : " ") + spec.sweep[a].parameter;
+    }
+    case_coordinates_ = names;
+  }
+
   /// Creates the schema dataset `name` of this group with `shape`, its attributes and scales.
   h5::Dataset dataset(const std::string& name, const Dims& shape,
                       const std::string& schema_path = "") {
@@ -91,6 +114,10 @@ class GroupWriter {
     for (unsigned axis = 0; axis < def.dims.size(); ++axis) {
       d.attach_scale(scales_.at(def.dims[axis]), axis);
     }
+    const bool on_cases = std::find(def.dims.begin(), def.dims.end(), "case") != def.dims.end();
+    if (on_cases && !case_coordinates_.empty() && schema_path != kSweptParameter) {
+      d.set_attribute("coordinates", case_coordinates_);
+    }
     return d;
   }
 
@@ -100,16 +127,13 @@ class GroupWriter {
     d.set_attribute("long_name", long_name);
   }
 
+  static constexpr const char* kSweptParameter = "/case/<parameter>";
+
   h5::Group group_;
   std::string prefix_;
   std::map<std::string, h5::Dataset> scales_;
+  std::string case_coordinates_;  // swept parameters, space-separated ("" without a sweep)
 };
-
-std::vector<std::int64_t> iota(std::int64_t n) {
-  std::vector<std::int64_t> v(static_cast<std::size_t>(n));
-  for (std::int64_t i = 0; i < n; ++i) v[static_cast<std::size_t>(i)] = i;
-  return v;
-}
 
 /// A block of member rows: cases [case0, case0 + cases) x members [member0, member0 + members),
 /// starting at row `offset` of this rank's local data.
@@ -214,14 +238,7 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
 
 void write_cases(h5::File& file, const spec::Spec& spec, const plan::Plan& plan) {
   GroupWriter g(file, "case");
-  const std::int64_t n_cases = static_cast<std::int64_t>(plan.cases.size());
-  g.coordinate("case", iota(n_cases), "case index (point of the sweep grid)");
-  for (std::size_t a = 0; a < spec.sweep.size(); ++a) {
-    std::vector<double> values;
-    for (const plan::Case& c : plan.cases) values.push_back(c.axis_values[a]);
-    h5::Dataset d = g.dataset(spec.sweep[a].parameter, {values.size()}, "/case/<parameter>");
-    d.write_from_rank0(values);
-  }
+  g.cases(spec, plan, "case index (point of the sweep grid)");
 }
 
 /// Exponent indices 1..k (the coordinate of the `exponent` dimension).
@@ -237,7 +254,7 @@ void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& pla
   const std::uint64_t n_cases = plan.cases.size(), M = plan.members;
   const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
   const std::uint64_t dim = plan.state_dim;
-  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.cases(spec, plan, "case index");
   g.coordinate("member", iota(plan.members), "member index within the case");
   g.labels("state", plan.state_names, "state variable");
   g.labels("observable", plan.observables, "observable");
@@ -290,7 +307,7 @@ void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
   GroupWriter g(file, "ensemble");
   const std::uint64_t n_cases = plan.cases.size();
   const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
-  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.cases(spec, plan, "case index");
   g.labels("observable", plan.observables, "observable");
   g.fixed_labels("bound");
   g.dataset("time_mean", {n_cases, n_obs}).write_from_rank0(e.time_mean);
@@ -345,7 +362,7 @@ void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   if (times.every_steps == 0) return;
   GroupWriter g(file, "twins");
   const std::uint64_t n_cases = plan.cases.size(), leads = static_cast<std::uint64_t>(times.leads);
-  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.cases(spec, plan, "case index");
   g.coordinate("lead", run::twin_leads(times, spec.integration.dt),
                archive::dataset("/twins/lead").long_name);
   g.fixed_labels("window_edge");
@@ -373,19 +390,19 @@ void write_histogram(h5::File& file, const spec::Spec& spec, const plan::Plan& p
     edges[k] = stats::histogram_edge(h.low, h.high, h.bins, static_cast<int>(k));
   }
   for (std::uint64_t k = 0; k < bins; ++k) centres[k] = 0.5 * (edges[k] + edges[k + 1]);
-  g.coordinate("case", iota(static_cast<std::int64_t>(plan.cases.size())), "case index");
+  g.cases(spec, plan, "case index");
   g.coordinate("bin", centres, "bin centre of " + h.observable);
   g.coordinate("edges", edges, "bin edges of " + h.observable);
   g.dataset("counts", {plan.cases.size(), bins}).write_from_rank0(e.histogram);
 }
 
-void write_trajectories(h5::File& file, const plan::Plan& plan,
+void write_trajectories(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                         const std::vector<run::BatchResult>& local, double dt) {
   if (plan.trajectory_members == 0) return;
   GroupWriter g(file, "trajectory");
   const std::uint64_t samples = plan.trajectory_samples, dim = plan.state_dim;
   const std::uint64_t stored = plan.trajectory_members;
-  g.coordinate("case", iota(static_cast<std::int64_t>(plan.cases.size())), "case index");
+  g.cases(spec, plan, "case index");
   g.coordinate("sample", iota(plan.trajectory_members), "member index of the stored member");
   g.dimension("step", samples);
   g.labels("variable", plan.state_names, "state variable");
@@ -410,13 +427,13 @@ void write_trajectories(h5::File& file, const plan::Plan& plan,
 }
 
 /// Across-member statistics at the snapshot times; /snapshot/time is the `time` coordinate.
-void write_snapshots(h5::File& file, const plan::Plan& plan,
+void write_snapshots(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                      const parallel::EnsembleResults& e) {
   if (plan.snapshot_count == 0) return;
   GroupWriter g(file, "snapshot");
   const std::uint64_t n_cases = plan.cases.size(), times = e.snapshot_time.size();
   const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
-  g.coordinate("case", iota(static_cast<std::int64_t>(n_cases)), "case index");
+  g.cases(spec, plan, "case index");
   g.coordinate("time", e.snapshot_time, archive::dataset("/snapshot/time").long_name);
   g.labels("observable", plan.observables, "observable");
   g.dataset("mean", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_mean);
@@ -440,8 +457,8 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   write_response(file, spec, plan, ensemble);
   write_twins(file, spec, plan, ensemble);
   write_histogram(file, spec, plan, ensemble);
-  write_trajectories(file, plan, local, spec.integration.dt);
-  write_snapshots(file, plan, ensemble);
+  write_trajectories(file, spec, plan, local, spec.integration.dt);
+  write_snapshots(file, spec, plan, ensemble);
   file.close();
 
   // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it

@@ -250,7 +250,8 @@ def check_schedule_identity(reference, other, parameter=None, constant=None):
     (exact by design: the parameter then has the same value at every RK4 stage, and the generic
     kernel a scheduled run takes performs the same floating-point operations as the fused
     kernels the reference takes). Every dataset is compared; with the schedule offset by a
-    swept axis (PARAMETER, CONSTANT given), /case/PARAMETER holds the offsets, which must equal
+    swept axis (PARAMETER, CONSTANT given), /case/PARAMETER (and its copy in every group with a
+    case dimension) holds the offsets, which must equal
     the reference's values minus CONSTANT exactly (both exact in binary here), and the response
     slopes, fitted against the offsets rather than the values, agree to 1e-12 relative (the
     same fit of shifted abscissae; only rounding differs)."""
@@ -259,11 +260,13 @@ def check_schedule_identity(reference, other, parameter=None, constant=None):
         fail(f"{other}: datasets differ from {reference}: {sorted(set(ref) ^ set(got))}")
     loose = set()
     if parameter is not None:
-        loose = {f"/case/{parameter}", "/response/slope", "/response/slope_stderr"}
+        # /case/PARAMETER and its copies, the case coordinates of the other groups
+        copies = {name for name in ref if name.rsplit("/", 1)[-1] == parameter}
+        loose = copies | {"/response/slope", "/response/slope_stderr"}
         with h5py.File(reference, "r") as a, h5py.File(other, "r") as b:
-            if not np.array_equal(a[f"case/{parameter}"][()] - float(constant),
-                                  b[f"case/{parameter}"][()]):
-                fail(f"/case/{parameter}: offsets are not the reference's values - {constant}")
+            for name in copies:
+                if not np.array_equal(a[name][()] - float(constant), b[name][()]):
+                    fail(f"{name}: offsets are not the reference's values - {constant}")
             for name in ("response/slope", "response/slope_stderr"):
                 if not np.allclose(a[name][()], b[name][()], rtol=1e-12, atol=0):
                     fail(f"/{name} differs beyond rounding")
@@ -916,6 +919,36 @@ def check_fixed_point(path, case, rho, beta):
           f"{sign * c:.9g}, {rho - 1:g}); spread {std.max():.2g}; flagged: {reason}")
 
 
+def check_case_coordinates(path):
+    """Every group with a `case` dimension carries each swept parameter as a coordinate on it
+    (CF `coordinates` attribute, decoded by xarray): equal to /case/<parameter>; selecting a
+    case by its parameter values and unstacking a two-axis sweep into its axes (the README's
+    lines) give the values h5py reads at that case."""
+    import xarray as xr
+    with h5py.File(path, "r") as f:
+        axes = [v.decode() for v in f["response/axis"][()]]
+        values = {a: f["case/" + a][()] for a in axes}
+        groups = [g for g in f if isinstance(f[g], h5py.Group) and "case" in f[g]
+                  and g != "case"]
+        mean = f["ensemble/time_mean"][()]
+    for g in groups:
+        ds = xr.open_dataset(path, engine="h5netcdf", group=g)
+        for a in axes:
+            if a not in ds.coords or ds.coords[a].dims != ("case",) \
+                    or not np.array_equal(ds.coords[a].values, values[a]):
+                fail(f"group {g}: {a} is not a coordinate on case equal to /case/{a}")
+    ens = xr.open_dataset(path, engine="h5netcdf", group="ensemble")
+    grid = ens.time_mean.set_index(case=axes).unstack("case")
+    for c in range(mean.shape[0]):
+        at = {a: values[a][c] for a in axes}
+        if not np.array_equal(grid.sel(at).values, mean[c]):
+            fail(f"case {c} {at}: unstacked values differ from h5py's")
+    last = axes[-1]
+    one = ens.time_mean.swap_dims(case=last).sel({last: values[last][0]})
+    print(f"ok: {len(groups)} groups carry {axes} on case; unstacked to {dict(grid.sizes)}; "
+          f"{last} = {values[last][0]} selects {one.sizes[last]} cases")
+
+
 CHECKS = {
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
@@ -937,6 +970,7 @@ CHECKS = {
     "horizon-survival": check_horizon_survival,
     "non-chaotic": check_non_chaotic,
     "fixed-point": check_fixed_point,
+    "case-coordinates": check_case_coordinates,
 }
 
 if __name__ == "__main__":
