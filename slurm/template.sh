@@ -25,8 +25,8 @@
 #SBATCH --requeue
 #SBATCH --signal=B:USR1@{{MARGIN}}
 
-# Machine specifics (modules, MPI settings): one file per machine, slurm/env/<machine>.sh.
-{{ENV_SOURCE}}
+# Site specifics (modules, MPI settings): one file per site, slurm/sites/<site>.sh.
+{{SITE_SOURCE}}
 
 chaosweep={{CHAOSWEEP}}
 spec={{SPEC}}

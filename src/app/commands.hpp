@@ -43,8 +43,8 @@ struct SlurmOptions {
   std::string account;          // empty: the user's default
   int max_requeues = 10;        // requeues after a stop with a checkpoint (status 3)
   std::string launcher = "srun";  // srun (--mpi=pmix) or mpirun
-  std::string env_file;         // slurm/env/<machine>.sh sourced by the script; may be empty
-  std::string output;           // write the script here; empty: standard output
+  std::string site_file;        // slurm/sites/<site>.sh sourced by the script; may be empty
+  std::string script;           // write the script here; empty: standard output
   int signal_margin = -1;       // seconds of warning before the time limit; -1: estimated
 };
 

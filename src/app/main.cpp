@@ -114,8 +114,8 @@ int main(int argc, char** argv) {
       ->check(CLI::Range(0, 100000));
   slurm_cmd->add_option("--launcher", slurm.launcher, "srun (with --mpi=pmix) or mpirun")
       ->check(CLI::IsMember({"srun", "mpirun"}));
-  slurm_cmd->add_option("--env", slurm.env_file, "Machine settings to source, slurm/env/<machine>.sh");
-  slurm_cmd->add_option("--output", slurm.output, "Write the script to this file (default: stdout)");
+  slurm_cmd->add_option("--site", slurm.site_file, "Site settings to source first (modules, MPI), slurm/sites/<site>.sh");
+  slurm_cmd->add_option("--script", slurm.script, "Write the batch script to this file (default: stdout)");
   slurm_cmd->add_option("--signal-margin", slurm.signal_margin,
                         "Seconds between the warning signal and the time limit (default: estimated)");
 

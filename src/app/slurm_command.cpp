@@ -157,14 +157,14 @@ Margin signal_margin(const SlurmOptions& options, const spec::Spec& spec, long l
 
 /// The command line that reproduces this script, for its header comment.
 std::string command_line(const SlurmOptions& o, const std::string& spec_path,
-                         const std::string& env_path, const Margin& margin) {
+                         const std::string& site_path, const Margin& margin) {
   std::ostringstream out;
   out << "chaosweep slurm " << spec_path << " --nodes " << o.nodes << " --tasks-per-node "
       << o.tasks_per_node << " --time " << o.time;
   if (!o.partition.empty()) out << " --partition " << o.partition;
   if (!o.account.empty()) out << " --account " << o.account;
   out << " --max-requeues " << o.max_requeues << " --launcher " << o.launcher;
-  if (!env_path.empty()) out << " --env " << env_path;
+  if (!site_path.empty()) out << " --site " << site_path;
   out << " --signal-margin " << margin.seconds;
   std::string text = out.str();
   for (char& c : text) {
@@ -224,10 +224,10 @@ std::string absolute_existing_file(const std::string& option, const std::string&
 
 void write_script(const std::string& path, const std::string& script) {
   std::ofstream out(path, std::ios::binary | std::ios::trunc);
-  if (!out) throw IoError("--output: cannot write `" + path + "`");
+  if (!out) throw IoError("--script: cannot write `" + path + "`");
   out << script;
   out.close();
-  if (!out) throw IoError("--output: writing `" + path + "` failed");
+  if (!out) throw IoError("--script: writing `" + path + "` failed");
   chmod(path.c_str(), 0755);
 }
 
@@ -242,8 +242,8 @@ int slurm_command(const SlurmOptions& options) {
   const Margin margin = signal_margin(options, spec, limit_seconds);
 
   const std::string spec_path = fs::canonical(options.spec_path).string();
-  const std::string env_path =
-      options.env_file.empty() ? "" : absolute_existing_file("--env", options.env_file);
+  const std::string site_path =
+      options.site_file.empty() ? "" : absolute_existing_file("--site", options.site_file);
   const std::string workdir = fs::current_path().string();
   check_sbatch_word("the working directory", workdir, true);
   const std::string name = job_name(spec.name);
@@ -252,7 +252,7 @@ int slurm_command(const SlurmOptions& options) {
 
   const std::map<std::string, std::string> fields = {
       {"CAMPAIGN", spec.name},
-      {"COMMAND_LINE", command_line(options, spec_path, env_path, margin)},
+      {"COMMAND_LINE", command_line(options, spec_path, site_path, margin)},
       {"MARGIN", std::to_string(margin.seconds)},
       {"MARGIN_REASON", margin.reason},
       {"MAX_REQUEUES", std::to_string(options.max_requeues)},
@@ -264,8 +264,8 @@ int slurm_command(const SlurmOptions& options) {
       {"WORKDIR", workdir},
       {"WORKDIR_QUOTED", shell_quote(workdir)},
       {"LOG", workdir + "/" + name + "-%j.log"},
-      {"ENV_SOURCE", env_path.empty() ? "# (none given: chaosweep slurm --env FILE)"
-                                      : "source " + shell_quote(env_path)},
+      {"SITE_SOURCE", site_path.empty() ? "# (none given: chaosweep slurm --site FILE)"
+                                        : "source " + shell_quote(site_path)},
       {"CHAOSWEEP", shell_quote(program)},
       {"SPEC", shell_quote(spec_path)},
       {"LAUNCHER_NAME", options.launcher},
@@ -273,12 +273,12 @@ int slurm_command(const SlurmOptions& options) {
   };
   const std::string script = fill_template(slurm_template_text(), fields);
 
-  if (options.output.empty()) {
+  if (options.script.empty()) {
     std::fputs(script.c_str(), stdout);
   } else {
-    write_script(options.output, script);
-    std::printf("wrote %s: submit it with `sbatch %s`\n", options.output.c_str(),
-                options.output.c_str());
+    write_script(options.script, script);
+    std::printf("wrote %s: submit it with `sbatch %s`\n", options.script.c_str(),
+                options.script.c_str());
   }
   return kExitComplete;
 }

@@ -19,7 +19,7 @@ cd "$work" || exit 1
 # --- a script with every option -----------------------------------------------------------
 "$CHAOSWEEP" slurm "$specs/l63-slurm-small.yaml" --nodes 3 --tasks-per-node 8 --time 01:30:00 \
   --partition compute --account climate-lab --max-requeues 4 --launcher srun \
-  --env "$SOURCE_DIR/slurm/env/localhost.sh" >full.sh 2>full.err
+  --site "$SOURCE_DIR/slurm/sites/localhost.sh" >full.sh 2>full.err
 [ $? -eq 0 ] || fail "generation failed: $(cat full.err)"
 [ ! -s full.err ] || fail "generation printed to stderr: $(cat full.err)"
 bash -n full.sh || fail "the generated script is not valid bash"
@@ -40,7 +40,7 @@ expect_line full.sh "#SBATCH --open-mode=append"
 expect_line full.sh "#SBATCH --requeue"
 # A small campaign: the checkpoint write is negligible, the margin is the fixed 120 s.
 expect_line full.sh "#SBATCH --signal=B:USR1@120"
-expect_line full.sh "source '$SOURCE_DIR/slurm/env/localhost.sh'"
+expect_line full.sh "source '$SOURCE_DIR/slurm/sites/localhost.sh'"
 expect_line full.sh "chaosweep='$(readlink -f "$CHAOSWEEP")'"
 expect_line full.sh "spec='$(readlink -f "$specs/l63-slurm-small.yaml")'"
 expect_line full.sh "workdir='$work'"
@@ -62,8 +62,8 @@ awk 'NR == FNR { if ($0 !~ /\{\{/) fixed[++n] = $0; next }
 
 # --- mpirun, no partition/account/env, explicit margin, written to a file -----------------
 "$CHAOSWEEP" slurm "$specs/l63-slurm-small.yaml" --nodes 1 --tasks-per-node 2 --time 2-00:00:00 \
-  --launcher mpirun --signal-margin 300 --output job.sh >job.out 2>&1 || fail "$(cat job.out)"
-[ -x job.sh ] || fail "--output did not write an executable job.sh"
+  --launcher mpirun --signal-margin 300 --script job.sh >job.out 2>&1 || fail "$(cat job.out)"
+[ -x job.sh ] || fail "--script did not write an executable job.sh"
 bash -n job.sh || fail "job.sh is not valid bash"
 expect_line job.sh "#SBATCH --time=2-00:00:00"
 expect_line job.sh "#SBATCH --signal=B:USR1@300"
@@ -71,12 +71,12 @@ expect_line job.sh "max_requeues=10"
 grep -qE '^mpirun -np "\$SLURM_NTASKS" "\$chaosweep" run "\$spec" .*&$' job.sh ||
   fail "the run is not started with mpirun in the background"
 ! grep -qE '^#SBATCH --(partition|account)' job.sh || fail "partition/account lines without the options"
-! grep -q '^source ' job.sh || fail "an environment file is sourced without --env"
+! grep -q '^source ' job.sh || fail "a site file is sourced without --site"
 
 # --- the README's walk-through: its campaign and options ------------------------------------
 "$CHAOSWEEP" slurm "$SOURCE_DIR/slurm/example-local.yaml" --nodes 1 --tasks-per-node 2 \
-  --time 00:02:00 --signal-margin 60 --env "$SOURCE_DIR/slurm/env/localhost.sh" \
-  --output example.sbatch >example.out 2>&1 || fail "README example: $(cat example.out)"
+  --time 00:02:00 --signal-margin 60 --site "$SOURCE_DIR/slurm/sites/localhost.sh" \
+  --script example.sbatch >example.out 2>&1 || fail "README example: $(cat example.out)"
 bash -n example.sbatch || fail "README example: not valid bash"
 expect_line example.sbatch "#SBATCH --signal=B:USR1@60"
 expect_line example.sbatch "#SBATCH --output=$work/slurm-example-local-%j.log"
@@ -94,7 +94,7 @@ expect_usage_error() {  # DESCRIPTION ARGS...
   local what=$1
   shift
   rm -f bad.sh
-  "$CHAOSWEEP" slurm "$@" --output bad.sh >bad.out 2>bad.err
+  "$CHAOSWEEP" slurm "$@" --script bad.sh >bad.out 2>bad.err
   local status=$?
   [ "$status" -eq 2 ] || fail "$what: status $status, expected 2 ($(cat bad.err))"
   [ "$(wc -l <bad.err)" -eq 1 ] || fail "$what: stderr is not one line: $(cat bad.err)"
@@ -114,8 +114,13 @@ expect_usage_error "zero margin" "${good[@]}" --time 01:00:00 --signal-margin 0
 expect_usage_error "unknown launcher" "${good[@]}" --time 01:00:00 --launcher aprun
 expect_usage_error "partition with a space" "${good[@]}" --time 01:00:00 --partition "a b"
 expect_usage_error "account with a quote" "${good[@]}" --time 01:00:00 --account "x'y"
-expect_usage_error "missing env file" "${good[@]}" --time 01:00:00 --env "$work/no-such.sh"
+expect_usage_error "missing site file" "${good[@]}" --time 01:00:00 --site "$work/no-such.sh"
 expect_usage_error "negative requeues" "${good[@]}" --time 01:00:00 --max-requeues -1
+# The script and site options have one name each: the scheduler-like --output and the
+# launcher-like --env are not aliases.
+expect_usage_error "the name --output" "${good[@]}" --time 01:00:00 --output other.sh
+expect_usage_error "the name --env" "${good[@]}" --time 01:00:00 --env "$SOURCE_DIR/slurm/sites/localhost.sh"
+"$CHAOSWEEP" slurm --help | grep -qE -- '--output|--env' && fail "--help still names --output or --env"
 expect_usage_error "zero nodes" "$specs/l63-slurm-small.yaml" --nodes 0 --tasks-per-node 2 --time 01:00:00
 expect_usage_error "no time" "$specs/l63-slurm-small.yaml" --nodes 1 --tasks-per-node 2
 expect_usage_error "missing spec" "$work/no-such.yaml" --nodes 1 --tasks-per-node 2 --time 01:00:00

@@ -10,8 +10,8 @@ note() { echo "-- $*"; }
 
 # Machine settings for this machine (MPI as root, oversubscription, SLURM_CONF default): the
 # same file the generated batch scripts source.
-# shellcheck source=../../slurm/env/localhost.sh
-source "$SOURCE_DIR/slurm/env/localhost.sh"
+# shellcheck source=../../slurm/sites/localhost.sh
+source "$SOURCE_DIR/slurm/sites/localhost.sh"
 
 # A fresh, empty directory.
 fresh_dir() {
@@ -71,8 +71,8 @@ wait_for_log_line() {
 generate() {
   local dir=$1 spec=$2
   shift 2
-  (cd "$dir" && "$CHAOSWEEP" slurm "$spec" --env "$SOURCE_DIR/slurm/env/localhost.sh" \
-     --output job.sh "$@" >/dev/null) || fail "chaosweep slurm $spec $* failed"
+  (cd "$dir" && "$CHAOSWEEP" slurm "$spec" --site "$SOURCE_DIR/slurm/sites/localhost.sh" \
+     --script job.sh "$@" >/dev/null) || fail "chaosweep slurm $spec $* failed"
   bash -n "$dir/job.sh" || fail "$dir/job.sh is not valid bash"
 }
 

@@ -1,6 +1,6 @@
-# Machine settings for the single-node Slurm that scripts/slurm-localhost runs on this machine
+# Site settings for the single-node Slurm that scripts/slurm-localhost runs on this machine
 # (Debian 12, everything as root). Sourced by batch scripts written with
-# `chaosweep slurm ... --env slurm/env/localhost.sh` and by the Slurm tests' launcher.
+# `chaosweep slurm ... --site slurm/sites/localhost.sh` and by the Slurm tests' launcher.
 # A real cluster gets its own file beside this one: module loads and MPI settings go there.
 
 # Where the client commands (sbatch, scontrol, srun) find the cluster: the default directory of
