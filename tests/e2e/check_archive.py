@@ -949,6 +949,27 @@ def check_case_coordinates(path):
           f"{last} = {values[last][0]} selects {one.sizes[last]} cases")
 
 
+def check_root_attributes(readme, *paths):
+    """Every root attribute of the archives (one with a schedule among them) is documented in
+    the README's table of root attributes, and every documented one occurs in some archive."""
+    import re
+    text = open(readme, encoding="utf-8").read()
+    table = text.split("Root attributes (every one the writer sets", 1)[1].split("\n\n", 2)[1]
+    documented = set(re.findall(r"`(\w+)`", "\n".join(
+        line.split("|")[1] for line in table.splitlines() if line.startswith("| `"))))
+    seen = set()
+    for path in paths:
+        with h5py.File(path, "r") as f:
+            names = set(f.attrs)
+        missing = names - documented
+        if missing:
+            fail(f"{path}: root attributes {sorted(missing)} are not in the README")
+        seen |= names
+    if documented - seen:
+        fail(f"documented root attributes no archive has: {sorted(documented - seen)}")
+    print(f"ok: {len(documented)} root attributes documented, all seen in {len(paths)} archives")
+
+
 CHECKS = {
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
@@ -971,6 +992,7 @@ CHECKS = {
     "non-chaotic": check_non_chaotic,
     "fixed-point": check_fixed_point,
     "case-coordinates": check_case_coordinates,
+    "root-attributes": check_root_attributes,
 }
 
 if __name__ == "__main__":
