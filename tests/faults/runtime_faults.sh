@@ -102,5 +102,17 @@ refused plain.h5 "an HDF5 file that is not an archive" "not a chaosweep archive"
 echo "campaign: {name: not-an-archive}" > text.h5
 refused text.h5 "a text file" "not a chaosweep archive"
 
+# 5. An archive or another HDF5 file given where a spec belongs is named as such (exit 2, one
+#    line), not read as YAML.
+not_a_spec() {  # not_a_spec FILE FRAGMENT
+  "$prog" check "$1" --no-calibrate > out.txt 2> err.txt
+  local status=$?
+  [ $status -eq 2 ] || fail "check $1: expected exit 2, got $status: $(cat err.txt)"
+  [ "$(grep -c '' err.txt)" -eq 1 ] || fail "check $1: not one line: $(cat err.txt)"
+  grep -q -- "$2" err.txt || fail "check $1: no \"$2\" in: $(cat err.txt)"
+}
+not_a_spec reference.h5 "reference.h5 is a chaosweep archive (HDF5), not a campaign spec"
+not_a_spec plain.h5 "plain.h5 is an HDF5 file, not a campaign spec"
+
 [ "$failures" -eq 0 ] || { echo "$failures failures"; exit 1; }
 echo "all runtime fault checks passed"
