@@ -3,6 +3,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 #include <memory>
 
 #include "core/error.hpp"
@@ -13,6 +15,16 @@ namespace {
 /// Number of whole steps of length dt in `span` time units (rounded to the nearest).
 std::int64_t whole_steps(double span, double dt) {
   return static_cast<std::int64_t>(std::llround(span / dt));
+}
+
+/// Shortest decimal text (up to 17 significant digits) that reads back as exactly `value`.
+std::string shortest(double value) {
+  char text[32];
+  for (int digits = 1; digits <= 17; ++digits) {
+    std::snprintf(text, sizeof text, "%.*g", digits, value);
+    if (std::strtod(text, nullptr) == value) break;
+  }
+  return text;
 }
 
 /// Cartesian product of the sweep axes, the last axis varying fastest.
@@ -35,6 +47,18 @@ std::vector<Case> make_cases(const spec::Spec& spec) {
   for (std::size_t i = 0; i < cases.size(); ++i) cases[i].index = static_cast<std::int64_t>(i);
   return cases;
 }
+
+}  // namespace
+
+std::string describe_case(const spec::Spec& spec, const Case& c) {
+  std::string text = "case " + std::to_string(c.index);
+  for (std::size_t a = 0; a < spec.sweep.size() && a < c.axis_values.size(); ++a) {
+    text += (a == 0 ? " (" : ", ") + spec.sweep[a].parameter + " " + shortest(c.axis_values[a]);
+  }
+  return spec.sweep.empty() ? text : text + ")";
+}
+
+namespace {
 
 std::vector<Batch> make_batches(std::int64_t n_cases, std::int64_t members, int batch_size) {
   std::vector<Batch> batches;
