@@ -7,6 +7,7 @@
 #include <cmath>
 #include <optional>
 
+#include "core/error.hpp"
 #include "run/lyapunov.hpp"
 #include "run/schedule.hpp"
 
@@ -68,24 +69,73 @@ std::int64_t LocalWork::finished_count() const {
   return std::count_if(results_.begin(), results_.end(), [](const auto& r) { return r.has_value(); });
 }
 
+const plan::Batch& LocalWork::batch_at(std::size_t i) const {
+  return plan_.batches[static_cast<std::size_t>(share_.first) + i];
+}
+
+template <typename Step>
+void LocalWork::in_case(std::size_t i, Step&& step) {
+  const plan::Case& c = plan_.cases[static_cast<std::size_t>(batch_at(i).case_index)];
+  try {
+    step();
+  } catch (const run::SpinupDiverged& e) {
+    const spec::Location at = spec_.integration.dt_where;
+    throw SpecError(spec_.source_path + ":" + std::to_string(at.line) + ":" +
+                    std::to_string(at.column) + ": integration.dt: " +
+                    plan::describe_case(spec_, c) + ": " + e.what() + " at dt " +
+                    fmt::format("{}", spec_.integration.dt) + "; reduce integration.dt");
+  } catch (const SpecError&) {
+    throw;
+  } catch (const Error& e) {
+    throw Error(plan::describe_case(spec_, c) + ": " + e.what(), e.exit_code());
+  }
+}
+
+const std::vector<double>& LocalWork::base_state(std::int64_t case_index) {
+  auto found = base_states_.find(case_index);
+  if (found == base_states_.end()) {
+    const plan::Case& c = plan_.cases[static_cast<std::size_t>(case_index)];
+    found = base_states_.emplace(case_index, run::case_base_state(spec_, plan_, c)).first;
+  }
+  return found->second;
+}
+
+void LocalWork::prepare_cases() {
+  for (std::size_t i = 0; i < results_.size(); ++i) {
+    if (!results_[i]) in_case(i, [&] { base_state(batch_at(i).case_index); });
+  }
+}
+
 void LocalWork::start_next() {
   std::size_t i = 0;
   while (i < results_.size() && results_[i]) ++i;
   if (i == results_.size()) return;
-  const plan::Batch& batch = plan_.batches[static_cast<std::size_t>(share_.first) + i];
-  if (batch.case_index != runner_case_) {
-    runner_.reset();
-    runner_ = std::make_unique<run::CaseRunner>(
-        spec_, plan_, plan_.cases[static_cast<std::size_t>(batch.case_index)]);
-    runner_case_ = batch.case_index;
-  }
-  current_index_ = i;
-  if (resumed_[i]) {
-    current_ = runner_->resume(batch, *resumed_[i]);
-    resumed_[i].reset();
-  } else {
-    current_ = runner_->start(batch);
-  }
+  const plan::Batch& batch = batch_at(i);
+  in_case(i, [&] {
+    if (batch.case_index != runner_case_) {
+      runner_.reset();
+      runner_case_ = -1;
+      runner_ = std::make_unique<run::CaseRunner>(
+          spec_, plan_, plan_.cases[static_cast<std::size_t>(batch.case_index)],
+          base_state(batch.case_index));
+      runner_case_ = batch.case_index;
+    }
+    current_index_ = i;
+    if (resumed_[i]) {
+      current_ = runner_->resume(batch, *resumed_[i]);
+      resumed_[i].reset();
+    } else {
+      current_ = runner_->start(batch);
+    }
+  });
+}
+
+void LocalWork::advance_current(std::int64_t steps) {
+  in_case(current_index_, [&] {
+    const std::int64_t before = current_->step();
+    current_->advance(steps);
+    integrated_member_steps_ += (current_->step() - before) * batch_at(current_index_).count;
+  });
 }
 
 // With a schedule, the Lyapunov integration's own model copy starts at the t = 0 value and the
@@ -115,9 +165,12 @@ void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResu
 }
 
 void LocalWork::finish_current() {
-  results_[current_index_] = current_->finish();
+  in_case(current_index_, [&] {
+    run::BatchResult result = current_->finish();
+    add_lyapunov(spec_, plan_, result);
+    results_[current_index_] = std::move(result);
+  });
   current_.reset();
-  add_lyapunov(spec_, plan_, *results_[current_index_]);
   if (store_) store_->save_done(*results_[current_index_]);
 }
 
@@ -127,7 +180,7 @@ bool LocalWork::work(double seconds) {
     if (!current_) start_next();
     if (!current_) return true;
     const Clock::time_point chunk_start = Clock::now();
-    current_->advance(chunk_steps_);
+    advance_current(chunk_steps_);
     const double took = seconds_since(chunk_start);
     // Aim at ~50 ms per chunk: short enough to stop promptly, long enough to cost nothing.
     const double scale = took > 0 ? std::clamp(0.05 / took, 0.5, 2.0) : 2.0;
@@ -141,7 +194,7 @@ bool LocalWork::work(double seconds) {
 std::int64_t LocalWork::save_in_progress(std::int64_t generation) const {
   if (!current_ || !store_) return -1;
   store_->save_state(generation, current_->save());
-  return plan_.batches[static_cast<std::size_t>(share_.first) + current_index_].index;
+  return batch_at(current_index_).index;
 }
 
 std::vector<run::BatchResult> LocalWork::take_results() {

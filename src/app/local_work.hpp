@@ -3,6 +3,7 @@
 #pragma once
 
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <optional>
 #include <vector>
@@ -33,6 +34,12 @@ class LocalWork {
   };
   Restored restore();
 
+  /// Computes the base state of every case that has a batch of this rank still to integrate
+  /// (with `from: attractor`, its spin-up), so that a spin-up that diverges stops the run
+  /// before it creates any file. Throws SpecError at integration.dt naming the case and its
+  /// swept values.
+  void prepare_cases();
+
   /// Integrates for about `seconds` of wall time (at least one chunk), saving each batch that
   /// finishes. Returns true when every batch of this rank is finished.
   bool work(double seconds);
@@ -45,10 +52,19 @@ class LocalWork {
   std::vector<run::BatchResult> take_results();
   std::int64_t finished_count() const;
   std::int64_t batch_count() const { return static_cast<std::int64_t>(results_.size()); }
+  /// Steps times real members integrated by this process (restored work not counted).
+  std::int64_t integrated_member_steps() const { return integrated_member_steps_; }
 
  private:
+  const plan::Batch& batch_at(std::size_t i) const;  // the batch at local index i
   void start_next();
+  void advance_current(std::int64_t steps);
   void finish_current();
+  const std::vector<double>& base_state(std::int64_t case_index);
+  /// Runs `step` for the case of the batch at local index `i`; an Error it throws is
+  /// rethrown with the case and its swept values in front.
+  template <typename Step>
+  void in_case(std::size_t i, Step&& step);
 
   const spec::Spec& spec_;
   const plan::Plan& plan_;
@@ -56,11 +72,13 @@ class LocalWork {
   const checkpoint::Store* store_;
   std::vector<std::optional<run::BatchResult>> results_;   // per local batch
   std::vector<std::optional<run::BatchState>> resumed_;    // restored states, per local batch
+  std::map<std::int64_t, std::vector<double>> base_states_;  // per case, from prepare_cases()
   std::unique_ptr<run::CaseRunner> runner_;
   std::int64_t runner_case_ = -1;
   std::unique_ptr<run::BatchProgress> current_;
   std::size_t current_index_ = 0;                          // local index of current_
   std::int64_t chunk_steps_ = 64;                          // adapted to ~50 ms per chunk
+  std::int64_t integrated_member_steps_ = 0;
 };
 
 }  // namespace chaosweep::app

@@ -81,7 +81,9 @@ int main(int argc, char** argv) {
   CLI::App* run_cmd = cli.add_subcommand("run", "Run a campaign (under mpirun for several ranks)");
   run_cmd->add_option("SPEC", run.spec_path, "Campaign spec (YAML)")->required();
   run_cmd->add_option("--archive", run.archive, "Write the archive here instead of output.archive");
-  run_cmd->add_flag("--overwrite", run.overwrite, "Replace an existing archive");
+  run_cmd->add_flag("--overwrite", run.overwrite,
+                    "Replace an existing archive; without --resume, also discard existing "
+                    "checkpoints");
   run_cmd->add_flag("--resume", run.resume, "Continue from the campaign's checkpoints");
   run_cmd->add_flag("--restart-from-scratch", run.restart_from_scratch,
                     "With --resume: start over when no checkpoint can be used");

@@ -33,9 +33,11 @@ ProgressMode parse_progress_mode(const std::string& text) {
 }
 
 Progress::Progress(ProgressMode mode, bool enabled, std::int64_t total,
-                   double member_steps_per_unit, int ranks)
+                   double member_steps_per_unit, int ranks, std::int64_t already_done)
     : mode_(enabled ? mode : ProgressMode::none),
       total_(total),
+      done_(already_done),
+      already_done_(already_done),
       per_unit_(member_steps_per_unit),
       ranks_(ranks),
       start_(std::chrono::steady_clock::now()),
@@ -67,8 +69,10 @@ void Progress::show() {
   last_shown_ = now;
   const double elapsed = std::chrono::duration<double>(now - start_).count();
   const double fraction = total_ > 0 ? static_cast<double>(done_) / total_ : 1.0;
-  const double rate = elapsed > 0 ? done_ * per_unit_ * ranks_ / elapsed : 0.0;
-  const double left = fraction > 0 ? elapsed * (1.0 - fraction) / fraction : -1.0;
+  const std::int64_t done_here = done_ - already_done_;  // units integrated in this run
+  const double rate = elapsed > 0 ? done_here * per_unit_ * ranks_ / elapsed : 0.0;
+  const double left =
+      done_here > 0 ? elapsed * static_cast<double>(total_ - done_) / done_here : -1.0;
   if (mode_ == ProgressMode::bar) {
     const int width = 30, filled = static_cast<int>(fraction * width);
     std::fprintf(stderr, "\r[%s%s] %5.1f%%  %.3g member-steps/s  ETA %s   ",

@@ -48,8 +48,9 @@ double seconds_since(Clock::time_point start) {
 }
 
 /// Runs `step` on every rank; if it throws an Error on any rank, every rank returns the same
-/// exit status and the first failing rank (rank 0 preferred) prints its one-line message.
-/// Used for the checks that precede any work, where all ranks fail alike and no abort is needed.
+/// exit status and the lowest failing rank prints its one-line message (with contiguous shares
+/// of the batches, the error of the lowest case). Used for the checks that precede any work,
+/// where no rank is left waiting in a collective and no abort is needed.
 int agree(const parallel::Communicator& comm, const std::function<void()>& step) {
   int code = 0;
   std::string message;
@@ -60,8 +61,8 @@ int agree(const parallel::Communicator& comm, const std::function<void()>& step)
     message = e.what();
   }
   if (!comm.any(code != 0)) return 0;
-  const bool root_failed = comm.broadcast(code != 0 ? "1" : "0") == "1";
-  if (code != 0 && (comm.rank() == 0 || !root_failed)) print_error(message, comm.rank(), 0);
+  const int reporter = -static_cast<int>(comm.max(code != 0 ? -comm.rank() : -comm.size()));
+  if (comm.rank() == reporter) print_error(message, comm.rank(), 0);
   return static_cast<int>(comm.max(code != 0 ? code : 0));
 }
 
@@ -112,19 +113,23 @@ std::string first_difference(const std::string& before, const std::string& now) 
   }
 }
 
-/// Checks the checkpoint directory against --resume before any work.
-void check_checkpoints(const spec::Spec& spec, const RunOptions& options,
+/// Checks the checkpoint directory against --resume and --overwrite before any work. Returns
+/// true when the checkpoints there are to be discarded (--overwrite without --resume), which
+/// happens only once every check before the run has passed.
+bool check_checkpoints(const spec::Spec& spec, const RunOptions& options,
                        const checkpoint::Store& store) {
   const std::string dir = store.directory();
   if (!options.resume) {
+    if (store.has_content() && options.overwrite) return true;
     if (store.has_content()) {
       throw UsageError("checkpoints of an earlier run exist in " + dir +
-                       "; pass --resume to continue it, or remove the directory to start over");
+                       "; pass --resume to continue it, or --overwrite to discard them and start "
+                       "over");
     }
-    return;
+    return false;
   }
   if (!store.has_content()) {
-    if (options.restart_from_scratch) return;
+    if (options.restart_from_scratch) return false;
     throw UsageError("--resume: no checkpoint in " + dir +
                      "; pass --restart-from-scratch to start the campaign from the beginning");
   }
@@ -132,8 +137,9 @@ void check_checkpoints(const spec::Spec& spec, const RunOptions& options,
   if (!stored.empty() && stored != spec.text) {
     throw UsageError("--resume: the checkpoints in " + dir + " were written for another version of " +
                      spec.source_path + " (" + first_difference(stored, spec.text) +
-                     "); restore that spec, or remove the directory to start over");
+                     "); restore that spec, or pass --overwrite without --resume to discard them");
   }
+  return false;
 }
 
 /// A campaign whose archive is already complete (a requeued job finishing a second time).
@@ -181,15 +187,12 @@ void write_generation(const parallel::Communicator& comm, const checkpoint::Stor
   }
 }
 
-struct Outcome {
-  bool stopped = false;
-  int signal = 0;
-};
-
-/// Collective rounds of work until every rank is done or a stop is agreed.
-Outcome run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
-                   const checkpoint::Store& store, LocalWork& work, Progress& progress,
-                   std::int64_t generation) {
+/// Collective rounds of work until every rank is done (returns false) or a stop is agreed
+/// (returns true, after every rank that received a signal has logged which one and from whom,
+/// and a checkpoint generation has been saved).
+bool run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
+                const checkpoint::Store& store, LocalWork& work, Progress& progress,
+                std::int64_t generation) {
   Clock::time_point last_checkpoint = Clock::now();
   const double round_seconds = test_hooks::round_seconds(kRoundSeconds);
   bool done = work.done();
@@ -202,12 +205,13 @@ Outcome run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
     const bool due = comm.rank() == 0 &&
                      seconds_since(last_checkpoint) >= spec.checkpoint.every_seconds;
     const parallel::Communicator::RoundAgreement a = comm.agree(stop_signal() != 0, due, done);
-    if (a.all_done) return {};
+    if (a.all_done) return false;
+    if (a.stop && stop_signal() != 0) spdlog::warn("received {}", describe_stop_signal());
     if (a.checkpoint || a.stop) {
       write_generation(comm, store, work, generation++, spec.checkpoint.keep);
       last_checkpoint = Clock::now();
     }
-    if (a.stop) return {true, static_cast<int>(comm.max(stop_signal()))};
+    if (a.stop) return true;
   }
 }
 
@@ -251,6 +255,55 @@ std::int64_t restore(const parallel::Communicator& comm, const RunOptions& optio
   return static_cast<std::int64_t>(comm.max(static_cast<double>(newest))) + 1;
 }
 
+/// A word of a shell command line, quoted when the shell would split or expand it.
+std::string shell_word(const std::string& word) {
+  if (!word.empty() && word.find_first_not_of("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                              "0123456789_-./=:,+@%") == std::string::npos) {
+    return word;
+  }
+  std::string quoted = "'";
+  for (char c : word) quoted += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return quoted + "'";
+}
+
+/// The command that continues this run: its spec, --archive and --overwrite, on as many ranks
+/// (any number would do; the same is the one to copy without thinking).
+std::string resume_command(const RunOptions& options, int ranks) {
+  std::string command = ranks > 1 ? "mpirun -np " + std::to_string(ranks) + " " : "";
+  command += "chaosweep run " + shell_word(options.spec_path);
+  if (!options.archive.empty()) command += " --archive " + shell_word(options.archive);
+  if (options.overwrite) command += " --overwrite";
+  return command + " --resume";
+}
+
+/// Removes the checkpoint directory of a run that failed before it saved anything worth
+/// keeping (no finished batch, no generation), when this run created it. Called by a failing
+/// rank on its way to the one-line error; returns whether it removed the directory.
+bool discard_unsaved(const checkpoint::Store& store, bool created_here) noexcept {
+  if (!created_here) return false;
+  try {
+    return store.remove_if_nothing_saved();
+  } catch (...) {
+    return false;
+  }
+}
+
+/// The integration rate of this run: only the member-steps integrated by this process count,
+/// not the batches read back from checkpoints.
+void log_rate(const parallel::Communicator& comm, const plan::Plan& plan, const LocalWork& work,
+              double seconds) {
+  const std::int64_t integrated = comm.sum(work.integrated_member_steps());
+  if (comm.rank() != 0) return;
+  const std::int64_t campaign = plan.member_count() * plan.total_steps();
+  std::string restored;
+  if (integrated < campaign) {
+    restored = fmt::format("; the other {} of the campaign's {} were read back from checkpoints",
+                           campaign - integrated, campaign);
+  }
+  spdlog::info("integrated {} member-steps in {:.2f} s ({:.3g} member-steps/s on {} ranks){}",
+               integrated, seconds, integrated / seconds, comm.size(), restored);
+}
+
 }  // namespace
 
 /// Warns (rank 0) about cases whose estimates need care: non-chaotic cases, and twin pairs of
@@ -289,7 +342,7 @@ int run_command(const RunOptions& options) {
   spec::Spec spec;
   std::string archive_path;
   std::unique_ptr<checkpoint::Store> store;
-  bool complete = false;
+  bool complete = false, discard = false;
   const ProgressMode mode = parse_progress_mode(options.progress);
   if (int code = agree(comm, [&] { spec = spec::load_spec(options.spec_path); })) return code;
   if (int code = agree(comm, [&] {
@@ -297,7 +350,7 @@ int run_command(const RunOptions& options) {
         store = std::make_unique<checkpoint::Store>(checkpoint_directory(spec, archive_path),
                                                     spec.sha256);
         complete = already_complete(spec, archive_path, options, *store);
-        if (!complete) check_checkpoints(spec, options, *store);
+        if (!complete) discard = check_checkpoints(spec, options, *store);
       })) {
     return code;
   }
@@ -312,10 +365,19 @@ int run_command(const RunOptions& options) {
                                         comm.rank(), comm.size());
   LocalWork work(spec, plan, share, store.get());
   std::int64_t generation = 1;
-  if (options.resume && store->has_content()) {
+  const bool resuming = options.resume && store->has_content();
+  if (resuming) {
     if (int code = agree(comm, [&] { generation = restore(comm, options, *store, work); })) {
       return code;
     }
+  }
+  // Every spin-up to the attractor this rank needs, before any file is created or discarded.
+  if (int code = agree(comm, [&] { work.prepare_cases(); })) return code;
+
+  if (discard && comm.rank() == 0) {
+    spdlog::warn("--overwrite: discarding the checkpoints of an earlier run in {}",
+                 store->directory());
+    store->remove_all();
   }
   if (comm.rank() == 0) {
     store->remove_leftovers();
@@ -323,45 +385,53 @@ int run_command(const RunOptions& options) {
   }
   comm.barrier();
 
-  Progress progress(mode, comm.rank() == 0, work.batch_count(),
-                    static_cast<double>(plan.batch_size) * plan.total_steps(), comm.size());
-  const Outcome outcome = run_rounds(comm, spec, *store, work, progress, generation);
-  progress.finish();
-  if (outcome.stopped) {
-    if (comm.rank() == 0) {
-      spdlog::warn("stopped on signal {} with a checkpoint in {}; continue with: chaosweep run {} "
-                   "--resume", outcome.signal, store->directory(), spec.source_path);
+  try {
+    Progress progress(mode, comm.rank() == 0, work.batch_count(),
+                      static_cast<double>(plan.batch_size) * plan.total_steps(), comm.size(),
+                      work.finished_count());
+    const bool stopped = run_rounds(comm, spec, *store, work, progress, generation);
+    progress.finish();
+    if (stopped) {
+      if (comm.rank() == 0) {
+        spdlog::warn("stopped with a checkpoint in {}; continue with: {}", store->directory(),
+                     resume_command(options, comm.size()));
+      }
+      return kExitStopped;
     }
-    return kExitStopped;
-  }
 
-  log_checkpoint_cost(comm, *store, seconds_since(start));
-  const std::vector<run::BatchResult> local = work.take_results();
-  const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, local);
-  if (ensemble.non_finite_members > 0 && comm.rank() == 0) {
-    spdlog::warn("{} of {} members became non-finite (dt too large?); they are excluded from every "
-                 "estimate and marked in /member/status",
-                 ensemble.non_finite_members, plan.member_count());
-  }
-  if (comm.rank() == 0) warn_about_estimates(spec, plan, ensemble);
-  const Clock::time_point integrated = Clock::now();
+    log_checkpoint_cost(comm, *store, seconds_since(start));
+    const std::vector<run::BatchResult> local = work.take_results();
+    const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, local);
+    if (ensemble.non_finite_members > 0 && comm.rank() == 0) {
+      spdlog::warn("{} of {} members became non-finite (dt too large?); they are excluded from "
+                   "every estimate and marked in /member/status",
+                   ensemble.non_finite_members, plan.member_count());
+    }
+    if (comm.rank() == 0) warn_about_estimates(spec, plan, ensemble);
+    const Clock::time_point integrated = Clock::now();
 
-  archive::RunInfo info;
-  info.ranks = comm.size();
-  info.rank = comm.rank();
-  info.created_utc = comm.broadcast(utc_now());
-  archive::write_archive(archive_path, spec, plan, local, ensemble, info);
-  comm.barrier();
-  if (comm.rank() == 0) store->remove_all();
+    archive::RunInfo info;
+    info.ranks = comm.size();
+    info.rank = comm.rank();
+    info.created_utc = comm.broadcast(utc_now());
+    archive::write_archive(archive_path, spec, plan, local, ensemble, info);
+    comm.barrier();
+    if (comm.rank() == 0) store->remove_all();
 
-  if (comm.rank() == 0) {
-    const double run_s = std::chrono::duration<double>(integrated - start).count();
-    const double member_steps = static_cast<double>(plan.member_count()) * plan.total_steps();
-    spdlog::info("integrated {:.3g} member-steps in {:.2f} s ({:.3g} member-steps/s on {} ranks)",
-                 member_steps, run_s, member_steps / run_s, comm.size());
-    spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
+    log_rate(comm, plan, work, std::chrono::duration<double>(integrated - start).count());
+    if (comm.rank() == 0) {
+      spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
+    }
+    return kExitComplete;
+  } catch (const Error& e) {
+    if (!discard_unsaved(*store, !resuming)) throw;
+    throw Error(std::string(e.what()) + " (no batch had finished; " + store->directory() +
+                    " was removed)",
+                e.exit_code());
+  } catch (...) {
+    discard_unsaved(*store, !resuming);
+    throw;
   }
-  return kExitComplete;
 }
 
 }  // namespace chaosweep::app

@@ -274,4 +274,14 @@ void Store::remove_all() const {
   fs::remove(directory_, ec);  // only if now empty
 }
 
+bool Store::remove_if_nothing_saved() const {
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(directory_ + "/done", ec)) {
+    if (entry.path().extension() == ".ckpt") return false;
+  }
+  if (!generations().empty()) return false;
+  remove_all();
+  return true;
+}
+
 }  // namespace chaosweep::checkpoint

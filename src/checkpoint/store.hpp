@@ -60,8 +60,12 @@ class Store {
   std::optional<run::BatchState> load_state(std::int64_t generation, std::int64_t batch,
                                             std::string* problem) const;
 
-  /// Deletes the directory's checkpoint files (after the archive is complete).
+  /// Deletes the directory's checkpoint files (after the archive is complete, or to discard
+  /// an earlier run's), and the directory itself when nothing else is in it.
   void remove_all() const;
+  /// remove_all() when the directory holds no finished batch and no complete generation
+  /// (a run that failed before it saved anything); returns whether it did.
+  bool remove_if_nothing_saved() const;
 
   /// What this process has written so far (for the cost report in the log).
   struct WriteStats {

@@ -5,6 +5,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 #include <memory>
 
 #include "core/error.hpp"
@@ -15,6 +17,16 @@ namespace {
 /// Number of whole steps of length dt in `span` time units (rounded to the nearest).
 std::int64_t whole_steps(double span, double dt) {
   return static_cast<std::int64_t>(std::llround(span / dt));
+}
+
+/// Shortest decimal text (up to 17 significant digits) that reads back as exactly `value`.
+std::string shortest(double value) {
+  char text[32];
+  for (int digits = 1; digits <= 17; ++digits) {
+    std::snprintf(text, sizeof text, "%.*g", digits, value);
+    if (std::strtod(text, nullptr) == value) break;
+  }
+  return text;
 }
 
 /// Cartesian product of the sweep axes, the last axis varying fastest.
@@ -37,6 +49,18 @@ std::vector<Case> make_cases(const spec::Spec& spec) {
   for (std::size_t i = 0; i < cases.size(); ++i) cases[i].index = static_cast<std::int64_t>(i);
   return cases;
 }
+
+}  // namespace
+
+std::string describe_case(const spec::Spec& spec, const Case& c) {
+  std::string text = "case " + std::to_string(c.index);
+  for (std::size_t a = 0; a < spec.sweep.size() && a < c.axis_values.size(); ++a) {
+    text += (a == 0 ? " (" : ", ") + spec.sweep[a].parameter + " " + shortest(c.axis_values[a]);
+  }
+  return spec.sweep.empty() ? text : text + ")";
+}
+
+namespace {
 
 std::vector<Batch> make_batches(std::int64_t n_cases, std::int64_t members, int batch_size) {
   std::vector<Batch> batches;
@@ -115,16 +139,6 @@ Range share(std::int64_t n, int rank, int size) {
   r.first = rank * base + std::min<std::int64_t>(rank, extra);
   r.last = r.first + base + (rank < extra ? 1 : 0);
   return r;
-}
-
-std::string describe_case(const spec::Spec& spec, const Case& c) {
-  std::string text = "case " + std::to_string(c.index);
-  for (std::size_t a = 0; a < spec.sweep.size() && a < c.axis_values.size(); ++a) {
-    char value[32];
-    std::snprintf(value, sizeof value, "%.6g", c.axis_values[a]);
-    text += (a == 0 ? " (" : ", ") + spec.sweep[a].parameter + " " + value;
-  }
-  return spec.sweep.empty() ? text : text + ")";
 }
 
 }  // namespace chaosweep::plan

@@ -50,7 +50,8 @@ struct Plan {
   std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }
 };
 
-/// "case 3 (F 6, rho 24)": the case index with its swept values ("case 0" without a sweep).
+/// "case 3 (F 12)", or "case 3 (F 12, h 0.5)" with two axes: the case's index and its swept
+/// values (each the shortest decimal that reads back as the value); "case 0" without a sweep.
 std::string describe_case(const spec::Spec& spec, const Case& c);
 
 /// Builds the plan; throws SpecError for inconsistent combinations the loader cannot see.

@@ -132,7 +132,8 @@ std::vector<double> attractor_state(const models::Model& model, int width, doubl
   for (int i = 0; i < d; ++i) {
     base[i] = x[static_cast<std::size_t>(i) * width];
     if (!std::isfinite(base[i])) {
-      throw Error("the spin-up to the attractor diverged; reduce integration.dt");
+      throw SpinupDiverged("the spin-up to the attractor (" + std::to_string(steps) +
+                           " steps) ended on a non-finite state");
     }
   }
   return base;
@@ -166,7 +167,22 @@ struct CaseRunner::Impl {
   std::vector<double> base;
 };
 
+std::vector<double> case_base_state(const spec::Spec& spec, const plan::Plan& plan,
+                                    const plan::Case& c) {
+  const spec::InitialState& initial = spec.ensemble.initial;
+  if (initial.kind != spec::InitialKind::attractor) return initial.state;
+  if (plan.batch_size < 1) throw Error("the plan's batch size must be at least 1");
+  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
+  if (!info) throw Error("unknown model `" + spec.model + "`");
+  const std::unique_ptr<models::Model> model = info->make(parameters_at_start(spec, c));
+  return attractor_state(*model, plan.batch_size, initial.spinup, spec.integration.dt);
+}
+
 CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c)
+    : CaseRunner(spec, plan, c, case_base_state(spec, plan, c)) {}
+
+CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
+                       std::vector<double> base)
     : impl_(std::make_unique<Impl>()) {
   const models::ModelInfo* info = models::Registry::instance().find(spec.model);
   if (!info) throw Error("unknown model `" + spec.model + "`");
@@ -174,13 +190,7 @@ CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const pla
   impl_->ensemble = spec.ensemble;
   impl_->model = info->make(parameters_at_start(spec, c));
   impl_->setup = make_setup(spec, plan, c, *impl_->model);
-  const spec::InitialState& initial = spec.ensemble.initial;
-  if (initial.kind == spec::InitialKind::attractor) {
-    impl_->base = attractor_state(*impl_->model, impl_->setup.width, initial.spinup,
-                                  spec.integration.dt);
-  } else {
-    impl_->base = initial.state;
-  }
+  impl_->base = std::move(base);
   if (static_cast<int>(impl_->base.size()) != impl_->setup.state_dim) {
     throw Error("the initial state needs " + std::to_string(impl_->setup.state_dim) +
                 " components");

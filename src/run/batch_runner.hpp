@@ -14,6 +14,7 @@
 #include <utility>
 #include <vector>
 
+#include "core/error.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "spec/spec.hpp"
@@ -81,12 +82,28 @@ class BatchProgress {
   virtual BatchResult finish() = 0;
 };
 
-/// Runs the batches of one case. Construct once per case (it builds the model and the case's
-/// base state), then call run() for each batch of that case, or start()/resume() to integrate
-/// a batch in chunks.
+/// The spin-up of `initial_state: {from: attractor}` ended on a non-finite state.
+class SpinupDiverged : public Error {
+ public:
+  using Error::Error;
+};
+
+/// The base state members of case `c` are perturbed from: the given initial state, or the
+/// model's default state integrated to the attractor for `initial_state.spinup` with the case's
+/// parameters at full batch width (every column identical, so any process that computes it gets
+/// the same bits). Throws SpinupDiverged when that integration ends non-finite.
+std::vector<double> case_base_state(const spec::Spec& spec, const plan::Plan& plan,
+                                    const plan::Case& c);
+
+/// Runs the batches of one case. Construct once per case (it builds the model and, unless
+/// given, the case's base state), then call run() for each batch of that case, or
+/// start()/resume() to integrate a batch in chunks.
 class CaseRunner {
  public:
   CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c);
+  /// With the base state already computed by case_base_state() for this case.
+  CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
+             std::vector<double> base);
   ~CaseRunner();
   /// start(batch), advanced to the end, finished.
   BatchResult run(const plan::Batch& batch) const;

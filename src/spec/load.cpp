@@ -126,6 +126,32 @@ YAML::Node parse_document(const std::string& text, const std::string& source) {
   }
 }
 
+/// An HDF5 file keeps its signature at byte 0 or at 512, 1024, 2048, ... (after a user block).
+bool has_hdf5_signature(const std::string& bytes) {
+  static const std::string signature("\x89HDF\r\n\x1a\n", 8);
+  for (std::size_t at = 0; at + signature.size() <= bytes.size(); at = at == 0 ? 512 : 2 * at) {
+    if (bytes.compare(at, signature.size(), signature) == 0) return true;
+  }
+  return false;
+}
+
+/// Refuses a file that cannot be YAML text (an archive given in place of its spec, say) with
+/// one line that says what it is, rather than a syntax error somewhere inside it.
+void refuse_binary(const std::string& text, const std::string& path) {
+  if (has_hdf5_signature(text)) {
+    const bool archive = text.rfind("chaosweep archive\n", 0) == 0;
+    throw UsageError(path + " is " +
+                     (archive ? std::string("a chaosweep archive (HDF5), not a campaign spec; the "
+                                            "spec it was run from is its root attribute spec_yaml")
+                              : std::string("an HDF5 file, not a campaign spec (YAML text)")));
+  }
+  const std::size_t nul = text.find('\0');
+  if (nul != std::string::npos) {
+    throw UsageError(path + " is not a text file (a NUL byte at offset " + std::to_string(nul) +
+                     "); a campaign spec is YAML text");
+  }
+}
+
 }  // namespace
 
 Spec parse_spec(const std::string& text, const std::string& source_name) {
@@ -159,9 +185,7 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
 
 Spec load_spec(const std::string& path) {
   std::FILE* file = std::fopen(path.c_str(), "rb");
-  if (!file) {
-    fail_at(path, Location{}, "", std::string("cannot read spec: ") + std::strerror(errno));
-  }
+  if (!file) throw UsageError("cannot read spec " + path + ": " + std::strerror(errno));
   std::string text;
   char buffer[65536];
   std::size_t n = 0;
@@ -169,9 +193,8 @@ Spec load_spec(const std::string& path) {
   int error = 0;
   if (std::ferror(file) != 0) error = errno != 0 ? errno : EIO;
   if (std::fclose(file) != 0 && error == 0) error = errno != 0 ? errno : EIO;
-  if (error != 0) {
-    fail_at(path, Location{}, "", std::string("cannot read spec: ") + std::strerror(error));
-  }
+  if (error != 0) throw UsageError("cannot read spec " + path + ": " + std::strerror(error));
+  refuse_binary(text, path);
   return parse_spec(text, path);
 }
 

@@ -11,7 +11,8 @@
 
 namespace chaosweep::spec {
 
-/// Reads and validates the spec at `path`. Throws SpecError (also for an unreadable file).
+/// Reads and validates the spec at `path`. Throws SpecError for an invalid spec, UsageError for
+/// a file that cannot be read or is not text (an HDF5 archive given in its place, say).
 Spec load_spec(const std::string& path);
 
 /// Validates spec text; `source_name` is used in messages (normally the file path).

@@ -194,6 +194,14 @@ SweepAxis read_axis(const Field& item, ModelFacts& facts, const Spec& spec,
     name_field.fail("`" + p->name + "` has " + std::to_string(p->default_value.size()) +
                     " components; only scalar parameters can be swept");
   }
+  // A swept value would silently replace the fixed one in every case.
+  for (const auto& [given, at] : facts.given_parameters) {
+    if (given == out.parameter) {
+      name_field.fail("`" + given + "` is also set in model.parameters (line " +
+                      std::to_string(at.line) + ", column " + std::to_string(at.column) +
+                      "); the sweep gives its value in every case, so remove one of them");
+    }
+  }
   for (std::size_t i = 0; i < earlier.size(); ++i) {
     if (earlier[i].parameter == out.parameter) {
       name_field.fail("`" + out.parameter + "` is already swept by sweep[" + std::to_string(i) +
@@ -228,6 +236,7 @@ ModelFacts read_model(const Field& model, Spec& spec) {
   }
   models::ParameterValues overrides;
   std::optional<Field> params_field;
+  std::vector<std::pair<std::string, Location>> given;
   if (map.has("parameters")) {
     params_field.emplace(map.get("parameters"));
     const Map params(*params_field,
@@ -235,6 +244,7 @@ ModelFacts read_model(const Field& model, Spec& spec) {
     for (const auto& key : params.keys()) {
       overrides[key] = read_parameter(params.get(key), *find_parameter(*info, key));
       spec.parameters_given.push_back(key);
+      given.emplace_back(key, params.key_location(key));
     }
   }
   // Errors of the complete parameter set are reported at model.parameters (or at model).
@@ -247,6 +257,7 @@ ModelFacts read_model(const Field& model, Spec& spec) {
   const auto built = build(*info, spec.parameters, where, " with these parameters");
   ModelFacts facts;
   facts.info = info;
+  facts.given_parameters = std::move(given);
   facts.state_dim = built->state_dim();
   if (facts.state_dim < 1 ||
       built->observables().size() < static_cast<std::size_t>(facts.state_dim)) {

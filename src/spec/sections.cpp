@@ -184,6 +184,7 @@ void read_integration(const Field& integration, const ModelFacts& facts, Spec& s
   if (map.has("method")) out.method = map.get("method").choice({"rk4"}, "method");
   const Field dt = map.required("dt");
   out.dt = dt.number_above(0.0);
+  out.dt_where = dt.where();
   check_stable_dt(dt, facts, spec);
   if (map.has("spinup")) {
     const Field spinup = map.get("spinup");

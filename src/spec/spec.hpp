@@ -52,6 +52,7 @@ struct Ensemble {
 struct Integration {
   std::string method = "rk4";  // only rk4 for now
   double dt = 0.01;            // > 0
+  Location dt_where;           // for errors found later (a spin-up that diverges)
   double spinup = 0.0;         // >= 0, time units discarded before accumulation
   double duration = 0.0;       // > 0, time units accumulated
 };

@@ -8,6 +8,7 @@ set -uo pipefail
 prog=$1 work=$2 src=$3 mpiexec=$4
 check="/usr/bin/python3 $src/tests/e2e/check_archive.py"
 spec=${5:-$src/tests/checkpoint/specs/restart.yaml}
+given_spec=${5:-}
 rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
 failures=0
 fail() { echo "FAIL: $*"; failures=$((failures + 1)); }
@@ -130,6 +131,101 @@ else
     grep -q "resuming from" "$archive.log" || fail "twins: the resume did not use the checkpoint"
     $check bitwise twins-reference.h5 "$archive" || fail "twins archive after resume differs"
   done
+  unset CHAOSWEEP_TEST_ROUND_SECONDS
+fi
+
+# 6. Stops and failures that do not depend on the campaign's statistics (run with the default
+#    spec only): what each rank logs, what mpirun returns, the printed resume command, rates
+#    after a resume, --overwrite over another spec's checkpoints, and what a failure leaves.
+if [ -z "$given_spec" ]; then
+  spec=$src/tests/checkpoint/specs/restart.yaml
+  export CHAOSWEEP_TEST_ROUND_SECONDS=0.05
+  launcher=$(basename "$mpiexec")  # the name the ranks see their signal come from
+  # signal_job ARCHIVE SIGNAL [MPIRUN OPTIONS...]: a run with slow rounds, SIGNAL to its mpirun
+  # once the run has started; returns mpirun's status
+  signal_job() {
+    local archive=$1 signal=$2 waited=0
+    shift 2
+    # a background job of a script starts with SIGINT ignored; mpirun must see it as from a terminal
+    CHAOSWEEP_TEST_ROUND_DELAY=0.2 setsid /usr/bin/python3 -c 'import os, signal, sys
+signal.signal(signal.SIGINT, signal.SIG_DFL)
+os.execvp(sys.argv[1], sys.argv[1:])' "$mpiexec" "$@" -np 2 --oversubscribe "$prog" run "$spec" \
+      --archive "$archive" --progress none >>"$archive.log" 2>&1 &
+    local pid=$!
+    until [ -d "$archive.checkpoints/done" ] || [ $waited -ge 3000 ]; do sleep 0.1; waited=$((waited + 1)); done
+    kill -"$signal" "$pid"
+    wait "$pid"
+  }
+  both_ranks_logged() {  # both_ranks_logged LOG TEXT
+    for r in 0 1; do
+      grep -q "\[rank $r\] received $2" "$1" || fail "$1: rank $r did not log \"received $2\""
+    done
+  }
+  # Ctrl-C reaches mpirun only (the ranks have process groups of their own). Open MPI 4.1's
+  # mpirun sends every rank SIGCONT at once, SIGTERM after odls_base_sigkill_timeout seconds
+  # (default 1; 3 here, so that the stop always completes before the SIGKILL that follows as
+  # long again), and returns 1 whatever the ranks returned.
+  signal_job int.h5 INT --mca odls_base_sigkill_timeout 3
+  expect_status 1 $? "mpirun after Ctrl-C (SIGINT to mpirun)" int.h5.log
+  both_ranks_logged int.h5.log "SIGTERM (signal 15) from $launcher"
+  grep -q "continue with: mpirun -np 2 chaosweep run $spec --archive int.h5 --resume" int.h5.log \
+    || fail "Ctrl-C: no resume command with mpirun -np 2: $(grep 'continue with' int.h5.log)"
+  run 2 int.h5 --resume
+  expect_status 0 $? "resume after Ctrl-C" int.h5.log
+  $check bitwise reference.h5 int.h5 || fail "archive after Ctrl-C differs"
+
+  # SIGUSR1 to mpirun is forwarded to every rank as it is; mpirun then returns the ranks' 3.
+  signal_job usr1.h5 USR1
+  expect_status 3 $? "mpirun after SIGUSR1" usr1.h5.log
+  both_ranks_logged usr1.h5.log "SIGUSR1 (signal 10) from $launcher"
+  run 3 usr1.h5 --resume
+  expect_status 0 $? "resume after SIGUSR1" usr1.h5.log
+  $check bitwise reference.h5 usr1.h5 || fail "archive after SIGUSR1 differs"
+  # Exact: the campaign holds cases x members x (spinup + duration) / dt member-steps
+  # (3 x 80 x 4001000 for restart.yaml). The resumed run counts only what it integrated: every
+  # finished batch it read back (16 members, all steps) is left out, and of each batch in
+  # progress the steps already taken.
+  /usr/bin/python3 - usr1.h5.log <<'PY' || fail "member-steps after a resume"
+import re, sys
+log = open(sys.argv[1]).read().split("resuming from", 1)[1]
+finished, running = map(int, re.search(r"(\d+) batches finished, (\d+) in progress", log).groups())
+integrated, read_back, campaign = map(int, re.search(
+    r"integrated (\d+) member-steps .*; the other (\d+) of the campaign's (\d+) were read back",
+    log).groups())
+steps = round((5 + 20000) / 0.005)
+assert campaign == 3 * 80 * steps, campaign
+assert integrated + read_back == campaign
+assert finished * 16 * steps <= read_back <= (finished + running) * 16 * steps, \
+    (finished, running, read_back)
+assert finished + running > 0 and integrated < campaign
+print(f"ok: {integrated} of {campaign} member-steps integrated after the resume")
+PY
+
+  # --overwrite discards checkpoints, even those of another spec, and says so in one line.
+  CHAOSWEEP_TEST_STOP=0:2 "$mpiexec" -np 2 --oversubscribe "$prog" run changed.yaml \
+    --archive overwrite.h5 --progress none >>overwrite.h5.log 2>&1
+  expect_status 3 $? "stop of the other spec's run" overwrite.h5.log
+  run 2 overwrite.h5 --overwrite
+  expect_status 0 $? "run --overwrite over another spec's checkpoints" overwrite.h5.log
+  [ "$(grep -c "discarding the checkpoints" overwrite.h5.log)" -eq 1 ] \
+    || fail "--overwrite did not say once that it discards the checkpoints"
+  $check bitwise reference.h5 overwrite.h5 || fail "archive after --overwrite differs"
+  [ ! -e overwrite.h5.checkpoints ] || fail "checkpoints left after run --overwrite"
+
+  # A failure after a generation was saved keeps the checkpoints (--resume continues); one
+  # before any batch finished or any generation was saved removes the directory it created.
+  CHAOSWEEP_TEST_THROW=1:6 run 2 failed-late.h5  # rounds of >= 0.05 s, generations every 0.2 s
+  [ $? -ne 0 ] || fail "injected late failure: exit 0"
+  ls -d failed-late.h5.checkpoints/gen-* 2>/dev/null | grep -q -v '\.partial$' \
+    || fail "late failure: no complete generation kept"
+  run 2 failed-late.h5 --resume
+  expect_status 0 $? "resume after a failing rank" failed-late.h5.log
+  $check bitwise reference.h5 failed-late.h5 || fail "archive after a failing rank differs"
+  CHAOSWEEP_TEST_ROUND_SECONDS=0 CHAOSWEEP_TEST_THROW=0:1 run 2 failed-early.h5
+  [ $? -ne 0 ] || fail "injected early failure: exit 0"
+  grep -q "no batch had finished; failed-early.h5.checkpoints was removed" failed-early.h5.log \
+    || fail "early failure: the error line does not say the directory was removed"
+  [ ! -e failed-early.h5.checkpoints ] || fail "early failure: checkpoint directory left behind"
   unset CHAOSWEEP_TEST_ROUND_SECONDS
 fi
 

@@ -157,6 +157,36 @@ TEST_F(StoreTest, MissingManifestMakesAGenerationUnusable) {
   EXPECT_FALSE(problem.empty());
 }
 
+// A run that fails before it saved anything leaves no directory; one that saved a finished
+// batch or a generation keeps all of it, and so does a directory holding files of the user's.
+TEST_F(StoreTest, OnlyADirectoryWithNothingSavedIsRemovedAfterAFailure) {
+  const Store store(dir_.string(), "abc");
+  store.initialise("spec");
+  store.begin_generation(1);  // a generation being written when the failure came
+  EXPECT_TRUE(store.remove_if_nothing_saved());
+  EXPECT_FALSE(fs::exists(dir_));
+
+  store.initialise("spec");
+  store.save_done(sample_result(4));
+  EXPECT_FALSE(store.remove_if_nothing_saved());
+  EXPECT_TRUE(fs::exists(dir_ / "done" / "batch-0000000004.ckpt"));
+  store.remove_all();
+
+  store.initialise("spec");
+  store.begin_generation(1);
+  store.save_state(1, sample_state(2, 1.0));
+  store.commit_generation(1, {2}, 2);
+  EXPECT_FALSE(store.remove_if_nothing_saved());
+  EXPECT_TRUE(fs::exists(dir_ / "gen-00000001" / "MANIFEST"));
+  store.remove_all();
+
+  store.initialise("spec");
+  std::ofstream(dir_ / "notes.txt") << "the user's own file";
+  EXPECT_TRUE(store.remove_if_nothing_saved());
+  EXPECT_TRUE(fs::exists(dir_ / "notes.txt"));
+  EXPECT_FALSE(fs::exists(dir_ / "campaign.yaml"));
+}
+
 TEST(Record, EncodeDecodeAndGarbage) {
   Record r;
   r.header = {{"kind", "state"}, {"batch", "4"}};

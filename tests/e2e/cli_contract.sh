@@ -34,6 +34,8 @@ grep -q "typo.yaml:[0-9]*:[0-9]*: .*did you mean .members." err.txt \
 [ -z "$(ls -A out)" ] || { echo "FAIL: a bad spec created files: $(ls out)"; failures=$((failures + 1)); }
 expect 2 "check with an unknown key" -- "$prog" check typo.yaml
 expect 2 "run with a missing spec file" -- "$prog" run missing.yaml --progress none
+grep -q "^chaosweep: error: cannot read spec missing.yaml: No such file or directory$" err.txt \
+  || { echo "FAIL: missing spec: $(cat err.txt)"; failures=$((failures + 1)); }
 expect 2 "run into a missing directory" -- "$prog" run "$spec" --archive nowhere/a.h5 --progress none
 expect 2 "unknown option" -- "$prog" run "$spec" --no-such-option
 

@@ -40,6 +40,34 @@ status=$?
 grep -q "^chaosweep: error (rank 1): injected failure" thrown.log || fail "no line naming rank 1"
 [ ! -e thrown.h5 ] || fail "an archive appeared after a failure"
 
+# 2b. A spin-up to the attractor that diverges (a ring at dt 0.085, accepted by the stable-step
+#     check, blows up at F 12 only): every case's spin-up runs before any file is created, so
+#     the run exits 2 with one line naming the case and creates nothing; with a finer dt the
+#     same campaign then runs.
+mkdir spinup && cd spinup || exit 1
+cat > ring.yaml <<'YAML'
+campaign: {name: ring-coarse-step}
+model: {name: lorenz96, parameters: {n: 40}}
+sweep:
+  - {parameter: F, values: [6, 8, 10, 12]}
+ensemble: {members: 16, initial_state: {from: attractor, spinup: 20}, seed: 1}
+integration: {dt: 0.085, spinup: 1, duration: 5}
+output: {archive: ring.h5}
+run: {batch_size: 8}
+YAML
+"$prog" check ring.yaml --no-calibrate > check.log 2>&1 || fail "check refused the ring spec: $(cat check.log)"
+"$mpiexec" -np 2 --oversubscribe "$prog" run ring.yaml --progress none > run.log 2>&1
+status=$?
+[ $status -eq 2 ] || fail "diverging spin-up: exit $status, expected 2"
+[ "$(grep -c '^chaosweep: error' run.log)" -eq 1 ] || fail "diverging spin-up: not one error line: $(cat run.log)"
+grep -q "^chaosweep: error: ring.yaml:6:19: integration.dt: case 3 (F 12): the spin-up to the attractor .* at dt 0.085; reduce integration.dt$" run.log \
+  || fail "diverging spin-up: the error does not name the case and dt: $(grep error run.log)"
+[ "$(ls)" = "$(printf 'check.log\nring.yaml\nrun.log')" ] || fail "diverging spin-up left files: $(ls)"
+sed -i 's/dt: 0.085/dt: 0.02/' ring.yaml
+"$mpiexec" -np 2 --oversubscribe "$prog" run ring.yaml --progress none > rerun.log 2>&1 \
+  || fail "the ring with a finer dt: $(tail -n 2 rerun.log)"
+cd .. || exit 1
+
 # 3. Members that blow up: a huge perturbation at the largest accepted dt.
 sed -e 's/scale: 1.0e-2/scale: 20.0/' -e 's/dt: 0.005/dt: 0.09/' "$spec" > blowup.yaml
 "$mpiexec" -np 2 "$prog" run blowup.yaml --archive blowup.h5 --progress none > blowup.log 2>&1
@@ -101,6 +129,18 @@ refused newer.h5 "an archive of a newer format" "newer than this chaosweep"
 refused plain.h5 "an HDF5 file that is not an archive" "not a chaosweep archive"
 echo "campaign: {name: not-an-archive}" > text.h5
 refused text.h5 "a text file" "not a chaosweep archive"
+
+# 5. An archive or another HDF5 file given where a spec belongs is named as such (exit 2, one
+#    line), not read as YAML.
+not_a_spec() {  # not_a_spec FILE FRAGMENT
+  "$prog" check "$1" --no-calibrate > out.txt 2> err.txt
+  local status=$?
+  [ $status -eq 2 ] || fail "check $1: expected exit 2, got $status: $(cat err.txt)"
+  [ "$(grep -c '' err.txt)" -eq 1 ] || fail "check $1: not one line: $(cat err.txt)"
+  grep -q -- "$2" err.txt || fail "check $1: no \"$2\" in: $(cat err.txt)"
+}
+not_a_spec reference.h5 "reference.h5 is a chaosweep archive (HDF5), not a campaign spec"
+not_a_spec plain.h5 "plain.h5 is an HDF5 file, not a campaign spec"
 
 [ "$failures" -eq 0 ] || { echo "$failures failures"; exit 1; }
 echo "all runtime fault checks passed"

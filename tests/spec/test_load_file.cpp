@@ -1,6 +1,7 @@
 // File handling, range axes, per-case model checks and size guards of the spec loader.
 #include <gtest/gtest.h>
 
+#include <fstream>
 #include <memory>
 #include <stdexcept>
 #include <string>
@@ -12,6 +13,7 @@
 namespace {
 
 using chaosweep::SpecError;
+using chaosweep::UsageError;
 using chaosweep::spec::load_spec;
 using chaosweep::spec::parse_spec;
 using chaosweep::spec::Spec;
@@ -35,25 +37,62 @@ std::string error_of(const std::string& text) {
   return "";
 }
 
-TEST(LoadFile, MissingFileIsASpecErrorAtZeroZero) {
+TEST(LoadFile, MissingFileIsAUsageErrorWithoutAPosition) {
   const std::string path = "/nonexistent/chaosweep/spec.yaml";
   try {
     load_spec(path);
     FAIL() << "no error";
-  } catch (const SpecError& e) {
-    EXPECT_EQ(std::string(e.what()),
-              path + ":0:0: cannot read spec: No such file or directory");
+  } catch (const UsageError& e) {
+    EXPECT_EQ(std::string(e.what()), "cannot read spec " + path + ": No such file or directory");
+    EXPECT_EQ(e.exit_code(), chaosweep::kExitInvalid);
   }
 }
 
-TEST(LoadFile, DirectoryIsASpecError) {
+TEST(LoadFile, DirectoryIsAUsageError) {
   try {
     load_spec(CHAOSWEEP_FIXTURES);
     FAIL() << "no error";
-  } catch (const SpecError& e) {
+  } catch (const UsageError& e) {
     EXPECT_EQ(std::string(e.what()),
-              std::string(CHAOSWEEP_FIXTURES) + ":0:0: cannot read spec: Is a directory");
+              "cannot read spec " + std::string(CHAOSWEEP_FIXTURES) + ": Is a directory");
   }
+}
+
+/// Writes `bytes` to a fresh file in the test's temporary directory; returns its path.
+std::string temporary_file(const std::string& name, const std::string& bytes) {
+  const std::string path = ::testing::TempDir() + name;
+  std::ofstream(path, std::ios::binary) << bytes;
+  return path;
+}
+
+/// The UsageError message of loading `path` ("" when it loads or fails otherwise).
+std::string usage_error_of(const std::string& path) {
+  try {
+    load_spec(path);
+  } catch (const UsageError& e) {
+    return e.what();
+  }
+  return "";
+}
+
+// The HDF5 file format specification (superblock): the format signature is the 8 bytes
+// \211 H D F \r \n \032 \n, at byte 0 or, after a user block, at byte 512, 1024, 2048, ...
+// (Real archives and h5py files are checked in tests/e2e/cli_contract.sh.)
+TEST(LoadFile, HdfFileIsNamedAsSuch) {
+  const std::string signature("\x89HDF\r\n\x1a\n", 8);
+  const std::string at_zero = temporary_file("at-zero.h5", signature + std::string(100, '\t'));
+  EXPECT_EQ(usage_error_of(at_zero), at_zero + " is an HDF5 file, not a campaign spec (YAML text)");
+  std::string block = "chaosweep archive\nformat 2\n";
+  block.resize(1024, '\0');
+  const std::string after_block = temporary_file("after-block.h5", block + signature);
+  EXPECT_EQ(usage_error_of(after_block).rfind(after_block + " is a chaosweep archive (HDF5)", 0), 0u)
+      << usage_error_of(after_block);
+}
+
+TEST(LoadFile, BinaryFileIsNotText) {
+  const std::string path = temporary_file("binary.yaml", std::string("campaign:\0\1", 11));
+  EXPECT_EQ(usage_error_of(path),
+            path + " is not a text file (a NUL byte at offset 9); a campaign spec is YAML text");
 }
 
 TEST(LoadFile, ParseUsesTheSourceNameAndKeepsTheTextVerbatim) {
