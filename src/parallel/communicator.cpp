@@ -56,15 +56,18 @@ Communicator::Communicator() {
 }
 
 std::vector<double> Communicator::allgather_in_rank_order(const std::vector<double>& local) const {
+  if (serial_) return local;
   return allgather(local, MPI_DOUBLE, size_);
 }
 
 std::vector<std::int64_t> Communicator::allgather_in_rank_order(
     const std::vector<std::int64_t>& local) const {
+  if (serial_) return local;
   return allgather(local, MPI_INT64_T, size_);
 }
 
 Communicator::RoundAgreement Communicator::agree(bool stop, bool checkpoint, bool done) const {
+  if (serial_) return RoundAgreement{stop, checkpoint, done};
   int in[3] = {stop ? 1 : 0, checkpoint ? 1 : 0, done ? 0 : 1}, out[3] = {0, 0, 0};
   check(MPI_Allreduce(in, out, 3, MPI_INT, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
   RoundAgreement a;
@@ -75,24 +78,28 @@ Communicator::RoundAgreement Communicator::agree(bool stop, bool checkpoint, boo
 }
 
 bool Communicator::any(bool flag) const {
+  if (serial_) return flag;
   int in = flag ? 1 : 0, out = 0;
   check(MPI_Allreduce(&in, &out, 1, MPI_INT, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
   return out != 0;
 }
 
 double Communicator::max(double value) const {
+  if (serial_) return value;
   double out = 0;
   check(MPI_Allreduce(&value, &out, 1, MPI_DOUBLE, MPI_MAX, MPI_COMM_WORLD), "Allreduce");
   return out;
 }
 
 std::int64_t Communicator::sum(std::int64_t value) const {
+  if (serial_) return value;
   std::int64_t out = 0;
   check(MPI_Allreduce(&value, &out, 1, MPI_INT64_T, MPI_SUM, MPI_COMM_WORLD), "Allreduce");
   return out;
 }
 
 std::string Communicator::broadcast(const std::string& value) const {
+  if (serial_) return value;
   std::int64_t n = static_cast<std::int64_t>(value.size());
   check(MPI_Bcast(&n, 1, MPI_INT64_T, 0, MPI_COMM_WORLD), "Bcast");
   std::string out = rank_ == 0 ? value : std::string(static_cast<std::size_t>(n), '\0');
@@ -100,10 +107,12 @@ std::string Communicator::broadcast(const std::string& value) const {
   return out;
 }
 
-void Communicator::barrier() const { check(MPI_Barrier(MPI_COMM_WORLD), "Barrier"); }
+void Communicator::barrier() const {
+  if (!serial_) check(MPI_Barrier(MPI_COMM_WORLD), "Barrier");
+}
 
 void Communicator::abort(int code) const {
-  MPI_Abort(MPI_COMM_WORLD, code);
+  if (!serial_) MPI_Abort(MPI_COMM_WORLD, code);
   std::_Exit(code);
 }
 

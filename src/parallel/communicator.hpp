@@ -18,10 +18,13 @@ class Session {
   Session& operator=(const Session&) = delete;
 };
 
-/// The world communicator.
+/// The world communicator, or its serial form: one rank on its own, without MPI (every
+/// collective returns this rank's own contribution), so that the reduction is a pure function
+/// that unit tests call without starting MPI.
 class Communicator {
  public:
   Communicator();
+  static Communicator serial() { return Communicator(SerialTag{}); }
   int rank() const { return rank_; }
   int size() const { return size_; }
 
@@ -53,8 +56,12 @@ class Communicator {
   [[noreturn]] void abort(int code) const;
 
  private:
+  struct SerialTag {};
+  explicit Communicator(SerialTag) : serial_(true) {}
+
   int rank_ = 0;
   int size_ = 1;
+  bool serial_ = false;  // no MPI: rank 0 of 1
 };
 
 }  // namespace chaosweep::parallel
