@@ -13,6 +13,7 @@
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
+#include "run/lyapunov.hpp"
 #include "run/twins.hpp"
 #include "spec/load.hpp"
 
@@ -122,7 +123,7 @@ double time_piece(const spec::Spec& spec, const plan::Plan& piece) {
   const run::CaseRunner runner(spec, piece, piece.cases.front());
   const auto start = std::chrono::steady_clock::now();
   run::BatchResult result = runner.run(piece.batches.front());
-  add_lyapunov(spec, piece, result);
+  run::add_lyapunov(spec, piece, result);
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 

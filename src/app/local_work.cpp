@@ -4,12 +4,9 @@
 
 #include <algorithm>
 #include <chrono>
-#include <cmath>
-#include <optional>
 
 #include "core/error.hpp"
 #include "run/lyapunov.hpp"
-#include "run/schedule.hpp"
 
 namespace chaosweep::app {
 namespace {
@@ -138,36 +135,10 @@ void LocalWork::advance_current(std::int64_t steps) {
   });
 }
 
-// With a schedule, the Lyapunov integration's own model copy starts at the t = 0 value and the
-// scheduled parameter is set at every stage time by the same clock the members' kernel uses
-// (run/schedule.hpp).
-void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& r) {
-  const spec::Lyapunov& l = spec.statistics.lyapunov;
-  if (!l.enabled) return;
-  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
-  const plan::Case& c = plan.cases[static_cast<std::size_t>(r.case_index)];
-  const std::unique_ptr<models::Model> model = info->make(run::parameters_at_start(spec, c));
-  std::optional<run::ScheduledParameter> clock;
-  if (spec.schedule.kind != spec::ScheduleKind::none) {
-    clock.emplace(*model, spec.schedule, run::schedule_offset(spec, c));
-  }
-  const double dt = spec.integration.dt;
-  const std::int64_t every = std::max<std::int64_t>(1, std::llround(l.renormalise_every / dt));
-  r.lyapunov = run::lyapunov_exponents(*model, r.initial_state, r.count, dt, plan.spinup_steps,
-                                       plan.accumulate_steps, l.exponents, every,
-                                       clock ? &*clock : nullptr);
-  for (int m = 0; m < r.count; ++m) {
-    if (r.status[static_cast<std::size_t>(m)] == run::kValid) continue;
-    for (int k = 0; k < l.exponents; ++k) {
-      r.lyapunov[static_cast<std::size_t>(m) * l.exponents + k] = NAN;
-    }
-  }
-}
-
 void LocalWork::finish_current() {
   in_case(current_index_, [&] {
     run::BatchResult result = current_->finish();
-    add_lyapunov(spec_, plan_, result);
+    run::add_lyapunov(spec_, plan_, result);
     results_[current_index_] = std::move(result);
   });
   current_.reset();

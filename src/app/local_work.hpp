@@ -15,11 +15,6 @@
 
 namespace chaosweep::app {
 
-/// The leading Lyapunov exponents of a finished batch's members (statistics.lyapunov; nothing
-/// when not requested), from their initial states: a second integration with tangent vectors
-/// over the plan's spin-up and accumulation, NaN for members that became non-finite.
-void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& result);
-
 class LocalWork {
  public:
   /// `store` may be null (no checkpoints). The batches are plan.batches[share.first, share.last).

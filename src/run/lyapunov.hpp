@@ -8,6 +8,9 @@
 
 #include "integrators/rk4.hpp"
 #include "models/model.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "spec/spec.hpp"
 
 namespace chaosweep::run {
 
@@ -47,5 +50,10 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
                                        std::int64_t spinup_steps, std::int64_t steps,
                                        int exponents, std::int64_t renormalise_every_steps,
                                        integrators::Rk4Batch::StageClock* clock = nullptr);
+
+/// The leading Lyapunov exponents of a finished batch's members (statistics.lyapunov; nothing
+/// when not requested), from their initial states: a second integration with tangent vectors
+/// over the plan's spin-up and accumulation, NaN for members that became non-finite.
+void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, BatchResult& result);
 
 }  // namespace chaosweep::run
