@@ -69,14 +69,15 @@ double trajectory_doubles(const plan::Plan& plan) {
 
 /// Twin experiment: the twin state and log-separation series of a batch in progress and the
 /// per-lead moments of each finished batch (memory), or the archive's twin datasets.
-double twin_doubles(const spec::Spec& spec, const plan::Plan& plan, double batches,
-                    bool archive) {
-  const run::TwinTimes t = run::twin_times(spec, plan);
+double twin_doubles(const plan::Plan& plan, double batches, bool archive) {
+  const run::TwinTimes& t = plan.twins;
   if (t.every_steps == 0) return 0.0;
   const double leads = static_cast<double>(t.leads);
   if (archive) {
+    // per member spread and horizon; per case the curves against lead (mean and std of the
+    // log separation, the unseparated share) and a dozen scalars
     return 2.0 * static_cast<double>(plan.member_count()) +
-           static_cast<double>(plan.cases.size()) * (2.0 * leads + 8.0);
+           static_cast<double>(plan.cases.size()) * (3.0 * leads + 12.0);
   }
   return (leads + 4.0 * plan.state_dim) * plan.batch_size + batches * 3.0 * leads;
 }
@@ -197,8 +198,8 @@ const char* schedule_kind_name(spec::ScheduleKind kind) {
 /// Every parameter of the model after the defaults are filled in, in the model's order: its
 /// value, or how the sweep or the schedule sets it. "(default)" marks the values the spec left
 /// to the model.
-void print_parameters(const spec::Spec& spec) {
-  const models::ModelInfo& info = *models::Registry::instance().find(spec.model);
+void print_parameters(const spec::Spec& spec, const plan::Plan& plan) {
+  const models::ModelInfo& info = *plan.model;
   int width = 0;
   for (const models::ParameterInfo& p : info.parameters) {
     width = std::max(width, static_cast<int>(p.name.size()));
@@ -256,7 +257,7 @@ int check_command(const CheckOptions& options) {
   std::printf("  campaign       %s\n", spec.name.c_str());
   std::printf("  model          %s (%d state variables, %zu observables)\n", spec.model.c_str(),
               plan.state_dim, plan.observables.size());
-  print_parameters(spec);
+  print_parameters(spec, plan);
   print_sweep(spec);
   std::printf("  cases          %.0f\n", cases);
   std::printf("  members        %lld per case, %.0f in all\n",
@@ -271,10 +272,10 @@ int check_command(const CheckOptions& options) {
   const double per_rank_bytes =
       8.0 * (share * plan.batch_size * per_member_doubles(plan) +
              trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim +
-             twin_doubles(spec, plan, share, false) + snapshot_doubles_per_rank(plan, share));
+             twin_doubles(plan, share, false) + snapshot_doubles_per_rank(plan, share));
   const double archive_bytes =
       8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan) +
-             twin_doubles(spec, plan, 0.0, true) +
+             twin_doubles(plan, 0.0, true) +
              cases * plan.snapshot_count *
                  (2.0 * plan.observables.size() + plan.regime_labels.size())) +
       65536.0;

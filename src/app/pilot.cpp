@@ -166,7 +166,7 @@ MemberStats run_members(const spec::Spec& spec, const plan::Plan& p, PilotProgre
   const run::CaseRunner runner(spec, p, p.cases.front());
   base = runner.base_state();
   const std::unique_ptr<models::Model> model =
-      models::Registry::instance().find(spec.model)->make(p.cases.front().parameters);
+      p.model->make(p.cases.front().parameters);
   MemberStats out;
   const std::int64_t chunk = std::max<std::int64_t>(1, p.total_steps() / 50);
   for (const plan::Batch& batch : p.batches) {

@@ -358,7 +358,7 @@ void write_response(h5::File& file, const spec::Spec& spec, const plan::Plan& pl
 /// The twin experiment's curves per case against lead time (statistics.twins).
 void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                  const parallel::EnsembleResults& e) {
-  const run::TwinTimes times = run::twin_times(spec, plan);
+  const run::TwinTimes& times = plan.twins;
   if (times.every_steps == 0) return;
   GroupWriter g(file, "twins");
   const std::uint64_t n_cases = plan.cases.size(), leads = static_cast<std::uint64_t>(times.leads);

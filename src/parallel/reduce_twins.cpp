@@ -79,7 +79,7 @@ struct CaseTwins {
 
 void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                   const std::vector<run::BatchResult>& local, EnsembleResults& r) {
-  const run::TwinTimes times = run::twin_times(spec, plan);
+  const run::TwinTimes& times = plan.twins;
   if (times.every_steps == 0) return;
   const std::size_t leads = static_cast<std::size_t>(times.leads);
   const std::size_t n_cases = plan.cases.size();

@@ -106,6 +106,7 @@ Plan make_plan(const spec::Spec& spec) {
   const std::unique_ptr<models::Model> model = info->make(spec.parameters);
 
   Plan plan;
+  plan.model = info;
   plan.cases = make_cases(spec);
   plan.members = spec.ensemble.members;
   plan.batch_size = spec.run.batch_size;
@@ -128,6 +129,20 @@ Plan make_plan(const spec::Spec& spec) {
   if (snap.enabled) {
     plan.snapshot_every_steps = std::max<std::int64_t>(1, whole_steps(snap.every, dt));
     plan.snapshot_count = plan.accumulate_steps / plan.snapshot_every_steps + 1;
+  }
+  const spec::Twins& twins = spec.statistics.twins;
+  if (twins.enabled) {
+    plan.twins.start_step = plan.spinup_steps;
+    plan.twins.every_steps = std::max<std::int64_t>(1, whole_steps(twins.every, dt));
+    plan.twins.leads = plan.accumulate_steps / plan.twins.every_steps + 1;
+  }
+  const spec::Lyapunov& lyapunov = spec.statistics.lyapunov;
+  if (lyapunov.enabled) {
+    plan.lyapunov_every_steps =
+        std::max<std::int64_t>(1, whole_steps(lyapunov.renormalise_every, dt));
+  }
+  if (spec.ensemble.initial.kind == spec::InitialKind::attractor) {
+    plan.attractor_spinup_steps = whole_steps(spec.ensemble.initial.spinup, dt);
   }
   return plan;
 }

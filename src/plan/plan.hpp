@@ -27,7 +27,19 @@ struct Batch {
   int count = 0;                  // real members in the batch (<= batch_size); the rest is padding
 };
 
+/// The twin experiment's lead times, as step numbers (statistics.twins; leads 0 without twins).
+struct TwinTimes {
+  std::int64_t start_step = 0;   // end of the spin-up
+  std::int64_t every_steps = 0;  // steps between leads, >= 1 (0 without twins)
+  std::int64_t leads = 0;        // K + 1 = floor(accumulate_steps / every_steps) + 1
+  std::int64_t last_step() const { return start_step + (leads - 1) * every_steps; }
+};
+
+/// Everything resolved from the spec once: the model, the cases and batches, and every time
+/// span as a whole number of steps of dt (rounded to the nearest), so that no other part of
+/// the program rounds times or looks the model up again.
 struct Plan {
+  const models::ModelInfo* model = nullptr;  // the spec's model in the registry
   std::vector<Case> cases;
   std::vector<Batch> batches;
   std::int64_t members = 0;  // per case
@@ -45,6 +57,9 @@ struct Plan {
   std::int64_t snapshot_every_steps = 0;     // 0 when no snapshots
   std::int64_t snapshot_count = 0;           // snapshot times per case: at steps
                                              // spinup_steps + k * snapshot_every_steps
+  TwinTimes twins;                           // leads 0 without twins
+  std::int64_t lyapunov_every_steps = 0;     // re-orthonormalisation period, 0 without
+  std::int64_t attractor_spinup_steps = 0;   // initial_state: {from: attractor}, 0 otherwise
 
   std::int64_t total_steps() const { return spinup_steps + accumulate_steps; }
   std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }

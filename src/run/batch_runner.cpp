@@ -73,6 +73,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
                  const models::Model& model) {
   Setup s;
   s.model = spec.model;
+  s.model_info = plan.model;
   s.parameters = parameters_at_start(spec, c);
   s.width = plan.batch_size;
   s.state_dim = model.state_dim();
@@ -107,7 +108,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   s.snapshot_every = plan.snapshot_every_steps;
   s.snapshot_count = plan.snapshot_count;
   s.kernel = choose_kernel(s);
-  s.twins.times = twin_times(spec, plan);
+  s.twins.times = plan.twins;
   s.twins.scale = spec.statistics.twins.scale;
   s.twins.threshold = spec.statistics.twins.threshold;
   s.twins.seed = spec.ensemble.seed;
@@ -115,9 +116,9 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
 }
 
 /// Base state reached on the attractor: the model's default initial state integrated for
-/// `spinup` time units with the batch stepper at full width (every column identical), so the
+/// `steps` steps of dt (the plan's attractor spin-up) with the batch stepper at full width (every column identical), so the
 /// result is the same on every rank that computes it.
-std::vector<double> attractor_state(const models::Model& model, int width, double spinup,
+std::vector<double> attractor_state(const models::Model& model, int width, std::int64_t steps,
                                     double dt) {
   const int d = model.state_dim();
   const std::vector<double> start = model.default_initial_state();
@@ -126,7 +127,6 @@ std::vector<double> attractor_state(const models::Model& model, int width, doubl
     for (int m = 0; m < width; ++m) x[static_cast<std::size_t>(i) * width + m] = start[i];
   }
   integrators::Rk4Batch stepper(model, width);
-  const std::int64_t steps = std::llround(spinup / dt);
   for (std::int64_t k = 0; k < steps; ++k) stepper.step(x.data(), dt);
   std::vector<double> base(static_cast<std::size_t>(d));
   for (int i = 0; i < d; ++i) {
@@ -172,10 +172,9 @@ std::vector<double> case_base_state(const spec::Spec& spec, const plan::Plan& pl
   const spec::InitialState& initial = spec.ensemble.initial;
   if (initial.kind != spec::InitialKind::attractor) return initial.state;
   if (plan.batch_size < 1) throw Error("the plan's batch size must be at least 1");
-  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
-  if (!info) throw Error("unknown model `" + spec.model + "`");
-  const std::unique_ptr<models::Model> model = info->make(parameters_at_start(spec, c));
-  return attractor_state(*model, plan.batch_size, initial.spinup, spec.integration.dt);
+  const std::unique_ptr<models::Model> model = plan.model->make(parameters_at_start(spec, c));
+  return attractor_state(*model, plan.batch_size, plan.attractor_spinup_steps,
+                         spec.integration.dt);
 }
 
 CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c)
@@ -184,11 +183,9 @@ CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const pla
 CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
                        std::vector<double> base)
     : impl_(std::make_unique<Impl>()) {
-  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
-  if (!info) throw Error("unknown model `" + spec.model + "`");
   impl_->case_index = c.index;
   impl_->ensemble = spec.ensemble;
-  impl_->model = info->make(parameters_at_start(spec, c));
+  impl_->model = plan.model->make(parameters_at_start(spec, c));
   impl_->setup = make_setup(spec, plan, c, *impl_->model);
   impl_->base = std::move(base);
   if (static_cast<int>(impl_->base.size()) != impl_->setup.state_dim) {

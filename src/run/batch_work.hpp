@@ -24,6 +24,7 @@ namespace chaosweep::run {
 /// What every batch of one case needs, resolved against the model once per case.
 struct Setup {
   std::string model;                   // registry name
+  const models::ModelInfo* model_info = nullptr;  // the plan's resolved model
   models::ParameterValues parameters;  // the case's complete parameters
   KernelKind kernel = KernelKind::generic;
   int width = 0;                 // batch_size: every batch is integrated at this width

@@ -115,9 +115,8 @@ class ScheduledStepper final : public Stepper {
 
  private:
   static std::unique_ptr<models::Model> build(const Setup& s) {
-    const models::ModelInfo* info = models::Registry::instance().find(s.model);
-    if (!info) throw Error("unknown model `" + s.model + "`");
-    return info->make(s.parameters);
+    if (!s.model_info) throw Error("the setup has no model");
+    return s.model_info->make(s.parameters);
   }
 
   std::unique_ptr<models::Model> model_;

@@ -204,7 +204,7 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
 void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, BatchResult& r) {
   const spec::Lyapunov& l = spec.statistics.lyapunov;
   if (!l.enabled) return;
-  const models::ModelInfo* info = models::Registry::instance().find(spec.model);
+  const models::ModelInfo* info = plan.model;
   const plan::Case& c = plan.cases[static_cast<std::size_t>(r.case_index)];
   const std::unique_ptr<models::Model> model = info->make(parameters_at_start(spec, c));
   std::optional<ScheduledParameter> clock;
@@ -212,7 +212,7 @@ void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, BatchResult& r
     clock.emplace(*model, spec.schedule, schedule_offset(spec, c));
   }
   const double dt = spec.integration.dt;
-  const std::int64_t every = std::max<std::int64_t>(1, std::llround(l.renormalise_every / dt));
+  const std::int64_t every = plan.lyapunov_every_steps;
   r.lyapunov = lyapunov_exponents(*model, r.initial_state, r.count, dt, plan.spinup_steps,
                                    plan.accumulate_steps, l.exponents, every,
                                    clock ? &*clock : nullptr);

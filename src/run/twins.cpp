@@ -16,17 +16,6 @@ constexpr std::uint64_t kTwinStream = 1;  // MemberNoise stream of the twin dire
 
 }  // namespace
 
-TwinTimes twin_times(const spec::Spec& spec, const plan::Plan& plan) {
-  TwinTimes t;
-  const spec::Twins& twins = spec.statistics.twins;
-  if (!twins.enabled) return t;
-  t.start_step = plan.spinup_steps;
-  t.every_steps = std::max<std::int64_t>(
-      1, static_cast<std::int64_t>(std::llround(twins.every / spec.integration.dt)));
-  t.leads = plan.accumulate_steps / t.every_steps + 1;
-  return t;
-}
-
 std::vector<double> twin_leads(const TwinTimes& times, double dt) {
   std::vector<double> lead(static_cast<std::size_t>(times.leads));
   for (std::int64_t k = 0; k < times.leads; ++k) {

@@ -38,15 +38,7 @@
 namespace chaosweep::run {
 
 /// When twins start and are sampled, in steps of dt; every_steps == 0 means no twins.
-struct TwinTimes {
-  std::int64_t start_step = 0;   // end of the spin-up
-  std::int64_t every_steps = 0;  // steps between leads, >= 1
-  std::int64_t leads = 0;        // K + 1 = floor(accumulate_steps / every_steps) + 1
-  std::int64_t last_step() const { return start_step + (leads - 1) * every_steps; }
-};
-
-/// The twin experiment's times for a spec and its plan (no twins when not requested).
-TwinTimes twin_times(const spec::Spec& spec, const plan::Plan& plan);
+using TwinTimes = plan::TwinTimes;  // the plan resolves them (plan.twins)
 
 /// Lead times k * every_steps * dt, k = 0 .. leads - 1, in model time units since the end of the
 /// spin-up (the archive's /twins/lead).
