@@ -169,6 +169,7 @@ ModelInfo lorenz63_info() {
     return std::make_unique<Lorenz63>(v);
   };
   info.state_dim = [](const ParameterValues&) { return 3; };
+  info.fast_kernel = FastKernel::convection_loop;
   return info;
 }
 

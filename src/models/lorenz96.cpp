@@ -159,6 +159,7 @@ ModelInfo lorenz96_info() {
   info.state_dim = [](const ParameterValues& v) {
     return static_cast<int>(scalar_parameter(v, "n"));
   };
+  info.fast_kernel = FastKernel::ring;
   return info;
 }
 

@@ -98,6 +98,15 @@ class Model {
   virtual std::vector<double> default_initial_state() const = 0;
 };
 
+/// A fused batch kernel written for a model's equations (run/): the right-hand side and every
+/// per-step accumulator in registers, bitwise equal to the generic path. A model declares the
+/// one it has in its ModelInfo; the rest take the generic path.
+enum class FastKernel {
+  none,
+  convection_loop,  // the three-variable loop with constant forcing (run/fused_kernel.cpp)
+  ring,             // the ring of sites (run/ring_kernel.cpp)
+};
+
 /// Registry entry: a model's name, documentation, parameters and factory.
 struct ModelInfo {
   std::string name;
@@ -109,6 +118,7 @@ struct ModelInfo {
   std::function<std::unique_ptr<Model>(const ParameterValues& values)> make;
   /// State dimension for the given complete parameter values (without building the model).
   std::function<int(const ParameterValues& values)> state_dim;
+  FastKernel fast_kernel = FastKernel::none;  // its fused kernel, if any
 };
 
 /// All models compiled into the program. Models add themselves from their own file with a

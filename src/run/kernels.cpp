@@ -176,8 +176,9 @@ KernelKind choose_kernel(const Setup& s) {
   if (s.width % integrators::kLanes != 0) return KernelKind::generic;
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
-  if (s.model == "lorenz96") return sign_or_none ? KernelKind::ring : KernelKind::generic;
-  if (s.model != "lorenz63") return KernelKind::generic;
+  const models::FastKernel fast = s.model_info ? s.model_info->fast_kernel : models::FastKernel::none;
+  if (fast == models::FastKernel::ring) return sign_or_none ? KernelKind::ring : KernelKind::generic;
+  if (fast != models::FastKernel::convection_loop) return KernelKind::generic;
   const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
                                        [&](int i) { return is_state(s, i); });
   const bool regimes = s.regime_kind == spec::RegimeKind::none ||
@@ -214,8 +215,9 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
     const models::Model& scheduled = stepper->model();
     return std::make_unique<SteppedKernel>(std::move(stepper), s, scheduled, acc);
   }
-  // lorenz96 with nearest regimes: the ring RK4 with the generic per-step feed
-  if (s.model == "lorenz96" && s.width % integrators::kLanes == 0) {
+  // the ring with nearest regimes: the ring RK4 with the generic per-step feed
+  const bool ring = s.model_info && s.model_info->fast_kernel == models::FastKernel::ring;
+  if (ring && s.width % integrators::kLanes == 0) {
     return std::make_unique<SteppedKernel>(
         std::make_unique<RingStepper>(models::Lorenz96Equations::from(s.parameters), s.width,
                                       s.dt),

@@ -74,6 +74,7 @@ Campaign run_at_width(spec::Spec s, int width) {
   const auto model = make_model(s.model, s.parameters);
   run::Setup setup;
   setup.model = s.model;
+  setup.model_info = r.plan.model;
   setup.width = width;
   setup.state_dim = model->state_dim();
   setup.observables = r.plan.observable_index;
