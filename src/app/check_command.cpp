@@ -10,6 +10,7 @@
 #include "app/commands.hpp"
 #include "app/local_work.hpp"
 #include "core/error.hpp"
+#include "integrators/lanes.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
@@ -234,6 +235,25 @@ void print_sweep(const spec::Spec& spec) {
   }
 }
 
+/// Integrates every case's spin-up to the attractor, as `run` does before it creates any file,
+/// so that a dt too coarse for some case is refused here (the same one-line error); at one
+/// register's width, which gives each column the same bits as the campaign's batch width.
+/// Returns the seconds it took.
+double check_spinups(const spec::Spec& spec, const plan::Plan& plan) {
+  if (spec.ensemble.initial.kind != spec::InitialKind::attractor) return 0.0;
+  const auto start = std::chrono::steady_clock::now();
+  plan::Plan narrow = plan;
+  narrow.batch_size = integrators::kLanes;
+  for (const plan::Case& c : plan.cases) {
+    try {
+      run::case_base_state(spec, narrow, c);
+    } catch (const run::SpinupDiverged& e) {
+      throw spinup_error(spec, c, e);
+    }
+  }
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
 }  // namespace
 
 int check_command(const CheckOptions& options) {
@@ -253,12 +273,17 @@ int check_command(const CheckOptions& options) {
   const plan::Range widest = plan::share(n_batches, 0, options.ranks);
   const double share = static_cast<double>(widest.last - widest.first);
 
+  const double spinup_seconds = check_spinups(spec, plan);
   std::printf("%s: valid\n", spec.source_path.c_str());
   std::printf("  campaign       %s\n", spec.name.c_str());
   std::printf("  model          %s (%d state variables, %zu observables)\n", spec.model.c_str(),
               plan.state_dim, plan.observables.size());
   print_parameters(spec, plan);
   print_sweep(spec);
+  if (spec.ensemble.initial.kind == spec::InitialKind::attractor) {
+    std::printf("  spin-ups       every case reaches its attractor state (%lld steps each, %.2g s)\n",
+                static_cast<long long>(plan.attractor_spinup_steps), spinup_seconds);
+  }
   std::printf("  cases          %.0f\n", cases);
   std::printf("  members        %lld per case, %.0f in all\n",
               static_cast<long long>(plan.members), members);

@@ -70,17 +70,22 @@ const plan::Batch& LocalWork::batch_at(std::size_t i) const {
   return plan_.batches[static_cast<std::size_t>(share_.first) + i];
 }
 
+SpecError spinup_error(const spec::Spec& spec, const plan::Case& c,
+                       const run::SpinupDiverged& e) {
+  const spec::Location at = spec.integration.dt_where;
+  return SpecError(spec.source_path + ":" + std::to_string(at.line) + ":" +
+                   std::to_string(at.column) + ": integration.dt: " +
+                   plan::describe_case(spec, c) + ": " + e.what() + " at dt " +
+                   fmt::format("{}", spec.integration.dt) + "; reduce integration.dt");
+}
+
 template <typename Step>
 void LocalWork::in_case(std::size_t i, Step&& step) {
   const plan::Case& c = plan_.cases[static_cast<std::size_t>(batch_at(i).case_index)];
   try {
     step();
   } catch (const run::SpinupDiverged& e) {
-    const spec::Location at = spec_.integration.dt_where;
-    throw SpecError(spec_.source_path + ":" + std::to_string(at.line) + ":" +
-                    std::to_string(at.column) + ": integration.dt: " +
-                    plan::describe_case(spec_, c) + ": " + e.what() + " at dt " +
-                    fmt::format("{}", spec_.integration.dt) + "; reduce integration.dt");
+    throw spinup_error(spec_, c, e);
   } catch (const SpecError&) {
     throw;
   } catch (const Error& e) {

@@ -9,11 +9,16 @@
 #include <vector>
 
 #include "checkpoint/store.hpp"
+#include "core/error.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "spec/spec.hpp"
 
 namespace chaosweep::app {
+
+/// The one-line spec error for case `c` whose spin-up to the attractor diverged: it names the
+/// case, its swept values and dt, at integration.dt's position in the spec (exit status 2).
+SpecError spinup_error(const spec::Spec& spec, const plan::Case& c, const run::SpinupDiverged& e);
 
 class LocalWork {
  public:

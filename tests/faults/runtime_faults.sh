@@ -41,9 +41,10 @@ grep -q "^chaosweep: error (rank 1): injected failure" thrown.log || fail "no li
 [ ! -e thrown.h5 ] || fail "an archive appeared after a failure"
 
 # 2b. A spin-up to the attractor that diverges (a ring at dt 0.085, accepted by the stable-step
-#     check, blows up at F 12 only): every case's spin-up runs before any file is created, so
-#     the run exits 2 with one line naming the case and creates nothing; with a finer dt the
-#     same campaign then runs.
+#     check, blows up at F 12 only): `check` integrates every case's spin-up and refuses it
+#     with the one line the run gives; the run, too, spins every case up before any file is
+#     created, so it exits 2 with that line and creates nothing; with a finer dt the same
+#     campaign then passes check and runs.
 mkdir spinup && cd spinup || exit 1
 cat > ring.yaml <<'YAML'
 campaign: {name: ring-coarse-step}
@@ -55,7 +56,12 @@ integration: {dt: 0.085, spinup: 1, duration: 5}
 output: {archive: ring.h5}
 run: {batch_size: 8}
 YAML
-"$prog" check ring.yaml --no-calibrate > check.log 2>&1 || fail "check refused the ring spec: $(cat check.log)"
+"$prog" check ring.yaml --no-calibrate > check.log 2>&1
+status=$?
+[ $status -eq 2 ] || fail "check of the diverging spin-up: exit $status, expected 2"
+[ "$(wc -l < check.log)" -eq 1 ] || fail "check: not one line: $(cat check.log)"
+grep -q "^chaosweep: error: ring.yaml:6:19: integration.dt: case 3 (F 12): the spin-up to the attractor .* at dt 0.085; reduce integration.dt$" check.log \
+  || fail "check: the error does not name the case and dt: $(cat check.log)"
 "$mpiexec" -np 2 --oversubscribe "$prog" run ring.yaml --progress none > run.log 2>&1
 status=$?
 [ $status -eq 2 ] || fail "diverging spin-up: exit $status, expected 2"
@@ -64,6 +70,9 @@ grep -q "^chaosweep: error: ring.yaml:6:19: integration.dt: case 3 (F 12): the s
   || fail "diverging spin-up: the error does not name the case and dt: $(grep error run.log)"
 [ "$(ls)" = "$(printf 'check.log\nring.yaml\nrun.log')" ] || fail "diverging spin-up left files: $(ls)"
 sed -i 's/dt: 0.085/dt: 0.02/' ring.yaml
+"$prog" check ring.yaml --no-calibrate > check.log 2>&1 || fail "check refused the finer dt: $(cat check.log)"
+grep -q "^  spin-ups       every case reaches its attractor state" check.log \
+  || fail "check does not report the spin-ups: $(cat check.log)"
 "$mpiexec" -np 2 --oversubscribe "$prog" run ring.yaml --progress none > rerun.log 2>&1 \
   || fail "the ring with a finer dt: $(tail -n 2 rerun.log)"
 cd .. || exit 1
