@@ -129,8 +129,8 @@ std::string models_reference() {
   std::string text =
       "# Models\n\n"
       "The output of `chaosweep models`, from the models compiled into the program (a test\n"
-      "checks that this file matches it). The equations are in the README (\"The campaign\n"
-      "spec\"); `chaosweep check SPEC` prints the values a spec resolves to.\n\n"
+      "checks that this file matches it). The equations are in [spec.md](spec.md) (\"Models\");\n"
+      "`chaosweep check SPEC` prints the values a spec resolves to.\n\n"
       "Units: every model is non-dimensional. Parameters, state variables and observables are\n"
       "in the model's own scale (units `1` in the archive); time is in the model's own time\n"
       "unit, `model_time_unit`, and rates are per that unit, `1/model_time_unit`.\n\n"

@@ -1,5 +1,5 @@
 // The archive's schema: every dataset's path, dimensions, type, units and long name, and every
-// dimension's meaning, in one place. The writer, the reader, `summary` and the README's dataset
+// dimension's meaning, in one place. The writer, the reader, `summary` and docs/archive.md's dataset
 // and dimension tables all use these lists.
 //
 // Units: every model is non-dimensional. State variables, observables and parameters are in
@@ -38,7 +38,7 @@ struct DimensionDef {
   std::string units;                // of its coordinate values
   std::string long_name;
   std::vector<std::string> labels;  // fixed coordinate values; empty when the campaign sets them
-  std::string coordinates;          // what its coordinate values are, for the README
+  std::string coordinates;          // what its coordinate values are, for docs/archive.md
 };
 
 /// Every dimension the archive's datasets use.
@@ -53,7 +53,7 @@ const std::vector<DatasetDef>& datasets();
 /// The definition of `path` ("/case/forcing" matches "/case/<parameter>"); throws if unknown.
 const DatasetDef& dataset(const std::string& path);
 
-/// The dataset table, then the dimension table, as Markdown (the README's tables).
+/// The dataset table, then the dimension table, as Markdown (docs/archive.md's tables).
 std::string markdown_table();
 
 }  // namespace chaosweep::archive

@@ -29,7 +29,7 @@ using integrators::load_lanes;
 using integrators::store_lanes;
 constexpr int L = integrators::kLanes;
 
-/// Lanes interleaved per group, measured best (README, Performance): spin-up has only the state
+/// Lanes interleaved per group, measured best (docs/performance.md): spin-up has only the state
 /// to keep in registers (4 chains); with the accumulators, AVX-512's 32 registers hold 3 chains
 /// (2 leave the FMA pipelines waiting on the RK4 dependency chain, 4 spill more running sums
 /// than they gain), while with 16 registers (AVX2, SSE2) 4 chains win despite spilling. Lanes

@@ -90,7 +90,7 @@ struct Lyapunov {
 /// Twin experiment (statistics.twins): at the end of the spin-up every member gets a twin
 /// `scale` away along a random unit direction; the log of their Euclidean separation is sampled
 /// every `every` time units (a whole number of steps), and a member's horizon is the first such
-/// lead at which the separation exceeds `threshold` times the member's spread (README, "Twin
+/// lead at which the separation exceeds `threshold` times the member's spread (docs/estimates.md, "Twin
 /// experiments").
 struct Twins {
   bool enabled = false;
@@ -129,7 +129,7 @@ struct Output {
   Trajectories trajectories;
 };
 
-/// Checkpoints of a run in progress (see README, "Interruptions and resume").
+/// Checkpoints of a run in progress (see docs/running.md, "Interruptions and resume").
 struct Checkpoint {
   std::string directory;      // empty: "<archive>.checkpoints" beside the archive
   Location directory_where;

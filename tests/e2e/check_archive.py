@@ -643,7 +643,7 @@ def check_stderr_ensemble(path, duration, dt):
     """(1) For every valid member and observable the stderr is at least the iid standard error
     sqrt(s^2 / n) (the observables are positively correlated from step to step: Lorenz-63's
     x, y, z at dt 0.005); invalid members have NaN. (2) The ensemble datasets follow from the
-    member datasets as documented (README, "Standard errors of time means"), to rounding:
+    member datasets as documented (docs/estimates.md, "Standard errors of time means"), to rounding:
     effective_samples = sum s^2 / stderr^2, decorrelation_time = mean n stderr^2 / (2 s^2) dt,
     time_mean_stderr = max(std / sqrt(valid), sqrt(sum stderr^2) / valid). (3) With one swept
     axis, slope = sum a_c y_c with a_c = (x_c - mean x) / sum (x - mean x)^2 (exact for least
@@ -922,7 +922,7 @@ def check_fixed_point(path, case, rho, beta):
 def check_case_coordinates(path):
     """Every group with a `case` dimension carries each swept parameter as a coordinate on it
     (CF `coordinates` attribute, decoded by xarray): equal to /case/<parameter>; selecting a
-    case by its parameter values and unstacking a two-axis sweep into its axes (the README's
+    case by its parameter values and unstacking a two-axis sweep into its axes (the documented
     lines) give the values h5py reads at that case."""
     import xarray as xr
     with h5py.File(path, "r") as f:
@@ -951,7 +951,8 @@ def check_case_coordinates(path):
 
 def check_root_attributes(readme, *paths):
     """Every root attribute of the archives (one with a schedule among them) is documented in
-    the README's table of root attributes, and every documented one occurs in some archive."""
+    the table of root attributes in docs/archive.md, and every documented one occurs in some
+    archive."""
     import re
     text = open(readme, encoding="utf-8").read()
     table = text.split("Root attributes (every one the writer sets", 1)[1].split("\n\n", 2)[1]
@@ -963,7 +964,7 @@ def check_root_attributes(readme, *paths):
             names = set(f.attrs)
         missing = names - documented
         if missing:
-            fail(f"{path}: root attributes {sorted(missing)} are not in the README")
+            fail(f"{path}: root attributes {sorted(missing)} are not documented")
         seen |= names
     if documented - seen:
         fail(f"documented root attributes no archive has: {sorted(documented - seen)}")

@@ -1,6 +1,6 @@
 #!/usr/bin/python3
 """Checks of scripts/plot-archive, its report and `chaosweep summary`, against the archives
-read with h5py (and the README's lines run with xarray and h5py).
+read with h5py (and the lines of docs/archive.md run with xarray and h5py).
 
 Usage: check_figures.py CHECK ARGS...   (see CHECKS at the end; each exits non-zero on failure)
 
@@ -76,7 +76,7 @@ class ArchiveData:
         self.cases = self.status.shape[0]
 
     def snapshots_shown(self):
-        """What `summary` shows of the snapshots (README, "Summary formats"): the first
+        """What `summary` shows of the snapshots (docs/archive.md, "Summary formats"): the first
         observable at the first, middle and last snapshot time, per case (mean, std across
         members, 95% interval of the mean with Student's t from scipy), as
         {case: [(k, time, mean, std, (low, high))]}."""
@@ -602,14 +602,14 @@ def check_summary_table(archive, program):
 # --- README and command line ------------------------------------------------------------------
 
 def check_readme(readme, archive, workdir):
-    """Runs the Python blocks of the README's section '## The archive' against a real archive
+    """Runs the Python blocks of docs/archive.md's section '## The archive' against a real archive
     placed at the paths they name, so the example cannot drift from the archive's layout."""
     with open(readme, encoding="utf-8") as f:
         body = f.read()
     section = body.split("\n## The archive\n", 1)[1].split("\n## ", 1)[0]
     blocks = re.findall(r"```python\n(.*?)```", section, re.S)
     if not blocks or not any("xarray" in b for b in blocks) or not any("h5py" in b for b in blocks):
-        fail("README '## The archive' has no Python example using xarray and h5py")
+        fail(f"{readme} '## The archive' has no Python example using xarray and h5py")
     shutil.rmtree(workdir, ignore_errors=True)
     os.makedirs(workdir)
     for code in blocks:
