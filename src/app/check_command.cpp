@@ -218,8 +218,8 @@ void print_parameters(const spec::Spec& spec, const plan::Plan& plan) {
       text = "swept: " + std::to_string(axis->values.size()) + " values from " +
              value_text({axis->values.front()}) + " to " + value_text({axis->values.back()});
     } else {
-      const bool given = std::find(spec.parameters_given.begin(), spec.parameters_given.end(),
-                                   p.name) != spec.parameters_given.end();
+      const bool given = std::any_of(spec.parameters_given.begin(), spec.parameters_given.end(),
+                                     [&](const auto& g) { return g.first == p.name; });
       text = value_text(spec.parameters.at(p.name)) + (given ? "" : " (default)");
     }
     std::printf("  %-14s %-*s  %s\n", label, width, p.name.c_str(), text.c_str());

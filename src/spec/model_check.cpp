@@ -195,7 +195,7 @@ SweepAxis read_axis(const Field& item, ModelFacts& facts, const Spec& spec,
                     " components; only scalar parameters can be swept");
   }
   // A swept value would silently replace the fixed one in every case.
-  for (const auto& [given, at] : facts.given_parameters) {
+  for (const auto& [given, at] : spec.parameters_given) {
     if (given == out.parameter) {
       name_field.fail("`" + given + "` is also set in model.parameters (line " +
                       std::to_string(at.line) + ", column " + std::to_string(at.column) +
@@ -236,15 +236,13 @@ ModelFacts read_model(const Field& model, Spec& spec) {
   }
   models::ParameterValues overrides;
   std::optional<Field> params_field;
-  std::vector<std::pair<std::string, Location>> given;
   if (map.has("parameters")) {
     params_field.emplace(map.get("parameters"));
     const Map params(*params_field,
                      {parameter_names(*info), {}, "parameter", "of " + info->name});
     for (const auto& key : params.keys()) {
       overrides[key] = read_parameter(params.get(key), *find_parameter(*info, key));
-      spec.parameters_given.push_back(key);
-      given.emplace_back(key, params.key_location(key));
+      spec.parameters_given.emplace_back(key, params.key_location(key));
     }
   }
   // Errors of the complete parameter set are reported at model.parameters (or at model).
@@ -257,7 +255,6 @@ ModelFacts read_model(const Field& model, Spec& spec) {
   const auto built = build(*info, spec.parameters, where, " with these parameters");
   ModelFacts facts;
   facts.info = info;
-  facts.given_parameters = std::move(given);
   facts.state_dim = built->state_dim();
   if (facts.state_dim < 1 ||
       built->observables().size() < static_cast<std::size_t>(facts.state_dim)) {

@@ -23,8 +23,6 @@ struct ModelFacts {
   double max_dt = 0.0;
   std::string max_dt_where;  // "" for the base parameters, else " with forcing = 8"
   bool has_tangent = false;  // the model provides tangent() (needed for statistics.lyapunov)
-  /// Parameters given in model.parameters, with the position of each key.
-  std::vector<std::pair<std::string, Location>> given_parameters;
 };
 
 // model_check.cpp

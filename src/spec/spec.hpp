@@ -4,6 +4,7 @@
 
 #include <cstdint>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "models/model.hpp"
@@ -170,7 +171,8 @@ struct Spec {
   std::string description;
   std::string model;                    // registry name
   models::ParameterValues parameters;   // complete: defaults with the spec's overrides
-  std::vector<std::string> parameters_given;  // set in model.parameters; the others are defaults
+  // set in model.parameters, with the position of each key; the others are defaults
+  std::vector<std::pair<std::string, Location>> parameters_given;
   std::vector<SweepAxis> sweep;         // may be empty: one case with the base parameters
   Schedule schedule;                    // kind none: every parameter constant in time
   Ensemble ensemble;
