@@ -319,7 +319,7 @@ void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
     const double pairs = static_cast<double>(e.twin_pairs[c]);
     const double reached = static_cast<double>(e.horizon_reached[c]);
     if (!(pairs > 0.0) || reached >= parallel::kMostPairs * pairs) continue;
-    if (reached == 0.0 && !std::isfinite(e.growth_rate[c])) continue;  // flagged above
+    if (e.twins_not_separating[c] != 0) continue;  // flagged above
     if (std::isfinite(e.suggested_duration[c])) {
       spdlog::warn("{}: only {} of {} twin pairs separated within the window; at the pace so "
                    "far a duration of about {:.3g} would let about 90% separate",

@@ -431,7 +431,7 @@ void print_twin_notes(const ArchiveSummary& s) {
     }
     const double pairs = static_cast<double>(s.twin_pairs[c]);
     const double reached = static_cast<double>(s.horizon_reached[c]);
-    if (reached == 0.0 && !std::isfinite(s.growth_rate[c])) continue;  // they do not separate
+    if (non_chaotic(s, c) && reached == 0.0) continue;  // flagged below, with the reason
     if (pairs > 0 && reached < 0.9 * pairs) {
       const bool median = !s.horizon_median.empty() && std::isfinite(s.horizon_median[c]);
       std::printf("case %lld: only %lld of %lld pairs separated within the window: the mean "

@@ -118,7 +118,7 @@ void check_shapes(const ArchiveSummary& s) {
        (s.growth_note.empty() || s.growth_note.size() == cases) &&
        (s.horizon_median.empty() || s.horizon_median.size() == cases) &&
        s.horizon_median_ci95.size() == 2 * s.horizon_median.size() &&
-       (s.suggested_duration.empty() || s.suggested_duration.size() == cases);
+       s.suggested_duration.size() == s.horizon_median.size();
   for (const std::vector<double>& v : s.axis_values) ok = ok && v.size() == cases;
   for (const std::vector<double>* v :
        {&s.time_mean_stderr, &s.effective_samples, &s.decorrelation_time}) {

@@ -141,8 +141,9 @@ std::vector<DatasetDef> make_table() {
        "threshold at the lead",
        "statistics.twins"},
       {"/twins/suggested_duration", {"case"}, T::float64, kTime,
-       "when fewer than 90% of the pairs separated: the duration by which about 90% would, "
-       "extrapolated from the growth rate (NaN otherwise or without a growth rate)",
+       "when fewer than 90% of the pairs separated: the duration by which about 90% would at "
+       "the pace so far, from the survival curve (or the growth line when under 20% "
+       "separated); NaN when 90% did, when the curve levelled off, or when neither applies",
        "statistics.twins"},
       {"/histogram/edges", {"edges"}, T::float64, "1", "bin edges of the histogram",
        "statistics.histogram"},

@@ -138,7 +138,7 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
     r.growth_window[2 * c] = fit.start;
     r.growth_window[2 * c + 1] = fit.end;
     r.growth_note[c] = fit.note;
-    r.twins_not_separating[c] = r.twin_pairs[c] > 0 && fit.not_separating() ? 1 : 0;
+    r.twins_not_separating[c] = r.twin_pairs[c] > 1 && fit.not_separating() ? 1 : 0;
 
     const stats::EnsembleEstimate e = stats::estimate(t.horizon);
     r.horizon[c] = e.mean;

@@ -45,7 +45,7 @@ double exponent_tolerance(double duration);
 /// 4. the twins do not separate.
 /// For independent chaotic members the ratio in 2 is about 1: (n-1) ratio^2 follows a
 /// chi-square law with n-1 degrees of freedom, and 8 members fall below 0.1 with probability
-/// about 1e-7 per observable.
+/// about 7e-7 per observable.
 CaseVerdict check_dynamics(const CaseEvidence& e);
 
 constexpr double kCoincideRatio = 0.1;

@@ -49,6 +49,10 @@ GrowthFit fit_growth_rate(const std::vector<double>& t, const std::vector<double
   // The rise must hold, significantly, from the window's end to the last lead.
   for (std::size_t k = std::min(last, n - 1); k < n; ++k) {
     const double error = std::sqrt(se[k] * se[k] + se[0] * se[0]);
+    if (!std::isfinite(error)) {
+      return no_fit(GrowthOutcome::untestable,
+                    "the rise cannot be tested: its standard errors need at least 2 valid pairs");
+    }
     if (!(L[k] - low > kRiseSignificance * error)) {
       return no_fit(GrowthOutcome::not_sustained,
                     format("no significant sustained rise: at lead %g the mean log separation "

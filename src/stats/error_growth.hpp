@@ -13,6 +13,7 @@ enum class GrowthOutcome {
   no_rise,        // the curve never rises above its value at lead 0
   not_sustained,  // the rise is not significant: the curve falls back towards its start
   short_phase,    // the linear phase holds fewer than 3 leads
+  untestable,     // the rise's standard errors are not finite (fewer than 2 pairs)
 };
 
 /// Least-squares slope of L(t) over the linear phase of a twin error-growth curve, and the

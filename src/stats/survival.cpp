@@ -12,6 +12,7 @@ Survival kaplan_meier(const std::vector<double>& t, const std::vector<double>& e
                       const std::vector<double>& censored) {
   constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
   constexpr double kZ = 1.959963984540054;  // two-sided 95% normal quantile
+  constexpr double kHalf = 0.5 * (1.0 + 8.0 * std::numeric_limits<double>::epsilon());
   const std::size_t n = t.size();
   Survival s{std::vector<double>(n, kNaN), std::vector<double>(n, kNaN), kNaN, kNaN, kNaN};
   double at_risk = 0.0;
@@ -26,7 +27,8 @@ Survival kaplan_meier(const std::vector<double>& t, const std::vector<double>& e
     s.survival[k] = survival;
     s.stderr_[k] = survival > 0.0 ? survival * std::sqrt(greenwood) : 0.0;
     at_risk -= events[k] + censored[k];
-    if (std::isnan(s.median) && survival <= 0.5) s.median = t[k];
+    // S is a product of ratios: a value that is 1/2 exactly may round a few ulps above it
+    if (std::isnan(s.median) && survival <= kHalf) s.median = t[k];
     if (std::isnan(s.median_low) && survival - kZ * s.stderr_[k] <= 0.5) s.median_low = t[k];
     if (std::isnan(s.median_high) && survival + kZ * s.stderr_[k] <= 0.5) s.median_high = t[k];
   }
@@ -55,8 +57,11 @@ double time_for_share(const std::vector<double>& t, const std::vector<double>& e
   if (!(failed >= kMinShareForFit)) return kNaN;
   std::size_t a = 0;
   while (a < n && 1.0 - s.survival[a] < 0.5 * failed) ++a;
+  // the observed curve at t_a: F(t_a) = 1 - S(t_a), at least half of F_T
+  const double failed_a = 1.0 - s.survival[a];
+  if (!(failed_a < failed)) return kNaN;
   const double z_end = gsl_cdf_ugaussian_Pinv(failed);
-  const double sigma = (t[n - 1] - t[a]) / (z_end - gsl_cdf_ugaussian_Pinv(0.5 * failed));
+  const double sigma = (t[n - 1] - t[a]) / (z_end - gsl_cdf_ugaussian_Pinv(failed_a));
   if (!(sigma > 0.0)) return kNaN;
   return t[n - 1] + (gsl_cdf_ugaussian_Pinv(share) - z_end) * sigma;
 }

@@ -37,10 +37,10 @@ bool survival_levelled_off(const std::vector<double>& t, const std::vector<doubl
 /// How far the window would have to reach for `share` of the units to fail, extrapolated from
 /// a survival curve censored at its last time T (S(T) > 1 - share): NaN when the curve has
 /// levelled off or fewer than kMinShareForFit failed by T; otherwise a normal law of the
-/// failure times fitted to the observed curve at two points, the first time t_a at which half
+/// failure times fitted to the observed curve at two points, the first time t_a at which at least half
 /// of the share failed by T had failed, and T itself:
-///   sigma = (T - t_a) / (z(F_T) - z(F_T / 2)),  mu = T - sigma z(F_T),  result mu + z(share) sigma
-/// with F_T = 1 - S(T) and z the standard normal quantile.
+///   sigma = (T - t_a) / (z(F_T) - z(F_a)),  mu = T - sigma z(F_T),  result mu + z(share) sigma
+/// with F = 1 - S (F_a at t_a, F_T at T) and z the standard normal quantile.
 double time_for_share(const std::vector<double>& t, const std::vector<double>& events,
                       const Survival& s, double share);
 

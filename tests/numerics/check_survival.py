@@ -11,12 +11,14 @@ median's interval {t : |S(t) - 1/2| <= z se(t)}, z = 1.959964, read at the failu
 the first time where S - z se (lower end) and S + z se (upper end) reach 1/2.
 
 Here the computation runs unit by unit over the sorted samples (not from counts per time, as
-the C++ code does), and the two must agree to rounding (1e-12: the products and sums are the
+the C++ code does), with S in exact rational arithmetic (Python's fractions), and the two must
+agree to rounding (1e-12: the products and sums are the
 same few hundred operations in another order).
 Usage: check_survival.py SURVIVAL_PROBE
 """
 import subprocess
 import sys
+from fractions import Fraction
 
 import numpy as np
 
@@ -28,25 +30,26 @@ def reference(times, failed):
     order = np.argsort(times, kind="stable")
     times, failed = times[order], failed[order]
     grid = np.unique(times)
-    S, g = 1.0, 0.0
-    surv, se = [], []
+    S, g = Fraction(1), 0.0
+    exact, surv, se = [], [], []
     for t in grid:
-        at_risk = np.sum(times >= t)
-        d = np.sum((times == t) & failed)
+        at_risk = int(np.sum(times >= t))
+        d = int(np.sum((times == t) & failed))
         if d > 0:
-            S *= 1.0 - d / at_risk
+            S *= 1 - Fraction(d, at_risk)
             if at_risk > d:
                 g += d / (at_risk * (at_risk - d))
-        surv.append(S)
-        se.append(S * np.sqrt(g) if S > 0 else 0.0)
+        exact.append(S)
+        surv.append(float(S))
+        se.append(float(S) * np.sqrt(g) if S > 0 else 0.0)
     surv, se = np.array(surv), np.array(se)
 
     def first(mask):
         hits = np.nonzero(mask)[0]
         return grid[hits[0]] if hits.size else np.nan
 
-    return grid, surv, se, (first(surv <= 0.5), first(surv - Z * se <= 0.5),
-                            first(surv + Z * se <= 0.5))
+    median = first(np.array([s <= Fraction(1, 2) for s in exact]))
+    return grid, surv, se, (median, first(surv - Z * se <= 0.5), first(surv + Z * se <= 0.5))
 
 
 def probe(program, grid, times, failed):
@@ -91,6 +94,11 @@ def main():
     times = np.minimum(fail, 100.0)
     m = check("mostly censored", program, times, fail < 100.0)
     assert np.isnan(m[0]) and np.isnan(m[2])
+    # One failure at each time 1..24, no censoring: S(12) is 1/2 exactly (the median is 12, the
+    # 12th order statistic), which a running product of ratios rounds a few ulps above 1/2.
+    times = np.arange(1, 25, dtype=float)
+    m = check("a survival of exactly one half", program, times, np.ones(24, dtype=bool))
+    assert m[0] == 12.0, m
     # Small sample with heavy ties and a failure at the last time.
     times = np.array([1, 1, 2, 2, 2, 3, 4, 4, 5, 5], dtype=float)
     failed = np.array([1, 0, 1, 1, 0, 1, 0, 1, 1, 1], dtype=bool)

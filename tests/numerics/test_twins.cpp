@@ -249,6 +249,12 @@ TEST(Twins, GrowthFitRecoversTheSlopeOfALinearPhase) {
   // above these levels).
   EXPECT_NEAR(fit.start, 0.05 * std::ceil((1.0 + 1.0 / 0.9) / 0.05 - 1e-9), 1e-12);
   EXPECT_NEAR(fit.end, 0.05 * std::ceil((1.0 + 7.0 / 0.9) / 0.05 - 1e-9), 1e-12);
+  // One pair: no standard error, so the rise cannot be tested (neither a rate nor a claim that
+  // the twins do not separate).
+  const std::vector<double> none(t.size(), std::nan(""));
+  const stats::GrowthFit single = stats::fit_growth_rate(t, L, none);
+  EXPECT_EQ(single.outcome, stats::GrowthOutcome::untestable);
+  EXPECT_FALSE(single.not_separating());
   const stats::GrowthFit flat = stats::fit_growth_rate({0, 1, 2}, {1, 1, 1}, {0, 0.1, 0.1});
   EXPECT_TRUE(std::isnan(flat.rate));
   EXPECT_EQ(flat.outcome, stats::GrowthOutcome::no_rise);
