@@ -10,7 +10,7 @@
 
 #include "app/commands.hpp"
 #include "app/logging.hpp"
-#include "archive/schema.hpp"
+#include "results/table.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "parallel/communicator.hpp"
@@ -121,8 +121,12 @@ int main(int argc, char** argv) {
   slurm_cmd->add_option("--signal-margin", slurm.signal_margin,
                         "Seconds between the warning signal and the time limit (default: estimated)");
 
-  CLI::App* schema_cmd =
-      cli.add_subcommand("schema", "Print the archive's dataset and dimension tables (Markdown)");
+  CLI::App* schema_cmd = cli.add_subcommand(
+      "schema", "Print the archive's dataset and dimension tables (Markdown, or JSON)");
+  bool schema_json = false;
+  schema_cmd->add_flag("--json", schema_json,
+                       "Print every declared result as JSON (path, dimensions, type, units, "
+                       "long name, when present, how merged)");
   CLI::App* models_cmd = cli.add_subcommand(
       "models", "Print every model's parameters, defaults, state variables and observables "
                 "(Markdown)");
@@ -143,7 +147,7 @@ int main(int argc, char** argv) {
     if (*slurm_cmd) return app::slurm_command(slurm);
     if (*models_cmd) return app::models_command();
     if (*schema_cmd) {
-      std::fputs(archive::markdown_table().c_str(), stdout);
+      std::fputs((schema_json ? results::json_table() : results::markdown_table()).c_str(), stdout);
       return kExitComplete;
     }
   } catch (const Error& e) {

@@ -4,10 +4,12 @@
 #include "archive/seal.hpp"
 
 #include <filesystem>
+#include <type_traits>
 
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "h5/h5.hpp"
+#include "results/table.hpp"
 
 namespace chaosweep::archive {
 namespace {
@@ -46,52 +48,41 @@ void read_identity(const h5::Group& root, ArchiveSummary& s) {
   s.members = root.int64_attribute("members_per_case");
 }
 
+/// The number of values a dataset of `q`'s dimensions holds in this archive: the product of
+/// the sizes of its group's scales of those dimensions.
+std::size_t expected_size(const h5::Group& root, const results::Quantity& q) {
+  std::size_t n = 1;
+  for (const std::string& dim : q.dims) {
+    const std::string scale = q.group() + "/" + dim;
+    if (!root.has_dataset(scale)) return 0;
+    n *= static_cast<std::size_t>(h5::element_count(root.open_dataset(scale).shape()));
+  }
+  return n;
+}
+
+/// Reads every ensemble quantity of the table the archive holds (archives of earlier versions
+/// lack some; those stay empty), checking each against its dimensions' scales.
 void read_content(const h5::Group& root, ArchiveSummary& s) {
   s.observables = read_all<std::string>(root, "observable");
-  s.valid_members = read_all<std::int64_t>(root, "ensemble/valid_members");
+  results::EnsembleResults& e = s;
+  results::for_each_array(e, [&](const results::Quantity& q, auto& values) {
+    using T = typename std::decay_t<decltype(values)>::value_type;
+    const std::string path = q.path.empty() ? "" : q.path.substr(1);
+    if (path.empty() || !root.has_dataset(path)) return;
+    values = read_all<T>(root, path);
+    if (values.size() != expected_size(root, q)) {
+      throw UsageError(s.path + ": archive is inconsistent (" + q.path +
+                       " does not match its dimensions)");
+    }
+  });
   s.cases = static_cast<std::int64_t>(s.valid_members.size());
-  s.effective_members = read_all<double>(root, "ensemble/effective_members");
-  s.time_mean = read_all<double>(root, "ensemble/time_mean");
-  s.time_mean_std = read_all<double>(root, "ensemble/time_mean_std");
-  s.time_mean_ci95 = read_all<double>(root, "ensemble/time_mean_ci95");
-  s.time_mean_stderr = read_optional<double>(root, "ensemble/time_mean_stderr");
-  s.effective_samples = read_optional<double>(root, "ensemble/effective_samples");
-  s.decorrelation_time = read_optional<double>(root, "ensemble/decorrelation_time");
-  s.non_chaotic = read_optional<std::uint8_t>(root, "ensemble/non_chaotic");
-  s.non_chaotic_reason = read_optional<std::string>(root, "ensemble/non_chaotic_reason");
   s.regimes = read_optional<std::string>(root, "ensemble/regime");
-  s.regime_fraction = read_optional<double>(root, "ensemble/regime_fraction");
-  s.regime_fraction_std = read_optional<double>(root, "ensemble/regime_fraction_std");
-  s.regime_fraction_ci95 = read_optional<double>(root, "ensemble/regime_fraction_ci95");
   if (root.has_dataset("ensemble/lyapunov")) {
-    s.lyapunov = read_all<double>(root, "ensemble/lyapunov");
-    s.lyapunov_std = read_all<double>(root, "ensemble/lyapunov_std");
-    s.lyapunov_ci95 = read_all<double>(root, "ensemble/lyapunov_ci95");
     s.exponents = static_cast<int>(read_all<std::int64_t>(root, "ensemble/exponent").size());
   }
-  if (root.has_group("twins")) {
-    s.twins = true;
-    s.horizon = read_all<double>(root, "ensemble/horizon");
-    s.horizon_std = read_all<double>(root, "ensemble/horizon_std");
-    s.horizon_ci95 = read_all<double>(root, "ensemble/horizon_ci95");
-    s.horizon_reached = read_all<std::int64_t>(root, "ensemble/horizon_reached");
-    s.twin_pairs = read_all<std::int64_t>(root, "twins/pairs");
-    s.growth_rate = read_all<double>(root, "twins/growth_rate");
-    s.growth_window = read_all<double>(root, "twins/growth_window");
-    s.growth_note = read_optional<std::string>(root, "twins/growth_note");
-    s.horizon_median = read_optional<double>(root, "twins/horizon_median");
-    s.horizon_median_ci95 = read_optional<double>(root, "twins/horizon_median_ci95");
-    s.suggested_duration = read_optional<double>(root, "twins/suggested_duration");
-  }
-  if (root.has_dataset("snapshot/time")) {
-    s.snapshot_time = read_all<double>(root, "snapshot/time");
-    s.snapshot_mean = read_all<double>(root, "snapshot/mean");
-    s.snapshot_variance = read_all<double>(root, "snapshot/variance");
-  }
+  s.twins = root.has_group("twins");
   if (root.has_group("response")) {
     s.axes = read_all<std::string>(root, "response/axis");
-    s.slope = read_all<double>(root, "response/slope");
-    s.slope_stderr = read_all<double>(root, "response/slope_stderr");
     for (const std::string& axis : s.axes) s.axis_values.push_back(read_all<double>(root, "case/" + axis));
   }
 }

@@ -5,9 +5,13 @@
 #include <string>
 #include <vector>
 
+#include "results/ensemble_results.hpp"
+
 namespace chaosweep::archive {
 
-struct ArchiveSummary {
+/// The archive's identity and its ensemble results: every ensemble quantity of the table it
+/// holds (results/table.hpp; archives of earlier versions lack some, left empty).
+struct ArchiveSummary : results::EnsembleResults {
   std::string path;
   std::string title;
   std::string campaign;
@@ -25,36 +29,8 @@ struct ArchiveSummary {
   std::vector<std::vector<double>> axis_values;  // [axis][case]
   std::vector<std::string> observables;
   std::vector<std::string> regimes;
-  std::vector<std::int64_t> valid_members;       // [case]
-  std::vector<double> effective_members;         // [case]
-  std::vector<double> time_mean, time_mean_std;  // [case][observable]
-  std::vector<double> time_mean_ci95;            // [case][observable][2]
-  // standard error of the ensemble mean, effective samples, decorrelation time (empty in
-  // archives written before they existed)
-  std::vector<double> time_mean_stderr, effective_samples, decorrelation_time;  // [case][obs]
-  // non-chaotic cases (empty in archives written before the check existed)
-  std::vector<std::uint8_t> non_chaotic;         // [case]
-  std::vector<std::string> non_chaotic_reason;   // [case]
-  std::vector<double> regime_fraction, regime_fraction_std;  // [case][regime]
-  std::vector<double> regime_fraction_ci95;                  // [case][regime][2]
-  std::vector<double> slope, slope_stderr;       // [axis][observable]
   int exponents = 0;                             // Lyapunov exponents per member (0: none)
-  std::vector<double> lyapunov, lyapunov_std;    // [case][exponent]
-  std::vector<double> lyapunov_ci95;             // [case][exponent][2]
   bool twins = false;                            // the archive has a twin experiment
-  std::vector<double> horizon, horizon_std;      // [case], model time units
-  std::vector<double> horizon_ci95;              // [case][2]
-  std::vector<std::int64_t> horizon_reached;     // [case]
-  std::vector<std::int64_t> twin_pairs;          // [case]
-  std::vector<double> growth_rate;               // [case], per model time unit
-  std::vector<double> growth_window;             // [case][2], model time units
-  // (empty in archives written before they existed)
-  std::vector<std::string> growth_note;          // [case], why there is no growth rate
-  std::vector<double> horizon_median;            // [case], Kaplan-Meier median
-  std::vector<double> horizon_median_ci95;       // [case][2]
-  std::vector<double> suggested_duration;        // [case]
-  std::vector<double> snapshot_time;             // [time] (empty: no snapshots)
-  std::vector<double> snapshot_mean, snapshot_variance;  // [case][time][observable]
 };
 
 /// Reads `path`. A missing file, a file that is not an HDF5 archive of this tool, a truncated,

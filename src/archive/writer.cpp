@@ -1,6 +1,7 @@
-// Collective archive writer (see writer.hpp). Layout: the schema's tables (schema.cpp), from
-// which every dataset's dimensions, units and long name and every dimension's units and fixed
-// coordinate values are taken.
+// Collective archive writer (see writer.hpp). Layout: the table of results
+// (results/table.hpp): every group holds the present quantities the table puts in it, in table
+// order, with their dimensions, units and long names; each dimension's scale is created, from
+// the plan, when the first dataset of the group needs it.
 #include "archive/writer.hpp"
 
 #include <algorithm>
@@ -12,13 +13,13 @@
 #include <map>
 #include <stdexcept>
 
-#include "archive/schema.hpp"
 #include "archive/seal.hpp"
 #include "checkpoint/files.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
 #include "h5/h5.hpp"
 #include "parallel/communicator.hpp"
+#include "results/table.hpp"
 #include "run/twins.hpp"
 #include "stats/histogram.hpp"
 
@@ -26,6 +27,8 @@ namespace chaosweep::archive {
 namespace {
 
 using h5::Dims;
+using results::ElementType;
+using results::Quantity;
 
 h5::ElementType h5_type(ElementType t) {
   switch (t) {
@@ -52,7 +55,7 @@ class GroupWriter {
 
   /// A dimension without coordinate values (one of the schema's dimensions).
   void dimension(const std::string& name, std::uint64_t size) {
-    archive::dimension(name);  // throws for a dimension the schema does not define
+    results::dimension(name);  // throws for a dimension the table does not define
     scales_.emplace(name, group_.create_dimension(name, size));
   }
 
@@ -61,7 +64,7 @@ class GroupWriter {
   void coordinate(const std::string& name, const std::vector<T>& values,
                   const std::string& long_name) {
     h5::Dataset d = group_.create_dataset(name, h5::element_type_of<T>(), {values.size()});
-    describe(d, archive::dimension(name).units, long_name);
+    describe(d, results::dimension(name).units, long_name);
     d.make_scale(name);
     d.write_from_rank0(values);
     scales_.emplace(name, std::move(d));
@@ -70,9 +73,9 @@ class GroupWriter {
   /// A dimension whose coordinate values are names.
   void labels(const std::string& name, const std::vector<std::string>& values,
               const std::string& long_name) {
-    const DimensionDef& def = archive::dimension(name);
+    const results::Dimension& def = results::dimension(name);
     if (!def.labels.empty() && values != def.labels) {
-      throw std::logic_error("the archive schema fixes the coordinate values of " + name);
+      throw std::logic_error("the results table fixes the coordinate values of " + name);
     }
     h5::Dataset d = group_.create_dataset(name, h5::ElementType::String, {values.size()});
     describe(d, def.units, long_name);
@@ -81,9 +84,9 @@ class GroupWriter {
     scales_.emplace(name, std::move(d));
   }
 
-  /// A dimension whose coordinate values the schema fixes (`bound`: lower, upper).
+  /// A dimension whose coordinate values the table fixes (`bound`: lower, upper).
   void fixed_labels(const std::string& name) {
-    const DimensionDef& def = archive::dimension(name);
+    const results::Dimension& def = results::dimension(name);
     labels(name, def.labels, def.long_name);
   }
 
@@ -103,10 +106,12 @@ class GroupWriter {
     case_coordinates_ = names;
   }
 
-  /// Creates the schema dataset `name` of this group with `shape`, its attributes and scales.
+  bool has_scale(const std::string& dim) const { return scales_.count(dim) > 0; }
+
+  /// Creates the table's dataset `name` of this group with `shape`, its attributes and scales.
   h5::Dataset dataset(const std::string& name, const Dims& shape,
                       const std::string& schema_path = "") {
-    const DatasetDef& def = archive::dataset(schema_path.empty() ? prefix_ + name : schema_path);
+    const Quantity& def = results::at_path(schema_path.empty() ? prefix_ + name : schema_path);
     std::optional<double> fill;
     if (def.type == ElementType::float64) fill = NAN;
     h5::Dataset d = group_.create_dataset(name, h5_type(def.type), shape, fill);
@@ -198,13 +203,12 @@ class MemberRows {
   std::array<RowBlock, 3> blocks_{};
 };
 
-/// Concatenates one per-member field of every local batch.
+/// Concatenates one per-member array of every local batch.
 template <class T>
-std::vector<T> gather(const std::vector<run::BatchResult>& local,
-                      std::vector<T> run::BatchResult::*field) {
+std::vector<T> gather(const std::vector<run::BatchResult>& local, const Quantity& q) {
   std::vector<T> out;
   for (const run::BatchResult& b : local) {
-    const std::vector<T>& v = b.*field;
+    const std::vector<T>& v = results::array_of<T>(b, q);
     out.insert(out.end(), v.begin(), v.end());
   }
   return out;
@@ -232,13 +236,6 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
     // the swept values of this parameter (/case/<parameter>) are offsets added to its schedule
     root.set_attribute("scheduled_parameter", spec.schedule.parameter);
   }
-  GroupWriter top(file, "");
-  top.labels("observable", plan.observables, "name of each observable");
-}
-
-void write_cases(h5::File& file, const spec::Spec& spec, const plan::Plan& plan) {
-  GroupWriter g(file, "case");
-  g.cases(spec, plan, "case index (point of the sweep grid)");
 }
 
 /// Exponent indices 1..k (the coordinate of the `exponent` dimension).
@@ -246,50 +243,6 @@ std::vector<std::int64_t> exponent_numbers(int k) {
   std::vector<std::int64_t> v(static_cast<std::size_t>(k));
   for (int i = 0; i < k; ++i) v[static_cast<std::size_t>(i)] = i + 1;
   return v;
-}
-
-void write_members(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                   const std::vector<run::BatchResult>& local) {
-  GroupWriter g(file, "member");
-  const std::uint64_t n_cases = plan.cases.size(), M = plan.members;
-  const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
-  const std::uint64_t dim = plan.state_dim;
-  g.cases(spec, plan, "case index");
-  g.coordinate("member", iota(plan.members), "member index within the case");
-  g.labels("state", plan.state_names, "state variable");
-  g.labels("observable", plan.observables, "observable");
-  const MemberRows rows(plan, local);
-
-  h5::Dataset d = g.dataset("initial_state", {n_cases, M, dim});
-  rows.write(d, {dim}, gather(local, &run::BatchResult::initial_state));
-  d = g.dataset("status", {n_cases, M});
-  rows.write(d, {}, gather(local, &run::BatchResult::status));
-  d = g.dataset("time_mean", {n_cases, M, n_obs});
-  rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_mean));
-  d = g.dataset("time_variance", {n_cases, M, n_obs});
-  rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_variance));
-  d = g.dataset("time_mean_stderr", {n_cases, M, n_obs});
-  rows.write(d, {n_obs}, gather(local, &run::BatchResult::time_mean_stderr));
-  if (spec.statistics.lyapunov.enabled) {
-    const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
-    g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
-    d = g.dataset("lyapunov", {n_cases, M, k});
-    rows.write(d, {k}, gather(local, &run::BatchResult::lyapunov));
-  }
-  if (spec.statistics.twins.enabled) {
-    d = g.dataset("spread", {n_cases, M});
-    rows.write(d, {}, gather(local, &run::BatchResult::spread));
-    d = g.dataset("horizon", {n_cases, M});
-    rows.write(d, {}, gather(local, &run::BatchResult::horizon));
-  }
-  if (n_reg == 0) return;
-  g.labels("regime", plan.regime_labels, "regime label");
-  d = g.dataset("regime_fraction", {n_cases, M, n_reg});
-  rows.write(d, {n_reg}, gather(local, &run::BatchResult::regime_fraction));
-  d = g.dataset("regime_mean_residence", {n_cases, M, n_reg});
-  rows.write(d, {n_reg}, gather(local, &run::BatchResult::regime_mean_residence));
-  d = g.dataset("regime_transitions", {n_cases, M});
-  rows.write(d, {}, gather(local, &run::BatchResult::regime_transitions));
 }
 
 /// "case 0: reason; case 3: reason" over the flagged cases, or "none".
@@ -302,121 +255,72 @@ std::string flagged_cases(const std::vector<std::string>& reasons) {
   return text.empty() ? "none" : text;
 }
 
-void write_ensemble(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                    const parallel::EnsembleResults& e) {
-  GroupWriter g(file, "ensemble");
-  const std::uint64_t n_cases = plan.cases.size();
-  const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
-  g.cases(spec, plan, "case index");
-  g.labels("observable", plan.observables, "observable");
-  g.fixed_labels("bound");
-  g.dataset("time_mean", {n_cases, n_obs}).write_from_rank0(e.time_mean);
-  g.dataset("time_mean_std", {n_cases, n_obs}).write_from_rank0(e.time_mean_std);
-  g.dataset("time_mean_ci95", {n_cases, n_obs, 2}).write_from_rank0(e.time_mean_ci95);
-  g.dataset("valid_members", {n_cases}).write_from_rank0(e.valid_members);
-  g.dataset("effective_members", {n_cases}).write_from_rank0(e.effective_members);
-  g.dataset("time_mean_stderr", {n_cases, n_obs}).write_from_rank0(e.time_mean_stderr);
-  g.dataset("effective_samples", {n_cases, n_obs}).write_from_rank0(e.effective_samples);
-  g.dataset("decorrelation_time", {n_cases, n_obs}).write_from_rank0(e.decorrelation_time);
-  h5::Dataset flag = g.dataset("non_chaotic", {n_cases});
-  flag.write_from_rank0(e.non_chaotic);
-  flag.set_attribute("reason", flagged_cases(e.non_chaotic_reason));
-  g.dataset("non_chaotic_reason", {n_cases}).write_strings_from_rank0(e.non_chaotic_reason);
-  if (spec.statistics.lyapunov.enabled) {
-    const std::uint64_t k = static_cast<std::uint64_t>(spec.statistics.lyapunov.exponents);
-    g.coordinate("exponent", exponent_numbers(static_cast<int>(k)), "exponent number (1 = leading)");
-    g.dataset("lyapunov", {n_cases, k}).write_from_rank0(e.lyapunov);
-    g.dataset("lyapunov_std", {n_cases, k}).write_from_rank0(e.lyapunov_std);
-    g.dataset("lyapunov_ci95", {n_cases, k, 2}).write_from_rank0(e.lyapunov_ci95);
+/// Everything a group's datasets are written from.
+struct Sources {
+  const spec::Spec& spec;
+  const plan::Plan& plan;
+  const std::vector<run::BatchResult>& local;
+  const parallel::EnsembleResults& ensemble;
+  const MemberRows& rows;
+};
+
+/// Creates the scale of dimension `dim` in group `group`, with its coordinate values from the
+/// plan. Its long name is the table's dimension's, or that of the group's own dataset of the
+/// same name where the table has one (/twins/lead, /snapshot/time).
+void make_scale(GroupWriter& g, const std::string& group, const std::string& dim,
+                const Sources& in) {
+  const plan::Plan& plan = in.plan;
+  const std::string& long_name = results::dimension(dim).long_name;
+  const auto own_name = [&] { return results::at_path("/" + group + "/" + dim).long_name; };
+  if (dim == "case") {
+    g.cases(in.spec, plan, group == "case" ? own_name() : long_name);
+  } else if (dim == "member") {
+    g.coordinate(dim, iota(plan.members), long_name);
+  } else if (dim == "sample") {
+    g.coordinate(dim, iota(plan.trajectory_members), long_name);
+  } else if (dim == "state" || dim == "variable") {
+    g.labels(dim, plan.state_names, long_name);
+  } else if (dim == "observable") {
+    g.labels(dim, plan.observables, group.empty() ? results::at_path("/observable").long_name
+                                                  : long_name);
+  } else if (dim == "regime") {
+    g.labels(dim, plan.regime_labels, long_name);
+  } else if (dim == "bound" || dim == "window_edge") {
+    g.fixed_labels(dim);
+  } else if (dim == "exponent") {
+    g.coordinate(dim, exponent_numbers(plan.lyapunov_exponents), long_name);
+  } else if (dim == "axis") {
+    std::vector<std::string> axes;
+    for (const spec::SweepAxis& a : in.spec.sweep) axes.push_back(a.parameter);
+    g.labels(dim, axes, long_name);
+  } else if (dim == "lead") {
+    g.coordinate(dim, run::twin_leads(plan.twins, in.spec.integration.dt), own_name());
+  } else if (dim == "time") {
+    g.coordinate(dim, in.ensemble.snapshot_time, own_name());
+  } else if (dim == "bin" || dim == "edges") {
+    const spec::Histogram& h = in.spec.statistics.histogram;
+    std::vector<double> edges(static_cast<std::size_t>(h.bins) + 1), centres;
+    for (int k = 0; k <= h.bins; ++k) {
+      edges[static_cast<std::size_t>(k)] = stats::histogram_edge(h.low, h.high, h.bins, k);
+    }
+    for (int k = 0; k < h.bins; ++k) centres.push_back(0.5 * (edges[k] + edges[k + 1]));
+    if (dim == "bin") g.coordinate(dim, centres, "bin centre of " + h.observable);
+    else g.coordinate(dim, edges, "bin edges of " + h.observable);
+  } else if (dim == "step") {
+    g.dimension(dim, plan.trajectory_samples);
+  } else {
+    throw std::logic_error("no coordinate values for dimension " + dim);
   }
-  if (spec.statistics.twins.enabled) {
-    g.dataset("horizon", {n_cases}).write_from_rank0(e.horizon);
-    g.dataset("horizon_std", {n_cases}).write_from_rank0(e.horizon_std);
-    g.dataset("horizon_ci95", {n_cases, 2}).write_from_rank0(e.horizon_ci95);
-    g.dataset("horizon_reached", {n_cases}).write_from_rank0(e.horizon_reached);
-  }
-  if (n_reg == 0) return;
-  g.labels("regime", plan.regime_labels, "regime label");
-  g.dataset("regime_fraction", {n_cases, n_reg}).write_from_rank0(e.regime_fraction);
-  g.dataset("regime_fraction_std", {n_cases, n_reg}).write_from_rank0(e.regime_fraction_std);
-  g.dataset("regime_fraction_ci95", {n_cases, n_reg, 2}).write_from_rank0(e.regime_fraction_ci95);
 }
 
-void write_response(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                    const parallel::EnsembleResults& e) {
-  if (spec.sweep.empty()) return;
-  GroupWriter g(file, "response");
-  std::vector<std::string> axes;
-  for (const spec::SweepAxis& a : spec.sweep) axes.push_back(a.parameter);
-  const std::uint64_t n_axes = axes.size(), n_obs = plan.observables.size();
-  g.labels("axis", axes, "swept parameter");
-  g.labels("observable", plan.observables, "observable");
-  g.dataset("slope", {n_axes, n_obs}).write_from_rank0(e.slope);
-  g.dataset("slope_stderr", {n_axes, n_obs}).write_from_rank0(e.slope_stderr);
-}
-
-/// The twin experiment's curves per case against lead time (statistics.twins).
-void write_twins(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                 const parallel::EnsembleResults& e) {
-  const run::TwinTimes& times = plan.twins;
-  if (times.every_steps == 0) return;
-  GroupWriter g(file, "twins");
-  const std::uint64_t n_cases = plan.cases.size(), leads = static_cast<std::uint64_t>(times.leads);
-  g.cases(spec, plan, "case index");
-  g.coordinate("lead", run::twin_leads(times, spec.integration.dt),
-               archive::dataset("/twins/lead").long_name);
-  g.fixed_labels("window_edge");
-  g.fixed_labels("bound");
-  g.dataset("log_separation", {n_cases, leads}).write_from_rank0(e.twin_log_separation);
-  g.dataset("log_separation_std", {n_cases, leads}).write_from_rank0(e.twin_log_separation_std);
-  g.dataset("pairs", {n_cases}).write_from_rank0(e.twin_pairs);
-  g.dataset("growth_rate", {n_cases}).write_from_rank0(e.growth_rate);
-  g.dataset("growth_window", {n_cases, 2}).write_from_rank0(e.growth_window);
-  g.dataset("growth_note", {n_cases}).write_strings_from_rank0(e.growth_note);
-  g.dataset("horizon_median", {n_cases}).write_from_rank0(e.horizon_median);
-  g.dataset("horizon_median_ci95", {n_cases, 2}).write_from_rank0(e.horizon_median_ci95);
-  g.dataset("unseparated_fraction", {n_cases, leads}).write_from_rank0(e.unseparated_fraction);
-  g.dataset("suggested_duration", {n_cases}).write_from_rank0(e.suggested_duration);
-}
-
-void write_histogram(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                     const parallel::EnsembleResults& e) {
-  const spec::Histogram& h = spec.statistics.histogram;
-  if (!h.enabled) return;
-  GroupWriter g(file, "histogram");
-  const std::uint64_t bins = static_cast<std::uint64_t>(h.bins);
-  std::vector<double> edges(bins + 1), centres(bins);
-  for (std::uint64_t k = 0; k <= bins; ++k) {
-    edges[k] = stats::histogram_edge(h.low, h.high, h.bins, static_cast<int>(k));
-  }
-  for (std::uint64_t k = 0; k < bins; ++k) centres[k] = 0.5 * (edges[k] + edges[k + 1]);
-  g.cases(spec, plan, "case index");
-  g.coordinate("bin", centres, "bin centre of " + h.observable);
-  g.coordinate("edges", edges, "bin edges of " + h.observable);
-  g.dataset("counts", {plan.cases.size(), bins}).write_from_rank0(e.histogram);
-}
-
-void write_trajectories(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                        const std::vector<run::BatchResult>& local, double dt) {
-  if (plan.trajectory_members == 0) return;
-  GroupWriter g(file, "trajectory");
-  const std::uint64_t samples = plan.trajectory_samples, dim = plan.state_dim;
-  const std::uint64_t stored = plan.trajectory_members;
-  g.cases(spec, plan, "case index");
-  g.coordinate("sample", iota(plan.trajectory_members), "member index of the stored member");
-  g.dimension("step", samples);
-  g.labels("variable", plan.state_names, "state variable");
-  std::vector<double> time(samples);
-  for (std::uint64_t i = 0; i < samples; ++i) {
-    time[i] = static_cast<double>(i * plan.trajectory_every_steps) * dt;
-  }
-  g.dataset("time", {samples}).write_from_rank0(time);
-  h5::Dataset d = g.dataset("state", {plan.cases.size(), stored, samples, dim});
-  // Every batch holding stored members, in plan order: its owner writes, the others join empty.
+/// The stored trajectories (/trajectory/state): every batch holding stored members, in plan
+/// order; its owner writes, the others join the collective write empty.
+void write_trajectories(h5::Dataset& d, const Sources& in) {
+  const std::uint64_t samples = in.plan.trajectory_samples, dim = in.plan.state_dim;
   std::map<std::int64_t, const run::BatchResult*> mine;
-  for (const run::BatchResult& b : local) mine[b.batch_index] = &b;
-  for (const plan::Batch& batch : plan.batches) {
-    if (batch.first_member >= plan.trajectory_members) continue;
+  for (const run::BatchResult& b : in.local) mine[b.batch_index] = &b;
+  for (const plan::Batch& batch : in.plan.batches) {
+    if (batch.first_member >= in.plan.trajectory_members) continue;
     const auto it = mine.find(batch.index);
     const run::BatchResult* b = it == mine.end() ? nullptr : it->second;
     const std::uint64_t k = b ? static_cast<std::uint64_t>(b->trajectory_members) : 0;
@@ -426,21 +330,84 @@ void write_trajectories(h5::File& file, const spec::Spec& spec, const plan::Plan
   }
 }
 
-/// Across-member statistics at the snapshot times; /snapshot/time is the `time` coordinate.
-void write_snapshots(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
-                     const parallel::EnsembleResults& e) {
-  if (plan.snapshot_count == 0) return;
-  GroupWriter g(file, "snapshot");
-  const std::uint64_t n_cases = plan.cases.size(), times = e.snapshot_time.size();
-  const std::uint64_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
-  g.cases(spec, plan, "case index");
-  g.coordinate("time", e.snapshot_time, archive::dataset("/snapshot/time").long_name);
-  g.labels("observable", plan.observables, "observable");
-  g.dataset("mean", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_mean);
-  g.dataset("variance", {n_cases, times, n_obs}).write_from_rank0(e.snapshot_variance);
-  if (n_reg == 0) return;
-  g.labels("regime", plan.regime_labels, "regime label");
-  g.dataset("regime_fraction", {n_cases, times, n_reg}).write_from_rank0(e.snapshot_regime_fraction);
+/// Writes an ensemble array, the same on every rank, from rank 0.
+template <class T>
+void write_whole(h5::Dataset& d, const Quantity& q, const Dims& shape, const std::vector<T>& v) {
+  if (v.size() != h5::element_count(shape)) {
+    throw std::logic_error("results: " + q.path + " holds " + std::to_string(v.size()) +
+                           " values, its dimensions " + std::to_string(h5::element_count(shape)));
+  }
+  if constexpr (std::is_same_v<T, std::string>) {
+    d.write_strings_from_rank0(v);
+  } else {
+    d.write_from_rank0(v);
+  }
+}
+
+/// Writes one quantity of the table into its group (its scales already exist).
+void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
+  const bool own_scale = q.dims.size() == 1 && q.dims[0] == q.leaf();
+  if (q.scope == results::Scope::coordinate || (q.scope == results::Scope::ensemble && own_scale)) {
+    if (q.path != "/trajectory/time") return;  // the scales and /case/<parameter> exist
+    const std::uint64_t samples = in.plan.trajectory_samples;
+    std::vector<double> time(samples);
+    for (std::uint64_t i = 0; i < samples; ++i) {
+      time[i] = static_cast<double>(i * in.plan.trajectory_every_steps) * in.spec.integration.dt;
+    }
+    g.dataset(q.leaf(), {samples}).write_from_rank0(time);
+    return;
+  }
+  Dims shape;
+  for (const std::string& dim : q.dims) shape.push_back(in.plan.extent(dim));
+  h5::Dataset d = g.dataset(q.leaf(), shape);
+  switch (q.scope) {
+    case results::Scope::member: {
+      const Dims trailing(shape.begin() + 2, shape.end());
+      switch (q.type) {
+        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.local, q)); break;
+        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.local, q)); break;
+        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.local, q)); break;
+        case ElementType::text: throw std::logic_error("text per member: " + q.path);
+      }
+      break;
+    }
+    case results::Scope::batch:
+      write_trajectories(d, in);
+      break;
+    case results::Scope::ensemble:
+      switch (q.type) {
+        case ElementType::float64: write_whole(d, q, shape, results::array_of<double>(in.ensemble, q)); break;
+        case ElementType::int64: write_whole(d, q, shape, results::array_of<std::int64_t>(in.ensemble, q)); break;
+        case ElementType::uint8: write_whole(d, q, shape, results::array_of<std::uint8_t>(in.ensemble, q)); break;
+        case ElementType::text: write_whole(d, q, shape, results::array_of<std::string>(in.ensemble, q)); break;
+      }
+      if (q.path == "/ensemble/non_chaotic") {
+        d.set_attribute("reason", flagged_cases(in.ensemble.non_chaotic_reason));
+      }
+      break;
+    case results::Scope::coordinate: break;
+  }
+}
+
+/// Every group of the table that has a present quantity, in table order, with its quantities.
+void write_groups(h5::File& file, const Sources& in) {
+  std::vector<std::string> groups;
+  for (const Quantity& q : results::quantities()) {
+    if (!q.archived() || !q.present(in.plan.outputs)) continue;
+    if (std::find(groups.begin(), groups.end(), q.group()) == groups.end()) {
+      groups.push_back(q.group());
+    }
+  }
+  for (const std::string& group : groups) {
+    GroupWriter g(file, group);
+    for (const Quantity& q : results::quantities()) {
+      if (!q.archived() || q.group() != group || !q.present(in.plan.outputs)) continue;
+      for (const std::string& dim : q.dims) {
+        if (!g.has_scale(dim)) make_scale(g, group, dim, in);
+      }
+      write_quantity(g, q, in);
+    }
+  }
 }
 
 }  // namespace
@@ -451,14 +418,8 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   const std::string partial = path + ".partial";
   h5::File file = h5::File::create_parallel(partial, MPI_COMM_WORLD, kSealBytes);
   write_root(file, spec, plan, info);
-  write_cases(file, spec, plan);
-  write_members(file, spec, plan, local);
-  write_ensemble(file, spec, plan, ensemble);
-  write_response(file, spec, plan, ensemble);
-  write_twins(file, spec, plan, ensemble);
-  write_histogram(file, spec, plan, ensemble);
-  write_trajectories(file, spec, plan, local, spec.integration.dt);
-  write_snapshots(file, spec, plan, ensemble);
+  const MemberRows rows(plan, local);
+  write_groups(file, Sources{spec, plan, local, ensemble, rows});
   file.close();
 
   // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it

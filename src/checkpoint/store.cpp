@@ -5,9 +5,11 @@
 #include <chrono>
 #include <cstdio>
 #include <filesystem>
+#include <type_traits>
 
 #include "checkpoint/files.hpp"
 #include "checkpoint/record.hpp"
+#include "results/table.hpp"
 
 namespace chaosweep::checkpoint {
 namespace {
@@ -29,29 +31,23 @@ std::int64_t generation_number(const std::string& name) {
   return std::stoll(name.substr(4));
 }
 
+/// A finished batch as a record: its identity, then every array the results table declares
+/// for a batch (per-member rows and per-batch summaries), under the quantity's name.
 Record to_record(const run::BatchResult& r, const std::string& sha) {
   Record rec;
   rec.header = {{"kind", "done"}, {"spec_sha256", sha}, {"batch", std::to_string(r.batch_index)}};
   rec.integers = {{"ids", {r.batch_index, r.case_index, r.first_member, r.count,
-                           r.trajectory_members}},
-                  {"regime_transitions", r.regime_transitions},
-                  {"histogram", r.histogram},
-                  {"snapshot_regimes", r.snapshot_regimes}};
-  rec.reals = {{"initial_state", r.initial_state},
-               {"time_mean", r.time_mean},
-               {"time_variance", r.time_variance},
-               {"time_mean_stderr", r.time_mean_stderr},
-               {"time_mean_tau", r.time_mean_tau},
-               {"time_mean_samples", r.time_mean_samples},
-               {"regime_fraction", r.regime_fraction},
-               {"regime_mean_residence", r.regime_mean_residence},
-               {"trajectory", r.trajectory},
-               {"lyapunov", r.lyapunov},
-               {"twin_moments", r.twin_moments},
-               {"spread", r.spread},
-               {"horizon", r.horizon},
-               {"snapshot_moments", r.snapshot_moments}};
-  rec.bytes = {{"status", r.status}};
+                           r.trajectory_members}}};
+  results::for_each_array(r, [&](const results::Quantity& q, const auto& values) {
+    using T = typename std::decay_t<decltype(values)>::value_type;
+    if constexpr (std::is_same_v<T, double>) {
+      rec.reals.emplace_back(q.name, values);
+    } else if constexpr (std::is_same_v<T, std::int64_t>) {
+      rec.integers.emplace_back(q.name, values);
+    } else if constexpr (std::is_same_v<T, std::uint8_t>) {
+      rec.bytes.emplace_back(q.name, values);
+    }
+  });
   return rec;
 }
 
@@ -64,24 +60,16 @@ run::BatchResult to_result(const Record& rec) {
   r.first_member = ids[2];
   r.count = static_cast<int>(ids[3]);
   r.trajectory_members = static_cast<int>(ids[4]);
-  r.regime_transitions = rec.integer("regime_transitions");
-  r.histogram = rec.integer("histogram");
-  r.initial_state = rec.real("initial_state");
-  r.time_mean = rec.real("time_mean");
-  r.time_variance = rec.real("time_variance");
-  r.time_mean_stderr = rec.real("time_mean_stderr");
-  r.time_mean_tau = rec.real("time_mean_tau");
-  r.time_mean_samples = rec.real("time_mean_samples");
-  r.regime_fraction = rec.real("regime_fraction");
-  r.regime_mean_residence = rec.real("regime_mean_residence");
-  r.trajectory = rec.real("trajectory");
-  r.lyapunov = rec.real("lyapunov");
-  r.twin_moments = rec.real("twin_moments");
-  r.spread = rec.real("spread");
-  r.horizon = rec.real("horizon");
-  r.snapshot_moments = rec.real("snapshot_moments");
-  r.snapshot_regimes = rec.integer("snapshot_regimes");
-  r.status = rec.byte_array("status");
+  results::for_each_array(r, [&](const results::Quantity& q, auto& values) {
+    using T = typename std::decay_t<decltype(values)>::value_type;
+    if constexpr (std::is_same_v<T, double>) {
+      values = rec.real(q.name);
+    } else if constexpr (std::is_same_v<T, std::int64_t>) {
+      values = rec.integer(q.name);
+    } else if constexpr (std::is_same_v<T, std::uint8_t>) {
+      values = rec.byte_array(q.name);
+    }
+  });
   return r;
 }
 

@@ -4,45 +4,69 @@
 #include <cmath>
 
 #include "parallel/reduce_errors.hpp"
+#include "results/table.hpp"
 #include "stats/dynamics_check.hpp"
 #include "stats/ensemble.hpp"
 
 namespace chaosweep::parallel {
 namespace {
 
-/// Per-batch summary layout: for each observable (n, mean, m2), then for each regime
-/// (n, mean, m2) of the regime fraction. Histogram counts travel separately (integers).
 constexpr int kMomentWidth = stats::Moments::kPacked;
 
-/// Moments across the valid members of one batch of a quantity stored [count][width].
-stats::Moments batch_moments(const run::BatchResult& b, const std::vector<double>& values,
-                             int width, int column) {
-  stats::Moments m;
-  for (int i = 0; i < b.count; ++i) {
-    if (b.status[i] != run::kValid) continue;
-    m.add(values[static_cast<std::size_t>(i) * width + column]);
-  }
-  return m;
-}
+/// The per-member quantities whose ensemble estimates the table declares (merge
+/// member_moments) and that this campaign has, with their columns per member.
+struct Estimated {
+  const results::Quantity* quantity;
+  std::size_t width;
+};
 
-std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs, int n_reg,
-                              int n_lyap) {
-  std::vector<double> out;
-  out.reserve(local.size() * kMomentWidth * (n_obs + n_reg + n_lyap));
-  for (const run::BatchResult& b : local) {
-    for (int o = 0; o < n_obs; ++o) batch_moments(b, b.time_mean, n_obs, o).append_to(out);
-    for (int r = 0; r < n_reg; ++r) batch_moments(b, b.regime_fraction, n_reg, r).append_to(out);
-    for (int k = 0; k < n_lyap; ++k) batch_moments(b, b.lyapunov, n_lyap, k).append_to(out);
+std::vector<Estimated> estimated_quantities(const plan::Plan& plan) {
+  std::vector<Estimated> out;
+  for (const results::Quantity& q : results::quantities()) {
+    if (q.merge != results::Merge::member_moments || !q.present(plan.outputs)) continue;
+    std::size_t width = 1;  // the dimensions after (case, member)
+    for (std::size_t d = 2; d < q.dims.size(); ++d) width *= plan.extent(q.dims[d]);
+    out.push_back({&q, width});
   }
   return out;
 }
 
-void store(const stats::EnsembleEstimate& e, std::size_t i, std::vector<double>& mean,
-           std::vector<double>& std, std::vector<double>& ci) {
-  mean[i] = e.mean;
-  std[i] = e.std;
-  ci[2 * i] = e.ci_low;
-  ci[2 * i + 1] = e.ci_high;
+/// Per-batch summary: for each estimated quantity in table order and each of its columns, the
+/// moments (n, mean, m2) across the batch's valid members.
+std::vector<double> summarise(const std::vector<run::BatchResult>& local,
+                              const std::vector<Estimated>& estimated) {
+  std::vector<double> out;
+  for (const run::BatchResult& b : local) {
+    for (const Estimated& e : estimated) {
+      const std::vector<double>& values = results::array_of<double>(b, *e.quantity);
+      for (std::size_t column = 0; column < e.width; ++column) {
+        stats::Moments m;
+        for (int i = 0; i < b.count; ++i) {
+          if (b.status[i] == run::kValid) m.add(values[static_cast<std::size_t>(i) * e.width + column]);
+        }
+        m.append_to(out);
+      }
+    }
+  }
+  return out;
+}
+
+/// Writes the estimates of every table entry that estimates `source`, at index `i`.
+void store(const stats::EnsembleEstimate& est, const std::string& source, std::size_t i,
+           EnsembleResults& r) {
+  for (const results::Quantity& q : results::quantities()) {
+    if (q.merge != results::Merge::estimate || q.source != source) continue;
+    std::vector<double>& out = results::array_of<double>(r, q);
+    switch (q.estimate) {
+      case results::Estimate::mean: out[i] = est.mean; break;
+      case results::Estimate::std: out[i] = est.std; break;
+      case results::Estimate::ci95:
+        out[2 * i] = est.ci_low;
+        out[2 * i + 1] = est.ci_high;
+        break;
+      case results::Estimate::none: break;
+    }
+  }
 }
 
 /// Response slopes of every observable's ensemble time mean against the sweep axes.
@@ -100,14 +124,15 @@ void check_cases(const spec::Spec& spec, const plan::Plan& plan, int n_lyap, Ens
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local) {
   const int n_obs = static_cast<int>(plan.observables.size());
-  const int n_reg = static_cast<int>(plan.regime_labels.size());
   const int bins = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
   const int n_lyap = spec.statistics.lyapunov.enabled ? spec.statistics.lyapunov.exponents : 0;
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_batch = static_cast<std::size_t>(kMomentWidth * (n_obs + n_reg + n_lyap));
+  const std::vector<Estimated> estimated = estimated_quantities(plan);
+  std::size_t columns = 0;
+  for (const Estimated& e : estimated) columns += e.width;
+  const std::size_t per_batch = kMomentWidth * columns;
 
-  const std::vector<double> all =
-      comm.allgather_in_rank_order(summarise(local, n_obs, n_reg, n_lyap));
+  const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, estimated));
   std::vector<std::int64_t> local_counts;
   std::int64_t local_bad = 0;
   for (const run::BatchResult& b : local) {
@@ -116,48 +141,42 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   }
   const std::vector<std::int64_t> counts = comm.allgather_in_rank_order(local_counts);
 
-  // Merge per case in batch order.
-  std::vector<stats::Moments> obs(n_cases * n_obs), reg(n_cases * n_reg), lyap(n_cases * n_lyap);
+  // Merge per case in batch order: moments[case][column] over the estimated columns.
+  std::vector<stats::Moments> moments(n_cases * columns);
   EnsembleResults r;
   r.histogram.assign(n_cases * bins, 0);
   for (const plan::Batch& b : plan.batches) {
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     const std::size_t c = static_cast<std::size_t>(b.case_index);
-    for (int o = 0; o < n_obs; ++o, p += kMomentWidth) obs[c * n_obs + o].merge(stats::Moments::unpack(p));
-    for (int k = 0; k < n_reg; ++k, p += kMomentWidth) reg[c * n_reg + k].merge(stats::Moments::unpack(p));
-    for (int k = 0; k < n_lyap; ++k, p += kMomentWidth) lyap[c * n_lyap + k].merge(stats::Moments::unpack(p));
+    for (std::size_t k = 0; k < columns; ++k, p += kMomentWidth) {
+      moments[c * columns + k].merge(stats::Moments::unpack(p));
+    }
     for (int k = 0; k < bins; ++k)
       r.histogram[c * bins + k] += counts[static_cast<std::size_t>(b.index) * bins + k];
   }
 
+  // Every estimate array sized [case][width] (intervals [case][width][2]) and filled.
+  std::size_t first_column = 0;
+  for (const Estimated& e : estimated) {
+    for (const results::Quantity& q : results::quantities()) {
+      if (q.merge != results::Merge::estimate || q.source != e.quantity->name) continue;
+      const std::size_t n = n_cases * e.width * (q.estimate == results::Estimate::ci95 ? 2 : 1);
+      results::array_of<double>(r, q).assign(n, NAN);
+    }
+    for (std::size_t c = 0; c < n_cases; ++c) {
+      for (std::size_t k = 0; k < e.width; ++k) {
+        const stats::Moments& m = moments[c * columns + first_column + k];
+        store(stats::estimate(m), e.quantity->name, c * e.width + k, r);
+      }
+    }
+    first_column += e.width;
+  }
+  // Members are independent draws (distinct perturbations, decorrelated after spin-up), so
+  // every valid member counts as one independent sample of the case's time-mean statistics.
   r.valid_members.assign(n_cases, 0);
   r.effective_members.assign(n_cases, 0.0);
-  r.time_mean.assign(n_cases * n_obs, NAN);
-  r.time_mean_std.assign(n_cases * n_obs, NAN);
-  r.time_mean_ci95.assign(n_cases * n_obs * 2, NAN);
-  r.regime_fraction.assign(n_cases * n_reg, NAN);
-  r.regime_fraction_std.assign(n_cases * n_reg, NAN);
-  r.regime_fraction_ci95.assign(n_cases * n_reg * 2, NAN);
-  r.lyapunov.assign(n_cases * n_lyap, NAN);
-  r.lyapunov_std.assign(n_cases * n_lyap, NAN);
-  r.lyapunov_ci95.assign(n_cases * n_lyap * 2, NAN);
   for (std::size_t c = 0; c < n_cases; ++c) {
-    for (int o = 0; o < n_obs; ++o) {
-      const std::size_t i = c * n_obs + o;
-      store(stats::estimate(obs[i]), i, r.time_mean, r.time_mean_std, r.time_mean_ci95);
-    }
-    for (int k = 0; k < n_reg; ++k) {
-      const std::size_t i = c * n_reg + k;
-      store(stats::estimate(reg[i]), i, r.regime_fraction, r.regime_fraction_std,
-            r.regime_fraction_ci95);
-    }
-    for (int k = 0; k < n_lyap; ++k) {
-      const std::size_t i = c * n_lyap + k;
-      store(stats::estimate(lyap[i]), i, r.lyapunov, r.lyapunov_std, r.lyapunov_ci95);
-    }
-    // Members are independent draws (distinct perturbations, decorrelated after spin-up), so
-    // every valid member counts as one independent sample of the case's time-mean statistics.
-    const std::int64_t valid = n_obs > 0 ? static_cast<std::int64_t>(obs[c * n_obs].n) : 0;
+    const std::int64_t valid = n_obs > 0 ? static_cast<std::int64_t>(moments[c * columns].n) : 0;
     r.valid_members[c] = valid;
     r.effective_members[c] = static_cast<double>(valid);
   }

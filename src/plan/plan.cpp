@@ -1,13 +1,12 @@
 // Spec -> cases x members -> batches. Pure: no MPI, no HDF5, no YAML.
 #include "plan/plan.hpp"
 
-#include <cstdio>
-
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <memory>
+#include <stdexcept>
 
 #include "core/error.hpp"
 
@@ -144,7 +143,38 @@ Plan make_plan(const spec::Spec& spec) {
   if (spec.ensemble.initial.kind == spec::InitialKind::attractor) {
     plan.attractor_spinup_steps = whole_steps(spec.ensemble.initial.spinup, dt);
   }
+  plan.lyapunov_exponents = lyapunov.enabled ? lyapunov.exponents : 0;
+  plan.histogram_bins = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
+  plan.sweep_axes = static_cast<int>(spec.sweep.size());
+  results::Options& out = plan.outputs;
+  out.sweep = !spec.sweep.empty();
+  out.regimes = !plan.regime_labels.empty();
+  out.lyapunov = lyapunov.enabled;
+  out.twins = twins.enabled;
+  out.histogram = spec.statistics.histogram.enabled;
+  out.snapshots = plan.snapshot_count > 0;
+  out.trajectories = plan.trajectory_members > 0;
   return plan;
+}
+
+std::uint64_t Plan::extent(const std::string& dim) const {
+  const auto n = [](auto v) { return static_cast<std::uint64_t>(v); };
+  if (dim == "case") return n(cases.size());
+  if (dim == "member") return n(members);
+  if (dim == "state" || dim == "variable") return n(state_dim);
+  if (dim == "observable") return n(observables.size());
+  if (dim == "regime") return n(regime_labels.size());
+  if (dim == "bound" || dim == "window_edge") return 2;
+  if (dim == "moment") return 3;
+  if (dim == "exponent") return n(lyapunov_exponents);
+  if (dim == "axis") return n(sweep_axes);
+  if (dim == "lead") return n(twins.leads);
+  if (dim == "bin") return n(histogram_bins);
+  if (dim == "edges") return histogram_bins > 0 ? n(histogram_bins + 1) : 0;
+  if (dim == "time") return n(snapshot_count);
+  if (dim == "sample") return n(trajectory_members);
+  if (dim == "step") return n(trajectory_samples);
+  throw std::logic_error("no extent for dimension " + dim);
 }
 
 Range share(std::int64_t n, int rank, int size) {

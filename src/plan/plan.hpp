@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "models/model.hpp"
+#include "results/table.hpp"
 #include "spec/spec.hpp"
 
 namespace chaosweep::plan {
@@ -60,9 +61,16 @@ struct Plan {
   TwinTimes twins;                           // leads 0 without twins
   std::int64_t lyapunov_every_steps = 0;     // re-orthonormalisation period, 0 without
   std::int64_t attractor_spinup_steps = 0;   // initial_state: {from: attractor}, 0 otherwise
+  int lyapunov_exponents = 0;                // 0 without Lyapunov exponents
+  int histogram_bins = 0;                    // 0 without a histogram
+  int sweep_axes = 0;
+  results::Options outputs;                  // which results of the table the campaign has
 
   std::int64_t total_steps() const { return spinup_steps + accumulate_steps; }
   std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }
+  /// The size of archive dimension `dim` (results/table.hpp) in this campaign; throws
+  /// std::logic_error for a dimension the table does not define.
+  std::uint64_t extent(const std::string& dim) const;
 };
 
 /// "case 3 (F 12)", or "case 3 (F 12, h 0.5)" with two axes: the case's index and its swept

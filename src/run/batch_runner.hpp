@@ -17,43 +17,16 @@
 #include "core/error.hpp"
 #include "models/model.hpp"
 #include "plan/plan.hpp"
+#include "results/batch_result.hpp"
 #include "spec/spec.hpp"
 
 namespace chaosweep::run {
 
-/// Per-member status codes (archive /member/status).
-enum MemberStatus : std::uint8_t { kValid = 0, kNonFinite = 1 };
-
-/// Everything one batch produced, for its `count` real members (padding dropped).
-/// Arrays are member-major: [count][...].
-struct BatchResult {
-  std::int64_t batch_index = 0;
-  std::int64_t case_index = 0;
-  std::int64_t first_member = 0;
-  int count = 0;
-  std::vector<double> initial_state;           // [count][state_dim]
-  std::vector<std::uint8_t> status;            // [count]
-  std::vector<double> time_mean;               // [count][n_observables], NaN if not valid
-  std::vector<double> time_variance;           // [count][n_observables] (n-1 denominator)
-  std::vector<double> time_mean_stderr;        // [count][n_observables], blocking estimate
-  std::vector<double> time_mean_tau;           // [count][n_observables], tau_int, time units
-  std::vector<double> time_mean_samples;       // [count][n_observables], n_eff = n / (2 tau_int)
-  std::vector<double> regime_fraction;         // [count][n_regimes]
-  std::vector<double> regime_mean_residence;   // [count][n_regimes], time units; NaN if never
-  std::vector<std::int64_t> regime_transitions;  // [count]
-  std::vector<std::int64_t> histogram;         // [bins], summed over the valid members
-  std::vector<double> trajectory;              // [stored members in this batch][samples][state_dim]
-  int trajectory_members = 0;                  // members of this batch among the stored ones
-  std::vector<double> lyapunov;                // [count][exponents] when requested, else empty
-  // Twin experiment (statistics.twins, see run/twins.hpp); empty when not requested.
-  std::vector<double> twin_moments;            // [leads][3]: n, mean, m2 of the log separation
-                                               // over the batch's valid pairs
-  std::vector<double> spread;                  // [count], NaN if the pair is not valid
-  std::vector<double> horizon;                 // [count], time units, NaN if never reached
-  /// Snapshots (when requested, else empty), summarised over the batch's valid members:
-  std::vector<double> snapshot_moments;        // [snapshots][observables][3]: n, mean, m2
-  std::vector<std::int64_t> snapshot_regimes;  // [snapshots][regimes]: valid members in each
-};
+/// Per-member status codes and a batch's results (declared in results/table.hpp).
+using results::BatchResult;
+using results::MemberStatus;
+using results::kNonFinite;
+using results::kValid;
 
 /// Complete state of a batch in progress: everything needed to continue it and obtain bitwise
 /// the same BatchResult as an uninterrupted run. Arrays are named (names are stable: they are

@@ -1,0 +1,113 @@
+// The table of results is complete and self-consistent: every array a batch or the campaign
+// holds is declared once, every dimension and estimate it names exists, and a stage that
+// iterates the table reaches exactly the arrays of the structs.
+#include <gtest/gtest.h>
+
+#include <cstddef>
+#include <set>
+#include <string>
+#include <vector>
+
+#include "results/table.hpp"
+
+namespace chaosweep::results {
+namespace {
+
+std::size_t bound_arrays(Scope a, Scope b) {
+  std::size_t n = 0;
+  for (const Quantity& q : quantities()) n += (q.scope == a || q.scope == b) ? 1 : 0;
+  return n;
+}
+
+TEST(ResultsTable, EveryArrayOfABatchIsDeclared) {
+  // Every array member of BatchResult follows its identity fields and is a std::vector of the
+  // same size; the table must bind each of them.
+  const std::size_t arrays = (sizeof(BatchResult) - offsetof(BatchResult, initial_state)) /
+                             sizeof(std::vector<double>);
+  EXPECT_EQ(bound_arrays(Scope::member, Scope::batch), arrays);
+  std::set<std::string> names;
+  BatchResult r;
+  for_each_array(r, [&](const Quantity& q, auto& values) {
+    EXPECT_TRUE(values.empty()) << q.name;
+    EXPECT_TRUE(names.insert(q.name).second) << "declared twice: " << q.name;
+  });
+  EXPECT_EQ(names.size(), arrays);
+}
+
+TEST(ResultsTable, EveryArrayOfTheEnsembleIsDeclared) {
+  const std::size_t arrays =
+      offsetof(EnsembleResults, non_finite_members) / sizeof(std::vector<double>);
+  EXPECT_EQ(bound_arrays(Scope::ensemble, Scope::ensemble), arrays);
+  std::set<std::string> names;
+  const EnsembleResults e;
+  for_each_array(e, [&](const Quantity& q, const auto&) {
+    EXPECT_TRUE(names.insert(q.name).second) << "declared twice: " << q.name;
+  });
+  EXPECT_EQ(names.size(), arrays);
+}
+
+TEST(ResultsTable, PathsAreUniqueAndDimensionsDeclared) {
+  std::set<std::string> paths;
+  for (const Quantity& q : quantities()) {
+    if (q.archived()) {
+      EXPECT_TRUE(paths.insert(q.path).second) << "two quantities at " << q.path;
+    }
+    EXPECT_FALSE(q.dims.empty()) << q.name;
+    for (const std::string& dim : q.dims) EXPECT_NO_THROW(dimension(dim)) << q.name << ": " << dim;
+    if (q.scope == Scope::member && q.archived()) {
+      ASSERT_GE(q.dims.size(), 2u) << q.path;
+      EXPECT_EQ(q.dims[0], "case") << q.path;
+      EXPECT_EQ(q.dims[1], "member") << q.path;
+      EXPECT_EQ(q.group(), "member") << q.path;
+    }
+    EXPECT_EQ(q.scope == Scope::coordinate, q.merge == Merge::none) << q.name;
+  }
+}
+
+TEST(ResultsTable, EachEstimatedQuantityHasItsMeanSpreadAndInterval) {
+  for (const Quantity& q : quantities()) {
+    if (q.merge == Merge::estimate) {
+      const Quantity& source = quantity(Scope::member, q.source);
+      EXPECT_EQ(source.merge, Merge::member_moments) << q.path;
+      EXPECT_EQ(source.when, q.when) << q.path;
+    }
+    if (q.merge != Merge::member_moments) continue;
+    std::set<Estimate> found;
+    for (const Quantity& e : quantities()) {
+      if (e.merge == Merge::estimate && e.source == q.name) {
+        EXPECT_TRUE(found.insert(e.estimate).second) << q.name;
+        // the estimate's dimensions: the member's without `member`, an interval adds `bound`
+        std::vector<std::string> dims = q.dims;
+        dims.erase(dims.begin() + 1);
+        if (e.estimate == Estimate::ci95) dims.push_back("bound");
+        EXPECT_EQ(e.dims, dims) << e.path;
+        EXPECT_EQ(e.units, q.units) << e.path;
+      }
+    }
+    EXPECT_EQ(found, (std::set<Estimate>{Estimate::mean, Estimate::std, Estimate::ci95}))
+        << q.name;
+  }
+}
+
+TEST(ResultsTable, ArraysAreReachedByTheirDeclaredType) {
+  BatchResult r;
+  const Quantity& mean = quantity(Scope::member, "time_mean");
+  array_of<double>(r, mean).assign(3, 1.5);
+  EXPECT_EQ(r.time_mean, std::vector<double>(3, 1.5));
+  EXPECT_THROW(array_of<std::int64_t>(r, mean), std::logic_error);
+  EXPECT_THROW(quantity(Scope::member, "no_such_quantity"), std::logic_error);
+  EXPECT_EQ(&at_path("/case/forcing"), &at_path("/case/<parameter>"));
+}
+
+TEST(ResultsTable, SwitchesFollowTheOptions) {
+  Options o;
+  EXPECT_TRUE(is_on(Switch::always, o));
+  EXPECT_FALSE(is_on(Switch::twins, o));
+  o.snapshots = true;
+  EXPECT_FALSE(is_on(Switch::snapshot_regimes, o));
+  o.regimes = true;
+  EXPECT_TRUE(is_on(Switch::snapshot_regimes, o));
+}
+
+}  // namespace
+}  // namespace chaosweep::results
