@@ -22,6 +22,7 @@ import argparse
 import hashlib
 import json
 import os
+import platform
 import subprocess
 import sys
 import tempfile
@@ -239,6 +240,29 @@ def differences(stored, now, errors):
     return lines
 
 
+MACHINE_KEY = "__machine__"
+SKIPPED = 77  # the ctest's SKIP_RETURN_CODE
+# CPU features that change how the default build (-march=native) rounds: fused multiply-add and
+# the vector widths the compiler may use, and the C library whose exp/log the models call.
+ROUNDING_FLAGS = ("fma", "avx2", "avx512f")
+
+
+def machine_signature():
+    """What the stored digests depend on besides the code: architecture, CPU features, libc."""
+    flags = set()
+    try:
+        with open("/proc/cpuinfo", encoding="utf-8") as f:
+            for line in f:
+                if line.startswith("flags"):
+                    flags = set(line.split(":", 1)[1].split())
+                    break
+    except OSError:
+        pass
+    libc = os.confstr("CS_GNU_LIBC_VERSION") if hasattr(os, "confstr") else "unknown"
+    have = ",".join(flag for flag in ROUNDING_FLAGS if flag in flags) or "none"
+    return f"{platform.machine()} [{have}] {libc}"
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     mode = parser.add_mutually_exclusive_group(required=True)
@@ -276,13 +300,19 @@ def main():
             print("\n".join(lines))
             sys.exit(1)
         with open(args.write, "w", encoding="utf-8") as out:
-            json.dump(now, out, indent=2, sort_keys=True)
+            json.dump({MACHINE_KEY: machine_signature(), **now}, out, indent=2, sort_keys=True)
             out.write("\n")
         print(f"wrote {args.write}: {summary}")
         return
 
     with open(args.check, encoding="utf-8") as f:
         stored = json.load(f)
+    made_on = stored.pop(MACHINE_KEY, None)
+    if made_on != machine_signature():
+        # Another CPU or C library may round differently: the digests say nothing here.
+        print(f"skipped: the digests were made on {made_on}, this machine is "
+              f"{machine_signature()}; regenerate them at the base commit (DEVELOPERS.md)")
+        sys.exit(SKIPPED)
     lines = differences(stored, now, errors)
     for line in lines:
         print("DIFFERS: " + line)
