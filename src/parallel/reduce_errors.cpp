@@ -3,34 +3,27 @@
 
 #include <cmath>
 
-#include "stats/blocking.hpp"
-#include "stats/ensemble.hpp"
+#include "stats/member_errors.hpp"
 
 namespace chaosweep::parallel {
 namespace {
 
-/// Per-batch sums over the valid members, per observable: n_eff, stderr^2, tau_int (time
-/// units), time variance.
-constexpr int kSums = 4;
+constexpr int kSums = stats::MemberErrorSums::kPacked;
 
+/// Per batch and observable, the sums over the batch's valid members.
 std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs) {
-  std::vector<double> out;
-  out.reserve(local.size() * kSums * static_cast<std::size_t>(n_obs));
+  std::vector<double> out(local.size() * kSums * static_cast<std::size_t>(n_obs));
+  double* p = out.data();
   for (const run::BatchResult& b : local) {
-    for (int o = 0; o < n_obs; ++o) {
-      double samples = 0.0, variance = 0.0, tau = 0.0, time_variance = 0.0;
+    for (int o = 0; o < n_obs; ++o, p += kSums) {
+      stats::MemberErrorSums sums;
       for (int i = 0; i < b.count; ++i) {
         if (b.status[i] != run::kValid) continue;
         const std::size_t k = static_cast<std::size_t>(i) * n_obs + o;
-        samples += b.time_mean_samples[k];
-        variance += b.time_mean_stderr[k] * b.time_mean_stderr[k];
-        tau += b.time_mean_tau[k];
-        time_variance += b.time_variance[k];
+        sums.add(b.time_mean_samples[k], b.time_mean_stderr[k], b.time_mean_tau[k],
+                 b.time_variance[k]);
       }
-      out.push_back(samples);
-      out.push_back(variance);
-      out.push_back(tau);
-      out.push_back(time_variance);
+      sums.append_to(p);
     }
   }
   return out;
@@ -45,12 +38,13 @@ void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
   const std::size_t per_batch = static_cast<std::size_t>(kSums * n_obs);
   const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, n_obs));
 
-  // sums[case][observable][kSums], added in batch order
-  std::vector<double> sums(n_cases * per_batch, 0.0);
+  // sums[case][observable], merged in batch order
+  std::vector<stats::MemberErrorSums> sums(n_cases * static_cast<std::size_t>(n_obs));
   for (const plan::Batch& b : plan.batches) {
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    double* s = sums.data() + static_cast<std::size_t>(b.case_index) * per_batch;
-    for (std::size_t k = 0; k < per_batch; ++k) s[k] += p[k];
+    for (int o = 0; o < n_obs; ++o, p += kSums) {
+      sums[static_cast<std::size_t>(b.case_index) * n_obs + o].merge(p);
+    }
   }
 
   r.time_mean_stderr.assign(n_cases * n_obs, NAN);
@@ -58,22 +52,21 @@ void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
   r.decorrelation_time.assign(n_cases * n_obs, NAN);
   r.member_stderr_rms.assign(n_cases * n_obs, NAN);
   r.member_time_variance.assign(n_cases * n_obs, NAN);
+  r.time_mean_ci95.assign(n_cases * n_obs * 2, NAN);
   for (std::size_t c = 0; c < n_cases; ++c) {
     const double valid = static_cast<double>(r.valid_members[c]);
     if (valid < 1.0) continue;
     for (int o = 0; o < n_obs; ++o) {
       const std::size_t i = c * n_obs + o;
-      const double* s = sums.data() + i * kSums;
-      r.effective_samples[i] = s[0];
-      r.decorrelation_time[i] = s[2] / valid;
-      r.time_mean_stderr[i] = stats::ensemble_mean_stderr(r.time_mean_std[i], valid, s[1]);
-      r.member_stderr_rms[i] = std::sqrt(s[1] / valid);
-      r.member_time_variance[i] = s[3] / valid;
-      // The interval of the ensemble mean from the larger of the across-member and the
-      // within-member error (the same t quantile, n - 1 degrees of freedom).
-      const double half = stats::student_t975(valid - 1.0) * r.time_mean_stderr[i];
-      r.time_mean_ci95[2 * i] = r.time_mean[i] - half;
-      r.time_mean_ci95[2 * i + 1] = r.time_mean[i] + half;
+      const stats::TimeMeanErrors e =
+          stats::time_mean_errors(sums[i], valid, r.time_mean[i], r.time_mean_std[i]);
+      r.effective_samples[i] = e.effective_samples;
+      r.decorrelation_time[i] = e.decorrelation_time;
+      r.time_mean_stderr[i] = e.stderr_;
+      r.member_stderr_rms[i] = e.member_stderr_rms;
+      r.member_time_variance[i] = e.member_time_variance;
+      r.time_mean_ci95[2 * i] = e.ci_low;
+      r.time_mean_ci95[2 * i + 1] = e.ci_high;
     }
   }
 }

@@ -175,7 +175,7 @@ std::vector<Quantity> make_table() {
                estimate("time_mean", Estimate::std)),
       ensemble(&E::time_mean_ci95, "/ensemble/time_mean_ci95", {"case", "observable", "bound"},
                "1", "95% confidence interval of the ensemble mean (Student t)", S::always,
-               estimate("time_mean", Estimate::ci95)),
+               derived("time_mean +- t(0.975, valid members - 1) x time_mean_stderr")),
       ensemble(&E::regime_fraction, "/ensemble/regime_fraction", {"case", "regime"}, "1",
                "ensemble mean of the members' regime fractions", S::regimes,
                estimate("regime_fraction", Estimate::mean)),
