@@ -271,7 +271,8 @@ PilotResult run_all(const spec::Spec& spec, const plan::Plan& plan, const PilotO
   result.cases = pilot_cases(plan);
   const double dt = spec.integration.dt;
   const double duration = options.duration > 0 ? options.duration : spec.integration.duration / 10;
-  const Timeline coarse{plan.spinup_steps, std::max<std::int64_t>(2, std::llround(duration / dt))};
+  const Timeline coarse{plan.spinup_steps,
+                        std::max<std::int64_t>(2, plan::whole_steps(duration, dt))};
   const Timeline fine{2 * coarse.spinup_steps, 2 * coarse.accumulate_steps};
   result.window = static_cast<double>(coarse.accumulate_steps) * dt;
 
@@ -729,7 +730,7 @@ void check_pilot_options(const spec::Spec& spec, const plan::Plan& plan,
   }
   const double duration =
       options.duration > 0 ? options.duration : spec.integration.duration / 10;
-  if (std::llround(duration / spec.integration.dt) < 2) {
+  if (plan::whole_steps(duration, spec.integration.dt) < 2) {
     throw UsageError("the pilot duration " + num(duration) + " is under two steps of dt " +
                      num(spec.integration.dt) + "; give a longer --pilot-duration");
   }

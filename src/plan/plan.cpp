@@ -11,12 +11,11 @@
 #include "core/error.hpp"
 
 namespace chaosweep::plan {
-namespace {
-
-/// Number of whole steps of length dt in `span` time units (rounded to the nearest).
 std::int64_t whole_steps(double span, double dt) {
   return static_cast<std::int64_t>(std::llround(span / dt));
 }
+
+namespace {
 
 /// Shortest decimal text (up to 17 significant digits) that reads back as exactly `value`.
 std::string shortest(double value) {

@@ -77,6 +77,11 @@ struct Plan {
 /// values (each the shortest decimal that reads back as the value); "case 0" without a sweep.
 std::string describe_case(const spec::Spec& spec, const Case& c);
 
+/// Number of whole steps of length dt in `span` time units, rounded to the nearest: the one
+/// conversion of a model time to a step count, used for every span of the plan and by anything
+/// else that turns a time into steps.
+std::int64_t whole_steps(double span, double dt);
+
 /// Builds the plan; throws SpecError for inconsistent combinations the loader cannot see.
 Plan make_plan(const spec::Spec& spec);
 

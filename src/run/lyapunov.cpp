@@ -9,6 +9,7 @@
 #include <optional>
 #include <stdexcept>
 
+#include "integrators/tangent_rk4.hpp"
 #include "run/schedule.hpp"
 #include "stats/lyapunov.hpp"
 
@@ -19,16 +20,16 @@ namespace {
 /// a real member), so each member takes the same vectorised code path wherever it sits.
 constexpr int kWidth = 8;
 
-/// One batch of kWidth members: state, k tangent vectors and the RK4 work arrays, all SoA
-/// [state_dim][kWidth]; tangent vector j of the batch at tangents[j * n * kWidth].
+/// One batch of kWidth members: state and k tangent vectors, SoA [state_dim][kWidth]; tangent
+/// vector j of the batch at tangents[j * n * kWidth]. The tangent RK4 stepper
+/// (integrators/tangent_rk4.hpp) advances both.
 class Batch {
  public:
   Batch(const models::Model& model, int k, double dt)
-      : model_(model), n_(model.state_dim()), k_(k), size_(static_cast<long>(n_) * kWidth),
-        dt_(dt), half_(0.5 * dt), sixth_(dt / 6.0),
-        x_(size_), stage_(4 * size_), slope_(4 * size_),
-        tangents_(static_cast<long>(k) * size_), dk_(4 * size_), w_(size_),
-        column_(static_cast<long>(n_) * k), logs_(k), dead_(kWidth, false) {}
+      : stepper_(model, kWidth, k), n_(model.state_dim()), k_(k),
+        size_(static_cast<long>(n_) * kWidth), dt_(dt), x_(size_),
+        tangents_(static_cast<long>(k) * size_), column_(static_cast<long>(n_) * k), logs_(k),
+        dead_(kWidth, false) {}
 
   /// Member m's start state; the tangent vectors become the first k unit vectors.
   void load(int m, const double* state) {
@@ -45,50 +46,12 @@ class Batch {
   /// clock is set to each stage's time before that stage's rhs and tangent products, the times
   /// Rk4Batch::step_at gives, so the state follows the members' own scheduled integration.
   void step(std::int64_t n, integrators::Rk4Batch::StageClock* clock) {
-    const StepTimes t = step_times(n, dt_);
-    const auto at = [&](int stage) {
-      if (clock) clock->set_time(integrators::Rk4Batch::stage_time(stage, t.t0, t.t1, dt_));
-    };
-    // State: stage states s_i and slopes k_i kept for the tangent step.
-    double* s1 = stage_.data();
-    double* s2 = s1 + size_;
-    double* s3 = s2 + size_;
-    double* s4 = s3 + size_;
-    double* k1 = slope_.data();
-    double* k2 = k1 + size_;
-    double* k3 = k2 + size_;
-    double* k4 = k3 + size_;
-    std::copy(x_.begin(), x_.end(), s1);
-    at(1);
-    model_.rhs(s1, k1, kWidth);
-    for (long i = 0; i < size_; ++i) s2[i] = x_[i] + half_ * k1[i];
-    at(2);
-    model_.rhs(s2, k2, kWidth);
-    for (long i = 0; i < size_; ++i) s3[i] = x_[i] + half_ * k2[i];
-    model_.rhs(s3, k3, kWidth);
-    for (long i = 0; i < size_; ++i) s4[i] = x_[i] + dt_ * k3[i];
-    at(4);
-    model_.rhs(s4, k4, kWidth);
-    for (long i = 0; i < size_; ++i) x_[i] += sixth_ * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
-
-    double* d1 = dk_.data();
-    double* d2 = d1 + size_;
-    double* d3 = d2 + size_;
-    double* d4 = d3 + size_;
-    for (int j = 0; j < k_; ++j) {
-      double* v = tangents_.data() + j * size_;
-      at(1);
-      model_.tangent(s1, v, d1, kWidth);
-      for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d1[i];
-      at(2);
-      model_.tangent(s2, w_.data(), d2, kWidth);
-      for (long i = 0; i < size_; ++i) w_[i] = v[i] + half_ * d2[i];
-      model_.tangent(s3, w_.data(), d3, kWidth);
-      for (long i = 0; i < size_; ++i) w_[i] = v[i] + dt_ * d3[i];
-      at(4);
-      model_.tangent(s4, w_.data(), d4, kWidth);
-      for (long i = 0; i < size_; ++i) v[i] += sixth_ * (d1[i] + 2.0 * d2[i] + 2.0 * d3[i] + d4[i]);
+    if (clock == nullptr) {
+      stepper_.step(x_.data(), tangents_.data(), dt_);
+      return;
     }
+    const StepTimes t = step_times(n, dt_);
+    stepper_.step_at(x_.data(), tangents_.data(), dt_, t.t0, t.t1, *clock);
   }
 
   /// QR re-orthonormalisation of every live member's tangent vectors; adds log|R_ii| to
@@ -127,11 +90,11 @@ class Batch {
   bool dead(int m) const { return dead_[m]; }
 
  private:
-  const models::Model& model_;
+  integrators::TangentRk4Batch stepper_;
   int n_, k_;
   long size_;
-  double dt_, half_, sixth_;
-  std::vector<double> x_, stage_, slope_, tangents_, dk_, w_, column_, logs_;
+  double dt_;
+  std::vector<double> x_, tangents_, column_, logs_;
   std::vector<bool> dead_;
 };
 

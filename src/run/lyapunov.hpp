@@ -1,5 +1,6 @@
-// Lyapunov exponents of ensemble members: classical RK4 for the state and the tangent of the
-// discrete RK4 map for k tangent vectors, re-orthonormalised by QR (stats/lyapunov.hpp).
+// Lyapunov exponents of ensemble members: the state and k tangent vectors stepped by the tangent
+// of the discrete RK4 map (integrators/tangent_rk4.hpp), re-orthonormalised by QR
+// (stats/lyapunov.hpp).
 // Pure numerics: no MPI, no HDF5, no YAML, no logging.
 #pragma once
 
@@ -38,9 +39,7 @@ namespace chaosweep::run {
 ///
 /// Returns [count][k], member-major, per member in descending order: exponent i is the sum of
 /// log|R_ii| over the accumulation divided by steps * dt. The tangent vectors start as the
-/// first k unit vectors and follow the RK4 stages linearised:
-///   dk1 = J(x) v, dk2 = J(x + dt/2 k1)(v + dt/2 dk1), dk3 = J(x + dt/2 k2)(v + dt/2 dk2),
-///   dk4 = J(x + dt k3)(v + dt dk3), v <- v + dt/6 (dk1 + 2 dk2 + 2 dk3 + dk4),
+/// first k unit vectors and follow the RK4 stages linearised (integrators::TangentRk4Batch),
 /// so they are the exact derivative of the discrete map that moves the state.
 /// A member whose state or tangent vectors turn non-finite gets NaN exponents. Deterministic:
 /// bitwise the same result for the same inputs, and a member's exponents do not depend on the
