@@ -38,6 +38,13 @@ struct BatchResult {
   std::vector<double> time_mean_stderr;        // [count][n_observables], blocking estimate
   std::vector<double> time_mean_tau;           // [count][n_observables], tau_int, time units
   std::vector<double> time_mean_samples;       // [count][n_observables], n_eff = n / (2 tau_int)
+  // Extremes over the samples of the time mean (the earliest sample among equal values); the
+  // time of a sample taken after step k is k * dt from t = 0 (spin-up included), as the
+  // snapshot times are. All four NaN if not valid.
+  std::vector<double> extreme_min;             // [count][n_observables]
+  std::vector<double> extreme_max;             // [count][n_observables]
+  std::vector<double> extreme_min_time;        // [count][n_observables], time units
+  std::vector<double> extreme_max_time;        // [count][n_observables], time units
   std::vector<double> regime_fraction;         // [count][n_regimes]
   std::vector<double> regime_mean_residence;   // [count][n_regimes], time units; NaN if never
   std::vector<std::int64_t> regime_transitions;  // [count]

@@ -1,15 +1,26 @@
 // Per-member extremes: the accumulator (stats/extremes.hpp) against the standard library's
-// std::min_element and std::max_element.
+// std::min_element and std::max_element, and every kernel's extremes of a batch against the
+// samples of an independent scalar re-integration of each member.
 #include <gtest/gtest.h>
 
 #include <algorithm>
+#include <cmath>
 #include <cstdint>
 #include <limits>
+#include <memory>
 #include <random>
+#include <string>
 #include <vector>
 
 #include "core/error.hpp"
+#include "integrators/reference.hpp"
 #include "numerics_fixtures.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "run/batch_work.hpp"
+#include "run/kernels.hpp"
+#include "run/schedule.hpp"
+#include "spec/spec.hpp"
 #include "stats/extremes.hpp"
 
 namespace chaosweep::testing {
@@ -221,6 +232,208 @@ TEST(Extremes, SaveAndLoadContinueBitwise) {
   }
   stats::SavedStateReader late_in(late.reals, late.integers);
   EXPECT_THROW(stats::Extremes(1, 3).load("x.", late_in), Error);
+}
+
+// ---- a batch's extremes against a scalar re-integration of each member ----------------------
+
+/// Classical RK4 for one member with a scheduled parameter (slot) set before each stage's
+/// right-hand side: at t0 = n dt for k1, t0 + dt/2 for k2 and k3, t1 = (n + 1) dt for k4
+/// (the scheduled integration's contract, run/schedule.hpp); without schedule (slot < 0) the
+/// same steps as integrators::Rk4Reference.
+class ScalarRk4 {
+ public:
+  ScalarRk4(models::Model& model, const spec::Spec& spec)
+      : model_(model), d_(model.state_dim()), k1_(d_), k2_(d_), k3_(d_), k4_(d_), s_(d_) {
+    if (spec.schedule.kind != spec::ScheduleKind::none) {
+      slot_ = model.parameter_slot(spec.schedule.parameter);
+      schedule_ = std::make_unique<run::ParameterSchedule>(spec.schedule, 0.0);
+    }
+  }
+  void step(double* x, double dt, std::int64_t n) {
+    const double t0 = static_cast<double>(n) * dt, t1 = static_cast<double>(n + 1) * dt;
+    const double half = 0.5 * dt, sixth = dt / 6.0;
+    set(t0);
+    model_.rhs(x, k1_.data(), 1);
+    for (int i = 0; i < d_; ++i) s_[i] = x[i] + half * k1_[i];
+    set(t0 + half);
+    model_.rhs(s_.data(), k2_.data(), 1);
+    for (int i = 0; i < d_; ++i) s_[i] = x[i] + half * k2_[i];
+    model_.rhs(s_.data(), k3_.data(), 1);
+    for (int i = 0; i < d_; ++i) s_[i] = x[i] + dt * k3_[i];
+    set(t1);
+    model_.rhs(s_.data(), k4_.data(), 1);
+    for (int i = 0; i < d_; ++i) {
+      x[i] += sixth * (k1_[i] + 2.0 * k2_[i] + 2.0 * k3_[i] + k4_[i]);
+    }
+  }
+
+ private:
+  void set(double t) {
+    if (slot_ >= 0) model_.set_parameter(slot_, schedule_->at(t));
+  }
+  models::Model& model_;
+  int d_;
+  std::vector<double> k1_, k2_, k3_, k4_, s_;
+  int slot_ = -1;
+  std::unique_ptr<run::ParameterSchedule> schedule_;
+};
+
+/// The kernel a runner picks for campaign `s` (the choice's inputs resolved as the runner
+/// resolves them).
+run::KernelKind kernel_of(const spec::Spec& s, const plan::Plan& plan,
+                          const models::Model& model) {
+  run::Setup setup;
+  setup.model = s.model;
+  setup.model_info = plan.model;
+  setup.width = plan.batch_size;
+  setup.state_dim = model.state_dim();
+  setup.observables = plan.observable_index;
+  setup.regime_kind = s.statistics.regimes.kind;
+  setup.n_regimes = static_cast<int>(plan.regime_labels.size());
+  for (std::size_t i = 0; i < model.observables().size(); ++i) {
+    const std::string& name = model.observables()[i].name;
+    if (name == s.statistics.regimes.observable) setup.regime_coordinates = {static_cast<int>(i)};
+    if (name == s.statistics.histogram.observable) setup.histogram_observable = static_cast<int>(i);
+  }
+  if (s.statistics.histogram.enabled) setup.histogram = s.statistics.histogram;
+  if (s.schedule.kind != spec::ScheduleKind::none) setup.schedule = s.schedule;
+  return run::choose_kernel(setup);
+}
+
+/// Every member of every batch of case 0: its accumulated samples re-integrated alone from
+/// its initial state (steps spinup + 1 .. total, one sample after each), then
+/// std::min_element / std::max_element over each observable's samples. The time of the sample
+/// after step k is k * dt, the formula of /snapshot/time (parallel/snapshot_reduce.cpp).
+void expect_extremes_of_reintegration(const spec::Spec& s, run::KernelKind expected) {
+  const plan::Plan plan = plan::make_plan(s);
+  const run::CaseRunner runner(s, plan, plan.cases[0]);
+  const auto model = model_info(s.model).make(run::parameters_at_start(s, plan.cases[0]));
+  const auto& all = model->observables();
+  const int d = model->state_dim(), n_obs = static_cast<int>(plan.observable_index.size());
+  std::vector<double> derived(all.size() - static_cast<std::size_t>(d));
+  const double dt = s.integration.dt;
+  ASSERT_EQ(kernel_of(s, plan, *model), expected);
+  int checked = 0;
+  for (const plan::Batch& b : plan.batches) {
+    if (b.case_index != 0) continue;
+    const run::BatchResult r = runner.run(b);
+    ASSERT_EQ(r.extreme_min.size(), static_cast<std::size_t>(r.count) * n_obs);
+    for (int j = 0; j < r.count; ++j) {
+      SCOPED_TRACE("member " + std::to_string(b.first_member + j));
+      ASSERT_EQ(r.status[j], run::kValid);
+      std::vector<double> x(r.initial_state.begin() + j * d, r.initial_state.begin() + (j + 1) * d);
+      ScalarRk4 rk4(*model, s);
+      std::vector<std::vector<double>> samples(static_cast<std::size_t>(n_obs));
+      for (std::int64_t step = 1; step <= plan.total_steps(); ++step) {
+        rk4.step(x.data(), dt, step - 1);
+        if (step <= plan.spinup_steps) continue;
+        if (derived.size() > 0) model->derived(x.data(), derived.data(), 1);
+        for (int o = 0; o < n_obs; ++o) {
+          const int i = plan.observable_index[o];
+          samples[o].push_back(i < d ? x[i] : derived[i - d]);
+        }
+      }
+      for (int o = 0; o < n_obs; ++o) {
+        const std::vector<double>& v = samples[o];
+        ASSERT_EQ(static_cast<std::int64_t>(v.size()), plan.accumulate_steps);
+        const auto lo = std::min_element(v.begin(), v.end());
+        const auto hi = std::max_element(v.begin(), v.end());
+        const std::int64_t lo_step = plan.spinup_steps + 1 + (lo - v.begin());
+        const std::int64_t hi_step = plan.spinup_steps + 1 + (hi - v.begin());
+        const std::size_t at = static_cast<std::size_t>(j) * n_obs + o;
+        EXPECT_TRUE(same_bits(r.extreme_min[at], *lo)) << all[plan.observable_index[o]].name;
+        EXPECT_TRUE(same_bits(r.extreme_max[at], *hi)) << all[plan.observable_index[o]].name;
+        EXPECT_TRUE(same_bits(r.extreme_min_time[at], static_cast<double>(lo_step) * dt));
+        EXPECT_TRUE(same_bits(r.extreme_max_time[at], static_cast<double>(hi_step) * dt));
+      }
+      ++checked;
+    }
+  }
+  EXPECT_EQ(checked, s.ensemble.members);
+}
+
+// Outside check: the scalar re-integration and std::min_element / std::max_element. Forced
+// Lorenz-63 on the fused kernel, observables (z, x), 20 members in batches of 8 (the last one
+// padded), spin-up 0.6 and 2.0 time units accumulated at dt 0.005.
+TEST(ExtremesOfABatch, Lorenz63FusedEqualsScalarReintegration) {
+  spec::Spec s = small_lorenz63_spec("extremes-l63");
+  s.ensemble.members = 20;
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 0.5};
+  s.integration.spinup = 0.6;
+  s.integration.duration = 2.0;
+  s.statistics.observables = {"z", "x"};
+  expect_extremes_of_reintegration(s, run::KernelKind::fused);
+}
+
+// Outside check as above: Lorenz-96 (n 12) on the ring kernel with a few sites and the
+// derived site_mean and energy (the model's derived() at width 1 in the re-integration).
+TEST(ExtremesOfABatch, Lorenz96RingEqualsScalarReintegration) {
+  spec::Spec s = small_lorenz63_spec("extremes-l96");
+  s.model = "lorenz96";
+  s.parameters = models::complete_parameters(model_info("lorenz96"), {{"n", {12.0}}});
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 0.5};
+  s.integration.dt = 0.01;
+  s.integration.spinup = 0.5;
+  s.integration.duration = 3.0;
+  s.statistics.observables = {"x3", "site_mean", "x0", "energy"};
+  s.statistics.regimes.observable = "x0";
+  s.statistics.histogram = {true, "x0", 10, -10.0, 15.0};
+  expect_extremes_of_reintegration(s, run::KernelKind::ring);
+}
+
+// Outside check as above: Lorenz-84 on the generic path (no fused kernel), without and with a
+// periodic schedule of F (set at every RK4 stage time), spin-up 1.0 and 6.0 accumulated.
+TEST(ExtremesOfABatch, Lorenz84GenericAndScheduledEqualScalarReintegration) {
+  spec::Spec s = small_lorenz63_spec("extremes-l84");
+  s.model = "lorenz84";
+  s.parameters = models::complete_parameters(model_info("lorenz84"), {});
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 0.1};
+  s.integration.dt = 0.01;
+  s.integration.spinup = 1.0;
+  s.integration.duration = 6.0;
+  s.statistics.observables = {};
+  s.statistics.regimes.observable = "y";
+  s.statistics.histogram = {true, "x", 10, -2.0, 3.0};
+  expect_extremes_of_reintegration(s, run::KernelKind::generic);
+  s.schedule.kind = spec::ScheduleKind::periodic;
+  s.schedule.parameter = "F";
+  s.schedule.mean = 8.0;
+  s.schedule.amplitude = 1.5;
+  s.schedule.period = 2.3;
+  s.schedule.phase = 0.3;
+  expect_extremes_of_reintegration(s, run::KernelKind::generic);
+}
+
+// Exact by design (batch_runner.hpp): a member flagged non-finite reports NaN for its
+// extremes and their times, while a valid one reports a sample of its accumulation window.
+TEST(ExtremesOfABatch, NonFiniteMembersGiveNaN) {
+  spec::Spec s = blown_up(small_lorenz63_spec("extremes-blow-up"));
+  const plan::Plan plan = plan::make_plan(s);
+  const run::CaseRunner runner(s, plan, plan.cases[0]);
+  int flagged = 0, valid = 0;
+  for (const plan::Batch& b : plan.batches) {
+    const run::BatchResult r = runner.run(b);
+    const std::size_t n = plan.observable_index.size();
+    for (int j = 0; j < r.count; ++j) {
+      for (std::size_t o = 0; o < n; ++o) {
+        const std::size_t at = static_cast<std::size_t>(j) * n + o;
+        const double t_lo = r.extreme_min_time[at], t_hi = r.extreme_max_time[at];
+        if (r.status[j] == run::kNonFinite) {
+          EXPECT_TRUE(std::isnan(r.extreme_min[at]) && std::isnan(r.extreme_max[at]));
+          EXPECT_TRUE(std::isnan(t_lo) && std::isnan(t_hi));
+        } else {
+          EXPECT_LE(r.extreme_min[at], r.extreme_max[at]);
+          for (double t : {t_lo, t_hi}) {
+            EXPECT_GT(t, static_cast<double>(plan.spinup_steps) * s.integration.dt);
+            EXPECT_LE(t, static_cast<double>(plan.total_steps()) * s.integration.dt);
+          }
+        }
+      }
+      (r.status[j] == run::kNonFinite ? flagged : valid) += 1;
+    }
+  }
+  EXPECT_GE(flagged, 1);
+  EXPECT_GE(valid, 1);
 }
 
 }  // namespace
