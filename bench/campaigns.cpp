@@ -47,6 +47,7 @@ spec::Spec bench_campaign(const std::string& model, long members, int width, lon
 //  lorenz96 RK4 per site: 4 tendencies (x_{k+1} - x_{k-2}) x_{k-1} - x_k + F of 4, 3 stage
 //    inputs of 2, the update of 7: 29 per site; mean and energy: 3 per site and 2 at the end.
 //  time moments: d = v - shift, s1 += d, s2 += d d: 4 per observable.
+//  extremes: a min and a max per observable, comparisons: 0.
 //  histogram: (v - low) scale and two edges low + b width: 6.
 double flops_per_member_step(const spec::Spec& s) {
   double flops = 0.0;

@@ -10,9 +10,9 @@ namespace chaosweep::bench {
 
 /// A one-case campaign of `model` ("lorenz63" or "lorenz96") with `members` members in batches
 /// of `width`, integrated for `steps` accumulated steps after `spinup_steps` of spin-up.
-/// Statistics: every observable's time moments (lorenz96: `observables` as given, empty for
-/// every observable), sign regimes of the first state variable, and, with `histogram`, an
-/// 80-bin histogram of it. Throws chaosweep::UsageError for another model.
+/// Statistics: every observable's time moments and extremes (lorenz96: `observables` as given,
+/// empty for every observable), sign regimes of the first state variable, and, with
+/// `histogram`, an 80-bin histogram of it. Throws chaosweep::UsageError for another model.
 spec::Spec bench_campaign(const std::string& model, long members, int width, long spinup_steps,
                           long steps, bool histogram);
 

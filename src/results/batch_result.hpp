@@ -30,6 +30,10 @@ struct BatchResult {
   std::vector<double> time_mean_stderr;
   std::vector<double> time_mean_tau;
   std::vector<double> time_mean_samples;
+  std::vector<double> extreme_min;
+  std::vector<double> extreme_max;
+  std::vector<double> extreme_min_time;
+  std::vector<double> extreme_max_time;
   std::vector<double> regime_fraction;
   std::vector<double> regime_mean_residence;
   std::vector<std::int64_t> regime_transitions;

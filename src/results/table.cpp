@@ -131,6 +131,26 @@ std::vector<Quantity> make_table() {
              "integrated autocorrelation time of the observable (blocking estimate)", S::always),
       member("time_mean_samples", &B::time_mean_samples, "", {"case", "member", "observable"},
              "1", "effective independent samples of the time mean, n / (2 tau_int)", S::always),
+      member("extreme_min", &B::extreme_min, "/member/extreme_min",
+             {"case", "member", "observable"}, "1",
+             "smallest value of the observable over the samples of the time mean (NaN for "
+             "invalid members)",
+             S::always),
+      member("extreme_max", &B::extreme_max, "/member/extreme_max",
+             {"case", "member", "observable"}, "1",
+             "largest value of the observable over the samples of the time mean (NaN for "
+             "invalid members)",
+             S::always),
+      member("extreme_min_time", &B::extreme_min_time, "/member/extreme_min_time",
+             {"case", "member", "observable"}, kTime,
+             "model time of the smallest value, from the start of the integration (spin-up "
+             "included; the earliest among equal values)",
+             S::always),
+      member("extreme_max_time", &B::extreme_max_time, "/member/extreme_max_time",
+             {"case", "member", "observable"}, kTime,
+             "model time of the largest value, from the start of the integration (spin-up "
+             "included; the earliest among equal values)",
+             S::always),
       member("regime_fraction", &B::regime_fraction, "/member/regime_fraction",
              {"case", "member", "regime"}, "1", "share of accumulated steps spent in the regime",
              S::regimes, M::member_moments),

@@ -32,7 +32,8 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
       count_(batch.count),
       x_(static_cast<std::size_t>(setup.state_dim) * setup.width),
       non_finite_(static_cast<std::size_t>(setup.width), 0),
-      moments_(moment_series_count(setup), setup.width) {
+      moments_(moment_series_count(setup), setup.width),
+      extremes_(moment_series_count(setup), setup.width) {
   const int w = setup.width;
   for (std::size_t o = 0; o < setup.observables.size(); ++o) {
     moment_series_.push_back(setup.kernel == KernelKind::fused ? setup.observables[o]
@@ -45,7 +46,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   if (setup.snapshot_count > 0) snapshots_.emplace(setup, model, batch.count);
   kernel_ = make_kernel(setup, model,
                         {&moments_, regimes_ ? &*regimes_ : nullptr,
-                         histogram_ ? &*histogram_ : nullptr});
+                         histogram_ ? &*histogram_ : nullptr, &extremes_});
   if (setup.twins.enabled()) {
     twins_.emplace(setup.twins, setup.state_dim, w, batch.case_index, batch.first_member,
                    batch.count, make_kernel(setup, model, {&moments_, nullptr, nullptr}));
@@ -151,6 +152,7 @@ BatchResult BatchWork::finish() {
   result_.status.resize(static_cast<std::size_t>(count_));
   for (int j = 0; j < count_; ++j) result_.status[j] = non_finite_[j] ? kNonFinite : kValid;
   collect_moments();
+  collect_extremes();
   collect_regimes();
   collect_histogram();
   if (twins_) twins_->finish(non_finite_, setup_.dt, result_);
@@ -168,6 +170,7 @@ BatchState BatchWork::save() const {
   out.put("trajectory", result_.trajectory);
   out.put("non_finite", std::vector<std::int64_t>(non_finite_.begin(), non_finite_.end()));
   moments_.save("moments.", out);
+  extremes_.save("extremes.", out);
   if (regimes_) regimes_->save("regimes.", out);
   if (histogram_) histogram_->save("histogram.", out);
   if (twins_) twins_->save(out);
@@ -199,6 +202,7 @@ void BatchWork::restore(const BatchState& state) {
   const std::vector<std::int64_t>& flags = in.integers("non_finite", w);
   for (std::size_t m = 0; m < w; ++m) non_finite_[m] = flags[m] != 0;
   moments_.load("moments.", in);
+  extremes_.load("extremes.", in);
   if (regimes_) regimes_->load("regimes.", in);
   if (histogram_) histogram_->load("histogram.", in);
   if (twins_) twins_->load(in);
@@ -256,6 +260,36 @@ void BatchWork::collect_moments() {
       result_.time_mean_stderr[i] = e.stderr_;
       result_.time_mean_tau[i] = e.tau_int * setup_.dt;
       result_.time_mean_samples[i] = e.n_eff;
+    }
+  }
+}
+
+// Sample k of the accumulation is taken after step spinup_steps + 1 + k; its time is that step
+// times dt, the formula of the snapshot times. A series that never compared (extremes.hpp)
+// has no sample to report.
+void BatchWork::collect_extremes() {
+  const int n = static_cast<int>(setup_.observables.size());
+  const std::size_t size = static_cast<std::size_t>(count_) * n;
+  result_.extreme_min.assign(size, kNaN);
+  result_.extreme_max.assign(size, kNaN);
+  result_.extreme_min_time.assign(size, kNaN);
+  result_.extreme_max_time.assign(size, kNaN);
+  auto time_of = [&](std::int64_t sample) {
+    return static_cast<double>(setup_.spinup_steps + 1 + sample) * setup_.dt;
+  };
+  for (int j = 0; j < count_; ++j) {
+    if (non_finite_[j]) continue;
+    for (int o = 0; o < n; ++o) {
+      const std::size_t i = static_cast<std::size_t>(j) * n + o;
+      const int series = moment_series_[o];
+      if (extremes_.min_at(series, j) >= 0) {
+        result_.extreme_min[i] = extremes_.min(series, j);
+        result_.extreme_min_time[i] = time_of(extremes_.min_at(series, j));
+      }
+      if (extremes_.max_at(series, j) >= 0) {
+        result_.extreme_max[i] = extremes_.max(series, j);
+        result_.extreme_max_time[i] = time_of(extremes_.max_at(series, j));
+      }
     }
   }
 }

@@ -15,6 +15,7 @@
 #include "run/twins.hpp"
 #include "run/snapshots.hpp"
 #include "spec/spec.hpp"
+#include "stats/extremes.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
 #include "stats/time_moments.hpp"
@@ -79,6 +80,7 @@ class BatchWork final : public BatchProgress {
   void sample_trajectory(std::int64_t sample);
   void take_snapshot(std::int64_t step);
   void collect_moments();
+  void collect_extremes();
   void collect_regimes();
   void collect_histogram();
 
@@ -90,6 +92,7 @@ class BatchWork final : public BatchProgress {
   std::vector<std::uint8_t> non_finite_;  // [width]
   stats::TimeMoments moments_;            // fused kernel: every state variable; else selected
   std::vector<int> moment_series_;        // selected observable -> its series in moments_
+  stats::Extremes extremes_;              // the same series as moments_
   std::optional<stats::RegimeCounter> regimes_;
   std::optional<stats::MemberHistogram> histogram_;
   std::optional<SnapshotRecorder> snapshots_;

@@ -9,6 +9,10 @@
 //     RegimeCounter update (regimes.hpp) in 64-bit integer Lanes
 //   histogram of state variable h:     x_h stored to a [steps][width] buffer, counted after
 //     the segment by MemberHistogram::add_steps
+//   extremes, every state variable i:  x_i stored to the group's [steps][G][D] buffer of
+//     Lanes; after the segment Extremes::fold (a min and a max per sample, every series side
+//     by side) and merge_run (the sample index searched only where a running extreme is
+//     beaten), which together are Extremes::add_sample on each sample in order
 // exactly the operations of the generic path, so both give the same bits.
 #include "run/fused_kernel.hpp"
 
@@ -24,6 +28,7 @@
 namespace chaosweep::run {
 namespace {
 
+using integrators::LaneInts;
 using integrators::Lanes;
 using integrators::load_lanes;
 using integrators::store_lanes;
@@ -61,6 +66,7 @@ class FusedKernel final : public Kernel {
         regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
         histogram_row_(acc.histogram ? s.histogram_observable : -1) {
     if (acc.histogram) values_.resize(static_cast<std::size_t>(kMaxSegment) * s.width);
+    samples_.resize(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
   }
 
   void spin(double* x, int steps) override {
@@ -85,6 +91,7 @@ class FusedKernel final : public Kernel {
     }
     for (; lane < width_; lane += L) accumulate_group<1>(x, lane, steps, opens_block, first);
     moments.added(steps);
+    acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
   }
@@ -118,6 +125,8 @@ class FusedKernel final : public Kernel {
 
   template <int G>
   void accumulate_group(double* x, int lane, int steps, bool opens_block, bool first);
+  template <int G>
+  void fold_extremes(int lane, int steps) const;
 
   Equations eq_;
   integrators::Rk4Steps h_;
@@ -125,6 +134,7 @@ class FusedKernel final : public Kernel {
   Accumulators acc_;
   int regime_row_, histogram_row_;  // state rows, -1 when not used
   std::vector<double> values_;      // [kMaxSegment][width]: the histogram observable per step
+  std::vector<Lanes> samples_;      // [kMaxSegment][G][D]: the group's state per step
 };
 
 template <typename Equations>
@@ -140,6 +150,7 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
   const stats::TimeMoments::Rows m = acc_.moments->rows();
   stats::RegimeCounter::Rows r{};
   if (acc_.regimes) r = acc_.regimes->rows();
+  Lanes* const samples = samples_.data();
   Lanes s[G][D], shift[G][D], s1[G][D], s2[G][D];
   RegimeLanes regime[G] = {};
   load_state(x, lane, s);
@@ -165,6 +176,7 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
     for (int g = 0; g < G; ++g) {
       for (int i = 0; i < D; ++i) {
         stats::TimeMoments::add_sample(s[g][i], shift[g][i], s1[g][i], s2[g][i]);
+        samples[(t * G + g) * D + i] = s[g][i];
       }
       if (regime_row >= 0) regime[g].add(pick(s[g], regime_row));
       if (histogram_row >= 0) store_lanes(values + t * w + lane + g * L, pick(s[g], histogram_row));
@@ -179,6 +191,45 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
       store_lanes(m.s2 + at, s2[g][i]);
     }
     if (regime_row >= 0) regime[g].end(r, w, lane + g * L, steps);
+  }
+  fold_extremes<G>(lane, steps);
+}
+
+// The segment's samples (samples_, [steps][G][D]) into the running extremes of the group:
+// the runs' extremes of every series side by side (independent chains), then merged.
+template <typename Equations>
+template <int G>
+void FusedKernel<Equations>::fold_extremes(int lane, int steps) const {
+  const stats::Extremes::Rows e = acc_.extremes->rows();
+  const std::int64_t first = acc_.extremes->count();
+  const Lanes* const samples = samples_.data();
+  const long w = width_;
+  Lanes run_lo[G][D], run_hi[G][D];
+  for (int g = 0; g < G; ++g) {
+    for (int i = 0; i < D; ++i) {
+      run_lo[g][i] = Lanes{} + stats::Extremes::kInfinity;
+      run_hi[g][i] = Lanes{} - stats::Extremes::kInfinity;
+    }
+  }
+  for (int t = 0; t < steps; ++t) {
+    for (int g = 0; g < G; ++g) {
+      for (int i = 0; i < D; ++i) {
+        stats::Extremes::fold(samples[(t * G + g) * D + i], run_lo[g][i], run_hi[g][i]);
+      }
+    }
+  }
+  for (int g = 0; g < G; ++g) {
+    for (int i = 0; i < D; ++i) {
+      const long at = i * w + lane + g * L;
+      Lanes lo = load_lanes(e.min + at), hi = load_lanes(e.max + at);
+      LaneInts lo_at = load_lanes(e.min_at + at), hi_at = load_lanes(e.max_at + at);
+      stats::Extremes::merge_run([&](int t) { return samples[(t * G + g) * D + i]; }, steps,
+                                 first, run_lo[g][i], run_hi[g][i], lo, lo_at, hi, hi_at);
+      store_lanes(e.min + at, lo);
+      store_lanes(e.max + at, hi);
+      store_lanes(e.min_at + at, lo_at);
+      store_lanes(e.max_at + at, hi_at);
+    }
   }
 }
 

@@ -20,7 +20,7 @@ namespace chaosweep::run {
 namespace {
 
 /// Feeds the accumulators from the batch state after one step: derived observables (if any
-/// is used), time moments of the selected observables, regimes, histogram.
+/// is used), time moments and extremes of the selected observables, regimes, histogram.
 class StepFeed {
  public:
   StepFeed(const Setup& s, const models::Model& model, const Accumulators& acc)
@@ -51,6 +51,7 @@ class StepFeed {
     bind(x);
     if (setup_.needs_derived) model_.derived(x, derived_.data(), w);
     acc_.moments->add(selected_.data());
+    acc_.extremes->add(selected_.data());
     if (acc_.regimes) {
       if (setup_.regime_kind == spec::RegimeKind::sign) {
         stats::classify_sign(regime_columns_[0], w, regime_.data());

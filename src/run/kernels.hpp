@@ -23,6 +23,7 @@
 #include <vector>
 
 #include "models/model.hpp"
+#include "stats/extremes.hpp"
 #include "stats/histogram.hpp"
 #include "stats/regimes.hpp"
 #include "stats/time_moments.hpp"
@@ -38,12 +39,14 @@ enum class KernelKind { generic, fused, ring };
 /// variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);
 
-/// The accumulators a kernel feeds (owned by the batch). Moments hold one series per state
-/// variable for the fused kernel, one per selected observable otherwise.
+/// The accumulators a kernel feeds (owned by the batch). Moments and extremes hold one series
+/// per state variable for the fused kernel, one per selected observable otherwise; both are
+/// needed by accumulate() (a kernel that only spins may have neither).
 struct Accumulators {
   stats::TimeMoments* moments = nullptr;
   stats::RegimeCounter* regimes = nullptr;      // null: no regimes
   stats::MemberHistogram* histogram = nullptr;  // null: no histogram
+  stats::Extremes* extremes = nullptr;
 };
 
 class Kernel {

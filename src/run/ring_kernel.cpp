@@ -9,10 +9,14 @@
 //                           mean() and energy(), exactly as the model's derived() does;
 //   sign regimes:           RegimeLanes (lane_regimes.hpp) on the regime observable;
 //   histogram:              its observable stored to a [steps][width] buffer, counted after
-//                           the segment by MemberHistogram::add_steps.
+//                           the segment by MemberHistogram::add_steps;
+//   extremes:               every selected observable stored to a [steps][series] buffer of
+//                           Lanes, folded after the segment by Extremes::add_run (add_sample
+//                           on each sample in order).
 // The same operations per member as the generic path, which the tests check bit for bit.
 #include "run/ring_kernel.hpp"
 
+#include <cstdint>
 #include <vector>
 
 #include "integrators/lanes.hpp"
@@ -24,6 +28,7 @@
 namespace chaosweep::run {
 namespace {
 
+using integrators::LaneInts;
 using integrators::Lanes;
 using integrators::load_lanes;
 using integrators::store_lanes;
@@ -45,7 +50,8 @@ class RingKernel final : public Kernel {
         state_(static_cast<std::size_t>(eq_.n)),
         shift_(s.observables.size()),
         sum1_(s.observables.size()),
-        sum2_(s.observables.size()) {
+        sum2_(s.observables.size()),
+        samples_(static_cast<std::size_t>(kMaxSegment) * s.observables.size()) {
     for (std::size_t o = 0; o < s.observables.size(); ++o) {
       const int i = s.observables[o];
       if (i < n_) site_series_[i] = static_cast<int>(o);
@@ -72,6 +78,7 @@ class RingKernel final : public Kernel {
       accumulate_lanes(x, lane, steps, opens_block, first);
     }
     acc_.moments->added(steps);
+    acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
   }
@@ -86,6 +93,7 @@ class RingKernel final : public Kernel {
     for (int k = 0; k < n_; ++k) store_lanes(x + static_cast<long>(k) * width_ + lane, state_[k]);
   }
   void accumulate_lanes(double* x, int lane, int steps, bool opens_block, bool first);
+  void fold_extremes(int lane, int steps) const;
 
   models::Lorenz96Equations eq_;
   integrators::Rk4Steps h_;
@@ -98,6 +106,7 @@ class RingKernel final : public Kernel {
   std::vector<Lanes> scratch_;
   std::vector<Lanes> state_;                   // [n]: the Lanes' state during a segment
   std::vector<Lanes> shift_, sum1_, sum2_;     // [series]: their moment rows
+  std::vector<Lanes> samples_;                 // [kMaxSegment][series]: the series per step
   std::vector<double> values_;  // [kMaxSegment][width]: the histogram observable per step
 };
 
@@ -113,6 +122,7 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
   Lanes* shift = shift_.data();
   Lanes* sum1 = sum1_.data();
   Lanes* sum2 = sum2_.data();
+  Lanes* samples = samples_.data();
   for (int s = 0; s < series; ++s) {
     shift[s] = load_lanes(m.shift + s * w + lane);
     sum1[s] = load_lanes(m.s1 + s * w + lane);
@@ -134,6 +144,7 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
         if (first) store_lanes(m.origin + s * w + lane, v);
       }
       stats::TimeMoments::add_sample(v, shift[s], sum1[s], sum2[s]);
+      samples[t * series + s] = v;
     };
     Lanes sum = {}, squares = {}, regime_value = {}, histogram_value = {};
     integrators::ring_rk4_step(eq, h_, n, local, L, scratch_.data(), [&](int k, Lanes v) {
@@ -161,6 +172,27 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
     store_lanes(m.s2 + s * w + lane, sum2[s]);
   }
   if (regime_observable >= 0) regime.end(r, w, lane, steps);
+  fold_extremes(lane, steps);
+}
+
+// The segment's samples (samples_, [steps][series]) into the Lanes' running extremes.
+void RingKernel::fold_extremes(int lane, int steps) const {
+  const stats::Extremes::Rows e = acc_.extremes->rows();
+  const std::int64_t first = acc_.extremes->count();
+  const Lanes* const samples = samples_.data();
+  const long w = width_;
+  const int series = static_cast<int>(shift_.size());
+  for (int s = 0; s < series; ++s) {
+    const long at = s * w + lane;
+    Lanes lo = load_lanes(e.min + at), hi = load_lanes(e.max + at);
+    LaneInts lo_at = load_lanes(e.min_at + at), hi_at = load_lanes(e.max_at + at);
+    stats::Extremes::add_run([&](int t) { return samples[t * series + s]; }, steps, first, lo,
+                             lo_at, hi, hi_at);
+    store_lanes(e.min + at, lo);
+    store_lanes(e.max + at, hi);
+    store_lanes(e.min_at + at, lo_at);
+    store_lanes(e.max_at + at, hi_at);
+  }
 }
 
 }  // namespace

@@ -115,6 +115,10 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.time_mean_stderr, b.time_mean_stderr, "time_mean_stderr");
   expect_same(a.time_mean_tau, b.time_mean_tau, "time_mean_tau");
   expect_same(a.time_mean_samples, b.time_mean_samples, "time_mean_samples");
+  expect_same(a.extreme_min, b.extreme_min, "extreme_min");
+  expect_same(a.extreme_max, b.extreme_max, "extreme_max");
+  expect_same(a.extreme_min_time, b.extreme_min_time, "extreme_min_time");
+  expect_same(a.extreme_max_time, b.extreme_max_time, "extreme_max_time");
   expect_same(a.regime_fraction, b.regime_fraction, "regime_fraction");
   expect_same(a.regime_mean_residence, b.regime_mean_residence, "regime_mean_residence");
   expect_same(a.regime_transitions, b.regime_transitions, "regime_transitions");

@@ -1,6 +1,7 @@
 // The integration kernels (run/kernels.hpp): the fused Lorenz-63 kernel and the ring kernel
 // of Lorenz-96 give bitwise what the generic path (Rk4Batch over the model's rhs, per-step
-// accumulators) gives, at every batch width and column; spin-up leaves the accumulators alone.
+// accumulators) gives, at every batch width and column, the extremes and their times included;
+// spin-up leaves the accumulators alone.
 #include <gtest/gtest.h>
 
 #include <cstdint>
@@ -101,6 +102,7 @@ struct Member {
   std::uint8_t status;
   std::int64_t transitions;
   std::vector<double> stderr_, tau;
+  std::vector<double> min, max, min_time, max_time;
 };
 Member member(const Campaign& r, int m) {
   const run::BatchResult& b = r.batches[m / r.plan.batch_size];
@@ -110,7 +112,8 @@ Member member(const Campaign& r, int m) {
           slice(b.regime_fraction, j, g), slice(b.regime_mean_residence, j, g),
           slice(b.trajectory, j, static_cast<std::size_t>(r.plan.trajectory_samples) * d),
           b.status[j], b.regime_transitions[j], slice(b.time_mean_stderr, j, o),
-          slice(b.time_mean_tau, j, o)};
+          slice(b.time_mean_tau, j, o), slice(b.extreme_min, j, o), slice(b.extreme_max, j, o),
+          slice(b.extreme_min_time, j, o), slice(b.extreme_max_time, j, o)};
 }
 
 /// The histogram summed over every batch.
@@ -136,6 +139,10 @@ void expect_same_members(const Campaign& a, const Campaign& b, int members) {
     EXPECT_TRUE(bitwise_equal(x.residence, y.residence));
     EXPECT_EQ(x.transitions, y.transitions);
     EXPECT_TRUE(bitwise_equal(x.trajectory, y.trajectory));
+    EXPECT_TRUE(bitwise_equal(x.min, y.min));
+    EXPECT_TRUE(bitwise_equal(x.max, y.max));
+    EXPECT_TRUE(bitwise_equal(x.min_time, y.min_time));
+    EXPECT_TRUE(bitwise_equal(x.max_time, y.max_time));
   }
   EXPECT_EQ(histogram(a), histogram(b));
 }
@@ -195,7 +202,8 @@ TEST(Kernels, TrajectoriesEqualTheScalarReference) {
 }
 
 // Exact by construction: with a spin-up as long as the whole run but for one step, every
-// accumulator has seen exactly one sample per member (n = 1: NaN variance, fraction 0 or 1).
+// accumulator has seen exactly one sample per member (n = 1: NaN variance, fraction 0 or 1,
+// minimum = maximum at the time of the last step).
 TEST(Kernels, SpinUpFeedsNoAccumulator) {
   spec::Spec s = l63_spec();
   s.integration.spinup = 2.0;
@@ -208,6 +216,10 @@ TEST(Kernels, SpinUpFeedsNoAccumulator) {
     EXPECT_TRUE(got.fraction[0] == 0.0 || got.fraction[0] == 1.0);
     EXPECT_EQ(got.fraction[0] + got.fraction[1], 1.0);
     EXPECT_EQ(got.transitions, 0);
+    // the one sample is both extremes, taken after the last step
+    EXPECT_TRUE(bitwise_equal(got.min, got.max));
+    for (double t : got.min_time) EXPECT_EQ(t, static_cast<double>(r.plan.total_steps()) * 0.005);
+    for (double t : got.max_time) EXPECT_EQ(t, static_cast<double>(r.plan.total_steps()) * 0.005);
   }
   std::int64_t counted = 0;
   for (std::int64_t c : histogram(r)) counted += c;
