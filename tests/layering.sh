@@ -18,7 +18,7 @@ forbid() {
   done
 }
 
-numerics="core models integrators stats run plan"
+numerics="core models integrators stats run plan results"
 forbid "$numerics spec archive app" "mpi\.h" "MPI"
 forbid "$numerics spec parallel archive app" "hdf5\.h|H5[A-Za-z]*\.h|hdf5_hl\.h" "HDF5"
 forbid "$numerics plan parallel h5 archive app" "yaml-cpp/" "yaml-cpp"
