@@ -18,8 +18,7 @@
 #include "parallel/reduce.hpp"
 #include "run/twins.hpp"
 #include "stats/ensemble.hpp"
-#include "stats/error_growth.hpp"
-#include "stats/survival.hpp"
+#include "stats/twin_summary.hpp"
 
 namespace chaosweep::parallel {
 namespace {
@@ -67,14 +66,6 @@ std::vector<double> summarise_twins(const std::vector<run::BatchResult>& local,
   return out;
 }
 
-/// Merged twin partials of one case.
-struct CaseTwins {
-  std::vector<stats::Moments> separation;  // [lead]
-  stats::Moments horizon, level;
-  std::vector<double> separated;           // [lead]
-  double unseparated = 0.0;
-};
-
 }  // namespace
 
 void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
@@ -88,14 +79,10 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
   const std::vector<double> all = comm.allgather_in_rank_order(
       summarise_twins(local, lead, spec.statistics.twins.threshold));
 
-  std::vector<CaseTwins> cases(n_cases);
-  for (CaseTwins& c : cases) {
-    c.separation.resize(leads);
-    c.separated.assign(leads, 0.0);
-  }
+  std::vector<stats::TwinPartials> cases(n_cases, stats::TwinPartials(leads));
   for (const plan::Batch& b : plan.batches) {
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    CaseTwins& c = cases[static_cast<std::size_t>(b.case_index)];
+    stats::TwinPartials& c = cases[static_cast<std::size_t>(b.case_index)];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
       c.separation[k].merge(stats::Moments::unpack(p));
     }
@@ -123,56 +110,28 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
   r.unseparated_fraction.assign(n_cases * leads, NAN);
   r.suggested_duration.assign(n_cases, NAN);
   for (std::size_t c = 0; c < n_cases; ++c) {
-    const CaseTwins& t = cases[c];
-    std::vector<double> mean(leads), se(leads);
-    for (std::size_t k = 0; k < leads; ++k) {
-      const stats::Moments& m = t.separation[k];
-      mean[k] = m.n > 0.0 ? m.mean : NAN;
-      se[k] = m.stddev() / std::sqrt(m.n);
-      r.twin_log_separation[c * leads + k] = mean[k];
-      r.twin_log_separation_std[c * leads + k] = m.stddev();
-    }
-    r.twin_pairs[c] = static_cast<std::int64_t>(t.separation[0].n);
-    const stats::GrowthFit fit = stats::fit_growth_rate(lead, mean, se);
-    r.growth_rate[c] = fit.rate;
-    r.growth_window[2 * c] = fit.start;
-    r.growth_window[2 * c + 1] = fit.end;
-    r.growth_note[c] = fit.note;
-    r.twins_not_separating[c] = r.twin_pairs[c] > 1 && fit.not_separating() ? 1 : 0;
-
-    const stats::EnsembleEstimate e = stats::estimate(t.horizon);
-    r.horizon[c] = e.mean;
-    r.horizon_std[c] = e.std;
-    r.horizon_ci95[2 * c] = e.ci_low;
-    r.horizon_ci95[2 * c + 1] = e.ci_high;
-    r.horizon_reached[c] = e.n;
-
-    std::vector<double> censored(leads, 0.0);
-    censored[leads - 1] = t.unseparated;  // pairs not separated by the last lead
-    const stats::Survival s = stats::kaplan_meier(lead, t.separated, censored);
-    std::copy(s.survival.begin(), s.survival.end(), r.unseparated_fraction.begin() + c * leads);
-    r.horizon_median[c] = s.median;
-    r.horizon_median_ci95[2 * c] = s.median_low;
-    r.horizon_median_ci95[2 * c + 1] = s.median_high;
-
-    // Fewer than 90% separated: the lead by which about 90% would, from the survival curve
-    // (or, with too few separated for it, from the fitted growth); NaN where the curve has
-    // levelled off.
-    const double pairs = static_cast<double>(r.twin_pairs[c]);
-    if (pairs > 0.0 && static_cast<double>(e.n) < kMostPairs * pairs) {
-      double duration = stats::time_for_share(lead, t.separated, s, kMostPairs);
-      const double separated = static_cast<double>(e.n) / pairs;
-      if (std::isnan(duration) && separated < stats::kMinShareForFit &&
-          !stats::survival_levelled_off(lead, t.separated)) {
-        const std::size_t end = static_cast<std::size_t>(
-            std::find(lead.begin(), lead.end(), fit.end) - lead.begin());
-        const double sd_end = end < leads ? t.separation[end].stddev() : NAN;
-        duration = stats::lead_for_share(fit, sd_end, t.level.n > 0.0 ? t.level.mean : NAN,
-                                         kMostPairs);
-        if (!(duration > lead.back())) duration = NAN;
-      }
-      r.suggested_duration[c] = duration;
-    }
+    const stats::TwinSummary t = stats::summarise_twins(lead, cases[c], kMostPairs);
+    std::copy(t.log_separation.begin(), t.log_separation.end(),
+              r.twin_log_separation.begin() + c * leads);
+    std::copy(t.log_separation_std.begin(), t.log_separation_std.end(),
+              r.twin_log_separation_std.begin() + c * leads);
+    r.twin_pairs[c] = t.pairs;
+    r.growth_rate[c] = t.growth_rate;
+    r.growth_window[2 * c] = t.window_first;
+    r.growth_window[2 * c + 1] = t.window_last;
+    r.growth_note[c] = t.growth_note;
+    r.twins_not_separating[c] = t.not_separating ? 1 : 0;
+    r.horizon[c] = t.horizon.mean;
+    r.horizon_std[c] = t.horizon.std;
+    r.horizon_ci95[2 * c] = t.horizon.ci_low;
+    r.horizon_ci95[2 * c + 1] = t.horizon.ci_high;
+    r.horizon_reached[c] = t.horizon.n;
+    std::copy(t.unseparated_fraction.begin(), t.unseparated_fraction.end(),
+              r.unseparated_fraction.begin() + c * leads);
+    r.horizon_median[c] = t.median;
+    r.horizon_median_ci95[2 * c] = t.median_low;
+    r.horizon_median_ci95[2 * c + 1] = t.median_high;
+    r.suggested_duration[c] = t.suggested_duration;
   }
 }
 
