@@ -1,9 +1,9 @@
 """Per-member extremes (/member/extreme_min, _max, _min_time, _max_time) against an
 independent re-integration in numpy.
 
-Usage: check_extremes.py CHAOSWEEP MPIEXEC WORKDIR
+Usage: check_extremes.py CHAOSWEEP WORKDIR LAUNCHER... (e.g. mpiexec -n 2 --oversubscribe)
 
-Runs a small forced Lorenz-63 campaign on 2 ranks, then integrates every member again from its
+Runs a small forced Lorenz-63 campaign under LAUNCHER, then integrates every member again from its
 archived /member/initial_state with classical RK4 written here in numpy (the forced Lorenz-63
 equations, Lorenz 1963, J. Atmos. Sci. 20, 130, plus the constant tendency f d), takes the
 minimum and maximum of each observable over the samples of the time mean (the states after
@@ -20,7 +20,7 @@ import sys
 import h5py
 import numpy as np
 
-prog, mpiexec, work = sys.argv[1:4]
+prog, work, launcher = sys.argv[1], sys.argv[2], sys.argv[3:]
 os.makedirs(work, exist_ok=True)
 SIGMA, RHO, BETA = 10.0, 28.0, 8.0 / 3.0
 DIRECTION = np.array([0.6, 0.8, 0.0])
@@ -43,8 +43,8 @@ integration: {{method: rk4, dt: {DT}, spinup: {SPINUP}, duration: {DURATION}}}
 output: {{archive: extremes.h5}}
 run: {{batch_size: 8}}
 """)
-subprocess.run([mpiexec, "-n", "2", "--oversubscribe", prog, "run", spec, "--archive", archive,
-                "--overwrite", "--progress", "none"], check=True)
+subprocess.run(launcher + [prog, "run", spec, "--archive", archive, "--overwrite", "--progress",
+                            "none"], check=True)
 
 
 def rhs(s, forcing):
