@@ -128,21 +128,24 @@ std::string json_table();
 /// Calls f(quantity, array) for every quantity held in `result` (a BatchResult or an
 /// EnsembleResults, const or not), in table order; `array` is the std::vector of the quantity's
 /// element type.
+/// The array binding of `q` for results of type R (BatchResult or EnsembleResults).
+template <class R>
+const FieldOf<R>& field_of(const Quantity& q) {
+  if constexpr (std::is_same_v<R, BatchResult>) {
+    return q.batch_field;
+  } else {
+    return q.ensemble_field;
+  }
+}
+
 template <class R, class F>
 void for_each_array(R& result, F&& f) {
-  using Plain = std::remove_const_t<R>;
   for (const Quantity& q : quantities()) {
-    const FieldOf<Plain>* field;
-    if constexpr (std::is_same_v<Plain, BatchResult>) {
-      field = &q.batch_field;
-    } else {
-      field = &q.ensemble_field;
-    }
     std::visit(
         [&](auto member) {
           if constexpr (!std::is_same_v<decltype(member), std::monostate>) f(q, result.*member);
         },
-        *field);
+        field_of<std::remove_const_t<R>>(q));
   }
 }
 
@@ -152,13 +155,7 @@ void for_each_array(R& result, F&& f) {
 template <class T, class R>
 auto& array_of(R& result, const Quantity& q) {
   using Plain = std::remove_const_t<R>;
-  const FieldOf<Plain>* field;
-  if constexpr (std::is_same_v<Plain, BatchResult>) {
-    field = &q.batch_field;
-  } else {
-    field = &q.ensemble_field;
-  }
-  const auto* member = std::get_if<std::vector<T> Plain::*>(field);
+  const auto* member = std::get_if<std::vector<T> Plain::*>(&field_of<Plain>(q));
   if (member == nullptr) throw_wrong_array(q);
   return result.**member;
 }
