@@ -4,12 +4,15 @@
 #include <stdexcept>
 #include <cstdio>
 #include <string>
+#include <type_traits>
+#include <variant>
 #include <vector>
 
 #include <nlohmann/json.hpp>
 
 #include "app/commands.hpp"
 #include "archive/reader.hpp"
+#include "results/table.hpp"
 #include "stats/ensemble.hpp"
 #include "stats/lyapunov.hpp"
 
@@ -20,9 +23,6 @@ using archive::ArchiveSummary;
 using Json = nlohmann::ordered_json;
 
 std::size_t idx(std::size_t row, std::size_t width, std::size_t col) { return row * width + col; }
-
-/// v[i], or NaN when the archive lacks the dataset (v empty).
-double value_or_nan(const std::vector<double>& v, std::size_t i) { return v.empty() ? NAN : v[i]; }
 
 /// Names of the Lyapunov exponents: lambda1 (leading), lambda2, ...
 std::vector<std::string> exponent_names(const ArchiveSummary& s) {
@@ -53,6 +53,12 @@ std::string csv_field(const std::string& text) {
   std::string out = "\"";
   for (char ch : text) out += ch == '"' ? std::string("\"\"") : std::string(1, ch);
   return out + "\"";
+}
+
+std::string number_text(const char* format, double v) {
+  char text[48];
+  std::snprintf(text, sizeof text, format, v);
+  return text;
 }
 
 /// Snapshot statistics shown by `summary`: the first observable at the first, middle and last
@@ -98,94 +104,156 @@ std::vector<std::string> snapshot_names(const ArchiveSummary& s, const SnapshotV
   return names;
 }
 
-/// mean, std and the 95% interval of one estimate.
-Json json_estimate(double mean, double std, const double* ci) {
-  return Json{{"mean", mean}, {"std", std}, {"ci95", {ci[0], ci[1]}}};
+using results::PerCase;
+using results::Quantity;
+
+/// The names along dimension `dim` of archive `s`, for keys, rows and columns: observable and
+/// regime labels, lambda1.. for exponents, the fixed labels of bound and window_edge; empty for
+/// a dimension the summary does not tabulate (leads, snapshot times, histogram bins: curves
+/// are for the figures).
+std::vector<std::string> labels(const ArchiveSummary& s, const std::string& dim) {
+  if (dim == "observable") return s.observables;
+  if (dim == "regime") return s.regimes;
+  if (dim == "exponent") return exponent_names(s);
+  return results::dimension(dim).labels;
 }
 
-/// A time-mean estimate with the errors that account for autocorrelation: the standard error of
-/// the ensemble mean, the effective independent samples and the decorrelation time.
-Json json_time_mean(const ArchiveSummary& s, std::size_t i) {
-  Json e = json_estimate(s.time_mean[i], s.time_mean_std[i], &s.time_mean_ci95[2 * i]);
-  e["stderr"] = value_or_nan(s.time_mean_stderr, i);
-  e["effective_samples"] = value_or_nan(s.effective_samples, i);
-  e["decorrelation_time"] = value_or_nan(s.decorrelation_time, i);
+/// Whether the archive holds quantity `q` (the reader leaves absent datasets empty).
+bool held(const ArchiveSummary& s, const Quantity& q) {
+  bool any = false;
+  std::visit([&](auto field) {
+    if constexpr (!std::is_same_v<decltype(field), std::monostate>) any = !(s.*field).empty();
+  }, q.ensemble_field);
+  return any;
+}
+
+/// The per-case results the summary shows: held by the archive, indexed by case alone or by
+/// case and one labelled dimension. `names` are the labels along that dimension (one empty
+/// name for a per-case scalar).
+struct Shown {
+  PerCase result;
+  std::vector<std::string> names;
+  std::string key() const { return result.value->leaf(); }
+};
+
+std::vector<Shown> shown_results(const ArchiveSummary& s) {
+  std::vector<Shown> out;
+  for (const PerCase& p : results::per_case_results()) {
+    const Quantity& q = *p.value;
+    if (!held(s, q) || q.dims.size() > 2) continue;
+    std::vector<std::string> names{""};
+    if (q.dims.size() == 2) names = labels(s, q.dims[1]);
+    if (names.empty()) continue;
+    out.push_back(Shown{p, names});
+  }
+  return out;
+}
+
+/// Element i of quantity q as JSON: a number (NaN: null), an integer, a flag or a text.
+Json json_cell(const ArchiveSummary& s, const Quantity& q, std::size_t i) {
+  Json out;
+  std::visit([&](auto field) {
+    if constexpr (!std::is_same_v<decltype(field), std::monostate>) {
+      const auto& values = s.*field;
+      if constexpr (std::is_same_v<std::decay_t<decltype(values)>, std::vector<std::uint8_t>>) {
+        out = values.at(i) != 0;
+      } else {
+        out = values.at(i);
+      }
+    }
+  }, q.ensemble_field);
+  return out;
+}
+
+/// Element i of quantity q as a CSV field: a number to 17 significant digits, an integer, 0/1,
+/// or a (quoted when needed) text.
+std::string csv_cell(const ArchiveSummary& s, const Quantity& q, std::size_t i) {
+  std::string out;
+  std::visit([&](auto field) {
+    if constexpr (!std::is_same_v<decltype(field), std::monostate>) {
+      const auto& value = (s.*field).at(i);
+      using V = std::decay_t<decltype(value)>;
+      if constexpr (std::is_same_v<V, double>) {
+        char text[32];
+        std::snprintf(text, sizeof text, "%.17g", value);
+        out = text;
+      } else if constexpr (std::is_same_v<V, std::string>) {
+        out = csv_field(value);
+      } else {
+        out = std::to_string(static_cast<long long>(value));
+      }
+    }
+  }, q.ensemble_field);
+  return out;
+}
+
+/// Element i of a float64 quantity.
+double number(const ArchiveSummary& s, const Quantity& q, std::size_t i) {
+  const results::EnsembleResults& ensemble = s;
+  return results::array_of<double>(ensemble, q).at(i);
+}
+
+/// The key of an estimate's central value.
+const char* value_key(const Quantity& q) {
+  return q.estimate == results::Estimate::median ? "median" : "mean";
+}
+
+/// Entry i of a shown result: the value itself, or for an estimate {mean|median, std, ci95,
+/// details...}.
+Json json_entry(const ArchiveSummary& s, const PerCase& p, std::size_t i) {
+  if (p.value->estimate == results::Estimate::none) return json_cell(s, *p.value, i);
+  Json e{{value_key(*p.value), json_cell(s, *p.value, i)}};
+  if (p.std && held(s, *p.std)) e["std"] = json_cell(s, *p.std, i);
+  if (p.ci95 && held(s, *p.ci95)) {
+    e["ci95"] = {json_cell(s, *p.ci95, 2 * i), json_cell(s, *p.ci95, 2 * i + 1)};
+  }
+  for (const Quantity* d : p.details) {
+    e[p.detail_key(*d)] = held(s, *d) ? json_cell(s, *d, i) : Json();
+  }
   return e;
 }
 
-/// The twin experiment of case c: horizon over the members that reached the threshold, the
-/// growth rate of the mean log separation with its fit window, and the survival summary.
-Json json_twins(const ArchiveSummary& s, std::int64_t c) {
-  Json t{{"horizon", json_estimate(s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c])},
-         {"horizon_reached", s.horizon_reached[c]},
-         {"pairs", s.twin_pairs[c]},
-         {"growth_rate", s.growth_rate[c]},
-         {"growth_window", {s.growth_window[2 * c], s.growth_window[2 * c + 1]}}};
-  if (!s.growth_note.empty()) t["growth_note"] = s.growth_note[c];
-  if (!s.horizon_median.empty()) {
-    t["horizon_median"] = Json{{"median", s.horizon_median[c]},
-                               {"ci95", {s.horizon_median_ci95[2 * c],
-                                         s.horizon_median_ci95[2 * c + 1]}}};
-    t["suggested_duration"] = s.suggested_duration[c];
-  }
-  return t;
-}
-
-Json json_case(const ArchiveSummary& s, std::int64_t c) {
-  const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
+Json json_case(const ArchiveSummary& s, std::int64_t c, const std::vector<Shown>& shown) {
   Json parameters = Json::object();
   for (std::size_t a = 0; a < s.axes.size(); ++a) parameters[s.axes[a]] = s.axis_values[a][c];
-  Json out{{"index", c}, {"parameters", parameters}, {"members", s.members},
-           {"valid_members", s.valid_members[c]}, {"effective_members", s.effective_members[c]}};
-  if (!s.non_chaotic.empty()) {
-    out["non_chaotic"] = non_chaotic(s, c);
-    out["non_chaotic_reason"] = s.non_chaotic_reason[static_cast<std::size_t>(c)];
+  Json out{{"index", c}, {"parameters", parameters}, {"members", s.members}};
+  for (const Shown& r : shown) {
+    const std::size_t width = r.names.size(), first = static_cast<std::size_t>(c) * width;
+    if (r.result.value->dims.size() == 1) {
+      out[r.key()] = json_entry(s, r.result, first);
+      continue;
+    }
+    Json along = Json::object();
+    for (std::size_t k = 0; k < width; ++k) along[r.names[k]] = json_entry(s, r.result, first + k);
+    out[r.key()] = along;
   }
-  Json time_mean = Json::object(), regimes = Json::object();
-  for (std::size_t o = 0; o < n_obs; ++o) {
-    time_mean[s.observables[o]] = json_time_mean(s, idx(c, n_obs, o));
-  }
-  for (std::size_t k = 0; k < n_reg; ++k) {
-    const std::size_t i = idx(c, n_reg, k);
-    regimes[s.regimes[k]] = json_estimate(s.regime_fraction[i], s.regime_fraction_std[i],
-                                          &s.regime_fraction_ci95[2 * i]);
-  }
-  out["time_mean"] = time_mean;
-  out["regime_fraction"] = regimes;
   const SnapshotView snap = snapshot_view(s);
   if (!snap.times.empty()) {
-    Json shown = Json::array();
+    Json shown_snaps = Json::array();
     for (std::size_t j = 0; j < snap.times.size(); ++j) {
       const std::size_t i = idx(c, snap.times.size(), j);
-      shown.push_back(Json{{"time", s.snapshot_time[snap.times[j]]},
-                           {"observable", s.observables[0]}, {"mean", snap.mean[i]},
-                           {"std", snap.std[i]}, {"ci95", {snap.ci95[2 * i], snap.ci95[2 * i + 1]}}});
+      shown_snaps.push_back(Json{{"time", s.snapshot_time[snap.times[j]]},
+                                 {"observable", s.observables[0]}, {"mean", snap.mean[i]},
+                                 {"std", snap.std[i]},
+                                 {"ci95", {snap.ci95[2 * i], snap.ci95[2 * i + 1]}}});
     }
-    out["snapshots"] = shown;
+    out["snapshots"] = shown_snaps;
   }
-  if (s.exponents > 0) {
-    Json exponents = Json::array();
-    for (int k = 0; k < s.exponents; ++k) {
-      const std::size_t i = idx(c, s.exponents, k);
-      exponents.push_back(json_estimate(s.lyapunov[i], s.lyapunov_std[i], &s.lyapunov_ci95[2 * i]));
-    }
-    out["lyapunov"] = exponents;
-    out["kaplan_yorke_dimension"] = kaplan_yorke(s, c);
-  }
-  if (s.twins) out["twins"] = json_twins(s, c);
+  if (s.exponents > 0) out["kaplan_yorke_dimension"] = kaplan_yorke(s, c);
   return out;
 }
 
 /// The whole summary as JSON (nlohmann's output: NaN and infinities become null, numbers print
 /// in their shortest form that reads back to the same double).
 void print_json(const ArchiveSummary& s) {
+  const std::vector<Shown> shown = shown_results(s);
   Json doc{{"campaign", s.campaign}, {"model", s.model}, {"status", s.status},
            {"format_version", s.format_version}, {"members_per_case", s.members},
            {"tool_version", s.tool_version}, {"created_utc", s.created_utc}};
-  doc["units"] = Json{{"parameters", "model units"}, {"time_mean", "model units"},
-                      {"regime_fraction", "fraction of time (0-1)"},
-                      {"slope", "model units per unit of the parameter"},
-                      {"time", "model time units"}};
+  Json units{{"parameters", "1"}, {"time", results::kModelTime}};
+  for (const Shown& r : shown) units[r.key()] = r.result.value->units;
+  units["slope"] = "1 per unit of the parameter";
+  doc["units"] = units;
   doc["interval"] = "ci95: 95% confidence interval of the ensemble mean, mean +- t(0.975, n-1) "
                     "se, n = valid members; for time means se is stderr (below), for the other "
                     "quantities s / sqrt(n) with s their std across members";
@@ -205,7 +273,7 @@ void print_json(const ArchiveSummary& s) {
   doc["observables"] = s.observables;
   doc["regimes"] = s.regimes;
   Json cases = Json::array();
-  for (std::int64_t c = 0; c < s.cases; ++c) cases.push_back(json_case(s, c));
+  for (std::int64_t c = 0; c < s.cases; ++c) cases.push_back(json_case(s, c, shown));
   doc["cases"] = cases;
   Json response = Json::array();
   const std::size_t n_obs = s.observables.size();
@@ -220,77 +288,69 @@ void print_json(const ArchiveSummary& s) {
   std::printf("%s\n", doc.dump(2).c_str());
 }
 
+/// The keys of every detail any shown estimate carries, in table order (the CSV's last columns).
+std::vector<std::string> detail_keys(const std::vector<PerCase>& results) {
+  std::vector<std::string> keys;
+  for (const PerCase& p : results) {
+    for (const Quantity* d : p.details) {
+      const std::string key = p.detail_key(*d);
+      if (std::find(keys.begin(), keys.end(), key) == keys.end()) keys.push_back(key);
+    }
+  }
+  return keys;
+}
+
 void print_csv(const ArchiveSummary& s) {
-  const std::size_t n_obs = s.observables.size(), n_reg = s.regimes.size();
+  const std::vector<Shown> shown = shown_results(s);
+  const std::vector<std::string> details = detail_keys(results::per_case_results());
   std::printf("case");
   for (const std::string& a : s.axes) std::printf(",%s", a.c_str());
-  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members,units"
-              ",stderr,effective_samples,decorrelation_time\n");
-  // errors: {stderr, effective samples, decorrelation time} for time means, empty cells else
-  auto row = [&](std::int64_t c, const char* quantity, const std::string& name, double mean,
-                 double std, const double* ci, const char* units, const double* errors = nullptr) {
+  std::printf(",quantity,name,mean,std,ci95_low,ci95_high,valid_members,members,units");
+  for (const std::string& key : details) std::printf(",%s", key.c_str());
+  std::printf("\n");
+  // cells: mean, std, ci95_low, ci95_high, then one per detail key
+  auto row = [&](std::int64_t c, const std::string& quantity, const std::string& name,
+                 const std::vector<std::string>& cells, const std::string& units) {
     std::printf("%lld", static_cast<long long>(c));
     for (std::size_t a = 0; a < s.axes.size(); ++a) std::printf(",%.17g", s.axis_values[a][c]);
-    std::printf(",%s,%s,%.17g,%.17g,%.17g,%.17g,%lld,%lld,%s", quantity, name.c_str(), mean, std,
-                ci[0], ci[1], static_cast<long long>(s.valid_members[c]),
-                static_cast<long long>(s.members), units);
-    if (errors) {
-      std::printf(",%.17g,%.17g,%.17g\n", errors[0], errors[1], errors[2]);
-    } else {
-      std::printf(",,,\n");
-    }
+    std::printf(",%s,%s", quantity.c_str(), name.c_str());
+    for (std::size_t k = 0; k < 4; ++k) std::printf(",%s", cells[k].c_str());
+    std::printf(",%lld,%lld,%s", static_cast<long long>(s.valid_members[c]),
+                static_cast<long long>(s.members), units.c_str());
+    for (std::size_t k = 4; k < cells.size(); ++k) std::printf(",%s", cells[k].c_str());
+    std::printf("\n");
   };
-  const double none_interval[2] = {NAN, NAN};
+  const SnapshotView snap = snapshot_view(s);
+  const std::vector<std::string> snap_names = snapshot_names(s, snap, "@%.17g");
   for (std::int64_t c = 0; c < s.cases; ++c) {
-    for (std::size_t o = 0; o < n_obs; ++o) {
-      const std::size_t i = idx(c, n_obs, o);
-      const double errors[3] = {value_or_nan(s.time_mean_stderr, i),
-                                value_or_nan(s.effective_samples, i),
-                                value_or_nan(s.decorrelation_time, i)};
-      row(c, "time_mean", s.observables[o], s.time_mean[i], s.time_mean_std[i],
-          &s.time_mean_ci95[2 * i], "model units", errors);
+    for (const Shown& r : shown) {
+      const PerCase& p = r.result;
+      const bool text = p.value->type == results::ElementType::text;
+      for (std::size_t k = 0; k < r.names.size(); ++k) {
+        const std::size_t i = static_cast<std::size_t>(c) * r.names.size() + k;
+        std::vector<std::string> cells(4 + details.size());
+        // a text result goes in the name column (the reason a case is flagged, ...)
+        const std::string name = text ? csv_cell(s, *p.value, i) : r.names[k];
+        if (!text) cells[0] = csv_cell(s, *p.value, i);
+        if (p.std && held(s, *p.std)) cells[1] = csv_cell(s, *p.std, i);
+        if (p.ci95 && held(s, *p.ci95)) {
+          cells[2] = csv_cell(s, *p.ci95, 2 * i);
+          cells[3] = csv_cell(s, *p.ci95, 2 * i + 1);
+        }
+        for (const Quantity* d : p.details) {
+          const auto at = std::find(details.begin(), details.end(), p.detail_key(*d));
+          if (held(s, *d)) cells[4 + static_cast<std::size_t>(at - details.begin())] = csv_cell(s, *d, i);
+        }
+        row(c, r.key(), name, cells, p.value->units);
+      }
     }
-    for (std::size_t k = 0; k < n_reg; ++k) {
-      const std::size_t i = idx(c, n_reg, k);
-      row(c, "regime_fraction", s.regimes[k], s.regime_fraction[i], s.regime_fraction_std[i],
-          &s.regime_fraction_ci95[2 * i], "fraction");
-    }
-    const SnapshotView snap = snapshot_view(s);
-    const std::vector<std::string> snap_names = snapshot_names(s, snap, "@%.17g");
+    const std::string snap_units = results::at_path("/snapshot/mean").units;
     for (std::size_t j = 0; j < snap.times.size(); ++j) {
       const std::size_t i = idx(c, snap.times.size(), j);
-      row(c, "snapshot_mean", snap_names[j], snap.mean[i], snap.std[i], &snap.ci95[2 * i],
-          "model units");
-    }
-    for (int k = 0; k < s.exponents; ++k) {
-      const std::size_t i = idx(c, s.exponents, k);
-      row(c, "lyapunov", "lambda" + std::to_string(k + 1), s.lyapunov[i], s.lyapunov_std[i],
-          &s.lyapunov_ci95[2 * i], "per model time unit");
-    }
-    if (s.twins) {
-      const double none[2] = {NAN, NAN};
-      row(c, "horizon", "horizon", s.horizon[c], s.horizon_std[c], &s.horizon_ci95[2 * c],
-          "model time units");
-      row(c, "horizon_reached", "members", static_cast<double>(s.horizon_reached[c]), NAN, none,
-          "members");
-      row(c, "twin_pairs", "pairs", static_cast<double>(s.twin_pairs[c]), NAN, none, "pairs");
-      row(c, "growth_rate", "log_separation", s.growth_rate[c], NAN, none, "per model time unit");
-      row(c, "growth_window", "first", s.growth_window[2 * c], NAN, none, "model time units");
-      row(c, "growth_window", "last", s.growth_window[2 * c + 1], NAN, none, "model time units");
-      if (!s.growth_note.empty() && !s.growth_note[c].empty()) {
-        row(c, "growth_note", csv_field(s.growth_note[c]), NAN, NAN, none, "");
-      }
-      if (!s.horizon_median.empty()) {
-        row(c, "horizon_median", "horizon", s.horizon_median[c], NAN, &s.horizon_median_ci95[2 * c],
-            "model time units");
-        row(c, "suggested_duration", "duration", s.suggested_duration[c], NAN, none,
-            "model time units");
-      }
-    }
-    if (!s.non_chaotic.empty()) {
-      row(c, "non_chaotic",
-          csv_field(s.non_chaotic_reason[static_cast<std::size_t>(c)]),
-          non_chaotic(s, c) ? 1.0 : 0.0, NAN, none_interval, "flag");
+      std::vector<std::string> cells(4 + details.size());
+      const double values[4] = {snap.mean[i], snap.std[i], snap.ci95[2 * i], snap.ci95[2 * i + 1]};
+      for (std::size_t k = 0; k < 4; ++k) cells[k] = number_text("%.17g", values[k]);
+      row(c, "snapshot_mean", snap_names[j], cells, snap_units);
     }
   }
 }
@@ -309,12 +369,6 @@ std::string estimate_text(double mean, const double* ci) {
   } else {
     std::snprintf(text, sizeof text, "%.*f", digits, mean);
   }
-  return text;
-}
-
-std::string number_text(const char* format, double v) {
-  char text[48];
-  std::snprintf(text, sizeof text, format, v);
   return text;
 }
 
@@ -400,16 +454,53 @@ void print_block(const ArchiveSummary& s, const std::string& title,
                    [&](std::size_t i) { return estimate_text(mean[i], &ci[2 * i]); });
 }
 
-/// "stderr | effective samples | decorrelation time" of each case's ensemble time means.
-void print_errors_block(const ArchiveSummary& s) {
-  if (s.time_mean_stderr.empty()) return;
-  print_case_block(s, "errors of the time means: standard error of the ensemble mean | "
-                   "effective independent samples | decorrelation time (model time units)",
-                   s.observables, [&](std::size_t i) {
-                     return number_text("%.3g", s.time_mean_stderr[i]) + " | " +
-                            number_text("%.3g", s.effective_samples[i]) + " | " +
-                            number_text("%.3g", s.decorrelation_time[i]);
+/// Units in words, for titles.
+std::string units_text(const std::string& units) {
+  if (units == results::kModelTime) return "model time units";
+  if (units == results::kPerModelTime) return "per model time unit";
+  return units == "1" ? "non-dimensional" : units;
+}
+
+/// "time mean" for /ensemble/time_mean.
+std::string spaced(std::string name) {
+  std::replace(name.begin(), name.end(), '_', ' ');
+  return name;
+}
+
+/// The blocks of a result along a campaign-named dimension (observables, regimes, exponents):
+/// "mean [95% interval]" (or the values) per case, then its details per case.
+void print_result_blocks(const ArchiveSummary& s, const Shown& r) {
+  const PerCase& p = r.result;
+  const Quantity& q = *p.value;
+  const bool interval = p.ci95 && held(s, *p.ci95);
+  const std::string what = q.estimate == results::Estimate::none ? q.long_name
+                           : q.estimate == results::Estimate::median ? "ensemble median"
+                                                                      : "ensemble mean";
+  print_case_block(s, spaced(q.leaf()) + " (" + units_text(q.units) + "): " + what +
+                          (interval ? " [95% confidence interval]" : ""),
+                   r.names, [&](std::size_t i) {
+                     const double mean = number(s, q, i);
+                     if (!interval) return number_text("%.6g", mean);
+                     const double ci[2] = {number(s, *p.ci95, 2 * i), number(s, *p.ci95, 2 * i + 1)};
+                     return estimate_text(mean, ci);
                    });
+  std::vector<const Quantity*> details;
+  for (const Quantity* d : p.details) {
+    if (held(s, *d) && d->type == results::ElementType::float64) details.push_back(d);
+  }
+  if (details.empty()) return;
+  std::string title = "beside each " + spaced(q.leaf()) + ": ";
+  for (std::size_t k = 0; k < details.size(); ++k) {
+    title += (k ? " | " : "") + spaced(p.detail_key(*details[k])) + " (" +
+             units_text(details[k]->units) + ")";
+  }
+  print_case_block(s, title, r.names, [&](std::size_t i) {
+    std::string cell;
+    for (const Quantity* d : details) {
+      cell += (cell.empty() ? "" : " | ") + number_text("%.3g", number(s, *d, i));
+    }
+    return cell;
+  });
 }
 
 /// "median [low, high]" of the Kaplan-Meier median horizon ("> last" for an open upper end).
@@ -517,16 +608,13 @@ void print_table(const ArchiveSummary& s) {
               s.cases == 1 ? "" : "s",
               static_cast<long long>(s.members), static_cast<long long>(valid),
               static_cast<long long>(s.cases * s.members), s.status.c_str());
-  print_block(s, "time mean, model units: ensemble mean [95% confidence interval of the mean]",
-              s.observables, s.time_mean, s.time_mean_ci95);
-  print_errors_block(s);
-  if (!s.regimes.empty()) {
-    print_block(s, "regime fraction, share of time (0-1): ensemble mean [95% confidence "
-                "interval of the mean]", s.regimes, s.regime_fraction, s.regime_fraction_ci95);
+  for (const Shown& r : shown_results(s)) {
+    const Quantity& q = *r.result.value;
+    if (q.dims.size() == 2 && results::dimension(q.dims[1]).labels.empty()) {
+      print_result_blocks(s, r);
+    }
   }
   if (s.exponents > 0) {
-    print_block(s, "Lyapunov exponents, per model time unit: ensemble mean [95% confidence "
-                "interval of the mean]", exponent_names(s), s.lyapunov, s.lyapunov_ci95);
     std::printf("Kaplan-Yorke dimension of the ensemble-mean exponents:");
     for (std::int64_t c = 0; c < s.cases; ++c) std::printf(" %.4g", kaplan_yorke(s, c));
     std::printf("  (by case; nan when the %d exponents do not reach it)\n", s.exponents);

@@ -64,7 +64,7 @@ void store(const stats::EnsembleEstimate& est, const std::string& source, std::s
         out[2 * i] = est.ci_low;
         out[2 * i + 1] = est.ci_high;
         break;
-      case results::Estimate::none: break;
+      default: break;  // computed by another stage
     }
   }
 }

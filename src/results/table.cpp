@@ -1,6 +1,8 @@
 // The table of results (see table.hpp), in archive order.
 #include "results/table.hpp"
 
+#include <algorithm>
+
 #include <stdexcept>
 
 #include <nlohmann/json.hpp>
@@ -77,6 +79,10 @@ struct How {
 };
 How estimate(std::string source, Estimate e) { return {Merge::estimate, std::move(source), e, ""}; }
 How derived(std::string text) { return {Merge::derived, "", Estimate::none, std::move(text)}; }
+/// Computed outside the reduction of member moments, as statistic `e` of the estimate `source`.
+How derived_of(std::string source, Estimate e, std::string text) {
+  return {Merge::derived, std::move(source), e, std::move(text)};
+}
 How merged(Merge m, std::string text) { return {m, "", Estimate::none, std::move(text)}; }
 
 /// An EnsembleResults array; its name is its path without the leading "/" unless given.
@@ -99,6 +105,10 @@ Quantity ensemble(std::vector<T> E::*field, std::string path, Dims dims, std::st
 using T = ElementType;
 using S = Switch;
 using M = Merge;
+
+constexpr const char* kHorizonMoments =
+    "moments of the members' finite horizons, merged in batch order";
+constexpr const char* kSurvival = "stats::survival of the pairs' separation leads";
 
 std::vector<Quantity> make_table() {
   return {
@@ -195,7 +205,8 @@ std::vector<Quantity> make_table() {
                estimate("time_mean", Estimate::std)),
       ensemble(&E::time_mean_ci95, "/ensemble/time_mean_ci95", {"case", "observable", "bound"},
                "1", "95% confidence interval of the ensemble mean (Student t)", S::always,
-               derived("time_mean +- t(0.975, valid members - 1) x time_mean_stderr")),
+               derived_of("time_mean", Estimate::ci95,
+                          "time_mean +- t(0.975, valid members - 1) x time_mean_stderr")),
       ensemble(&E::regime_fraction, "/ensemble/regime_fraction", {"case", "regime"}, "1",
                "ensemble mean of the members' regime fractions", S::regimes,
                estimate("regime_fraction", Estimate::mean)),
@@ -218,13 +229,13 @@ std::vector<Quantity> make_table() {
       ensemble(&E::horizon, "/ensemble/horizon", {"case"}, kTime,
                "mean horizon over the valid members that reached the threshold, model time "
                "units",
-               S::twins, derived("moments of the members' finite horizons, merged in batch order")),
+               S::twins, derived_of("horizon", Estimate::mean, kHorizonMoments)),
       ensemble(&E::horizon_std, "/ensemble/horizon_std", {"case"}, kTime,
                "standard deviation of the horizon across the members that reached the threshold",
-               S::twins, derived("moments of the members' finite horizons, merged in batch order")),
+               S::twins, derived_of("horizon", Estimate::std, kHorizonMoments)),
       ensemble(&E::horizon_ci95, "/ensemble/horizon_ci95", {"case", "bound"}, kTime,
                "95% confidence interval of the mean horizon (Student t)", S::twins,
-               derived("moments of the members' finite horizons, merged in batch order")),
+               derived_of("horizon", Estimate::ci95, kHorizonMoments)),
       ensemble(&E::horizon_reached, "/ensemble/horizon_reached", {"case"}, "1",
                "valid members whose twin separation exceeded the threshold", S::twins,
                derived("count of the members' finite horizons")),
@@ -239,16 +250,19 @@ std::vector<Quantity> make_table() {
                "standard error of the ensemble time mean: the larger of the across-member "
                "standard deviation / sqrt(valid members) and sqrt(sum of member standard "
                "errors^2) / valid members",
-               S::always, derived("stats::ensemble_mean_stderr of the merged member errors")),
+               S::always, derived_of("time_mean", Estimate::detail,
+                                     "stats::ensemble_mean_stderr of the merged member errors")),
       ensemble(&E::effective_samples, "/ensemble/effective_samples", {"case", "observable"}, "1",
                "independent time samples behind the ensemble time mean: sum over valid members "
                "of n / (2 tau_int)",
-               S::always, derived("sum of the members' time_mean_samples in batch order")),
+               S::always, derived_of("time_mean", Estimate::detail,
+                                     "sum of the members' time_mean_samples in batch order")),
       ensemble(&E::decorrelation_time, "/ensemble/decorrelation_time", {"case", "observable"},
                kTime,
                "ensemble mean of the members' integrated autocorrelation times tau_int, in model "
                "time units",
-               S::always, derived("mean of the members' time_mean_tau in batch order")),
+               S::always, derived_of("time_mean", Estimate::detail,
+                                     "mean of the members' time_mean_tau in batch order")),
       ensemble(&E::member_stderr_rms, "", {"case", "observable"}, "1",
                "root mean square of the valid members' standard errors of the time mean",
                S::always, derived("mean of the members' squared errors in batch order"),
@@ -303,15 +317,15 @@ std::vector<Quantity> make_table() {
                "median horizon of the valid pairs, model time units: the first lead at which "
                "the Kaplan-Meier share of pairs not yet separated is 0.5 or below (pairs never "
                "separated count as censored at the last lead; NaN when half never separated)",
-               S::twins, derived("stats::survival of the pairs' separation leads")),
+               S::twins, derived_of("horizon_median", Estimate::median, kSurvival)),
       ensemble(&E::horizon_median_ci95, "/twins/horizon_median_ci95", {"case", "bound"}, kTime,
                "95% confidence interval of the median horizon (Brookmeyer-Crowley, Greenwood "
                "standard errors; NaN upper bound: beyond the last lead)",
-               S::twins, derived("stats::survival of the pairs' separation leads")),
+               S::twins, derived_of("horizon_median", Estimate::ci95, kSurvival)),
       ensemble(&E::unseparated_fraction, "/twins/unseparated_fraction", {"case", "lead"}, "1",
                "Kaplan-Meier share of the valid pairs whose separation has not yet exceeded the "
                "threshold at the lead",
-               S::twins, derived("stats::survival of the pairs' separation leads")),
+               S::twins, derived(kSurvival)),
       ensemble(&E::suggested_duration, "/twins/suggested_duration", {"case"}, kTime,
                "when fewer than 90% of the pairs separated: the duration by which about 90% "
                "would at the pace so far, from the survival curve (or the growth line when "
@@ -357,14 +371,14 @@ std::vector<Dimension> make_dimensions() {
   return {
       {"case", "1", "case index", {}, "0 .. cases - 1"},
       {"member", "1", "member index within the case", {}, "0 .. members - 1"},
-      {"state", "1", "state variable", {}, "the model's state variable names"},
-      {"observable", "1", "observable", {}, "the selected observable names"},
-      {"regime", "1", "regime label", {}, "the regime labels"},
-      {"bound", "1", "bound of the 95% confidence interval", {"lower", "upper"}, ""},
+      {"state", "1", "state variable", {}, "the model's state variable names", true},
+      {"observable", "1", "observable", {}, "the selected observable names", true},
+      {"regime", "1", "regime label", {}, "the regime labels", true},
+      {"bound", "1", "bound of the 95% confidence interval", {"lower", "upper"}, "", true},
       {"window_edge", "1", "edge of the lead-time window the growth rate is fitted over",
-       {"first", "last"}, ""},
-      {"exponent", "1", "exponent number (1 = leading)", {}, "1 .. exponents"},
-      {"axis", "1", "swept parameter", {}, "the swept parameters' names"},
+       {"first", "last"}, "", true},
+      {"exponent", "1", "exponent number (1 = leading)", {}, "1 .. exponents", true},
+      {"axis", "1", "swept parameter", {}, "the swept parameters' names", true},
       {"lead", kTime, "lead time since the end of the spin-up", {},
        "0, every, 2 every, ... (statistics.twins.every)"},
       {"edges", "1", "bin edge of the histogram", {}, "the bins' edges, low to high"},
@@ -374,7 +388,7 @@ std::vector<Dimension> make_dimensions() {
       {"sample", "1", "member index of the stored member", {}, "0 .. stored members - 1"},
       {"step", "", "sample of a stored trajectory", {},
        "none (each sample's model time is /trajectory/time)"},
-      {"variable", "1", "state variable", {}, "the model's state variable names"},
+      {"variable", "1", "state variable", {}, "the model's state variable names", true},
       {"moment", "1", "(n, mean, m2) of a partial summary (checkpoints only)", {}, "0 .. 2"},
   };
 }
@@ -435,13 +449,44 @@ std::string Quantity::merge_text() const {
     case Merge::estimate: {
       const char* what = estimate == Estimate::mean ? "mean"
                          : estimate == Estimate::std ? "standard deviation"
-                                                     : "95% interval";
+                         : estimate == Estimate::ci95 ? "95% interval"
+                                                      : "statistic";
       return std::string(what) + " of the valid members' " + source +
              ", moments merged per case in batch order";
     }
     case Merge::derived: return how;
   }
   return how;
+}
+
+std::string PerCase::detail_key(const Quantity& detail) const {
+  const std::string own = value->leaf(), leaf = detail.leaf();
+  return leaf.rfind(own + "_", 0) == 0 ? leaf.substr(own.size() + 1) : leaf;
+}
+
+std::vector<PerCase> per_case_results() {
+  std::vector<PerCase> out;
+  for (const Quantity& q : quantities()) {
+    if (q.scope != Scope::ensemble || !q.archived() || q.dims.empty() || q.dims[0] != "case") {
+      continue;
+    }
+    const bool central = q.estimate == Estimate::none || q.estimate == Estimate::mean ||
+                         q.estimate == Estimate::median;
+    if (central) {
+      // a curve (over leads, snapshot times, bins) or a table of more dimensions is not one
+      if (q.dims.size() > 2 || (q.dims.size() == 2 && !dimension(q.dims[1]).named)) continue;
+      out.push_back(PerCase{&q, nullptr, nullptr, {}});
+      continue;
+    }
+    auto owner = std::find_if(out.begin(), out.end(), [&](const PerCase& p) {
+      return p.value->estimate != Estimate::none && p.value->source == q.source;
+    });
+    if (owner == out.end()) continue;  // describes a curve
+    if (q.estimate == Estimate::std) owner->std = &q;
+    if (q.estimate == Estimate::ci95) owner->ci95 = &q;
+    if (q.estimate == Estimate::detail) owner->details.push_back(&q);
+  }
+  return out;
 }
 
 [[noreturn]] void throw_wrong_array(const Quantity& q) {

@@ -47,8 +47,12 @@ enum class Merge {
   derived,         // computed from merged partials (`how` names the computation)
 };
 
-/// Which statistic of a member_moments quantity an `estimate` is.
-enum class Estimate { none, mean, std, ci95 };
+/// Which statistic of an estimate a quantity is: the central value (mean, or median), its
+/// spread across members (std), its 95% interval (ci95), or another figure that describes the
+/// same estimate (detail, e.g. its standard error). Entries with the same `source` belong to one
+/// estimate; `merge` says whether the reduction computes them from member moments (estimate) or
+/// another stage does (derived).
+enum class Estimate { none, mean, median, std, ci95, detail };
 
 /// The spec option that switches a quantity on.
 enum class Switch { always, sweep, regimes, lyapunov, twins, histogram, snapshots,
@@ -80,8 +84,8 @@ struct Quantity {
   Scope scope = Scope::ensemble;
   Merge merge = Merge::none;
   Switch when = Switch::always;
-  std::string source;                  // estimate: the member quantity estimated
-  Estimate estimate = Estimate::none;  // estimate: which statistic
+  std::string source;                  // the estimate it belongs to (a member quantity's name)
+  Estimate estimate = Estimate::none;  // which statistic of that estimate
   std::string how;                     // derived: what computes it
   FieldOf<BatchResult> batch_field;        // member and batch scope
   FieldOf<EnsembleResults> ensemble_field; // ensemble scope
@@ -104,7 +108,24 @@ struct Dimension {
   std::string long_name;
   std::vector<std::string> labels;  // fixed coordinate values; empty when the campaign sets them
   std::string coordinates;          // what its coordinate values are, for docs/archive.md
+  bool named = false;  // its entries are named (observables, regimes, bounds), not a numeric axis
 };
+
+/// One per-case result as `chaosweep summary` shows it: an archived ensemble quantity indexed
+/// first by case, with the quantities that describe the same estimate (same `source`) folded in.
+struct PerCase {
+  const Quantity* value = nullptr;  // the central value (or the quantity itself, no estimate)
+  const Quantity* std = nullptr;
+  const Quantity* ci95 = nullptr;
+  std::vector<const Quantity*> details;
+  /// A detail's key beside the value: its leaf without the value's leaf as prefix
+  /// ("stderr" for time_mean_stderr beside time_mean).
+  std::string detail_key(const Quantity& detail) const;
+};
+
+/// Every archived ensemble quantity indexed by case alone or by case and one named dimension,
+/// grouped by estimate, in table order (curves over leads, times or bins are left out).
+std::vector<PerCase> per_case_results();
 
 /// Every quantity, in archive order.
 const std::vector<Quantity>& quantities();

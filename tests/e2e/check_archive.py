@@ -178,6 +178,8 @@ def check_summary_json(path, program):
                    ("decorrelation_time", "decorrelation_time"))}
         frac = f["ensemble/regime_fraction"][()] if "ensemble/regime_fraction" in f else None
         slope = f["response/slope"][()] if "response/slope" in f else None
+        lyap = f["ensemble/lyapunov"][()] if "ensemble/lyapunov" in f else None
+        lyap_ci = f["ensemble/lyapunov_ci95"][()] if lyap is not None else None
         twins = None
         if "twins" in f:
             twins = {k: f[p][()] for k, p in (
@@ -220,17 +222,26 @@ def check_summary_json(path, program):
     def same(value, stored):  # json null stands for NaN
         return (value is None and math.isnan(stored)) or value == float(stored)
     for c, case in enumerate(doc["cases"]):
+        if lyap is not None:
+            for k in range(lyap.shape[1]):
+                entry = case["lyapunov"][f"lambda{k + 1}"]
+                if not (same(entry["mean"], lyap[c, k])
+                        and all(same(v, w) for v, w in zip(entry["ci95"], lyap_ci[c, k]))):
+                    fail(f"case {c}: summary lambda{k + 1} {entry} differs from the archive")
+        elif "lyapunov" in case:
+            fail(f"case {c}: exponents in the summary of an archive without them")
         if twins is None:
-            if "twins" in case:
+            if "horizon" in case or "pairs" in case:
                 fail(f"case {c}: twins in the summary of an archive without them")
             continue
-        t = case["twins"]
+        t = case
+        window = [t["growth_window"]["first"], t["growth_window"]["last"]]
         if not (same(t["horizon"]["mean"], twins["horizon"][c])
                 and all(same(v, w) for v, w in zip(t["horizon"]["ci95"], twins["ci"][c]))
                 and t["horizon_reached"] == int(twins["reached"][c])
                 and t["pairs"] == int(twins["pairs"][c])
                 and same(t["growth_rate"], twins["rate"][c])
-                and all(same(v, w) for v, w in zip(t["growth_window"], twins["window"][c]))
+                and all(same(v, w) for v, w in zip(window, twins["window"][c]))
                 and same(t["horizon_median"]["median"], twins["median"][c])
                 and all(same(v, w) for v, w in zip(t["horizon_median"]["ci95"],
                                                    twins["median_ci"][c]))

@@ -460,21 +460,26 @@ def check_summary_csv(archive, program):
                                      "effective_samples", "decorrelation_time"]
     if rows[0] != header:
         fail(f"csv header {rows[0]}, expected {header}")
+    # Rows per case in the documented order: the estimates, then the per-case values
+    # (numbers in `mean`, texts in `name`), then the snapshots; units as the archive's attributes.
     expected = []
     for c in range(arch.cases):
         for o, name in enumerate(arch.observables):
             expected.append((c, "time_mean", name, arch.mean[c, o], arch.std[c, o],
-                             arch.ci[c, o], "model units",
+                             arch.ci[c, o], "1",
                              [arch.mean_stderr[c, o], arch.effective_samples[c, o],
                               arch.decorrelation[c, o]]))
         for k, label in enumerate(arch.regimes):
             expected.append((c, "regime_fraction", label, arch.regime[c, k],
-                             arch.regime_std[c, k], arch.regime_ci[c, k], "fraction", None))
+                             arch.regime_std[c, k], arch.regime_ci[c, k], "1", None))
+        expected.append((c, "valid_members", "", arch.valid[c], None, None, "1", None))
+        expected.append((c, "effective_members", "", arch.effective[c], None, None, "1", None))
+        expected.append((c, "non_chaotic", "", arch.non_chaotic[c], None, None, "1", None))
+        expected.append((c, "non_chaotic_reason", arch.non_chaotic_reason[c], None, None, None,
+                         "1", None))
         for k, time, mean, std, ci in arch.snapshots_shown().get(c, []):
             expected.append((c, "snapshot_mean", f"{arch.observables[0]}@{time:.17g}", mean, std,
-                             ci, "model units", None))
-        expected.append((c, "non_chaotic", arch.non_chaotic_reason[c], arch.non_chaotic[c],
-                         math.nan, (math.nan, math.nan), "flag", None))
+                             ci, "1", None))
     if len(rows) - 1 != len(expected):
         fail(f"csv has {len(rows) - 1} rows, expected {len(expected)}")
     n_axes = len(arch.axes)
@@ -483,13 +488,16 @@ def check_summary_csv(archive, program):
         if int(row[0]) != c or values != [float(arch.axis_values[a][c]) for a in arch.axes]:
             fail(f"csv row {row}: case or parameters differ")
         rest = row[1 + n_axes:]
-        numbers = [float(v) for v in rest[2:6]]
-        wanted = [float(mean), float(std), float(ci[0]), float(ci[1])]
+        # an empty cell: the quantity has no such statistic
+        numbers = [float(v) if v != "" else None for v in rest[2:6]]
+        wanted = [None if v is None else float(v) for v in
+                  (mean, std, *(ci if ci is not None else (None, None)))]
         # a snapshot's interval is not an archive dataset: recomputed here with scipy's t
         # quantile, equal to rounding (1e-12 relative)
         tol = 1e-12 if quantity == "snapshot_mean" else 0.0
         if rest[0] != quantity or rest[1] != name or not all(
-                abs(x - y) <= tol * abs(y) or (math.isnan(x) and math.isnan(y))
+                (x is None and y is None) or (x is not None and y is not None and (
+                    abs(x - y) <= tol * abs(y) or (math.isnan(x) and math.isnan(y))))
                 for x, y in zip(numbers, wanted)):
             fail(f"csv row {row} differs from the archive {wanted}")
         if rest[6:9] != [str(int(arch.valid[c])), str(arch.members), units]:
@@ -521,7 +529,7 @@ def check_summary_table(archive, program):
             block = "regime"
         elif line.startswith("response slope"):
             block = "slope"
-        elif line.startswith("errors of the time means"):
+        elif line.startswith("beside each time mean"):
             block = "errors"
         elif line.startswith("snapshots of"):
             block = "snapshot"

@@ -3,6 +3,7 @@
 // iterates the table reaches exactly the arrays of the structs.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cstddef>
 #include <set>
 #include <string>
@@ -97,6 +98,51 @@ TEST(ResultsTable, ArraysAreReachedByTheirDeclaredType) {
   EXPECT_THROW(array_of<std::int64_t>(r, mean), std::logic_error);
   EXPECT_THROW(quantity(Scope::member, "no_such_quantity"), std::logic_error);
   EXPECT_EQ(&at_path("/case/forcing"), &at_path("/case/<parameter>"));
+}
+
+TEST(ResultsTable, PerCaseResultsFoldEachStatisticIntoItsEstimate) {
+  // Every archived ensemble quantity indexed by case is shown once: as a value, or folded into
+  // the estimate it describes (same source, same switch, same dimensions; an interval adds
+  // `bound`). The values' leaves are distinct: they are the keys of the summary's JSON.
+  std::set<const Quantity*> seen;
+  std::set<std::string> keys;
+  for (const PerCase& p : per_case_results()) {
+    EXPECT_TRUE(keys.insert(p.value->leaf()).second) << p.value->path;
+    EXPECT_TRUE(seen.insert(p.value).second) << p.value->path;
+    std::vector<const Quantity*> parts = p.details;
+    if (p.std) parts.push_back(p.std);
+    if (p.ci95) parts.push_back(p.ci95);
+    for (const Quantity* q : parts) {
+      EXPECT_TRUE(seen.insert(q).second) << q->path;
+      EXPECT_EQ(q->source, p.value->source) << q->path;
+      EXPECT_EQ(q->when, p.value->when) << q->path;
+      std::vector<std::string> dims = p.value->dims;
+      if (q == p.ci95) dims.push_back("bound");
+      EXPECT_EQ(q->dims, dims) << q->path;
+    }
+    if (p.std || p.ci95 || !p.details.empty()) {
+      EXPECT_NE(p.value->estimate, Estimate::none) << p.value->path;
+    }
+  }
+  for (const Quantity& q : quantities()) {
+    // indexed by case alone or with one named dimension (an interval adds `bound`)
+    std::vector<std::string> dims = q.dims;
+    if (q.estimate == Estimate::ci95) dims.pop_back();
+    const bool per_case = q.scope == Scope::ensemble && q.archived() && dims[0] == "case" &&
+                          dims.size() <= 2 && (dims.size() == 1 || dimension(dims[1]).named);
+    EXPECT_EQ(seen.count(&q), per_case ? 1u : 0u) << q.path;
+  }
+  // the time mean carries its interval and errors; the detail keys drop the value's name
+  const std::vector<PerCase> shown = per_case_results();
+  const auto time_mean = std::find_if(shown.begin(), shown.end(), [](const PerCase& p) {
+    return p.value->path == "/ensemble/time_mean";
+  });
+  ASSERT_NE(time_mean, shown.end());
+  EXPECT_EQ(time_mean->ci95->path, "/ensemble/time_mean_ci95");
+  std::vector<std::string> details;
+  for (const Quantity* d : time_mean->details) details.push_back(time_mean->detail_key(*d));
+  EXPECT_EQ(details, (std::vector<std::string>{"stderr", "effective_samples",
+                                               "decorrelation_time"}));
 }
 
 TEST(ResultsTable, SwitchesFollowTheOptions) {
