@@ -12,6 +12,7 @@
 #include "core/error.hpp"
 #include "integrators/lanes.hpp"
 #include "models/model.hpp"
+#include "plan/member_output.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/lyapunov.hpp"
@@ -75,10 +76,9 @@ double twin_doubles(const plan::Plan& plan, double batches, bool archive) {
   if (t.every_steps == 0) return 0.0;
   const double leads = static_cast<double>(t.leads);
   if (archive) {
-    // per member spread and horizon; per case the curves against lead (mean and std of the
-    // log separation, the unseparated share) and a dozen scalars
-    return 2.0 * static_cast<double>(plan.member_count()) +
-           static_cast<double>(plan.cases.size()) * (3.0 * leads + 12.0);
+    // per case the curves against lead (mean and std of the log separation, the unseparated
+    // share) and a dozen scalars; the per-member datasets are counted with the others
+    return static_cast<double>(plan.cases.size()) * (3.0 * leads + 12.0);
   }
   return (leads + 4.0 * plan.state_dim) * plan.batch_size + batches * 3.0 * leads;
 }
@@ -265,6 +265,7 @@ int check_command(const CheckOptions& options) {
   }
   const spec::Spec spec = spec::load_spec(options.spec_path);
   const plan::Plan plan = plan::make_plan(spec);
+  plan::check_member_output(spec, plan);
   if (options.pilot) check_pilot_options(spec, plan, options.pilot_options);
   const double cases = static_cast<double>(plan.cases.size());
   const double members = static_cast<double>(plan.member_count());
@@ -299,7 +300,8 @@ int check_command(const CheckOptions& options) {
              trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim +
              twin_doubles(plan, share, false) + snapshot_doubles_per_rank(plan, share));
   const double archive_bytes =
-      8.0 * (members * per_member_doubles(plan) + trajectory_doubles(plan) +
+      plan::member_bytes(plan, plan.archived_members) +
+      8.0 * (trajectory_doubles(plan) +
              twin_doubles(plan, 0.0, true) +
              cases * plan.snapshot_count *
                  (2.0 * plan.observables.size() + plan.regime_labels.size())) +
@@ -312,6 +314,15 @@ int check_command(const CheckOptions& options) {
     std::printf("  snapshots      %lld times per case, every %g from t = %g\n",
                 static_cast<long long>(plan.snapshot_count), spec.statistics.snapshots.every,
                 static_cast<double>(plan.spinup_steps) * spec.integration.dt);
+  }
+  if (plan.archived_members == plan.members) {
+    std::printf("  member output  every member's own results (output.members: all)\n");
+  } else if (plan.archived_members == 0) {
+    std::printf("  member output  none: ensemble estimates only (output.members: none)\n");
+  } else {
+    std::printf("  member output  the first %lld members of each case (output.members: "
+                "{sample: %lld})\n", static_cast<long long>(plan.archived_members),
+                static_cast<long long>(plan.archived_members));
   }
   std::printf("  memory         about %s per rank\n", bytes_text(per_rank_bytes).c_str());
   std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());

@@ -23,6 +23,7 @@
 #include "core/error.hpp"
 #include "parallel/communicator.hpp"
 #include "parallel/reduce.hpp"
+#include "plan/member_output.hpp"
 #include "plan/plan.hpp"
 #include "spec/load.hpp"
 
@@ -72,8 +73,10 @@ std::string spec_where(const spec::Spec& spec, spec::Location at, const std::str
 }
 
 /// The archive path the run writes, checked before any work: its directory must exist and be
-/// writable, and an existing archive is replaced only with --overwrite.
-std::string checked_archive_path(const spec::Spec& spec, const RunOptions& options) {
+/// writable, and an existing archive is replaced only with --overwrite (with --resume the
+/// caller first checks whether it is this campaign's complete archive).
+std::string checked_archive_path(const spec::Spec& spec, const RunOptions& options,
+                                 std::string& exists_error) {
   const bool from_spec = options.archive.empty();
   const std::string path = from_spec ? spec.output.archive : options.archive;
   const std::string where =
@@ -88,8 +91,10 @@ std::string checked_archive_path(const spec::Spec& spec, const RunOptions& optio
     throw UsageError(where + "directory `" + dir.string() + "` is not writable");
   }
   if (fs::is_directory(path, ec)) throw UsageError(where + "`" + path + "` is a directory");
+  exists_error.clear();
   if (fs::exists(path, ec) && !options.overwrite) {
-    throw UsageError(where + "archive `" + path + "` exists; pass --overwrite to replace it");
+    exists_error = where + "archive `" + path + "` exists; pass --overwrite to replace it";
+    if (!options.resume) throw UsageError(exists_error);
   }
   return path;
 }
@@ -142,14 +147,13 @@ bool check_checkpoints(const spec::Spec& spec, const RunOptions& options,
   return false;
 }
 
-/// A campaign whose archive is already complete (a requeued job finishing a second time).
+/// A campaign whose archive is already complete: `--resume` of a job requeued after it
+/// finished, or killed between sealing the archive and removing its checkpoints. The archive
+/// must be sealed, complete and made from this very spec.
 bool already_complete(const spec::Spec& spec, const std::string& archive_path,
-                      const RunOptions& options, const checkpoint::Store& store) {
+                      const RunOptions& options) {
   std::error_code ec;
-  if (!options.resume || options.overwrite || store.has_content() ||
-      !fs::exists(archive_path, ec)) {
-    return false;
-  }
+  if (!options.resume || options.overwrite || !fs::exists(archive_path, ec)) return false;
   try {
     const archive::ArchiveSummary s = archive::read_summary(archive_path);
     return s.status == "complete" && s.spec_sha256 == spec.sha256;
@@ -304,6 +308,28 @@ void log_rate(const parallel::Communicator& comm, const plan::Plan& plan, const 
                integrated, seconds, integrated / seconds, comm.size(), restored);
 }
 
+/// A campaign in which some case kept no valid member has no estimate for it: the archive is
+/// written, but the run fails (exit 1, one line naming the cases) so that a dependent job does
+/// not go on as if every case had results.
+int report_empty_cases(const parallel::Communicator& comm, const spec::Spec& spec,
+                       const plan::Plan& plan, const parallel::EnsembleResults& e) {
+  std::string cases;
+  std::size_t count = 0;
+  for (std::size_t c = 0; c < e.valid_members.size(); ++c) {
+    if (e.valid_members[c] > 0) continue;
+    if (++count <= 5) cases += (cases.empty() ? "" : "; ") + plan::describe_case(spec, plan.cases[c]);
+  }
+  if (count == 0) return kExitComplete;
+  if (count > 5) cases += fmt::format("; and {} more", count - 5);
+  if (comm.rank() == 0) {
+    print_error(fmt::format("{} of {} cases kept no valid member (every member became "
+                            "non-finite; a smaller dt?), so they have no estimates: {}",
+                            count, plan.cases.size(), cases),
+                0, 1);
+  }
+  return kExitFailure;
+}
+
 }  // namespace
 
 /// Warns (rank 0) about cases whose estimates need care: non-chaotic cases, and twin pairs of
@@ -344,18 +370,32 @@ int run_command(const RunOptions& options) {
   std::unique_ptr<checkpoint::Store> store;
   bool complete = false, discard = false;
   const ProgressMode mode = parse_progress_mode(options.progress);
-  if (int code = agree(comm, [&] { spec = spec::load_spec(options.spec_path); })) return code;
   if (int code = agree(comm, [&] {
-        archive_path = checked_archive_path(spec, options);
+        spec = spec::load_spec(options.spec_path);
+        plan::check_member_output(spec, plan::make_plan(spec));
+      })) {
+    return code;
+  }
+  if (int code = agree(comm, [&] {
+        std::string exists_error;
+        archive_path = checked_archive_path(spec, options, exists_error);
         store = std::make_unique<checkpoint::Store>(checkpoint_directory(spec, archive_path),
                                                     spec.sha256);
-        complete = already_complete(spec, archive_path, options, *store);
+        complete = already_complete(spec, archive_path, options);
+        if (!complete && !exists_error.empty()) throw UsageError(exists_error);
         if (!complete) discard = check_checkpoints(spec, options, *store);
       })) {
     return code;
   }
   if (complete) {
-    if (comm.rank() == 0) spdlog::info("archive {} is already complete", archive_path);
+    if (comm.rank() == 0) {
+      // checkpoints of this very spec are leftovers of the finished run; another spec's stay
+      const std::string stored = store->has_content() ? store->stored_spec() : std::string();
+      const bool leftovers = store->has_content() && (stored.empty() || stored == spec.text);
+      if (leftovers) store->remove_all();
+      spdlog::info("the campaign is complete: archive {} holds its results{}; nothing to do",
+                   archive_path, leftovers ? " (its leftover checkpoints were removed)" : "");
+    }
     return kExitComplete;
   }
 
@@ -422,7 +462,7 @@ int run_command(const RunOptions& options) {
     if (comm.rank() == 0) {
       spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
     }
-    return kExitComplete;
+    return report_empty_cases(comm, spec, plan, ensemble);
   } catch (const Error& e) {
     if (!discard_unsaved(*store, !resuming)) throw;
     throw Error(std::string(e.what()) + " (no batch had finished; " + store->directory() +

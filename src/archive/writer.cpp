@@ -110,11 +110,11 @@ class GroupWriter {
 
   /// Creates the table's dataset `name` of this group with `shape`, its attributes and scales.
   h5::Dataset dataset(const std::string& name, const Dims& shape,
-                      const std::string& schema_path = "") {
+                      const std::string& schema_path = "", const h5::Storage& storage = {}) {
     const Quantity& def = results::at_path(schema_path.empty() ? prefix_ + name : schema_path);
     std::optional<double> fill;
     if (def.type == ElementType::float64) fill = NAN;
-    h5::Dataset d = group_.create_dataset(name, h5_type(def.type), shape, fill);
+    h5::Dataset d = group_.create_dataset(name, h5_type(def.type), shape, fill, storage);
     describe(d, def.units, def.long_name);
     for (unsigned axis = 0; axis < def.dims.size(); ++axis) {
       d.attach_scale(scales_.at(def.dims[axis]), axis);
@@ -172,17 +172,29 @@ std::array<RowBlock, 3> split_rows(std::int64_t g0, std::int64_t g1, std::int64_
   return blocks;
 }
 
-/// This rank's member rows, concatenated in batch order, written into a (case, member, ...)
-/// dataset. `trailing` are the extents after the member dimension.
+/// Members of batch `b` that the archive keeps: the first plan.archived_members of each case.
+int kept_rows(const plan::Plan& plan, const run::BatchResult& b) {
+  const std::int64_t kept = plan.archived_members - b.first_member;
+  return static_cast<int>(std::clamp<std::int64_t>(kept, 0, b.count));
+}
+
+/// This rank's kept member rows, concatenated in batch order, written into a (case, member, ...)
+/// dataset of plan.archived_members members per case. `trailing` are the extents after the
+/// member dimension. A rank's batches are consecutive, so its kept rows are one contiguous
+/// range of flat indices case * archived_members + member.
 class MemberRows {
  public:
   MemberRows(const plan::Plan& plan, const std::vector<run::BatchResult>& local) {
-    if (!local.empty()) {
-      g0_ = local.front().case_index * plan.members + local.front().first_member;
-      const run::BatchResult& last = local.back();
-      g1_ = last.case_index * plan.members + last.first_member + last.count;
+    const std::int64_t M = plan.archived_members;
+    bool first = true;
+    for (const run::BatchResult& b : local) {
+      const int kept = kept_rows(plan, b);
+      if (kept == 0) continue;
+      if (first) g0_ = b.case_index * M + b.first_member;
+      first = false;
+      g1_ = b.case_index * M + b.first_member + kept;
     }
-    blocks_ = split_rows(g0_, g1_, plan.members);
+    if (M > 0) blocks_ = split_rows(g0_, g1_, M);
   }
 
   template <class T>
@@ -203,13 +215,17 @@ class MemberRows {
   std::array<RowBlock, 3> blocks_{};
 };
 
-/// Concatenates one per-member array of every local batch.
+/// Concatenates the kept rows of one per-member array of every local batch.
 template <class T>
-std::vector<T> gather(const std::vector<run::BatchResult>& local, const Quantity& q) {
+std::vector<T> gather(const plan::Plan& plan, const std::vector<run::BatchResult>& local,
+                      const Quantity& q) {
   std::vector<T> out;
   for (const run::BatchResult& b : local) {
     const std::vector<T>& v = results::array_of<T>(b, q);
-    out.insert(out.end(), v.begin(), v.end());
+    if (b.count == 0) continue;
+    const std::size_t width = v.size() / static_cast<std::size_t>(b.count);
+    const auto kept = static_cast<std::ptrdiff_t>(width * static_cast<std::size_t>(kept_rows(plan, b)));
+    out.insert(out.end(), v.begin(), v.begin() + kept);
   }
   return out;
 }
@@ -275,7 +291,7 @@ void make_scale(GroupWriter& g, const std::string& group, const std::string& dim
   if (dim == "case") {
     g.cases(in.spec, plan, group == "case" ? own_name() : long_name);
   } else if (dim == "member") {
-    g.coordinate(dim, iota(plan.members), long_name);
+    g.coordinate(dim, iota(plan.archived_members), long_name);
   } else if (dim == "sample") {
     g.coordinate(dim, iota(plan.trajectory_members), long_name);
   } else if (dim == "state" || dim == "variable") {
@@ -344,6 +360,30 @@ void write_whole(h5::Dataset& d, const Quantity& q, const Dims& shape, const std
   }
 }
 
+/// Bytes of one chunk of a per-member or trajectory dataset, at most (common practice for
+/// chunked HDF5 data read whole: chunks of about a megabyte).
+constexpr std::uint64_t kChunkBytes = 1u << 20;
+
+/// Per-member and trajectory datasets are stored in chunks of one case and about kChunkBytes
+/// of consecutive members (whole rows while they fit), deflated at output.compression's level
+/// after shuffling; the other datasets are small and contiguous.
+h5::Storage storage_of(const Quantity& q, const Dims& shape, const spec::Spec& spec) {
+  const bool rows = q.scope == results::Scope::member || q.scope == results::Scope::batch;
+  if (!rows || shape.size() < 2 || h5::element_count(shape) == 0) return {};
+  const std::uint64_t element = q.type == ElementType::uint8 ? 1 : 8;
+  h5::Storage storage;
+  storage.chunk = shape;
+  storage.chunk[0] = 1;
+  for (std::size_t d = 1; d < shape.size(); ++d) {
+    std::uint64_t rest = element;
+    for (std::size_t e = d + 1; e < shape.size(); ++e) rest *= storage.chunk[e];
+    if (rest * storage.chunk[d] <= kChunkBytes) break;
+    storage.chunk[d] = std::max<std::uint64_t>(1, kChunkBytes / rest);
+  }
+  storage.deflate = spec.output.compression;
+  return storage;
+}
+
 /// Writes one quantity of the table into its group (its scales already exist).
 void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
   const bool own_scale = q.dims.size() == 1 && q.dims[0] == q.leaf();
@@ -358,15 +398,18 @@ void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
     return;
   }
   Dims shape;
-  for (const std::string& dim : q.dims) shape.push_back(in.plan.extent(dim));
-  h5::Dataset d = g.dataset(q.leaf(), shape);
+  for (const std::string& dim : q.dims) {
+    shape.push_back(dim == "member" ? static_cast<std::uint64_t>(in.plan.archived_members)
+                                    : in.plan.extent(dim));
+  }
+  h5::Dataset d = g.dataset(q.leaf(), shape, "", storage_of(q, shape, in.spec));
   switch (q.scope) {
     case results::Scope::member: {
       const Dims trailing(shape.begin() + 2, shape.end());
       switch (q.type) {
-        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.local, q)); break;
-        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.local, q)); break;
-        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.local, q)); break;
+        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.plan, in.local, q)); break;
+        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.plan, in.local, q)); break;
+        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.plan, in.local, q)); break;
         case ElementType::text: throw std::logic_error("text per member: " + q.path);
       }
       break;
@@ -389,11 +432,18 @@ void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
   }
 }
 
-/// Every group of the table that has a present quantity, in table order, with its quantities.
+/// Whether the archive holds `q`: archived, switched on, and for a per-member quantity only
+/// when output.members keeps some members.
+bool written(const Quantity& q, const plan::Plan& plan) {
+  if (!q.archived() || !q.present(plan.outputs)) return false;
+  return q.scope != results::Scope::member || plan.archived_members > 0;
+}
+
+/// Every group of the table that has a written quantity, in table order, with its quantities.
 void write_groups(h5::File& file, const Sources& in) {
   std::vector<std::string> groups;
   for (const Quantity& q : results::quantities()) {
-    if (!q.archived() || !q.present(in.plan.outputs)) continue;
+    if (!written(q, in.plan)) continue;
     if (std::find(groups.begin(), groups.end(), q.group()) == groups.end()) {
       groups.push_back(q.group());
     }
@@ -401,7 +451,7 @@ void write_groups(h5::File& file, const Sources& in) {
   for (const std::string& group : groups) {
     GroupWriter g(file, group);
     for (const Quantity& q : results::quantities()) {
-      if (!q.archived() || q.group() != group || !q.present(in.plan.outputs)) continue;
+      if (q.group() != group || !written(q, in.plan)) continue;
       for (const std::string& dim : q.dims) {
         if (!g.has_scale(dim)) make_scale(g, group, dim, in);
       }

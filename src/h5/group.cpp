@@ -1,6 +1,8 @@
 // Groups: creating and opening members, existence tests, listing, netCDF-4 dimensions.
 #include "h5/group.hpp"
 
+#include <algorithm>
+
 #include <hdf5_hl.h>
 
 #include <cmath>
@@ -55,6 +57,32 @@ void set_fill(hid_t list, ElementType type, double fill, const std::string& what
     detail::check(H5Pset_fill_value(list, H5T_NATIVE_UINT8, &value), what, where);
   } else {
     detail::fail(what, where, "fill value is not representable as " + to_string(type));
+  }
+}
+
+/// Chunks (and compression) of a dataset-creation list. A chunk has as many dimensions as the
+/// dataset, each at least 1 and at most the dataset's extent.
+void set_storage(hid_t list, const Dims& shape, const Storage& storage, const std::string& what,
+                 const std::string& where) {
+  if (storage.chunk.size() != shape.size()) {
+    detail::fail(what, where, "a chunk of " + std::to_string(storage.chunk.size()) +
+                                  " dimensions for a dataset of " + std::to_string(shape.size()));
+  }
+  std::vector<hsize_t> chunk;
+  for (std::size_t i = 0; i < shape.size(); ++i) {
+    if (storage.chunk[i] == 0 || storage.chunk[i] > std::max<std::uint64_t>(shape[i], 1)) {
+      detail::fail(what, where, "chunk extent " + std::to_string(storage.chunk[i]) +
+                                    " outside 1 .. " + std::to_string(shape[i]));
+    }
+    chunk.push_back(static_cast<hsize_t>(storage.chunk[i]));
+  }
+  detail::check(H5Pset_chunk(list, static_cast<int>(chunk.size()), chunk.data()), what, where);
+  if (storage.deflate < 0 || storage.deflate > 9) {
+    detail::fail(what, where, "deflate level " + std::to_string(storage.deflate) + " outside 0-9");
+  }
+  if (storage.deflate > 0) {
+    detail::check(H5Pset_shuffle(list), what, where);
+    detail::check(H5Pset_deflate(list, static_cast<unsigned>(storage.deflate)), what, where);
   }
 }
 
@@ -114,7 +142,7 @@ std::vector<std::string> Group::members() const {
 }
 
 Dataset Group::create_dataset(const std::string& path, ElementType type, const Dims& shape,
-                              std::optional<double> fill) {
+                              std::optional<double> fill, const Storage& storage) {
   const std::string what = "creating " + to_string(type) + " dataset";
   const std::string where = child_where(path);
   require_relative(path, what, where);
@@ -124,6 +152,7 @@ Dataset Group::create_dataset(const std::string& path, ElementType type, const D
   Handle links = with_intermediate_groups(what, where);
   Handle creation(detail::check_id(H5Pcreate(H5P_DATASET_CREATE), what, where));
   if (fill) set_fill(creation.get(), type, *fill, what, where);
+  if (!storage.chunk.empty()) set_storage(creation.get(), shape, storage, what, where);
   Handle dataset(detail::check_id(
       H5Dcreate2(id(), path.c_str(), stored, space.get(), links.get(), creation.get(), H5P_DEFAULT),
       what, where));

@@ -31,12 +31,12 @@ class Group : public Object {
   /// Names of the direct members (groups and datasets), in name order.
   std::vector<std::string> members() const;
 
-  /// Creates a dataset of the given element type and shape (contiguous layout); missing
-  /// groups on its path are created. With `fill`, elements never written read as `fill`
-  /// (e.g. NaN for doubles); it must be representable in the element type, and strings take
-  /// no fill (unwritten strings read as empty).
+  /// Creates a dataset of the given element type and shape (contiguous layout unless
+  /// `storage` says otherwise); missing groups on its path are created. With `fill`, elements
+  /// never written read as `fill` (e.g. NaN for doubles); it must be representable in the
+  /// element type, and strings take no fill (unwritten strings read as empty).
   Dataset create_dataset(const std::string& path, ElementType type, const Dims& shape,
-                         std::optional<double> fill = std::nullopt);
+                         std::optional<double> fill = std::nullopt, const Storage& storage = {});
   Dataset open_dataset(const std::string& path) const;
 
   /// Creates a dimension named `name` of length `size` that has no coordinate values, in the

@@ -13,6 +13,14 @@ namespace chaosweep::h5 {
 /// (row-major, as in C). An empty Dims is the shape of a scalar dataset.
 using Dims = std::vector<std::uint64_t>;
 
+/// How a dataset's elements are stored: contiguous (no chunk), or in chunks of `chunk`
+/// elements per dimension, then with `deflate` 1-9 each chunk byte-shuffled and compressed
+/// (zlib). Chunked and compressed datasets are written collectively on parallel files.
+struct Storage {
+  Dims chunk;       // empty: contiguous
+  int deflate = 0;  // 0: not compressed (needs a chunk otherwise)
+};
+
 /// Number of elements in a block of shape `dims` (1 for a scalar, 0 if any extent is 0).
 std::size_t element_count(const Dims& dims);
 

@@ -9,6 +9,7 @@
 #include <stdexcept>
 
 #include "core/error.hpp"
+#include "plan/member_output.hpp"
 
 namespace chaosweep::plan {
 std::int64_t whole_steps(double span, double dt) {
@@ -117,6 +118,7 @@ Plan make_plan(const spec::Spec& spec) {
   const double dt = spec.integration.dt;
   plan.spinup_steps = whole_steps(spec.integration.spinup, dt);
   plan.accumulate_steps = whole_steps(spec.integration.duration, dt);
+  plan.archived_members = archived_members(spec.output, plan.members);
   const spec::Trajectories& traj = spec.output.trajectories;
   if (traj.members > 0) {
     plan.trajectory_members = static_cast<int>(std::min<std::int64_t>(traj.members, plan.members));

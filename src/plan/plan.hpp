@@ -55,6 +55,7 @@ struct Plan {
   std::int64_t trajectory_every_steps = 0;   // 0 when no trajectories
   std::int64_t trajectory_samples = 0;       // samples per stored member, t = 0 included
   int trajectory_members = 0;                // stored members per case (<= members)
+  std::int64_t archived_members = 0;         // members per case in /member/* (output.members)
   std::int64_t snapshot_every_steps = 0;     // 0 when no snapshots
   std::int64_t snapshot_count = 0;           // snapshot times per case: at steps
                                              // spinup_steps + k * snapshot_every_steps

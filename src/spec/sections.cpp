@@ -207,6 +207,7 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
   Ensemble& out = spec.ensemble;
   const Field members = map.required("members");
   out.members = members.integer_in(1, kMaxMembers);
+  out.members_where = members.where();
   check_sizes(members, spec, facts);
   if (map.has("initial_state")) {
     read_initial_state(map.get("initial_state"), facts, spec.integration.dt, out.initial);
@@ -228,12 +229,37 @@ void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spe
   if (map.has("snapshots")) read_snapshots(map.get("snapshots"), spec, out.snapshots);
 }
 
+/// output.members: `all`, `none` or {sample: N} with 1 <= N <= ensemble.members.
+void read_member_output(const Field& f, const Spec& spec, Output& out) {
+  if (!f.is_map()) {
+    const std::string value = f.string();
+    if (value != "all" && value != "none") {
+      f.fail("expected `all`, `none` or {sample: N}, got `" + value + "`");
+    }
+    out.members = value == "all" ? MemberOutput::all : MemberOutput::none;
+    return;
+  }
+  const Map map(f, {{"sample"}, {}, "key", ""});
+  const Field sample = map.required("sample");
+  out.member_sample = sample.integer_in(1, kMaxMembers);
+  if (out.member_sample > spec.ensemble.members) {
+    sample.fail("must be at most ensemble.members (" + std::to_string(spec.ensemble.members) +
+                "), got " + std::to_string(out.member_sample));
+  }
+  out.members = MemberOutput::sample;
+}
+
 void read_output(const Field& output, Spec& spec) {
-  const Map map(output, {{"archive", "trajectories"}, {}, "key", ""});
+  const Map map(output, {{"archive", "members", "compression", "trajectories"}, {}, "key", ""});
   const Field archive = map.required("archive");
   spec.output.archive = archive.string();
   if (spec.output.archive.empty()) archive.fail("must be a non-empty path");
   spec.output.archive_where = archive.where();
+  if (map.has("members")) read_member_output(map.get("members"), spec, spec.output);
+  if (map.has("compression")) {
+    const Map compression(map.get("compression"), {{"level"}, {}, "key", ""});
+    spec.output.compression = static_cast<int>(compression.required("level").integer_in(0, 9));
+  }
   if (map.has("trajectories")) {
     read_trajectories(map.get("trajectories"), spec, spec.output.trajectories);
   }

@@ -45,6 +45,7 @@ struct Perturbation {
 
 struct Ensemble {
   std::int64_t members = 0;  // per case, >= 1
+  Location members_where;    // for errors about the campaign's size
   InitialState initial;
   Perturbation perturbation;
   std::uint64_t seed = 0;
@@ -124,9 +125,19 @@ struct Trajectories {
   double every = 0.0;
 };
 
+/// Which members' own results (/member/*) the archive holds (`output.members`): every member,
+/// none, or the first `sample` members of every case. Ensemble estimates are the same whatever
+/// is chosen. Unset means all, allowed only up to kMaxMembersUnset members in the campaign.
+enum class MemberOutput { unset, all, none, sample };
+inline constexpr std::int64_t kMaxMembersUnset = 1000000;
+
 struct Output {
   std::string archive;  // path as written in the spec (relative to the working directory)
   Location archive_where;
+  MemberOutput members = MemberOutput::unset;
+  std::int64_t member_sample = 0;  // with MemberOutput::sample: members per case kept, >= 1
+  int compression = 0;  // output.compression.level: deflate 1-9 of the per-member and trajectory
+                        // datasets after shuffling; 0 stores them uncompressed
   Trajectories trajectories;
 };
 

@@ -101,6 +101,39 @@ for c in range(mean.shape[0]):
 print(f"ok: {bad.sum()} of {bad.size} members non-finite, excluded")
 PY
 
+# 3b. Every member of one case blows up (2 members, a huge perturbation; with this seed case 0
+#     loses both, case 1 keeps one): the archive is written, the run exits 1 with one line
+#     naming that case only, so that a dependent job does not go on.
+cat > empty-case.yaml <<'YAML'
+campaign: {name: one-case-without-members}
+model: {name: lorenz63, parameters: {forcing_direction: [0.6, 0.8, 0]}}
+sweep:
+  - {parameter: forcing, values: [0, 3]}
+ensemble:
+  members: 2
+  initial_state: {from: attractor, spinup: 10}
+  perturbation: {distribution: gaussian, scale: 60.0}
+  seed: 3
+integration: {dt: 0.09, spinup: 10, duration: 20}
+output: {archive: empty-case.h5}
+YAML
+"$mpiexec" -np 2 "$prog" run empty-case.yaml --progress none > empty-case.log 2>&1
+status=$?
+[ $status -eq 1 ] || fail "a case without valid members: exit $status, expected 1"
+[ "$(grep -c 'chaosweep: error' empty-case.log)" -eq 1 ] \
+  || fail "a case without valid members: not one error line: $(cat empty-case.log)"
+grep -q "chaosweep: error: 1 of 2 cases kept no valid member .*: case 0 (forcing 0)$" \
+  empty-case.log || fail "the error line does not name case 0 alone: $(grep error empty-case.log)"
+/usr/bin/python3 - empty-case.h5 <<'PY' || fail "the archive of a campaign with an empty case"
+import sys, h5py
+with h5py.File(sys.argv[1], "r") as f:
+    assert f.attrs["status"] in (b"complete", "complete"), f.attrs["status"]
+    status = f["member/status"][()]
+    valid = f["ensemble/valid_members"][()]
+assert list(valid) == list((status == 0).sum(axis=1)) == [0, 1], (valid, status)
+print("ok: archive written with case 0 empty; the run exited 1 naming it")
+PY
+
 # 4. Archives that cannot be read: truncated, damaged, edited, of a newer format version, not
 #    an archive. Each: exit 2 and one line (the archive's seal is checked before HDF5 opens it).
 refused() {  # refused FILE WHAT FRAGMENT: summary of FILE exits 2 with one line holding FRAGMENT
