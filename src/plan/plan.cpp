@@ -156,6 +156,29 @@ Plan make_plan(const spec::Spec& spec) {
   return plan;
 }
 
+std::int64_t Plan::batches_per_case() const {
+  if (members < 1 || batch_size < 1) return 0;
+  return (members + batch_size - 1) / batch_size;
+}
+
+std::int64_t Plan::batch_count() const {
+  return static_cast<std::int64_t>(cases.size()) * batches_per_case();
+}
+
+Batch Plan::batch(std::int64_t index) const {
+  if (index < 0 || index >= batch_count()) {
+    throw std::out_of_range("batch " + std::to_string(index) + " of a plan of " +
+                            std::to_string(batch_count()));
+  }
+  const std::int64_t per_case = batches_per_case();
+  Batch b;
+  b.index = index;
+  b.case_index = cases[static_cast<std::size_t>(index / per_case)].index;
+  b.first_member = (index % per_case) * batch_size;
+  b.count = static_cast<int>(std::min<std::int64_t>(batch_size, members - b.first_member));
+  return b;
+}
+
 std::uint64_t Plan::extent(const std::string& dim) const {
   const auto n = [](auto v) { return static_cast<std::uint64_t>(v); };
   if (dim == "case") return n(cases.size());
