@@ -60,23 +60,6 @@ std::string describe_case(const spec::Spec& spec, const Case& c) {
 
 namespace {
 
-std::vector<Batch> make_batches(std::int64_t n_cases, std::int64_t members, int batch_size) {
-  std::vector<Batch> batches;
-  const std::int64_t per_case = (members + batch_size - 1) / batch_size;
-  batches.reserve(static_cast<std::size_t>(n_cases * per_case));
-  for (std::int64_t c = 0; c < n_cases; ++c) {
-    for (std::int64_t b = 0; b < per_case; ++b) {
-      Batch batch;
-      batch.index = static_cast<std::int64_t>(batches.size());
-      batch.case_index = c;
-      batch.first_member = b * batch_size;
-      batch.count = static_cast<int>(std::min<std::int64_t>(batch_size, members - batch.first_member));
-      batches.push_back(batch);
-    }
-  }
-  return batches;
-}
-
 void select_observables(const spec::Spec& spec, const models::Model& model, Plan& plan) {
   const auto& all = model.observables();
   for (int i = 0; i < model.state_dim(); ++i) plan.state_names.push_back(all[i].name);
@@ -108,8 +91,6 @@ Plan make_plan(const spec::Spec& spec) {
   plan.cases = make_cases(spec);
   plan.members = spec.ensemble.members;
   plan.batch_size = spec.run.batch_size;
-  plan.batches = make_batches(static_cast<std::int64_t>(plan.cases.size()), plan.members,
-                              plan.batch_size);
   plan.state_dim = model->state_dim();
   select_observables(spec, *model, plan);
   plan.regime_labels = spec.statistics.regimes.labels;

@@ -2,7 +2,9 @@
 //
 // A case is one point of the sweep grid (cartesian product of the axes, the last axis varying
 // fastest). A batch is a block of at most batch_size consecutive members of one case; batches
-// are numbered case-major, and are the unit of scheduling, checkpointing and reduction.
+// are numbered case-major, and are the unit of scheduling, checkpointing and reduction. The
+// plan describes them arithmetically (Plan::batch), so its size does not grow with the
+// number of members.
 #pragma once
 
 #include <cstdint>
@@ -42,7 +44,6 @@ struct TwinTimes {
 struct Plan {
   const models::ModelInfo* model = nullptr;  // the spec's model in the registry
   std::vector<Case> cases;
-  std::vector<Batch> batches;
   std::int64_t members = 0;  // per case
   int batch_size = 0;        // width every batch is integrated at
   int state_dim = 0;
