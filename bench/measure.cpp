@@ -57,8 +57,8 @@ double production_rate(const spec::Spec& spec) {
   const run::CaseRunner runner(spec, plan, plan.cases[0]);
   std::int64_t member_steps = 0;
   double seconds = 0.0;
-  for (const plan::Batch& batch : plan.batches) {
-    if (batch.case_index != 0) continue;
+  for (std::int64_t index = 0; index < plan.batches_per_case(); ++index) {  // case 0's batches
+    const plan::Batch batch = plan.batch(index);
     const std::unique_ptr<run::BatchProgress> progress = runner.start(batch);
     const double start = thread_cpu_seconds();
     progress->advance(progress->total_steps());

@@ -95,11 +95,11 @@ struct Calibration {
 constexpr double kCalibrationSeconds = 0.2;  // aim of the timed piece
 constexpr std::int64_t kFirstPieceSteps = 200;
 
-/// The campaign's plan cut to `steps` steps of its first batch, spin-up and accumulation in the
-/// campaign's proportions (at least one accumulated step), with every statistic at the spec's
-/// own spacing: snapshots, twin leads and trajectory samples keep their step intervals, so the
-/// piece has the same events per step as the campaign. Lyapunov exponents, the histogram,
-/// regimes and a schedule come with the spec.
+/// The campaign's plan cut to `steps` steps of its first batch, which is the piece's only batch
+/// (batch(0)), spin-up and accumulation in the campaign's proportions (at least one accumulated
+/// step), with every statistic at the spec's own spacing: snapshots, twin leads and trajectory
+/// samples keep their step intervals, so the piece has the same events per step as the
+/// campaign. Lyapunov exponents, the histogram, regimes and a schedule come with the spec.
 plan::Plan calibration_plan(const plan::Plan& plan, std::int64_t steps) {
   plan::Plan p = plan;
   const std::int64_t total = plan.total_steps();
@@ -114,7 +114,8 @@ plan::Plan calibration_plan(const plan::Plan& plan, std::int64_t steps) {
     p.trajectory_samples = p.total_steps() / p.trajectory_every_steps + 1;
   }
   p.cases = {plan.cases.front()};
-  p.batches = {plan.batches.front()};
+  p.members = plan.batch(0).count;
+  p.trajectory_members = static_cast<int>(std::min<std::int64_t>(p.trajectory_members, p.members));
   return p;
 }
 
@@ -124,7 +125,7 @@ plan::Plan calibration_plan(const plan::Plan& plan, std::int64_t steps) {
 double time_piece(const spec::Spec& spec, const plan::Plan& piece) {
   const run::CaseRunner runner(spec, piece, piece.cases.front());
   const auto start = std::chrono::steady_clock::now();
-  run::BatchResult result = runner.run(piece.batches.front());
+  run::BatchResult result = runner.run(piece.batch(0));
   run::add_lyapunov(spec, piece, result);
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
@@ -270,7 +271,7 @@ int check_command(const CheckOptions& options) {
   const double cases = static_cast<double>(plan.cases.size());
   const double members = static_cast<double>(plan.member_count());
   const double member_steps = members * plan.total_steps();
-  const std::int64_t n_batches = static_cast<std::int64_t>(plan.batches.size());
+  const std::int64_t n_batches = plan.batch_count();
   const plan::Range widest = plan::share(n_batches, 0, options.ranks);
   const double share = static_cast<double>(widest.last - widest.first);
 

@@ -66,8 +66,8 @@ std::int64_t LocalWork::finished_count() const {
   return std::count_if(results_.begin(), results_.end(), [](const auto& r) { return r.has_value(); });
 }
 
-const plan::Batch& LocalWork::batch_at(std::size_t i) const {
-  return plan_.batches[static_cast<std::size_t>(share_.first) + i];
+plan::Batch LocalWork::batch_at(std::size_t i) const {
+  return plan_.batch(share_.first + static_cast<std::int64_t>(i));
 }
 
 SpecError spinup_error(const spec::Spec& spec, const plan::Case& c,
@@ -112,7 +112,7 @@ void LocalWork::start_next() {
   std::size_t i = 0;
   while (i < results_.size() && results_[i]) ++i;
   if (i == results_.size()) return;
-  const plan::Batch& batch = batch_at(i);
+  const plan::Batch batch = batch_at(i);
   in_case(i, [&] {
     if (batch.case_index != runner_case_) {
       runner_.reset();

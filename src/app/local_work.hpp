@@ -22,7 +22,8 @@ SpecError spinup_error(const spec::Spec& spec, const plan::Case& c, const run::S
 
 class LocalWork {
  public:
-  /// `store` may be null (no checkpoints). The batches are plan.batches[share.first, share.last).
+  /// `store` may be null (no checkpoints). The batches are plan.batch(i) for i in
+  /// [share.first, share.last).
   LocalWork(const spec::Spec& spec, const plan::Plan& plan, plan::Range share,
             const checkpoint::Store* store);
 
@@ -56,7 +57,7 @@ class LocalWork {
   std::int64_t integrated_member_steps() const { return integrated_member_steps_; }
 
  private:
-  const plan::Batch& batch_at(std::size_t i) const;  // the batch at local index i
+  plan::Batch batch_at(std::size_t i) const;  // the batch at local index i
   void start_next();
   void advance_current(std::int64_t steps);
   void finish_current();

@@ -136,7 +136,8 @@ spec::Spec pilot_spec(const spec::Spec& spec, double dt) {
   return s;
 }
 
-/// The campaign's plan cut down to `members` members of case `c` on timeline `t`.
+/// The campaign's plan cut down to `members` members of case `c` on timeline `t`; its batches
+/// (plan::Plan::batch) carry c's index.
 plan::Plan pilot_plan(const plan::Plan& plan, const plan::Case& c, int members, const Timeline& t) {
   plan::Plan p = plan;
   p.cases = {c};
@@ -147,15 +148,6 @@ plan::Plan pilot_plan(const plan::Plan& plan, const plan::Case& c, int members, 
   p.trajectory_members = 0;
   p.trajectory_every_steps = 0;
   p.trajectory_samples = 0;
-  p.batches.clear();
-  for (std::int64_t first = 0; first < members; first += p.batch_size) {
-    plan::Batch b;
-    b.index = static_cast<std::int64_t>(p.batches.size());
-    b.case_index = c.index;
-    b.first_member = first;
-    b.count = static_cast<int>(std::min<std::int64_t>(p.batch_size, members - first));
-    p.batches.push_back(b);
-  }
   return p;
 }
 
@@ -169,7 +161,8 @@ MemberStats run_members(const spec::Spec& spec, const plan::Plan& p, PilotProgre
       p.model->make(p.cases.front().parameters);
   MemberStats out;
   const std::int64_t chunk = std::max<std::int64_t>(1, p.total_steps() / 50);
-  for (const plan::Batch& batch : p.batches) {
+  for (std::int64_t index = 0; index < p.batch_count(); ++index) {
+    const plan::Batch batch = p.batch(index);
     const auto work = runner.start(batch);
     while (!work->done()) {
       const std::int64_t before = work->step();
@@ -277,7 +270,7 @@ PilotResult run_all(const spec::Spec& spec, const plan::Plan& plan, const PilotO
   result.window = static_cast<double>(coarse.accumulate_steps) * dt;
 
   const plan::Plan first = pilot_plan(plan, result.cases.front(), options.members, coarse);
-  const double per_case = static_cast<double>(first.batches.size()) * first.batch_size *
+  const double per_case = static_cast<double>(first.batch_count()) * first.batch_size *
                           (coarse.spinup_steps + coarse.accumulate_steps) * 3.0;
   PilotProgress progress(per_case * static_cast<double>(result.cases.size()), rate);
 

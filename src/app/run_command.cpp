@@ -234,7 +234,7 @@ void log_checkpoint_cost(const parallel::Communicator& comm, const checkpoint::S
 
 void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks) {
   spdlog::info("campaign `{}`: model {}, {} cases x {} members, {} batches of {} on {} ranks",
-               spec.name, spec.model, plan.cases.size(), plan.members, plan.batches.size(),
+               spec.name, spec.model, plan.cases.size(), plan.members, plan.batch_count(),
                plan.batch_size, ranks);
 }
 
@@ -401,8 +401,7 @@ int run_command(const RunOptions& options) {
 
   const plan::Plan plan = plan::make_plan(spec);
   if (comm.rank() == 0) log_plan(spec, plan, comm.size());
-  const plan::Range share = plan::share(static_cast<std::int64_t>(plan.batches.size()),
-                                        comm.rank(), comm.size());
+  const plan::Range share = plan::share(plan.batch_count(), comm.rank(), comm.size());
   LocalWork work(spec, plan, share, store.get());
   std::int64_t generation = 1;
   const bool resuming = options.resume && store->has_content();

@@ -104,7 +104,7 @@ double checkpoint_bytes_estimate(const spec::Spec& spec, const plan::Plan& plan)
   const double histogram = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
   const double per_member = 4.0 * plan.state_dim + 4.0 * plan.observables.size() +
                             4.0 * plan.regime_labels.size() + histogram + 8.0;
-  const double members = static_cast<double>(plan.batches.size()) * plan.batch_size;
+  const double members = static_cast<double>(plan.batch_count()) * plan.batch_size;
   const double trajectories = static_cast<double>(plan.cases.size()) * plan.trajectory_members *
                               plan.trajectory_samples * plan.state_dim;
   return 8.0 * (members * per_member + trajectories);

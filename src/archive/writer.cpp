@@ -335,7 +335,8 @@ void write_trajectories(h5::Dataset& d, const Sources& in) {
   const std::uint64_t samples = in.plan.trajectory_samples, dim = in.plan.state_dim;
   std::map<std::int64_t, const run::BatchResult*> mine;
   for (const run::BatchResult& b : in.local) mine[b.batch_index] = &b;
-  for (const plan::Batch& batch : in.plan.batches) {
+  for (std::int64_t index = 0; index < in.plan.batch_count(); ++index) {
+    const plan::Batch batch = in.plan.batch(index);
     if (batch.first_member >= in.plan.trajectory_members) continue;
     const auto it = mine.find(batch.index);
     const run::BatchResult* b = it == mine.end() ? nullptr : it->second;

@@ -145,7 +145,8 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   std::vector<stats::Moments> moments(n_cases * columns);
   EnsembleResults r;
   r.histogram.assign(n_cases * bins, 0);
-  for (const plan::Batch& b : plan.batches) {
+  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
+    const plan::Batch b = plan.batch(index);
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     const std::size_t c = static_cast<std::size_t>(b.case_index);
     for (std::size_t k = 0; k < columns; ++k, p += kMomentWidth) {

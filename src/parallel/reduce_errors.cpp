@@ -40,7 +40,8 @@ void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
 
   // sums[case][observable], merged in batch order
   std::vector<stats::MemberErrorSums> sums(n_cases * static_cast<std::size_t>(n_obs));
-  for (const plan::Batch& b : plan.batches) {
+  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
+    const plan::Batch b = plan.batch(index);
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     for (int o = 0; o < n_obs; ++o, p += kSums) {
       sums[static_cast<std::size_t>(b.case_index) * n_obs + o].merge(p);

@@ -80,7 +80,8 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
       summarise_twins(local, lead, spec.statistics.twins.threshold));
 
   std::vector<stats::TwinPartials> cases(n_cases, stats::TwinPartials(leads));
-  for (const plan::Batch& b : plan.batches) {
+  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
+    const plan::Batch b = plan.batch(index);
     const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
     stats::TwinPartials& c = cases[static_cast<std::size_t>(b.case_index)];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {

@@ -30,7 +30,8 @@ void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const pl
   const std::size_t per_batch = times * n_obs * 3, per_batch_counts = times * n_reg;
   std::vector<stats::Moments> merged(n_cases * times * n_obs);
   std::vector<std::int64_t> members(n_cases * times * n_reg, 0);
-  for (const plan::Batch& b : plan.batches) {
+  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
+    const plan::Batch b = plan.batch(index);
     const std::size_t c = static_cast<std::size_t>(b.case_index);
     const double* p = moments.data() + static_cast<std::size_t>(b.index) * per_batch;
     for (std::size_t i = 0; i < times * n_obs; ++i, p += 3) {

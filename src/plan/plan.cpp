@@ -61,23 +61,6 @@ std::string describe_case(const spec::Spec& spec, const Case& c) {
 
 namespace {
 
-std::vector<Batch> make_batches(std::int64_t n_cases, std::int64_t members, int batch_size) {
-  std::vector<Batch> batches;
-  const std::int64_t per_case = (members + batch_size - 1) / batch_size;
-  batches.reserve(static_cast<std::size_t>(n_cases * per_case));
-  for (std::int64_t c = 0; c < n_cases; ++c) {
-    for (std::int64_t b = 0; b < per_case; ++b) {
-      Batch batch;
-      batch.index = static_cast<std::int64_t>(batches.size());
-      batch.case_index = c;
-      batch.first_member = b * batch_size;
-      batch.count = static_cast<int>(std::min<std::int64_t>(batch_size, members - batch.first_member));
-      batches.push_back(batch);
-    }
-  }
-  return batches;
-}
-
 void select_observables(const spec::Spec& spec, const models::Model& model, Plan& plan) {
   const auto& all = model.observables();
   for (int i = 0; i < model.state_dim(); ++i) plan.state_names.push_back(all[i].name);
@@ -109,8 +92,6 @@ Plan make_plan(const spec::Spec& spec) {
   plan.cases = make_cases(spec);
   plan.members = spec.ensemble.members;
   plan.batch_size = spec.run.batch_size;
-  plan.batches = make_batches(static_cast<std::int64_t>(plan.cases.size()), plan.members,
-                              plan.batch_size);
   plan.state_dim = model->state_dim();
   select_observables(spec, *model, plan);
   plan.regime_labels = spec.statistics.regimes.labels;
@@ -156,6 +137,29 @@ Plan make_plan(const spec::Spec& spec) {
   out.snapshots = plan.snapshot_count > 0;
   out.trajectories = plan.trajectory_members > 0;
   return plan;
+}
+
+std::int64_t Plan::batches_per_case() const {
+  if (members < 1 || batch_size < 1) return 0;
+  return (members + batch_size - 1) / batch_size;
+}
+
+std::int64_t Plan::batch_count() const {
+  return static_cast<std::int64_t>(cases.size()) * batches_per_case();
+}
+
+Batch Plan::batch(std::int64_t index) const {
+  if (index < 0 || index >= batch_count()) {
+    throw std::out_of_range("batch " + std::to_string(index) + " of a plan of " +
+                            std::to_string(batch_count()));
+  }
+  const std::int64_t per_case = batches_per_case();
+  Batch b;
+  b.index = index;
+  b.case_index = cases[static_cast<std::size_t>(index / per_case)].index;
+  b.first_member = (index % per_case) * batch_size;
+  b.count = static_cast<int>(std::min<std::int64_t>(batch_size, members - b.first_member));
+  return b;
 }
 
 std::uint64_t Plan::extent(const std::string& dim) const {

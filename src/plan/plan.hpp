@@ -2,7 +2,9 @@
 //
 // A case is one point of the sweep grid (cartesian product of the axes, the last axis varying
 // fastest). A batch is a block of at most batch_size consecutive members of one case; batches
-// are numbered case-major, and are the unit of scheduling, checkpointing and reduction.
+// are numbered case-major, and are the unit of scheduling, checkpointing and reduction. The
+// plan describes them arithmetically (Plan::batch), so its size does not grow with the
+// number of members.
 #pragma once
 
 #include <cstdint>
@@ -42,7 +44,6 @@ struct TwinTimes {
 struct Plan {
   const models::ModelInfo* model = nullptr;  // the spec's model in the registry
   std::vector<Case> cases;
-  std::vector<Batch> batches;
   std::int64_t members = 0;  // per case
   int batch_size = 0;        // width every batch is integrated at
   int state_dim = 0;
@@ -69,6 +70,15 @@ struct Plan {
 
   std::int64_t total_steps() const { return spinup_steps + accumulate_steps; }
   std::int64_t member_count() const { return members * static_cast<std::int64_t>(cases.size()); }
+  /// Batches of one case: ceil(members / batch_size) (0 when either is below 1).
+  std::int64_t batches_per_case() const;
+  /// Batches of the campaign: cases x batches_per_case().
+  std::int64_t batch_count() const;
+  /// Batch `index` of [0, batch_count()), computed, with p = batches_per_case():
+  ///   case_index = cases[index / p].index, first_member = (index % p) * batch_size,
+  ///   count = min(batch_size, members - first_member).
+  /// Throws std::out_of_range for an index outside that range.
+  Batch batch(std::int64_t index) const;
   /// The size of archive dimension `dim` (results/table.hpp) in this campaign; throws
   /// std::logic_error for a dimension the table does not define.
   std::uint64_t extent(const std::string& dim) const;

@@ -314,8 +314,8 @@ void expect_extremes_of_reintegration(const spec::Spec& s, run::KernelKind expec
   const double dt = s.integration.dt;
   ASSERT_EQ(kernel_of(s, plan, *model), expected);
   int checked = 0;
-  for (const plan::Batch& b : plan.batches) {
-    if (b.case_index != 0) continue;
+  for (std::int64_t index = 0; index < plan.batches_per_case(); ++index) {  // case 0's batches
+    const plan::Batch b = plan.batch(index);
     const run::BatchResult r = runner.run(b);
     ASSERT_EQ(r.extreme_min.size(), static_cast<std::size_t>(r.count) * n_obs);
     for (int j = 0; j < r.count; ++j) {
@@ -411,8 +411,8 @@ TEST(ExtremesOfABatch, NonFiniteMembersGiveNaN) {
   const plan::Plan plan = plan::make_plan(s);
   const run::CaseRunner runner(s, plan, plan.cases[0]);
   int flagged = 0, valid = 0;
-  for (const plan::Batch& b : plan.batches) {
-    const run::BatchResult r = runner.run(b);
+  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
+    const run::BatchResult r = runner.run(plan.batch(index));
     const std::size_t n = plan.observable_index.size();
     for (int j = 0; j < r.count; ++j) {
       for (std::size_t o = 0; o < n; ++o) {

@@ -71,7 +71,9 @@ Campaign run_at_width(spec::Spec s, int width) {
   s.run.batch_size = width;
   Campaign r{plan::make_plan(s), run::KernelKind::generic, {}};
   const run::CaseRunner runner(s, r.plan, r.plan.cases[0]);
-  for (const plan::Batch& b : r.plan.batches) r.batches.push_back(runner.run(b));
+  for (std::int64_t index = 0; index < r.plan.batch_count(); ++index) {
+    r.batches.push_back(runner.run(r.plan.batch(index)));
+  }
   const auto model = make_model(s.model, s.parameters);
   run::Setup setup;
   setup.model = s.model;

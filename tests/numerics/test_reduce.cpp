@@ -29,7 +29,8 @@ Campaign small_campaign() {
   c.plan = plan::make_plan(c.spec);
   for (const plan::Case& k : c.plan.cases) {
     const run::CaseRunner runner(c.spec, c.plan, k);
-    for (const plan::Batch& b : c.plan.batches) {
+    for (std::int64_t index = 0; index < c.plan.batch_count(); ++index) {
+      const plan::Batch b = c.plan.batch(index);
       if (b.case_index == k.index) c.batches.push_back(runner.run(b));
     }
   }

@@ -250,7 +250,7 @@ TEST(ScheduledRk4, CampaignTrajectoriesFollowTheRampClosedForm) {
   s.run.batch_size = 8;
   const plan::Plan plan = plan::make_plan(s);
   const run::CaseRunner runner(s, plan, plan.cases[0]);
-  const auto progress = runner.start(plan.batches[0]);
+  const auto progress = runner.start(plan.batch(0));
   while (!progress->done()) progress->advance(37);  // chunks across every event
   const run::BatchResult r = progress->finish();
   double worst = 0.0;
@@ -300,7 +300,7 @@ TEST(Snapshots, BatchMomentsEqualTwoPassStatisticsOfTheValidMembers) {
   s.run.batch_size = 8;
   const plan::Plan plan = plan::make_plan(s);
   const run::CaseRunner runner(s, plan, plan.cases[0]);
-  const run::BatchResult r = runner.run(plan.batches[0]);
+  const run::BatchResult r = runner.run(plan.batch(0));
   int valid = 0;
   for (std::uint8_t st : r.status) valid += st == run::kValid;
   ASSERT_GE(valid, 2);

@@ -61,7 +61,7 @@ spec::Spec with_twins(spec::Spec s, double scale, double threshold) {
 run::BatchResult run_batch(const spec::Spec& s) {
   const plan::Plan plan = plan::make_plan(s);
   const run::CaseRunner runner(s, plan, plan.cases[0]);
-  return runner.run(plan.batches[0]);
+  return runner.run(plan.batch(0));
 }
 
 template <typename T>
@@ -216,7 +216,7 @@ TEST(Twins, TwinsFollowTheScheduleAtTheMembersStageTimes) {
   s.schedule.end = 25.0;
   const plan::Plan plan = plan::make_plan(s);
   const run::CaseRunner runner(s, plan, plan.cases[0]);
-  const std::unique_ptr<run::BatchProgress> batch = runner.start(plan.batches[0]);
+  const std::unique_ptr<run::BatchProgress> batch = runner.start(plan.batch(0));
   const std::int64_t start = plan.spinup_steps, steps = 137;
   batch->advance(start);
   const run::BatchState at_start = batch->save();
