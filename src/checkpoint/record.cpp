@@ -134,21 +134,22 @@ const std::string& Record::field(const std::string& key) const {
   return it->second;
 }
 
-std::string encode_body(const Record& record) {
-  std::string out(kMagic, kMagicSize);
+void encode_body(const Record& record, std::string* out) {
+  out->append(kMagic, kMagicSize);
   const std::string header = header_text(record.header);
-  put<std::uint64_t>(out, header.size());
-  out += header;
-  put<std::uint32_t>(out, static_cast<std::uint32_t>(record.reals.size() + record.integers.size() +
-                                                     record.bytes.size()));
-  for (const auto& [name, v] : record.reals) put_array(out, kFloat64, name, v);
-  for (const auto& [name, v] : record.integers) put_array(out, kInt64, name, v);
-  for (const auto& [name, v] : record.bytes) put_array(out, kUInt8, name, v);
-  return out;
+  put<std::uint64_t>(*out, header.size());
+  *out += header;
+  put<std::uint32_t>(*out, static_cast<std::uint32_t>(record.reals.size() +
+                                                      record.integers.size() +
+                                                      record.bytes.size()));
+  for (const auto& [name, v] : record.reals) put_array(*out, kFloat64, name, v);
+  for (const auto& [name, v] : record.integers) put_array(*out, kInt64, name, v);
+  for (const auto& [name, v] : record.bytes) put_array(*out, kUInt8, name, v);
 }
 
 std::string encode(const Record& record) {
-  std::string out = encode_body(record);
+  std::string out;
+  encode_body(record, &out);
   out += sha256_hex(out);
   return out;
 }

@@ -46,8 +46,9 @@ std::string encode(const Record& record);
 Record decode(const std::string& bytes, const std::string& what);
 
 /// The record without its SHA-256 trailer, for a container that checksums it itself (a
-/// segment record, segment.hpp), and its parser. decode_body checks the structure only.
-std::string encode_body(const Record& record);
+/// segment record, segment.hpp), appended to `out`; and its parser, which checks the
+/// structure only.
+void encode_body(const Record& record, std::string* out);
 Record decode_body(const std::string& bytes, const std::string& what);
 
 }  // namespace chaosweep::checkpoint

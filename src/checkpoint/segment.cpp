@@ -215,20 +215,25 @@ std::string read_payload(const std::string& path, const SegmentEntry& entry) {
   return payload;
 }
 
-std::string segment_record(std::int64_t batch, const std::string& spec_sha256,
-                           const std::string& payload) {
-  std::string out;
-  out.reserve(kSegmentHeaderSize + payload.size());
-  out.append(kMagic);
-  put<std::uint32_t>(out, kSegmentVersion);
-  put<std::uint32_t>(out, 0);
-  put<std::int64_t>(out, batch);
-  put<std::uint64_t>(out, payload.size());
-  out += fixed_digest(spec_sha256);
-  out += sha256_hex(payload);
-  out += sha256_hex(out);
-  out += payload;
-  return out;
+void seal_segment_record(std::string* record, std::int64_t batch,
+                         const std::string& spec_sha256) {
+  if (record->size() < kSegmentHeaderSize) {
+    throw Error("a segment record without room for its header");
+  }
+  const std::uint64_t length = record->size() - kSegmentHeaderSize;
+  Sha256 payload_sha;
+  payload_sha.update(record->data() + kSegmentHeaderSize, length);
+  std::string header;
+  header.reserve(kSegmentHeaderSize);
+  header.append(kMagic);
+  put<std::uint32_t>(header, kSegmentVersion);
+  put<std::uint32_t>(header, 0);
+  put<std::int64_t>(header, batch);
+  put<std::uint64_t>(header, length);
+  header += fixed_digest(spec_sha256);
+  header += payload_sha.hex();
+  header += sha256_hex(header);
+  record->replace(0, kSegmentHeaderSize, header);
 }
 
 SegmentWriter::SegmentWriter(std::string path, const std::string& spec_sha256, bool* created)

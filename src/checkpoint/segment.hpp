@@ -54,9 +54,10 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
 /// when it does not match or the file is too short, IoError when it cannot be read.
 std::string read_payload(const std::string& path, const SegmentEntry& entry);
 
-/// One record: header and payload.
-std::string segment_record(std::int64_t batch, const std::string& spec_sha256,
-                           const std::string& payload);
+/// Completes a record in `record`, which holds kSegmentHeaderSize bytes of room followed by
+/// the payload: writes the header into that room (so that a writer reuses one buffer).
+void seal_segment_record(std::string* record, std::int64_t batch,
+                         const std::string& spec_sha256);
 
 /// The segment this process appends to. Opening an existing segment first cuts it back to the
 /// end of its last sound record, so that a record cut short by an earlier death is not
@@ -69,7 +70,7 @@ class SegmentWriter {
   SegmentWriter(const SegmentWriter&) = delete;
   SegmentWriter& operator=(const SegmentWriter&) = delete;
 
-  /// Appends `record` (segment_record()) with write(): when it returns, the record survives
+  /// Appends `record` (seal_segment_record()) with write(): when it returns, the record survives
   /// the death of the process. On failure the segment is cut back to where it ended and
   /// IoError is thrown.
   void append(const std::string& record);

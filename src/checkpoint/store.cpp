@@ -197,11 +197,12 @@ void Store::save_done(const run::BatchResult& result) const {
       directory_unsynced_ = true;
     }
   }
-  const std::string record = segment_record(
-      result.batch_index, spec_sha256_, encode_body(to_record(result, spec_sha256_)));
-  segment_->append(record);
+  record_.assign(kSegmentHeaderSize, '\0');  // room for the header, then the payload
+  encode_body(to_record(result, spec_sha256_), &record_);
+  seal_segment_record(&record_, result.batch_index, spec_sha256_);
+  segment_->append(record_);
   segment_unsynced_ = true;
-  stats_.bytes += static_cast<double>(record.size());
+  stats_.bytes += static_cast<double>(record_.size());
   stats_.seconds += seconds_since(start);
 }
 

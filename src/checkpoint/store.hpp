@@ -116,6 +116,7 @@ class Store {
   int rank_;
   mutable WriteStats stats_;
   mutable std::unique_ptr<SegmentWriter> segment_;  // opened by the first save_done()
+  mutable std::string record_;                      // the record being appended (reused)
   mutable bool segment_unsynced_ = false;           // records appended since the last sync
   mutable bool directory_unsynced_ = false;         // the segment was created since then
 };
