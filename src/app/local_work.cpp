@@ -29,10 +29,13 @@ LocalWork::Restored LocalWork::restore() {
   Restored r;
   if (!store_) return r;
   const std::vector<std::int64_t> generations = store_->generations();
+  checkpoint::DoneIndex done = store_->index_done(share_.first, share_.last);
+  r.segment_problems = std::move(done.problems);
+  r.cut_short = std::move(done.cut_short);
   for (std::size_t i = 0; i < results_.size(); ++i) {
     const std::int64_t batch = share_.first + static_cast<std::int64_t>(i);
     std::string problem;
-    results_[i] = store_->load_done(batch, &problem);
+    results_[i] = store_->load_done(done, batch, &problem);
     if (results_[i]) {
       ++r.finished;
       continue;

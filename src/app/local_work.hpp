@@ -6,6 +6,7 @@
 #include <map>
 #include <memory>
 #include <optional>
+#include <string>
 #include <vector>
 
 #include "checkpoint/store.hpp"
@@ -28,10 +29,14 @@ class LocalWork {
             const checkpoint::Store* store);
 
   /// Restores what the checkpoints hold for this rank's batches: finished results, and the
-  /// newest sound state of a batch in progress. Problems (damaged files) are logged as
-  /// warnings and counted; such batches are recomputed, which gives the same numbers.
+  /// newest sound state of a batch in progress. Problems of this rank's batches (damaged
+  /// records and files) are logged as warnings and counted; such batches are recomputed,
+  /// which gives the same numbers. Damage found in the segments' record headers belongs to no
+  /// known batch and is the same on every rank: it is returned for the caller to report once.
   struct Restored {
     std::int64_t finished = 0, in_progress = 0, problems = 0;
+    std::vector<std::string> segment_problems;  // damaged headers, records of another spec
+    std::vector<std::string> cut_short;         // segments whose last record was cut short
   };
   Restored restore();
 

@@ -138,6 +138,11 @@ bool check_checkpoints(const spec::Spec& spec, const RunOptions& options,
     throw UsageError("--resume: no checkpoint in " + dir +
                      "; pass --restart-from-scratch to start the campaign from the beginning");
   }
+  if (store.holds_older_format()) {
+    throw UsageError("--resume: " + dir + " holds checkpoints of an older format (one file per "
+                     "finished batch); finish that run with the chaosweep that wrote it, or pass "
+                     "--overwrite without --resume to discard them");
+  }
   const std::string stored = store.stored_spec();
   if (!stored.empty() && stored != spec.text) {
     throw UsageError("--resume: the checkpoints in " + dir + " were written for another version of " +
@@ -219,14 +224,15 @@ bool run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
   }
 }
 
-/// Checkpoint files written by all ranks, their size and the share of the run they cost.
+/// Checkpoint files created by all ranks, the bytes written and the share of the run they
+/// cost; logged whenever the run completes, with no file written too.
 void log_checkpoint_cost(const parallel::Communicator& comm, const checkpoint::Store& store,
                          double run_seconds) {
   const checkpoint::Store::WriteStats& w = store.write_stats();
   const std::int64_t files = comm.sum(w.files);
   const std::int64_t bytes = comm.sum(static_cast<std::int64_t>(w.bytes));
   const double slowest = comm.max(w.seconds);
-  if (comm.rank() == 0 && files > 0) {
+  if (comm.rank() == 0) {
     spdlog::info("checkpoints: {} files, {:.2f} MiB, {:.2f} s on the slowest rank ({:.1f}% of "
                  "the run)", files, bytes / 1048576.0, slowest, 100.0 * slowest / run_seconds);
   }
@@ -242,15 +248,25 @@ void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks) {
 std::int64_t restore(const parallel::Communicator& comm, const RunOptions& options,
                      const checkpoint::Store& store, LocalWork& work) {
   const LocalWork::Restored r = work.restore();
+  // Every rank read the same segment headers: their damage is reported and counted once.
+  if (comm.rank() == 0) {
+    for (const std::string& path : r.cut_short) {
+      spdlog::info("{}: its last record was cut short (a write interrupted); ignored", path);
+    }
+    for (const std::string& problem : r.segment_problems) {
+      spdlog::warn("{}; the batches there will be recomputed", problem);
+    }
+  }
   const std::int64_t finished = comm.sum(r.finished), running = comm.sum(r.in_progress);
-  const std::int64_t problems = comm.sum(r.problems);
+  const std::int64_t problems =
+      comm.sum(r.problems) + static_cast<std::int64_t>(r.segment_problems.size());
   if (finished + running == 0 && problems > 0 && !options.restart_from_scratch) {
     throw UsageError("--resume: no usable checkpoint in " + store.directory() + " (" +
                      std::to_string(problems) +
-                     " damaged files); pass --restart-from-scratch to start over");
+                     " damaged checkpoints); pass --restart-from-scratch to start over");
   }
   if (comm.rank() == 0) {
-    spdlog::info("resuming from {}: {} batches finished, {} in progress, {} damaged files "
+    spdlog::info("resuming from {}: {} batches finished, {} in progress, {} damaged checkpoints "
                  "skipped (those batches are recomputed)",
                  store.directory(), finished, running, problems);
   }
@@ -380,7 +396,7 @@ int run_command(const RunOptions& options) {
         std::string exists_error;
         archive_path = checked_archive_path(spec, options, exists_error);
         store = std::make_unique<checkpoint::Store>(checkpoint_directory(spec, archive_path),
-                                                    spec.sha256);
+                                                    spec.sha256, comm.rank());
         complete = already_complete(spec, archive_path, options);
         if (!complete && !exists_error.empty()) throw UsageError(exists_error);
         if (!complete) discard = check_checkpoints(spec, options, *store);

@@ -96,44 +96,9 @@ const std::vector<T>& find(const std::vector<std::pair<std::string, std::vector<
   throw CorruptCheckpoint("checkpoint record lacks the array `" + name + "`");
 }
 
-}  // namespace
-
-const std::vector<double>& Record::real(const std::string& name) const { return find(reals, name); }
-const std::vector<std::int64_t>& Record::integer(const std::string& name) const {
-  return find(integers, name);
-}
-const std::vector<std::uint8_t>& Record::byte_array(const std::string& name) const {
-  return find(bytes, name);
-}
-const std::string& Record::field(const std::string& key) const {
-  const auto it = header.find(key);
-  if (it == header.end()) throw CorruptCheckpoint("checkpoint record lacks `" + key + "`");
-  return it->second;
-}
-
-std::string encode(const Record& record) {
-  std::string out(kMagic, kMagicSize);
-  const std::string header = header_text(record.header);
-  put<std::uint64_t>(out, header.size());
-  out += header;
-  put<std::uint32_t>(out, static_cast<std::uint32_t>(record.reals.size() + record.integers.size() +
-                                                     record.bytes.size()));
-  for (const auto& [name, v] : record.reals) put_array(out, kFloat64, name, v);
-  for (const auto& [name, v] : record.integers) put_array(out, kInt64, name, v);
-  for (const auto& [name, v] : record.bytes) put_array(out, kUInt8, name, v);
-  out += sha256_hex(out);
-  return out;
-}
-
-Record decode(const std::string& bytes, const std::string& what) {
-  if (bytes.size() < kMagicSize + kDigestSize || bytes.compare(0, kMagicSize, kMagic) != 0) {
-    throw CorruptCheckpoint(what + ": damaged checkpoint (truncated, or not a checkpoint file of this version)");
-  }
-  const std::size_t body = bytes.size() - kDigestSize;
-  if (sha256_hex(bytes.substr(0, body)) != bytes.substr(body)) {
-    throw CorruptCheckpoint(what + ": damaged checkpoint (checksum mismatch)");
-  }
-  Cursor in(bytes, body, what);
+/// Parses bytes [0, end) of a record whose magic (and, for decode(), checksum) was checked.
+Record parse(const std::string& bytes, std::size_t end, const std::string& what) {
+  Cursor in(bytes, end, what);
   Record record;
   record.header = parse_header(in.text(static_cast<std::size_t>(in.get<std::uint64_t>())), in);
   const std::uint32_t arrays = in.get<std::uint32_t>();
@@ -152,6 +117,60 @@ Record decode(const std::string& bytes, const std::string& what) {
   }
   if (!in.at_end()) in.fail("trailing bytes");
   return record;
+}
+
+}  // namespace
+
+const std::vector<double>& Record::real(const std::string& name) const { return find(reals, name); }
+const std::vector<std::int64_t>& Record::integer(const std::string& name) const {
+  return find(integers, name);
+}
+const std::vector<std::uint8_t>& Record::byte_array(const std::string& name) const {
+  return find(bytes, name);
+}
+const std::string& Record::field(const std::string& key) const {
+  const auto it = header.find(key);
+  if (it == header.end()) throw CorruptCheckpoint("checkpoint record lacks `" + key + "`");
+  return it->second;
+}
+
+void encode_body(const Record& record, std::string* out) {
+  out->append(kMagic, kMagicSize);
+  const std::string header = header_text(record.header);
+  put<std::uint64_t>(*out, header.size());
+  *out += header;
+  put<std::uint32_t>(*out, static_cast<std::uint32_t>(record.reals.size() +
+                                                      record.integers.size() +
+                                                      record.bytes.size()));
+  for (const auto& [name, v] : record.reals) put_array(*out, kFloat64, name, v);
+  for (const auto& [name, v] : record.integers) put_array(*out, kInt64, name, v);
+  for (const auto& [name, v] : record.bytes) put_array(*out, kUInt8, name, v);
+}
+
+std::string encode(const Record& record) {
+  std::string out;
+  encode_body(record, &out);
+  out += sha256_hex(out);
+  return out;
+}
+
+Record decode(const std::string& bytes, const std::string& what) {
+  if (bytes.size() < kMagicSize + kDigestSize || bytes.compare(0, kMagicSize, kMagic) != 0) {
+    throw CorruptCheckpoint(what + ": damaged checkpoint (truncated, or not a checkpoint file of this version)");
+  }
+  const std::size_t body = bytes.size() - kDigestSize;
+  if (sha256_hex(bytes.substr(0, body)) != bytes.substr(body)) {
+    throw CorruptCheckpoint(what + ": damaged checkpoint (checksum mismatch)");
+  }
+  return parse(bytes, body, what);
+}
+
+Record decode_body(const std::string& bytes, const std::string& what) {
+  if (bytes.size() < kMagicSize || bytes.compare(0, kMagicSize, kMagic) != 0) {
+    throw CorruptCheckpoint(what +
+                            ": damaged checkpoint (not a checkpoint record of this version)");
+  }
+  return parse(bytes, bytes.size(), what);
 }
 
 }  // namespace chaosweep::checkpoint

@@ -7,7 +7,7 @@
 //   u64 n, then n bytes                header text: "key=value" lines
 //   u32 arrays, then per array:        u8 type (1 float64, 2 int64, 3 uint8),
 //                                      u32 name length, name, u64 count, count elements
-//   64 hex characters                  SHA-256 of everything before
+//   64 hex characters                  SHA-256 of everything before (left out by encode_body)
 #pragma once
 
 #include <cstdint>
@@ -44,5 +44,11 @@ std::string encode(const Record& record);
 /// Parses and verifies bytes written by encode(); `what` names the file in messages.
 /// Throws CorruptCheckpoint for a wrong magic, a bad checksum or a truncated record.
 Record decode(const std::string& bytes, const std::string& what);
+
+/// The record without its SHA-256 trailer, for a container that checksums it itself (a
+/// segment record, segment.hpp), appended to `out`; and its parser, which checks the
+/// structure only.
+void encode_body(const Record& record, std::string* out);
+Record decode_body(const std::string& bytes, const std::string& what);
 
 }  // namespace chaosweep::checkpoint

@@ -22,6 +22,22 @@ std::string numbered(const char* prefix, std::int64_t n, int digits) {
   return text;
 }
 
+/// Parses "segment-RRRRR.ckpt" (five or more digits); -1 for anything else.
+int segment_rank(const std::string& name) {
+  const std::string prefix = "segment-", suffix = ".ckpt";
+  if (name.size() < prefix.size() + 5 + suffix.size() || name.rfind(prefix, 0) != 0 ||
+      name.compare(name.size() - suffix.size(), suffix.size(), suffix) != 0) {
+    return -1;
+  }
+  const std::string digits =
+      name.substr(prefix.size(), name.size() - prefix.size() - suffix.size());
+  if (digits.size() > 9 ||
+      !std::all_of(digits.begin(), digits.end(), [](char c) { return c >= '0' && c <= '9'; })) {
+    return -1;
+  }
+  return std::stoi(digits);
+}
+
 /// Parses "gen-NNNNNNNN"; -1 for anything else.
 std::int64_t generation_number(const std::string& name) {
   if (name.size() != 12 || name.rfind("gen-", 0) != 0) return -1;
@@ -91,22 +107,36 @@ std::optional<Record> load_record(const std::string& path, const std::string& ki
   }
 }
 
-}  // namespace
-
-Store::Store(std::string directory, std::string spec_sha256)
-    : directory_(std::move(directory)), spec_sha256_(std::move(spec_sha256)) {}
-
-void Store::write(const std::string& path, const std::string& bytes, bool durable) const {
-  const auto start = std::chrono::steady_clock::now();
-  write_atomically(path, bytes, durable);
-  stats_.files += 1;
-  stats_.bytes += static_cast<double>(bytes.size());
-  stats_.seconds +=
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+double seconds_since(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
-std::string Store::done_path(std::int64_t batch) const {
-  return directory_ + "/done/" + numbered("batch-", batch, 10) + ".ckpt";
+}  // namespace
+
+Store::Store(std::string directory, std::string spec_sha256, int rank)
+    : directory_(std::move(directory)), spec_sha256_(std::move(spec_sha256)), rank_(rank) {}
+
+void Store::write(const std::string& path, const std::string& bytes) const {
+  const auto start = std::chrono::steady_clock::now();
+  write_atomically(path, bytes);
+  stats_.files += 1;
+  stats_.bytes += static_cast<double>(bytes.size());
+  stats_.seconds += seconds_since(start);
+}
+
+std::string Store::segment_path(int rank) const {
+  return directory_ + "/done/" + numbered("segment-", rank, 5) + ".ckpt";
+}
+
+std::vector<std::pair<int, std::string>> Store::segments() const {
+  std::vector<std::pair<int, std::string>> found;
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(directory_ + "/done", ec)) {
+    const int rank = segment_rank(entry.path().filename().string());
+    if (rank >= 0) found.emplace_back(rank, entry.path().string());
+  }
+  std::sort(found.begin(), found.end());
+  return found;
 }
 
 std::string Store::generation_path(std::int64_t generation, bool partial) const {
@@ -119,6 +149,15 @@ bool Store::has_content() const {
   for (const auto& entry : fs::directory_iterator(directory_, ec)) {
     const std::string name = entry.path().filename().string();
     if (name == "campaign.yaml" || name == "done" || name.rfind("gen-", 0) == 0) return true;
+  }
+  return false;
+}
+
+bool Store::holds_older_format() const {
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(directory_ + "/done", ec)) {
+    const std::string name = entry.path().filename().string();
+    if (name.rfind("batch-", 0) == 0 && entry.path().extension() == ".ckpt") return true;
   }
   return false;
 }
@@ -149,32 +188,81 @@ void Store::remove_leftovers() const {
 }
 
 void Store::save_done(const run::BatchResult& result) const {
-  const std::string path = done_path(result.batch_index);
-  write(path, encode(to_record(result, spec_sha256_)), false);
-  unsynced_.push_back(path);
+  const auto start = std::chrono::steady_clock::now();
+  if (!segment_) {
+    bool created = false;
+    segment_ = std::make_unique<SegmentWriter>(segment_path(rank_), spec_sha256_, &created);
+    if (created) {
+      stats_.files += 1;
+      directory_unsynced_ = true;
+    }
+  }
+  record_.assign(kSegmentHeaderSize, '\0');  // room for the header, then the payload
+  encode_body(to_record(result, spec_sha256_), &record_);
+  seal_segment_record(&record_, result.batch_index, spec_sha256_);
+  segment_->append(record_);
+  segment_unsynced_ = true;
+  stats_.bytes += static_cast<double>(record_.size());
+  stats_.seconds += seconds_since(start);
 }
 
 void Store::sync_done() const {
-  if (unsynced_.empty()) return;
+  if (!segment_unsynced_ && !directory_unsynced_) return;
   const auto start = std::chrono::steady_clock::now();
-  for (const std::string& path : unsynced_) sync_file(path);
-  sync_directory(directory_ + "/done");
-  unsynced_.clear();
-  stats_.seconds +=
-      std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  if (segment_unsynced_) segment_->sync();
+  if (directory_unsynced_) sync_directory(directory_ + "/done");
+  segment_unsynced_ = directory_unsynced_ = false;
+  stats_.seconds += seconds_since(start);
 }
 
-std::optional<run::BatchResult> Store::load_done(std::int64_t batch, std::string* problem) const {
-  const std::optional<Record> rec = load_record(done_path(batch), "done", spec_sha256_, problem);
-  if (!rec) return std::nullopt;
-  try {
-    run::BatchResult r = to_result(*rec);
-    if (r.batch_index != batch) throw CorruptCheckpoint(done_path(batch) + ": wrong batch");
-    return r;
-  } catch (const Error& e) {
-    if (problem) *problem = e.what();
-    return std::nullopt;
+DoneIndex Store::index_done(std::int64_t first, std::int64_t last) const {
+  DoneIndex index;
+  for (const auto& [rank, path] : segments()) {
+    SegmentScan scan;
+    try {
+      scan = scan_segment(path, spec_sha256_);
+    } catch (const Error& e) {  // unreadable: its batches are recomputed
+      index.problems.push_back(std::string(e.what()) + " (damaged checkpoint)");
+      continue;
+    }
+    const std::size_t segment = index.segments.size();
+    index.segments.push_back(path);
+    for (const SegmentEntry& entry : scan.entries) {
+      if (entry.batch >= first && entry.batch < last) {
+        index.batches[entry.batch].push_back({segment, entry});
+      }
+    }
+    for (std::string& p : scan.problems) index.problems.push_back(std::move(p));
+    if (scan.cut_short) index.cut_short.push_back(path);
   }
+  return index;
+}
+
+std::optional<run::BatchResult> Store::load_done(const DoneIndex& index, std::int64_t batch,
+                                                 std::string* problem) const {
+  const auto found = index.batches.find(batch);
+  if (found == index.batches.end()) return std::nullopt;
+  std::string first_problem;
+  for (const DoneIndex::Location& at : found->second) {  // the first sound record wins
+    const std::string& path = index.segments[at.segment];
+    try {
+      const Record rec = decode_body(read_payload(path, at.entry), path);
+      if (rec.field("kind") != "done") throw CorruptCheckpoint(path + ": not a done record");
+      if (rec.field("spec_sha256") != spec_sha256_) {
+        throw CorruptCheckpoint(path + ": written for a different spec");
+      }
+      run::BatchResult r = to_result(rec);
+      if (r.batch_index != batch) {
+        throw CorruptCheckpoint(path + ": record of batch " + std::to_string(batch) +
+                                " holds batch " + std::to_string(r.batch_index));
+      }
+      return r;
+    } catch (const Error& e) {
+      if (first_problem.empty()) first_problem = e.what();
+    }
+  }
+  if (problem) *problem = first_problem;
+  return std::nullopt;
 }
 
 void Store::begin_generation(std::int64_t generation) const {
@@ -254,6 +342,8 @@ std::optional<run::BatchState> Store::load_state(std::int64_t generation, std::i
 }
 
 void Store::remove_all() const {
+  segment_.reset();
+  segment_unsynced_ = directory_unsynced_ = false;
   std::error_code ec;
   fs::remove(directory_ + "/campaign.yaml", ec);
   fs::remove_all(directory_ + "/done", ec);
@@ -263,9 +353,12 @@ void Store::remove_all() const {
 }
 
 bool Store::remove_if_nothing_saved() const {
-  std::error_code ec;
-  for (const auto& entry : fs::directory_iterator(directory_ + "/done", ec)) {
-    if (entry.path().extension() == ".ckpt") return false;
+  for (const auto& [rank, path] : segments()) {
+    try {
+      if (!scan_segment(path, spec_sha256_).entries.empty()) return false;
+    } catch (const Error&) {
+      return false;  // unreadable: keep it rather than guess
+    }
   }
   if (!generations().empty()) return false;
   remove_all();

@@ -1,36 +1,59 @@
 // The checkpoint directory of one campaign: finished batches and generations of batches in
-// progress, each file written atomically with a checksum and the spec's SHA-256.
+// progress, each record carrying a checksum and the spec's SHA-256.
 // No MPI: the caller decides which rank writes what (see app/run_command.cpp).
 //
 // Layout of DIRECTORY:
 //   campaign.yaml                       the spec verbatim, written when a fresh run starts
-//   done/batch-NNNNNNNNNN.ckpt          a finished batch's complete result (written once)
+//   done/segment-RRRRR.ckpt             finished batches appended by rank R, one record each
+//                                       (segment.hpp: header with batch, lengths, checksums)
 //   gen-NNNNNNNN/batch-NNNNNNNNNN.ckpt  a batch in progress at generation N (member states,
 //                                       every accumulator, step counter)
 //   gen-NNNNNNNN/MANIFEST               written last: the generation is complete
 //   gen-NNNNNNNN.partial/               a generation being written (ignored when resuming)
-// Keyed by batch, never by rank, so a run may resume on any number of ranks. Because every
-// batch's numbers depend only on the spec, a damaged or missing file costs only the time to
-// recompute that batch, never a different result.
+// The file count is therefore bounded by the ranks and the kept generations, never by the
+// batches. Records are keyed by batch, not by rank: a resume on any number of ranks reads the
+// record headers of every segment to find the finished batches, and each rank reads only the
+// payloads of its own. Generation files are written under a temporary name and renamed.
+// Because every batch's numbers depend only on the spec, a damaged or missing record or file
+// costs only the time to recompute that batch, never a different result.
 #pragma once
 
 #include <cstdint>
+#include <map>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
 
+#include "checkpoint/segment.hpp"
 #include "run/batch_runner.hpp"
 
 namespace chaosweep::checkpoint {
 
+/// Where the records of finished batches are, from the headers of every segment.
+struct DoneIndex {
+  struct Location {
+    std::size_t segment;  // index into `segments`
+    SegmentEntry entry;
+  };
+  std::vector<std::string> segments;                           // paths, in rank order
+  std::map<std::int64_t, std::vector<Location>> batches;       // by segment, then file order
+  std::vector<std::string> problems;  // damaged headers, records of another spec (one line each)
+  std::vector<std::string> cut_short;  // segments whose last record was cut short (ignored)
+};
+
 class Store {
  public:
-  Store(std::string directory, std::string spec_sha256);
+  /// `rank` names the segment this process appends finished batches to.
+  Store(std::string directory, std::string spec_sha256, int rank);
 
   const std::string& directory() const { return directory_; }
 
   /// True when the directory holds anything a run wrote (campaign file, batches, generations).
   bool has_content() const;
+  /// True when done/ holds checkpoints of the older format (done/batch-N.ckpt, one file per
+  /// finished batch), which this version does not read.
+  bool holds_older_format() const;
   /// The spec text stored by the run that made these checkpoints ("" if none).
   std::string stored_spec() const;
 
@@ -39,13 +62,19 @@ class Store {
   /// Removes leftovers of an interrupted write (temporary files, partial generations).
   void remove_leftovers() const;
 
-  /// Saves a finished batch at once. The file survives the death of the process immediately
-  /// and a crash of the machine after the next sync_done() (called with every generation).
+  /// Appends a finished batch to this rank's segment at once. The record survives the death of
+  /// the process immediately and a crash of the machine after the next sync_done() (called
+  /// with every generation). The first append to an existing segment cuts it back to its last
+  /// sound record.
   void save_done(const run::BatchResult& result) const;
   void sync_done() const;
-  /// A finished batch, if its file exists and is sound; otherwise nullopt and, when a file
-  /// exists but cannot be used, the reason in `problem`.
-  std::optional<run::BatchResult> load_done(std::int64_t batch, std::string* problem) const;
+  /// Reads the record headers of every segment (seeking past the payloads) and indexes the
+  /// records of batches in [first, last).
+  DoneIndex index_done(std::int64_t first, std::int64_t last) const;
+  /// A finished batch from the first of its indexed records that is sound; otherwise nullopt
+  /// and, when a record exists but none can be used, the reason in `problem`.
+  std::optional<run::BatchResult> load_done(const DoneIndex& index, std::int64_t batch,
+                                            std::string* problem) const;
 
   /// Creates "gen-N.partial" (every rank may call; existing is fine).
   void begin_generation(std::int64_t generation) const;
@@ -67,7 +96,8 @@ class Store {
   /// (a run that failed before it saved anything); returns whether it did.
   bool remove_if_nothing_saved() const;
 
-  /// What this process has written so far (for the cost report in the log).
+  /// What this process has written so far (for the cost report in the log): files created,
+  /// bytes written (segment records included), seconds spent encoding, writing and syncing.
   struct WriteStats {
     std::int64_t files = 0;
     double bytes = 0.0;
@@ -76,13 +106,19 @@ class Store {
   const WriteStats& write_stats() const { return stats_; }
 
  private:
-  void write(const std::string& path, const std::string& bytes, bool durable = true) const;
-  std::string done_path(std::int64_t batch) const;
+  void write(const std::string& path, const std::string& bytes) const;
+  std::string segment_path(int rank) const;
+  /// Segments present, as (rank, path) in rank order.
+  std::vector<std::pair<int, std::string>> segments() const;
   std::string generation_path(std::int64_t generation, bool partial) const;
   std::string directory_;
   std::string spec_sha256_;
+  int rank_;
   mutable WriteStats stats_;
-  mutable std::vector<std::string> unsynced_;  // finished batches written since the last sync
+  mutable std::unique_ptr<SegmentWriter> segment_;  // opened by the first save_done()
+  mutable std::string record_;                      // the record being appended (reused)
+  mutable bool segment_unsynced_ = false;           // records appended since the last sync
+  mutable bool directory_unsynced_ = false;         // the segment was created since then
 };
 
 }  // namespace chaosweep::checkpoint

@@ -1,12 +1,14 @@
 #!/usr/bin/env bash
 # Interrupted campaigns finish with the same archive, bitwise, whatever the interruption
 # (SIGTERM at several points, SIGKILL of the whole job during a run and during a checkpoint
-# write, damaged checkpoint files) and whatever the rank count of the resume.
+# write, damaged checkpoint files, one damaged record of a finished batch: its payload, its
+# header, or a last record cut short) and whatever the rank count of the resume.
 # Usage: interrupt_resume.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC [SPEC]
 # (SPEC defaults to tests/checkpoint/specs/restart.yaml; its seed must be `seed: 3`.)
 set -uo pipefail
 prog=$1 work=$2 src=$3 mpiexec=$4
 check="/usr/bin/python3 $src/tests/e2e/check_archive.py"
+segments="/usr/bin/python3 $src/tests/checkpoint/damage_segment.py"
 spec=${5:-$src/tests/checkpoint/specs/restart.yaml}
 given_spec=${5:-}
 rm -rf "$work" && mkdir -p "$work" && cd "$work" || exit 1
@@ -68,11 +70,13 @@ grep -q "seed: 3.* is now .*seed: 4" changed.log || fail "changed spec not named
 run 1 missing.h5 --resume
 expect_status 2 $? "resume with no checkpoint" missing.h5.log
 
-# 3. Damaged files: every checkpoint file is corrupted (bytes overwritten or truncated). A
-#    resume reports the damage and refuses to start over silently; with
-#    --restart-from-scratch it recomputes and still ends bitwise equal.
-for f in refuse.h5.checkpoints/done/*.ckpt; do
-  printf 'garbage' | dd of="$f" bs=1 seek=100 conv=notrunc status=none
+# 3. Damaged files: every record of a finished batch and every file of a batch in progress
+#    is corrupted (a flipped byte in each payload, files truncated). A resume reports the
+#    damage and refuses to start over silently; with --restart-from-scratch it recomputes and
+#    still ends bitwise equal.
+for f in refuse.h5.checkpoints/done/segment-*.ckpt; do
+  [ -e "$f" ] || continue
+  $segments payload "$f" all >/dev/null || fail "cannot damage $f"
 done
 for f in refuse.h5.checkpoints/gen-*/batch-*.ckpt; do truncate -s 50 "$f"; done
 run 3 refuse.h5 --resume
@@ -82,6 +86,72 @@ run 3 refuse.h5 --resume --restart-from-scratch
 expect_status 0 $? "resume over damaged files with --restart-from-scratch" refuse.h5.log
 grep -q "damaged checkpoint" refuse.h5.log || fail "damage was not reported"
 $check bitwise reference.h5 refuse.h5 || fail "archive after damaged checkpoints differs"
+
+# 3b. One damaged record among sound ones costs only its batch. A run on 2 ranks is stopped
+#     (SIGUSR1 to mpirun) once rank 0's segment holds two finished batches; copies of its
+#     checkpoints get a flipped byte in one record's payload, a damaged header, or a last
+#     record cut short (as a kill during the append leaves it), and each resumes bitwise.
+batches=$(sed -n 's/.*, \([0-9]*\) batches of .*/\1/p' reference.h5.log | head -n 1)
+CHAOSWEEP_TEST_ROUND_DELAY=0.3 setsid "$mpiexec" -np 2 --oversubscribe "$prog" run "$spec" \
+  --archive segments.h5 --progress none >>segments.h5.log 2>&1 &
+pid=$! waited=0
+until [ "$($segments check segments.h5.checkpoints/done/segment-00000.ckpt 2>/dev/null |
+           grep -o '[0-9]* sound' | cut -d' ' -f1)" -ge 2 ] 2>/dev/null || [ $waited -ge 3000 ]; do
+  sleep 0.1
+  waited=$((waited + 1))
+done
+kill -USR1 "$pid"
+wait "$pid"
+expect_status 3 $? "stop of the run whose records are damaged" segments.h5.log
+files=$(find segments.h5.checkpoints -type f | wc -l)
+# campaign.yaml, a segment per rank, and per kept generation (keep: 2) a state per rank and
+# the manifest: never a file per finished batch
+[ "$files" -le 9 ] || fail "$files checkpoint files after a stop on 2 ranks"
+for kind in payload header cut; do
+  cp -a segments.h5.checkpoints "$kind.h5.checkpoints"
+done
+seg=done/segment-00000.ckpt
+$segments payload payload.h5.checkpoints/$seg 1 > payload.h5.log || fail "damaging a payload"
+run 3 payload.h5 --resume
+expect_status 0 $? "resume after a damaged payload" payload.h5.log
+batch=$(sed -n 's/.*(batch \([0-9]*\),.*/\1/p' payload.h5.log | head -n 1)
+grep -q "record of batch $batch at byte .*checksum mismatch.*batch $batch will be recomputed" \
+  payload.h5.log || fail "damaged payload of batch $batch not reported: $(grep warn payload.h5.log)"
+$check bitwise reference.h5 payload.h5 || fail "archive after a damaged payload differs"
+
+$segments header header.h5.checkpoints/$seg 0 > header.h5.log || fail "damaging a header"
+run 1 header.h5 --resume
+expect_status 0 $? "resume after a damaged header" header.h5.log
+grep -q "damaged checkpoint (record header at byte .*); skipped .* bytes to the next record" \
+  header.h5.log || fail "damaged header not reported: $(grep warn header.h5.log)"
+$check bitwise reference.h5 header.h5 || fail "archive after a damaged header differs"
+
+# The cut record is ignored and, before rank 0 appends to that segment again, cut off: with
+# the archive's path blocked (a directory at ARCHIVE.partial) the run fails after every batch
+# finished, and every segment then holds sound records only, every batch among them.
+$segments cut cut.h5.checkpoints/$seg > cut.h5.log || fail "cutting the last record"
+mkdir cut.h5.partial
+run 2 cut.h5 --resume
+expect_status 1 $? "resume after a cut record, with the archive blocked" cut.h5.log
+grep -q "its last record was cut short" cut.h5.log || fail "cut record not noticed"
+$segments check cut.h5.checkpoints/done/segment-*.ckpt --batches "$batches" \
+  || fail "segments after appending behind a cut record"
+rmdir cut.h5.partial
+run 3 cut.h5 --resume
+expect_status 0 $? "resume after a cut record" cut.h5.log
+grep -q "resuming from .*: $batches batches finished" cut.h5.log \
+  || fail "finished batches not read back"
+grep -Eq "checkpoints: [0-9]+ files" cut.h5.log || fail "no checkpoint cost line"
+$check bitwise reference.h5 cut.h5 || fail "archive after a cut record differs"
+
+# 3c. Checkpoints of the older format (one file per finished batch) are refused in one line.
+mkdir -p older.h5.checkpoints/done
+cp segments.h5.checkpoints/campaign.yaml older.h5.checkpoints/
+printf 'CWCKPT01' > older.h5.checkpoints/done/batch-0000000000.ckpt
+run 2 older.h5 --resume
+expect_status 2 $? "resume over checkpoints of the older format" older.h5.log
+[ "$(grep -c 'holds checkpoints of an older format (one file per finished batch)' older.h5.log)" \
+  -eq 1 ] || fail "older format not refused in one line: $(cat older.h5.log)"
 
 # 4. SIGKILL of the whole job, during integration and during a checkpoint write.
 kill_job_when() {  # kill_job_when ARCHIVE CONDITION NP: start a run, SIGKILL its group when CONDITION holds
@@ -99,7 +169,7 @@ unset CHAOSWEEP_TEST_STOP
 export CHAOSWEEP_TEST_ROUND_DELAY=0.2  # slow rounds, so that the kill lands mid-run
 # a finished batch and a complete generation after the first (generation numbers grow past 9 on
 # a slow build, so any number but 1 counts)
-kill_job_when kill1.h5 "ls kill1.h5.checkpoints/done/*.ckpt >/dev/null 2>&1 && ls -d kill1.h5.checkpoints/gen-* 2>/dev/null | grep -v -e '\.partial\$' -e 'gen-00000001\$' | grep -q ." 2
+kill_job_when kill1.h5 "ls kill1.h5.checkpoints/done/segment-*.ckpt >/dev/null 2>&1 && ls -d kill1.h5.checkpoints/gen-* 2>/dev/null | grep -v -e '\.partial\$' -e 'gen-00000001\$' | grep -q ." 2
 run 4 kill1.h5 --resume
 expect_status 0 $? "resume after SIGKILL during integration" kill1.h5.log
 $check bitwise reference.h5 kill1.h5 || fail "archive after SIGKILL differs"

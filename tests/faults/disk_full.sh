@@ -28,7 +28,7 @@ status=$?
 grep -q "^chaosweep: error.*archive.h5.partial" run.log || fail "no error line naming the archive"
 ! grep -q "HDF5-DIAG" run.log || fail "HDF5 diagnostics leaked"
 [ "$(md5sum < disk/archive.h5)" = "$sum_before" ] || fail "the earlier archive was changed"
-ls checkpoints/done/*.ckpt >/dev/null 2>&1 || fail "checkpoints lost after the failure"
+ls checkpoints/done/segment-*.ckpt >/dev/null 2>&1 || fail "checkpoints lost after the failure"
 
 mount -o remount,size=4m "$work/disk" || fail "cannot enlarge the tmpfs"
 run 3 disk/archive.h5 --overwrite --resume
