@@ -1,6 +1,7 @@
 // `chaosweep run`: spec -> plan -> this rank's batches in collective rounds (progress, stop
 // agreement, checkpoints) -> reduction -> archive.
 #include <spdlog/spdlog.h>
+#include <sys/resource.h>
 #include <unistd.h>
 
 #include <chrono>
@@ -308,6 +309,23 @@ bool discard_unsaved(const checkpoint::Store& store, bool created_here) noexcept
   }
 }
 
+/// Peak resident memory of the ranks (getrusage), logged by rank 0: the largest with its rank,
+/// and the mean.
+void log_peak_memory(const parallel::Communicator& comm) {
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  const double mib = static_cast<double>(usage.ru_maxrss) / 1024.0;  // ru_maxrss is in KiB
+  const double largest = comm.max(mib);
+  const int holder = -static_cast<int>(comm.max(mib == largest ? -comm.rank() : -comm.size()));
+  const double mean =
+      static_cast<double>(comm.sum(static_cast<std::int64_t>(usage.ru_maxrss))) / 1024.0 /
+      comm.size();
+  if (comm.rank() == 0) {
+    spdlog::info("peak memory per rank: {:.1f} MiB at most (rank {}), {:.1f} MiB on average",
+                 largest, holder, mean);
+  }
+}
+
 /// The integration rate of this run: only the member-steps integrated by this process count,
 /// not the batches read back from checkpoints.
 void log_rate(const parallel::Communicator& comm, const plan::Plan& plan, const LocalWork& work,
@@ -477,6 +495,7 @@ int run_command(const RunOptions& options) {
     if (comm.rank() == 0) {
       spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
     }
+    log_peak_memory(comm);
     return report_empty_cases(comm, spec, plan, ensemble);
   } catch (const Error& e) {
     if (!discard_unsaved(*store, !resuming)) throw;
