@@ -379,7 +379,10 @@ h5::Storage storage_of(const Quantity& q, const Dims& shape, const spec::Spec& s
     std::uint64_t rest = element;
     for (std::size_t e = d + 1; e < shape.size(); ++e) rest *= storage.chunk[e];
     if (rest * storage.chunk[d] <= kChunkBytes) break;
-    storage.chunk[d] = std::max<std::uint64_t>(1, kChunkBytes / rest);
+    // as many chunks as needed, of equal extent, so that the last is not mostly empty
+    const std::uint64_t most = std::max<std::uint64_t>(1, kChunkBytes / rest);
+    const std::uint64_t chunks = (shape[d] + most - 1) / most;
+    storage.chunk[d] = (shape[d] + chunks - 1) / chunks;
   }
   storage.deflate = spec.output.compression;
   return storage;
