@@ -9,6 +9,7 @@
 
 #include "app/commands.hpp"
 #include "app/local_work.hpp"
+#include "core/bytes_text.hpp"
 #include "core/error.hpp"
 #include "integrators/lanes.hpp"
 #include "models/model.hpp"
@@ -22,17 +23,6 @@
 namespace chaosweep::app {
 namespace {
 
-std::string bytes_text(double bytes) {
-  const char* units[] = {"B", "KiB", "MiB", "GiB", "TiB", "PiB"};
-  int u = 0;
-  while (bytes >= 1024 && u < 5) {
-    bytes /= 1024;
-    ++u;
-  }
-  char text[32];
-  std::snprintf(text, sizeof text, "%.1f %s", bytes, units[u]);
-  return text;
-}
 
 std::string hours_text(double seconds) {
   char text[48];

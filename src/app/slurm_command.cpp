@@ -17,6 +17,7 @@
 #include <string_view>
 
 #include "app/commands.hpp"
+#include "core/bytes_text.hpp"
 #include "core/error.hpp"
 #include "plan/plan.hpp"
 #include "spec/load.hpp"
@@ -110,17 +111,6 @@ double checkpoint_bytes_estimate(const spec::Spec& spec, const plan::Plan& plan)
   return 8.0 * (members * per_member + trajectories);
 }
 
-std::string bytes_text(double bytes) {
-  const char* units[] = {"B", "KiB", "MiB", "GiB", "TiB"};
-  int u = 0;
-  while (bytes >= 1024 && u < 4) {
-    bytes /= 1024;
-    ++u;
-  }
-  char text[32];
-  std::snprintf(text, sizeof text, "%.1f %s", bytes, units[u]);
-  return text;
-}
 
 struct Margin {
   int seconds = 0;

@@ -4,6 +4,7 @@
 #include <cstdio>
 #include <string>
 
+#include "core/bytes_text.hpp"
 #include "core/error.hpp"
 #include "plan/plan.hpp"
 
@@ -20,17 +21,6 @@ double element_bytes(results::ElementType type) {
   return 0.0;
 }
 
-std::string bytes_text(double bytes) {
-  const char* units[] = {"B", "KiB", "MiB", "GiB", "TiB", "PiB"};
-  int u = 0;
-  while (bytes >= 1024 && u < 5) {
-    bytes /= 1024;
-    ++u;
-  }
-  char text[32];
-  std::snprintf(text, sizeof text, "%.1f %s", bytes, units[u]);
-  return text;
-}
 
 }  // namespace
 
