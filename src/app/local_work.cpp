@@ -38,6 +38,7 @@ LocalWork::Restored LocalWork::restore() {
     results_[i] = store_->load_done(done, batch, &problem);
     if (results_[i]) {
       ++r.finished;
+      ++finished_;
       continue;
     }
     if (!problem.empty()) {
@@ -61,13 +62,10 @@ LocalWork::Restored LocalWork::restore() {
 }
 
 bool LocalWork::done() const {
-  return !current_ && std::all_of(results_.begin(), results_.end(),
-                                   [](const auto& r) { return r.has_value(); });
+  return !current_ && finished_ == static_cast<std::int64_t>(results_.size());
 }
 
-std::int64_t LocalWork::finished_count() const {
-  return std::count_if(results_.begin(), results_.end(), [](const auto& r) { return r.has_value(); });
-}
+std::int64_t LocalWork::finished_count() const { return finished_; }
 
 plan::Batch LocalWork::batch_at(std::size_t i) const {
   return plan_.batch(share_.first + static_cast<std::int64_t>(i));
@@ -112,9 +110,9 @@ void LocalWork::prepare_cases() {
 }
 
 void LocalWork::start_next() {
-  std::size_t i = 0;
-  while (i < results_.size() && results_[i]) ++i;
-  if (i == results_.size()) return;
+  while (next_ < results_.size() && results_[next_]) ++next_;
+  if (next_ == results_.size()) return;
+  const std::size_t i = next_;
   const plan::Batch batch = batch_at(i);
   in_case(i, [&] {
     if (batch.case_index != runner_case_) {
@@ -148,6 +146,7 @@ void LocalWork::finish_current() {
     run::BatchResult result = current_->finish();
     run::add_lyapunov(spec_, plan_, result);
     results_[current_index_] = std::move(result);
+    ++finished_;
   });
   current_.reset();
   if (store_) store_->save_done(*results_[current_index_]);

@@ -83,6 +83,10 @@ class LocalWork {
   std::int64_t runner_case_ = -1;
   std::unique_ptr<run::BatchProgress> current_;
   std::size_t current_index_ = 0;                          // local index of current_
+  // Batches finish in local order (restored ones anywhere), so every batch before next_ has a
+  // result: the next batch to start is found by moving next_ forward, never by a rescan.
+  std::size_t next_ = 0;
+  std::int64_t finished_ = 0;                              // local batches with a result
   std::int64_t chunk_steps_ = 64;                          // adapted to ~50 ms per chunk
   std::int64_t integrated_member_steps_ = 0;
 };

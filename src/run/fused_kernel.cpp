@@ -56,6 +56,22 @@ inline Lanes pick(const Lanes (&x)[D], int row) {
   return v;
 }
 
+/// Scratch rows of the fused kernels, one set per thread, reused by every kernel: a kernel is
+/// made per batch, and allocating (and zeroing) fresh rows for each short batch cost about a
+/// fifth of its time. Every call writes the rows it reads within itself, so kernels that take
+/// turns on one thread may share them.
+Lanes* sample_scratch(std::size_t n) {
+  static thread_local std::vector<Lanes> rows;
+  if (rows.size() < n) rows.resize(n);
+  return rows.data();
+}
+
+double* value_scratch(std::size_t n) {
+  static thread_local std::vector<double> rows;
+  if (rows.size() < n) rows.resize(n);
+  return rows.data();
+}
+
 template <typename Equations>
 class FusedKernel final : public Kernel {
   static constexpr int D = Equations::kDim;
@@ -65,8 +81,8 @@ class FusedKernel final : public Kernel {
       : eq_(eq), h_(s.dt), width_(s.width), acc_(acc),
         regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
         histogram_row_(acc.histogram ? s.histogram_observable : -1) {
-    if (acc.histogram) values_.resize(static_cast<std::size_t>(kMaxSegment) * s.width);
-    samples_.resize(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
+    if (acc.histogram) values_ = value_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
+    samples_ = sample_scratch(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
   }
 
   void spin(double* x, int steps) override {
@@ -93,7 +109,7 @@ class FusedKernel final : public Kernel {
     moments.added(steps);
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
-    if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
+    if (acc_.histogram) acc_.histogram->add_steps(values_, steps);
   }
 
  private:
@@ -133,8 +149,8 @@ class FusedKernel final : public Kernel {
   int width_;
   Accumulators acc_;
   int regime_row_, histogram_row_;  // state rows, -1 when not used
-  std::vector<double> values_;      // [kMaxSegment][width]: the histogram observable per step
-  std::vector<Lanes> samples_;      // [kMaxSegment][G][D]: the group's state per step
+  double* values_ = nullptr;  // [kMaxSegment][width]: the histogram observable per step
+  Lanes* samples_ = nullptr;  // [kMaxSegment][G][D]: the group's state per step (scratch rows)
 };
 
 template <typename Equations>
@@ -145,12 +161,12 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
   const Equations eq = eq_;
   const integrators::Rk4Steps h = h_;
   const int regime_row = regime_row_, histogram_row = histogram_row_;
-  double* const values = values_.data();
+  double* const values = values_;
   const long w = width_;
   const stats::TimeMoments::Rows m = acc_.moments->rows();
   stats::RegimeCounter::Rows r{};
   if (acc_.regimes) r = acc_.regimes->rows();
-  Lanes* const samples = samples_.data();
+  Lanes* const samples = samples_;
   Lanes s[G][D], shift[G][D], s1[G][D], s2[G][D];
   RegimeLanes regime[G] = {};
   load_state(x, lane, s);
@@ -202,7 +218,7 @@ template <int G>
 void FusedKernel<Equations>::fold_extremes(int lane, int steps) const {
   const stats::Extremes::Rows e = acc_.extremes->rows();
   const std::int64_t first = acc_.extremes->count();
-  const Lanes* const samples = samples_.data();
+  const Lanes* const samples = samples_;
   const long w = width_;
   Lanes run_lo[G][D], run_hi[G][D];
   for (int g = 0; g < G; ++g) {
