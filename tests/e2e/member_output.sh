@@ -92,6 +92,22 @@ for name in names:
 print(f"ok: {len(names)} datasets identical compressed; member and trajectory data deflated")
 PY
 
+# A sample and a compressed archive, stopped and resumed on another rank count: bitwise the
+# archives of the uninterrupted runs.
+choose sample-stop '{sample: 5}'
+sed -e "s/^  archive: l63-small.h5/  archive: l63-small.h5\n  compression: {level: 4}/" all.yaml \
+  > deflated-stop.yaml
+for name in sample-stop deflated-stop; do
+  CHAOSWEEP_TEST_ROUND_SECONDS=0.005 CHAOSWEEP_TEST_STOP=0:1 run 2 "$name"
+  status=$?
+  [ $status -eq 3 ] || fail "$name: stop exit $status, expected 3"
+  run 3 "$name" --resume || fail "$name: resume on 3 ranks"
+done
+/usr/bin/python3 "$src/tests/e2e/check_archive.py" bitwise sample.h5 sample-stop.h5 \
+  || fail "a sample stopped and resumed differs from the uninterrupted one"
+/usr/bin/python3 "$src/tests/e2e/check_archive.py" bitwise deflated.h5 deflated-stop.h5 \
+  || fail "a compressed archive stopped and resumed differs from the uninterrupted one"
+
 # A million members or more: an unset choice is refused with the size `all` would give.
 sed -e 's/members: 40/members: 400000/' base.yaml > big.yaml
 "$prog" check big.yaml --no-calibrate > big-check.out 2>&1
