@@ -9,9 +9,13 @@
 # 3. The shell then requeues the job, at most {{MAX_REQUEUES}} times, and the next attempt
 # resumes from the checkpoint. Every attempt appends to the same log.
 #
+# A launcher that ends with status 0 but leaves no archive did not run the campaign (a job
+# step whose tasks failed to start can end so): the launch is tried again, at most
+# {{LAUNCH_RETRIES}} more times, CHAOSWEEP_LAUNCH_RETRY_DELAY seconds apart (default 15).
+#
 # Exit status: 0 campaign complete; 3 stopped with a checkpoint and not requeued (resume by
-# submitting this script again with CHAOSWEEP_RESUME=1 in the environment); anything else is
-# the run's own failure status.
+# submitting this script again with CHAOSWEEP_RESUME=1 in the environment); 1 the launcher
+# never ran the campaign; anything else is the run's own failure status.
 #
 # This text comes from slurm/template.sh; `chaosweep slurm` fills in its fields.
 #SBATCH --job-name={{JOB_NAME}}
@@ -34,6 +38,9 @@ workdir={{WORKDIR_QUOTED}}
 max_requeues={{MAX_REQUEUES}}
 restart_count=${SLURM_RESTART_COUNT:-0}
 launcher_name={{LAUNCHER_NAME}}
+archive={{ARCHIVE_QUOTED}}
+launch_retries={{LAUNCH_RETRIES}}
+launch_retry_delay=${CHAOSWEEP_LAUNCH_RETRY_DELAY:-15}
 
 log() { echo "$(date -u +%Y-%m-%dT%H:%M:%SZ) job ${SLURM_JOB_ID:-none}: $*"; }
 now() { date +%s.%N; }
@@ -80,25 +87,46 @@ trap 'on_signal USR1' USR1
 trap 'on_signal TERM' TERM
 trap 'on_signal INT' INT
 
+# run_once FLAGS...: launches the run in the background and waits until it has ended; sets
+# status. `wait` returns early when a trapped signal arrives: wait again until the run has
+# ended. A second wait for a run already collected fails with 127; the first status stands.
+run_once() {
+  {{LAUNCH}} "$chaosweep" run "$spec" --progress log "$@" &
+  run_pid=$!
+  log "started $launcher_name (pid $run_pid): $chaosweep run $spec --progress log $*"
+  status=
+  while :; do
+    interrupted=0
+    wait "$run_pid"
+    code=$?
+    if [ "$code" -eq 127 ] && [ -n "$status" ]; then break; fi
+    status=$code
+    [ "$interrupted" = 1 ] || break
+  done
+}
+
 started=$(now)
 if [ -n "$signal_time" ]; then
   log "not starting the run: a stop signal arrived first; nothing was changed"
   exit 1
 fi
-{{LAUNCH}} "$chaosweep" run "$spec" --progress log $resume_flag &
-run_pid=$!
-log "started $launcher_name (pid $run_pid): $chaosweep run $spec --progress log $resume_flag"
-
-# `wait` returns early when a trapped signal arrives: wait again until the run has ended.
-# A second wait for a run already collected fails with 127; the first status stands then.
-status=
-while :; do
-  interrupted=0
-  wait "$run_pid"
-  code=$?
-  if [ "$code" -eq 127 ] && [ -n "$status" ]; then break; fi
-  status=$code
-  [ "$interrupted" = 1 ] || break
+# shellcheck disable=SC2086 # the flags are separate words
+run_once $resume_flag
+launch=0
+while [ "$status" = 0 ] && [ ! -e "$archive" ] && [ -z "$signal_time" ] &&
+      [ "$launch" -lt "$launch_retries" ]; do
+  launch=$((launch + 1))
+  log "$launcher_name ended with status 0 after $(seconds_since "$started") s but there is no" \
+      "archive $archive: the run did not take place (did the tasks fail to start?); launching" \
+      "again in $launch_retry_delay s (retry $launch of $launch_retries)"
+  sleep "$launch_retry_delay" &
+  wait $! # (a trapped signal ends the wait early)
+  if [ -n "$signal_time" ]; then
+    log "not launching again: a stop signal arrived"
+    exit 1
+  fi
+  # Whatever the failed launch left behind is taken up; with nothing saved it starts afresh.
+  run_once --resume --restart-from-scratch
 done
 
 if [ -n "$signal_time" ]; then
@@ -110,6 +138,11 @@ fi
 
 case $status in
   0)
+    if [ ! -e "$archive" ]; then
+      log "$launcher_name ended with status 0 but there is no archive $archive: the run did" \
+          "not take place; nothing was changed"
+      exit 1
+    fi
     log "campaign complete"
     exit 0
     ;;

@@ -37,6 +37,9 @@ namespace fs = std::filesystem;
 /// busy controller may be later still), the run's stop at its next step chunk, the teardown
 /// of the job step and the requeue request.
 constexpr int kMarginFixedSeconds = 120;
+/// Further launches the script tries when the launcher ends with status 0 but the run wrote no
+/// archive (a job step whose tasks failed to start).
+constexpr int kLaunchRetries = 2;
 constexpr double kCheckpointBytesPerSecond = 50e6;
 constexpr int kMinMarginSeconds = 60;
 constexpr int kMaxMarginSeconds = 65535;  // Slurm stores the warning time in 16 bits
@@ -239,6 +242,9 @@ int slurm_command(const SlurmOptions& options) {
   const std::string name = job_name(spec.name);
   const std::string program = fs::read_symlink("/proc/self/exe").string();
   const bool srun = options.launcher == "srun";
+  // The script checks for the archive to tell a run that took place from a launch that did
+  // not start the tasks; the spec's relative path is taken from the working directory.
+  const std::string archive = (fs::path(workdir) / spec.output.archive).lexically_normal().string();
 
   const std::map<std::string, std::string> fields = {
       {"CAMPAIGN", spec.name},
@@ -259,6 +265,8 @@ int slurm_command(const SlurmOptions& options) {
       {"CHAOSWEEP", shell_quote(program)},
       {"SPEC", shell_quote(spec_path)},
       {"LAUNCHER_NAME", options.launcher},
+      {"ARCHIVE_QUOTED", shell_quote(archive)},
+      {"LAUNCH_RETRIES", std::to_string(kLaunchRetries)},
       {"LAUNCH", srun ? "srun --mpi=pmix" : "mpirun -np \"$SLURM_NTASKS\""},
   };
   const std::string script = fill_template(slurm_template_text(), fields);

@@ -45,8 +45,10 @@ expect_line full.sh "chaosweep='$(readlink -f "$CHAOSWEEP")'"
 expect_line full.sh "spec='$(readlink -f "$specs/l63-slurm-small.yaml")'"
 expect_line full.sh "workdir='$work'"
 expect_line full.sh "max_requeues=4"
+# The archive the script checks for: the spec's relative output.archive in the working directory.
+expect_line full.sh "archive='$work/slurm-l63-small.h5'"
 expect_line full.sh "restart_count=\${SLURM_RESTART_COUNT:-0}"
-grep -qE '^srun --mpi=pmix "\$chaosweep" run "\$spec" .*&$' full.sh ||
+grep -qE '^ *srun --mpi=pmix "\$chaosweep" run "\$spec" .*&$' full.sh ||
   fail "the run is not started with srun --mpi=pmix in the background"
 # Every #SBATCH line comes before the first command, or sbatch ignores it.
 first_command=$(grep -nE '^[^#]' full.sh | head -n 1 | cut -d: -f1)
@@ -68,7 +70,7 @@ bash -n job.sh || fail "job.sh is not valid bash"
 expect_line job.sh "#SBATCH --time=2-00:00:00"
 expect_line job.sh "#SBATCH --signal=B:USR1@300"
 expect_line job.sh "max_requeues=10"
-grep -qE '^mpirun -np "\$SLURM_NTASKS" "\$chaosweep" run "\$spec" .*&$' job.sh ||
+grep -qE '^ *mpirun -np "\$SLURM_NTASKS" "\$chaosweep" run "\$spec" .*&$' job.sh ||
   fail "the run is not started with mpirun in the background"
 ! grep -qE '^#SBATCH --(partition|account)' job.sh || fail "partition/account lines without the options"
 ! grep -q '^source ' job.sh || fail "a site file is sourced without --site"
