@@ -116,9 +116,9 @@ launch=0
 while [ "$status" = 0 ] && [ ! -e "$archive" ] && [ -z "$signal_time" ] &&
       [ "$launch" -lt "$launch_retries" ]; do
   launch=$((launch + 1))
-  log "$launcher_name ended with status 0 after $(seconds_since "$started") s but there is no" \
-      "archive $archive: the run did not take place (did the tasks fail to start?); launching" \
-      "again in $launch_retry_delay s (retry $launch of $launch_retries)"
+  log "the launch by $launcher_name ran nothing: status 0 after $(seconds_since "$started") s" \
+      "and no archive $archive (did the tasks fail to start?); launching again in" \
+      "$launch_retry_delay s (retry $launch of $launch_retries)"
   sleep "$launch_retry_delay" &
   wait $! # (a trapped signal ends the wait early)
   if [ -n "$signal_time" ]; then
@@ -139,8 +139,8 @@ fi
 case $status in
   0)
     if [ ! -e "$archive" ]; then
-      log "$launcher_name ended with status 0 but there is no archive $archive: the run did" \
-          "not take place; nothing was changed"
+      log "no launch by $launcher_name ran the campaign: status 0 and no archive $archive;" \
+          "nothing was changed"
       exit 1
     fi
     log "campaign complete"

@@ -48,7 +48,7 @@ code=$(run_job "$work/once" 1)
 cat "$work/once/job.log"
 [ "$code" = 0 ] || fail "one failed launch: the script ended with status $code"
 [ "$(cat "$work/once/calls")" = 2 ] || fail "one failed launch: srun called $(cat "$work/once/calls") times"
-grep -q "srun ended with status 0 after .* but there is no archive .*$archive: the run did not take place (did the tasks fail to start?); launching again in 1 s (retry 1 of 2)" \
+grep -q "the launch by srun ran nothing: status 0 after .* s and no archive .*$archive (did the tasks fail to start?); launching again in 1 s (retry 1 of 2)" \
   "$work/once/job.log" || fail "the relaunch is not logged"
 grep -q "campaign complete" "$work/once/job.log" || fail "the relaunched campaign is not complete"
 check_bitwise "$work/reference/$archive" "$work/once/$archive"
@@ -61,7 +61,7 @@ cat "$work/never/job.log"
 [ "$code" = 1 ] || fail "no launch ran: the script ended with status $code, not 1"
 [ "$(cat "$work/never/calls")" = 3 ] || fail "no launch ran: srun called $(cat "$work/never/calls") times, not 3"
 grep -q "retry 2 of 2" "$work/never/job.log" || fail "the second relaunch is not logged"
-grep -q "srun ended with status 0 but there is no archive .*$archive: the run did not take place; nothing was changed" \
+grep -q "no launch by srun ran the campaign: status 0 and no archive .*$archive; nothing was changed" \
   "$work/never/job.log" || fail "the failed campaign is not reported"
 ! grep -q "campaign complete" "$work/never/job.log" || fail "a campaign that never ran is called complete"
 [ "$(ls "$work/never")" = "$(printf 'calls\njob.log\njob.sh')" ] ||

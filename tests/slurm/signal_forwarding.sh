@@ -48,7 +48,8 @@ check_stopped() {
   cat "$log"
   grep -q "received $signal: forwarded as USR1 to $launcher (pid " "$log" ||
     fail "$log: $signal was not forwarded to $launcher"
-  line=$(grep "run ended with status " "$log") || fail "$log: the run's end is not logged"
+  line=$(grep ": run ended with status " "$log") || fail "$log: the run's end is not logged"
+  [ "$(wc -l <<<"$line")" = 1 ] || fail "$log: the run's end is logged more than once"
   status=$(sed -n 's/.*run ended with status \([0-9]*\) after .*/\1/p' <<<"$line")
   after=$(sed -n 's/.*, \([0-9.]*\) s after the stop signal.*/\1/p' <<<"$line")
   [ -n "$after" ] || fail "$log: the time from signal to the run's end is not logged"
