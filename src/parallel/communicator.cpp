@@ -3,7 +3,9 @@
 
 #include <mpi.h>
 
+#include <cstdio>
 #include <cstdlib>
+#include <exception>
 
 #include "core/error.hpp"
 
@@ -36,6 +38,24 @@ std::vector<T> allgather(const std::vector<T>& local, MPI_Datatype type, int siz
   return all;
 }
 
+/// The combine function of the collective in progress: MPI's user operations take no context.
+const Communicator::Combine* active_combine = nullptr;
+std::size_t active_block = 0;
+
+void combine_blocks(void* in, void* inout, int* len, MPI_Datatype*) {
+  // MPI: inout = in (+) inout, `in` holding the lower ranks' part.
+  const double* left = static_cast<const double*>(in);
+  double* right = static_cast<double*>(inout);
+  try {
+    for (int i = 0; i < *len; ++i) {
+      (*active_combine)(left + i * active_block, right + i * active_block);
+    }
+  } catch (const std::exception& e) {  // nothing may be thrown through MPI
+    std::fprintf(stderr, "chaosweep: internal error in the reduction: %s\n", e.what());
+    MPI_Abort(MPI_COMM_WORLD, 1);
+  }
+}
+
 }  // namespace
 
 Session::Session(int* argc, char*** argv) {
@@ -55,15 +75,44 @@ Communicator::Communicator() {
   check(MPI_Comm_size(MPI_COMM_WORLD, &size_), "Comm_size");
 }
 
-std::vector<double> Communicator::allgather_in_rank_order(const std::vector<double>& local) const {
-  if (serial_) return local;
-  return allgather(local, MPI_DOUBLE, size_);
-}
-
 std::vector<std::int64_t> Communicator::allgather_in_rank_order(
     const std::vector<std::int64_t>& local) const {
   if (serial_) return local;
   return allgather(local, MPI_INT64_T, size_);
+}
+
+std::vector<double> Communicator::combine_in_rank_order(const std::vector<double>& local,
+                                                        const Combine& combine) const {
+  if (serial_ || size_ == 1 || local.empty()) return local;
+  if (local.size() > static_cast<std::size_t>(INT32_MAX)) {
+    throw IoError("MPI Allreduce: a block of more than 2^31 values to combine");
+  }
+  MPI_Datatype block;
+  check(MPI_Type_contiguous(static_cast<int>(local.size()), MPI_DOUBLE, &block), "Type_contiguous");
+  check(MPI_Type_commit(&block), "Type_commit");
+  MPI_Op op;
+  check(MPI_Op_create(&combine_blocks, /*commute=*/0, &op), "Op_create");
+  active_combine = &combine;
+  active_block = local.size();
+  std::vector<double> out(local.size());
+  const int rc = MPI_Allreduce(local.data(), out.data(), 1, block, op, MPI_COMM_WORLD);
+  active_combine = nullptr;
+  MPI_Op_free(&op);
+  MPI_Type_free(&block);
+  check(rc, "Allreduce");
+  return out;
+}
+
+std::vector<std::int64_t> Communicator::sum(const std::vector<std::int64_t>& values) const {
+  if (serial_ || values.empty()) return values;
+  if (values.size() > static_cast<std::size_t>(INT32_MAX)) {
+    throw IoError("MPI Allreduce: more than 2^31 values to sum");
+  }
+  std::vector<std::int64_t> out(values.size());
+  check(MPI_Allreduce(values.data(), out.data(), static_cast<int>(values.size()), MPI_INT64_T,
+                      MPI_SUM, MPI_COMM_WORLD),
+        "Allreduce");
+  return out;
 }
 
 Communicator::RoundAgreement Communicator::agree(bool stop, bool checkpoint, bool done) const {

@@ -1,9 +1,10 @@
 // The only user of <mpi.h> outside h5/: a thin, checked wrapper of the MPI calls the campaign
-// needs (rank and size, fixed-order gathers of per-batch partial results, agreement on stop,
+// needs (rank and size, the rank-order combination of partial results, agreement on stop,
 // aborting every rank together). Every call is collective unless said otherwise.
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -29,9 +30,17 @@ class Communicator {
   int size() const { return size_; }
 
   /// Gathers every rank's `local` values, concatenated in rank order, on every rank.
-  /// Used with contiguous batch shares, so the result is in batch order.
-  std::vector<double> allgather_in_rank_order(const std::vector<double>& local) const;
   std::vector<std::int64_t> allgather_in_rank_order(const std::vector<std::int64_t>& local) const;
+
+  /// right = left (+) right for two same-sized blocks, `left` from the lower ranks.
+  using Combine = std::function<void(const double* left, double* right)>;
+  /// Every rank's `local` block (the same size on every rank) combined in rank order,
+  /// local_0 (+) local_1 (+) ... , on every rank. `combine` must be associative; the grouping
+  /// is MPI's, so the result is reproducible only when associativity is exact.
+  std::vector<double> combine_in_rank_order(const std::vector<double>& local,
+                                            const Combine& combine) const;
+  /// Element-wise sum over ranks (the same size on every rank); exact for integers.
+  std::vector<std::int64_t> sum(const std::vector<std::int64_t>& values) const;
 
   /// What the ranks agree on at the end of a round of work (see app/run_command.cpp).
   struct RoundAgreement {

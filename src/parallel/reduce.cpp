@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "parallel/merge_batches.hpp"
 #include "parallel/reduce_errors.hpp"
 #include "results/table.hpp"
 #include "stats/dynamics_check.hpp"
@@ -130,31 +131,24 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   const std::vector<Estimated> estimated = estimated_quantities(plan);
   std::size_t columns = 0;
   for (const Estimated& e : estimated) columns += e.width;
-  const std::size_t per_batch = kMomentWidth * columns;
 
-  const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, estimated));
+  const std::vector<std::int64_t> indices = batch_indices(local);
+  const std::vector<double> merged = merge_batches(
+      comm, merge_shape(plan), stats::SummaryLayout{columns, 0}, indices, summarise(local, estimated));
   std::vector<std::int64_t> local_counts;
   std::int64_t local_bad = 0;
   for (const run::BatchResult& b : local) {
     local_counts.insert(local_counts.end(), b.histogram.begin(), b.histogram.end());
     for (int i = 0; i < b.count; ++i) local_bad += b.status[i] != run::kValid ? 1 : 0;
   }
-  const std::vector<std::int64_t> counts = comm.allgather_in_rank_order(local_counts);
 
-  // Merge per case in batch order: moments[case][column] over the estimated columns.
+  // moments[case][column] over the estimated columns
   std::vector<stats::Moments> moments(n_cases * columns);
-  EnsembleResults r;
-  r.histogram.assign(n_cases * bins, 0);
-  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
-    const plan::Batch b = plan.batch(index);
-    const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    const std::size_t c = static_cast<std::size_t>(b.case_index);
-    for (std::size_t k = 0; k < columns; ++k, p += kMomentWidth) {
-      moments[c * columns + k].merge(stats::Moments::unpack(p));
-    }
-    for (int k = 0; k < bins; ++k)
-      r.histogram[c * bins + k] += counts[static_cast<std::size_t>(b.index) * bins + k];
+  for (std::size_t i = 0; i < moments.size(); ++i) {
+    moments[i] = stats::Moments::unpack(merged.data() + i * kMomentWidth);
   }
+  EnsembleResults r;
+  r.histogram = sum_batches(comm, merge_shape(plan), static_cast<std::size_t>(bins), indices, local_counts);
 
   // Every estimate array sized [case][width] (intervals [case][width][2]) and filled.
   std::size_t first_column = 0;

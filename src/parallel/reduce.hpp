@@ -1,9 +1,10 @@
 // Reduction of per-batch results into per-case ensemble estimates, identical on every rank.
 //
 // Each rank summarises its own batches (moments across the batch's valid members, histogram
-// counts); the summaries are gathered in batch order and every rank merges them per case in
-// that order. The merge order is therefore fixed by the plan, not by the rank count, and the
-// estimates are bitwise the same for any number of ranks.
+// counts); the summaries are merged per case along a merge tree whose shape is fixed by the
+// plan, not by the rank count (parallel/merge_batches.hpp), and counts are summed exactly. The
+// estimates are therefore bitwise the same for any number of ranks, and no rank holds more
+// than a few summaries per case.
 #pragma once
 
 #include <cstdint>
@@ -34,7 +35,7 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
 void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                   const std::vector<run::BatchResult>& local, EnsembleResults& r);
 /// The snapshot part of reduce() (snapshot_reduce.cpp): the batches' per-snapshot moments and
-/// regime counts merged per case in batch order. Collective; nothing when there are none.
+/// regime counts merged per case along the merge tree. Collective; nothing when there are none.
 void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                       const std::vector<run::BatchResult>& local, EnsembleResults& r);
 

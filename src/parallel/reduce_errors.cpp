@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "parallel/merge_batches.hpp"
 #include "stats/member_errors.hpp"
 
 namespace chaosweep::parallel {
@@ -35,18 +36,13 @@ void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
                              const std::vector<run::BatchResult>& local, EnsembleResults& r) {
   const int n_obs = static_cast<int>(plan.observables.size());
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_batch = static_cast<std::size_t>(kSums * n_obs);
-  const std::vector<double> all = comm.allgather_in_rank_order(summarise(local, n_obs));
+  const std::size_t width = static_cast<std::size_t>(kSums * n_obs);
+  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), stats::SummaryLayout{0, width},
+                                                   batch_indices(local), summarise(local, n_obs));
 
-  // sums[case][observable], merged in batch order
+  // sums[case][observable]
   std::vector<stats::MemberErrorSums> sums(n_cases * static_cast<std::size_t>(n_obs));
-  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
-    const plan::Batch b = plan.batch(index);
-    const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    for (int o = 0; o < n_obs; ++o, p += kSums) {
-      sums[static_cast<std::size_t>(b.case_index) * n_obs + o].merge(p);
-    }
-  }
+  for (std::size_t i = 0; i < sums.size(); ++i) sums[i].merge(merged.data() + i * kSums);
 
   r.time_mean_stderr.assign(n_cases * n_obs, NAN);
   r.effective_samples.assign(n_cases * n_obs, NAN);

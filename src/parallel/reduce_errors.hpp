@@ -1,6 +1,7 @@
 // Internal to parallel/: the per-case quantities that make an ensemble time mean's error
 // honest under autocorrelation (standard error of the ensemble mean, effective samples,
-// decorrelation time), reduced in batch order like every other estimate (see reduce.hpp).
+// decorrelation time), merged along the fixed merge tree like every other estimate (see
+// reduce.hpp).
 #pragma once
 
 #include <vector>

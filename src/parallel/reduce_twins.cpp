@@ -8,13 +8,14 @@
 // Per batch: the moments (n, mean, m2) of the log separation at each lead over the batch's
 // valid pairs (run/twins.cpp, in member order), the moments of the finite horizons of its
 // valid members and of the logs of their threshold distances, the number of pairs that
-// separated at each lead and the number that did not by the last lead. They are gathered in
-// batch order and merged per case in that order, so the results do not depend on the rank
-// count.
+// separated at each lead and the number that did not by the last lead. They are merged per
+// case along the fixed merge tree (parallel/merge_batches.hpp), so the results do not depend on
+// the rank count.
 #include <algorithm>
 #include <cmath>
 
 #include "core/error.hpp"
+#include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "run/twins.hpp"
 #include "stats/ensemble.hpp"
@@ -76,23 +77,23 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
   const std::size_t n_cases = plan.cases.size();
   const std::size_t per_batch = per_batch_width(leads);
   const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);
-  const std::vector<double> all = comm.allgather_in_rank_order(
+  const std::vector<double> merged = merge_batches(
+      comm, merge_shape(plan), stats::SummaryLayout{leads + 2, leads + 1}, batch_indices(local),
       summarise_twins(local, lead, spec.statistics.twins.threshold));
 
   std::vector<stats::TwinPartials> cases(n_cases, stats::TwinPartials(leads));
-  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
-    const plan::Batch b = plan.batch(index);
-    const double* p = all.data() + static_cast<std::size_t>(b.index) * per_batch;
-    stats::TwinPartials& c = cases[static_cast<std::size_t>(b.case_index)];
+  for (std::size_t index = 0; index < n_cases; ++index) {
+    const double* p = merged.data() + index * per_batch;
+    stats::TwinPartials& c = cases[index];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
-      c.separation[k].merge(stats::Moments::unpack(p));
+      c.separation[k] = stats::Moments::unpack(p);
     }
-    c.horizon.merge(stats::Moments::unpack(p));
+    c.horizon = stats::Moments::unpack(p);
     p += kMomentWidth;
-    c.level.merge(stats::Moments::unpack(p));
+    c.level = stats::Moments::unpack(p);
     p += kMomentWidth;
-    for (std::size_t k = 0; k < leads; ++k) c.separated[k] += *p++;
-    c.unseparated += *p;
+    for (std::size_t k = 0; k < leads; ++k) c.separated[k] = *p++;
+    c.unseparated = *p;
   }
 
   r.twin_log_separation.assign(n_cases * leads, NAN);

@@ -1,12 +1,14 @@
 // Fixed-order reduction of the batches' snapshot statistics (see reduce.hpp).
 //
 // Each batch carries, per snapshot time k and observable o, the moments (n, mean, m2) across
-// its valid members, and per regime the number of its valid members in it. They are gathered
-// in batch order and merged per case in plan order with Chan's pairwise update, so the result
-// is bitwise the same for any number of ranks:
+// its valid members, and per regime the number of its valid members in it. The moments are
+// merged per case with Chan's pairwise update along the fixed merge tree
+// (parallel/merge_batches.hpp), the counts summed, so the result is bitwise the same for any
+// number of ranks:
 //   mean = merged mean,  variance = m2 / (n - 1),  regime fraction = count / valid members.
 #include <cmath>
 
+#include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "stats/ensemble.hpp"
 
@@ -24,22 +26,14 @@ void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const pl
     local_moments.insert(local_moments.end(), b.snapshot_moments.begin(), b.snapshot_moments.end());
     local_counts.insert(local_counts.end(), b.snapshot_regimes.begin(), b.snapshot_regimes.end());
   }
-  const std::vector<double> moments = comm.allgather_in_rank_order(local_moments);
-  const std::vector<std::int64_t> counts = comm.allgather_in_rank_order(local_counts);
-
-  const std::size_t per_batch = times * n_obs * 3, per_batch_counts = times * n_reg;
+  const std::vector<std::int64_t> indices = batch_indices(local);
+  const std::vector<double> moments =
+      merge_batches(comm, merge_shape(plan), stats::SummaryLayout{times * n_obs, 0}, indices, local_moments);
+  // members[case][time][regime]
+  const std::vector<std::int64_t> members =
+      sum_batches(comm, merge_shape(plan), times * n_reg, indices, local_counts);
   std::vector<stats::Moments> merged(n_cases * times * n_obs);
-  std::vector<std::int64_t> members(n_cases * times * n_reg, 0);
-  for (std::int64_t index = 0; index < plan.batch_count(); ++index) {
-    const plan::Batch b = plan.batch(index);
-    const std::size_t c = static_cast<std::size_t>(b.case_index);
-    const double* p = moments.data() + static_cast<std::size_t>(b.index) * per_batch;
-    for (std::size_t i = 0; i < times * n_obs; ++i, p += 3) {
-      merged[c * times * n_obs + i].merge(stats::Moments::unpack(p));
-    }
-    const std::int64_t* q = counts.data() + static_cast<std::size_t>(b.index) * per_batch_counts;
-    for (std::size_t i = 0; i < per_batch_counts; ++i) members[c * per_batch_counts + i] += q[i];
-  }
+  for (std::size_t i = 0; i < merged.size(); ++i) merged[i] = stats::Moments::unpack(moments.data() + 3 * i);
 
   r.snapshot_time.resize(times);
   for (std::size_t k = 0; k < times; ++k) {

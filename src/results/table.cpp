@@ -107,7 +107,7 @@ using S = Switch;
 using M = Merge;
 
 constexpr const char* kHorizonMoments =
-    "moments of the members' finite horizons, merged in batch order";
+    "moments of the members' finite horizons, merged along the batch merge tree";
 constexpr const char* kSurvival = "stats::survival of the pairs' separation leads";
 
 std::vector<Quantity> make_table() {
@@ -256,20 +256,20 @@ std::vector<Quantity> make_table() {
                "independent time samples behind the ensemble time mean: sum over valid members "
                "of n / (2 tau_int)",
                S::always, derived_of("time_mean", Estimate::detail,
-                                     "sum of the members' time_mean_samples in batch order")),
+                                     "sum of the members' time_mean_samples along the batch merge tree")),
       ensemble(&E::decorrelation_time, "/ensemble/decorrelation_time", {"case", "observable"},
                kTime,
                "ensemble mean of the members' integrated autocorrelation times tau_int, in model "
                "time units",
                S::always, derived_of("time_mean", Estimate::detail,
-                                     "mean of the members' time_mean_tau in batch order")),
+                                     "mean of the members' time_mean_tau along the batch merge tree")),
       ensemble(&E::member_stderr_rms, "", {"case", "observable"}, "1",
                "root mean square of the valid members' standard errors of the time mean",
-               S::always, derived("mean of the members' squared errors in batch order"),
+               S::always, derived("mean of the members' squared errors along the batch merge tree"),
                "member_stderr_rms"),
       ensemble(&E::member_time_variance, "", {"case", "observable"}, "1",
                "mean of the valid members' time variances", S::always,
-               derived("mean of the members' time variances in batch order"),
+               derived("mean of the members' time variances along the batch merge tree"),
                "member_time_variance"),
       ensemble(&E::non_chaotic, "/ensemble/non_chaotic", {"case"}, "1",
                "1 when the case does not behave chaotically (leading Lyapunov exponent below "
@@ -293,10 +293,10 @@ std::vector<Quantity> make_table() {
                  "lead time since the end of the spin-up, in model time units", S::twins),
       ensemble(&E::twin_log_separation, "/twins/log_separation", {"case", "lead"}, "1",
                "mean over valid member-twin pairs of the log of their Euclidean separation",
-               S::twins, merged(M::moments, "the batches' twin_moments merged in batch order")),
+               S::twins, merged(M::moments, "the batches' twin_moments merged along the batch merge tree")),
       ensemble(&E::twin_log_separation_std, "/twins/log_separation_std", {"case", "lead"}, "1",
                "standard deviation of the log separation across the valid pairs", S::twins,
-               merged(M::moments, "the batches' twin_moments merged in batch order")),
+               merged(M::moments, "the batches' twin_moments merged along the batch merge tree")),
       ensemble(&E::twin_pairs, "/twins/pairs", {"case"}, "1",
                "valid member-twin pairs (member and twin finite throughout)", S::twins,
                derived("count of the valid pairs")),
@@ -337,7 +337,7 @@ std::vector<Quantity> make_table() {
                  S::histogram),
       ensemble(&E::histogram, "/histogram/counts", {"case", "bin"}, "1",
                "member-steps of valid members with the observable in each bin", S::histogram,
-               merged(M::sum, "the batches' histogram counts summed in batch order"),
+               merged(M::sum, "the batches' histogram counts summed per case"),
                "histogram"),
       // snapshots
       ensemble(&E::snapshot_time, "/snapshot/time", {"time"}, kTime,
@@ -346,16 +346,16 @@ std::vector<Quantity> make_table() {
                S::snapshots, derived("the plan's snapshot steps times dt")),
       ensemble(&E::snapshot_mean, "/snapshot/mean", {"case", "time", "observable"}, "1",
                "mean of the observable across the case's valid members at the snapshot time",
-               S::snapshots, merged(M::moments, "the batches' snapshot_moments merged in batch order")),
+               S::snapshots, merged(M::moments, "the batches' snapshot_moments merged along the batch merge tree")),
       ensemble(&E::snapshot_variance, "/snapshot/variance", {"case", "time", "observable"}, "1",
                "variance of the observable across the case's valid members at the snapshot "
                "time (n-1 denominator)",
-               S::snapshots, merged(M::moments, "the batches' snapshot_moments merged in batch order")),
+               S::snapshots, merged(M::moments, "the batches' snapshot_moments merged along the batch merge tree")),
       ensemble(&E::snapshot_regime_fraction, "/snapshot/regime_fraction",
                {"case", "time", "regime"}, "1",
                "share of the case's valid members in the regime at the snapshot time",
                S::snapshot_regimes,
-               merged(M::sum, "the batches' snapshot_regimes summed in batch order, over the valid members")),
+               merged(M::sum, "the batches' snapshot_regimes summed per case, over the valid members")),
       // trajectories
       coordinate("/trajectory/time", {"step"}, T::float64, kTime,
                  "model time of each stored sample", S::trajectories),
@@ -443,8 +443,8 @@ std::string Quantity::merge_text() const {
     case Merge::none: return "from the plan";
     case Merge::rows: return "per member";
     case Merge::member_moments: return "per member; estimated across the valid members";
-    case Merge::sum: return "summed per case in batch order";
-    case Merge::moments: return how.empty() ? "(n, mean, m2) merged per case in batch order" : how;
+    case Merge::sum: return "summed per case";
+    case Merge::moments: return how.empty() ? "(n, mean, m2) merged per case along the batch merge tree" : how;
     case Merge::stored: return "as integrated, by the rank that ran the batch";
     case Merge::estimate: {
       const char* what = estimate == Estimate::mean ? "mean"
@@ -452,7 +452,7 @@ std::string Quantity::merge_text() const {
                          : estimate == Estimate::ci95 ? "95% interval"
                                                       : "statistic";
       return std::string(what) + " of the valid members' " + source +
-             ", moments merged per case in batch order";
+             ", moments merged per case along the batch merge tree";
     }
     case Merge::derived: return how;
   }

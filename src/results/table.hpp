@@ -40,8 +40,8 @@ enum class Merge {
   none,            // coordinates: from the plan
   rows,            // per member, placed by (case, member); nothing to merge
   member_moments,  // per member; their moments over the valid members feed `estimate`s
-  sum,             // per-batch counts, summed per case in batch order
-  moments,         // per-batch (n, mean, m2), merged per case in batch order
+  sum,             // per-batch counts, summed per case (exact in any order)
+  moments,         // per-batch (n, mean, m2), merged per case along the batch merge tree (parallel/)
   stored,          // per-batch data written as it is by the rank that holds the batch
   estimate,        // ensemble mean, std or 95% interval of a member_moments quantity
   derived,         // computed from merged partials (`how` names the computation)

@@ -1,7 +1,8 @@
 // Ensemble estimates across members, built from per-batch partial results merged in a fixed
 // order. Pure: no communication. parallel/ moves partials between ranks; the merge here is
-// associative (Chan et al. pairwise update) and the caller fixes the order (batch order), so
-// the result does not depend on the number of ranks.
+// associative up to rounding (Chan et al. pairwise update) and the caller fixes the order and
+// grouping (the merge tree of stats/merge_tree.hpp), so the result does not depend on the
+// number of ranks.
 #pragma once
 
 #include <cstdint>

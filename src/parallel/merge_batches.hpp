@@ -1,0 +1,40 @@
+// Internal to parallel/: the one place where per-batch summaries cross ranks. Each rank folds
+// its own batches into the fixed merge tree of stats/merge_tree.hpp, and one collective joins
+// the ranks' node lists in rank order: per-rank memory and message volume grow with the
+// cases, the summary width and log2 of the batches per case, never with the batch count, and
+// the merged values are bitwise the same on any number of ranks.
+#pragma once
+
+#include <cstdint>
+#include <vector>
+
+#include "parallel/communicator.hpp"
+#include "plan/plan.hpp"
+#include "run/batch_runner.hpp"
+#include "stats/merge_tree.hpp"
+
+namespace chaosweep::parallel {
+
+/// The batch numbers of `local`, in order.
+std::vector<std::int64_t> batch_indices(const std::vector<run::BatchResult>& local);
+
+/// The batches of the plan as the merge tree sees them.
+inline stats::MergeShape merge_shape(const plan::Plan& plan) {
+  return {static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()};
+}
+
+/// The summaries of this rank's batches (`indices`, increasing and contiguous within each
+/// case; `summaries` [batch][layout.width()] in the same order) merged per case over every
+/// rank's batches: [case][layout.width()]. Collective.
+std::vector<double> merge_batches(const Communicator& comm, const stats::MergeShape& shape,
+                                  const stats::SummaryLayout& layout,
+                                  const std::vector<std::int64_t>& indices,
+                                  const std::vector<double>& summaries);
+
+/// Element-wise sums of integer counts per case over every rank's batches: [case][width] from
+/// this rank's [batch][width] (in the order of `indices`). Collective.
+std::vector<std::int64_t> sum_batches(const Communicator& comm, const stats::MergeShape& shape,
+                                      std::size_t width, const std::vector<std::int64_t>& indices,
+                                      const std::vector<std::int64_t>& counts);
+
+}  // namespace chaosweep::parallel
