@@ -6,6 +6,7 @@
 #include <chrono>
 
 #include "core/error.hpp"
+#include "parallel/batch_summary.hpp"
 #include "run/lyapunov.hpp"
 
 namespace chaosweep::app {
@@ -145,6 +146,9 @@ void LocalWork::finish_current() {
   in_case(current_index_, [&] {
     run::BatchResult result = current_->finish();
     run::add_lyapunov(spec_, plan_, result);
+    // The reduction needs only the summary; the archive only the kept member rows.
+    parallel::summarise(spec_, plan_, result);
+    parallel::keep_archived_rows(plan_, result);
     results_[current_index_] = std::move(result);
     ++finished_;
   });

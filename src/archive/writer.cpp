@@ -215,17 +215,20 @@ class MemberRows {
   std::array<RowBlock, 3> blocks_{};
 };
 
-/// Concatenates the kept rows of one per-member array of every local batch.
+/// Concatenates the kept rows of one per-member array of every local batch; `width` values
+/// per row. A batch holds at least its kept rows (all of its members' before it is
+/// summarised, parallel/batch_summary.hpp, only the kept ones after).
 template <class T>
 std::vector<T> gather(const plan::Plan& plan, const std::vector<run::BatchResult>& local,
-                      const Quantity& q) {
+                      const Quantity& q, std::size_t width) {
   std::vector<T> out;
   for (const run::BatchResult& b : local) {
     const std::vector<T>& v = results::array_of<T>(b, q);
-    if (b.count == 0) continue;
-    const std::size_t width = v.size() / static_cast<std::size_t>(b.count);
-    const auto kept = static_cast<std::ptrdiff_t>(width * static_cast<std::size_t>(kept_rows(plan, b)));
-    out.insert(out.end(), v.begin(), v.begin() + kept);
+    const std::size_t kept = width * static_cast<std::size_t>(kept_rows(plan, b));
+    if (v.size() < kept) {
+      throw Error("batch " + std::to_string(b.batch_index) + " lacks member rows of " + q.name);
+    }
+    out.insert(out.end(), v.begin(), v.begin() + static_cast<std::ptrdiff_t>(kept));
   }
   return out;
 }
@@ -410,10 +413,11 @@ void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
   switch (q.scope) {
     case results::Scope::member: {
       const Dims trailing(shape.begin() + 2, shape.end());
+      const std::size_t width = h5::element_count(trailing);
       switch (q.type) {
-        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.plan, in.local, q)); break;
-        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.plan, in.local, q)); break;
-        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.plan, in.local, q)); break;
+        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.plan, in.local, q, width)); break;
+        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.plan, in.local, q, width)); break;
+        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.plan, in.local, q, width)); break;
         case ElementType::text: throw std::logic_error("text per member: " + q.path);
       }
       break;

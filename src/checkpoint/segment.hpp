@@ -26,7 +26,7 @@
 
 namespace chaosweep::checkpoint {
 
-inline constexpr std::uint32_t kSegmentVersion = 1;
+inline constexpr std::uint32_t kSegmentVersion = 2;  // 2: records carry the batch summary
 inline constexpr std::size_t kSegmentHeaderSize = 224;
 
 /// A record whose header is sound: what it holds and where its payload lies.

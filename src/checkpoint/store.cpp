@@ -48,7 +48,8 @@ std::int64_t generation_number(const std::string& name) {
 }
 
 /// A finished batch as a record: its identity, then every array the results table declares
-/// for a batch (per-member rows and per-batch summaries), under the quantity's name.
+/// for a batch (the member rows it kept, per-batch partials), under the quantity's name, and
+/// the batch's summary for the reduction ("summary", "summary_counts").
 Record to_record(const run::BatchResult& r, const std::string& sha) {
   Record rec;
   rec.header = {{"kind", "done"}, {"spec_sha256", sha}, {"batch", std::to_string(r.batch_index)}};
@@ -64,6 +65,8 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
       rec.bytes.emplace_back(q.name, values);
     }
   });
+  rec.reals.emplace_back("summary", r.summary);
+  rec.integers.emplace_back("summary_counts", r.summary_counts);
   return rec;
 }
 
@@ -86,6 +89,8 @@ run::BatchResult to_result(const Record& rec) {
       values = rec.byte_array(q.name);
     }
   });
+  r.summary = rec.real("summary");
+  r.summary_counts = rec.integer("summary_counts");
   return r;
 }
 

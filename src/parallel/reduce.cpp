@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "parallel/batch_summary.hpp"
 #include "parallel/merge_batches.hpp"
 #include "parallel/reduce_errors.hpp"
 #include "results/table.hpp"
@@ -13,44 +14,6 @@ namespace chaosweep::parallel {
 namespace {
 
 constexpr int kMomentWidth = stats::Moments::kPacked;
-
-/// The per-member quantities whose ensemble estimates the table declares (merge
-/// member_moments) and that this campaign has, with their columns per member.
-struct Estimated {
-  const results::Quantity* quantity;
-  std::size_t width;
-};
-
-std::vector<Estimated> estimated_quantities(const plan::Plan& plan) {
-  std::vector<Estimated> out;
-  for (const results::Quantity& q : results::quantities()) {
-    if (q.merge != results::Merge::member_moments || !q.present(plan.outputs)) continue;
-    std::size_t width = 1;  // the dimensions after (case, member)
-    for (std::size_t d = 2; d < q.dims.size(); ++d) width *= plan.extent(q.dims[d]);
-    out.push_back({&q, width});
-  }
-  return out;
-}
-
-/// Per-batch summary: for each estimated quantity in table order and each of its columns, the
-/// moments (n, mean, m2) across the batch's valid members.
-std::vector<double> summarise(const std::vector<run::BatchResult>& local,
-                              const std::vector<Estimated>& estimated) {
-  std::vector<double> out;
-  for (const run::BatchResult& b : local) {
-    for (const Estimated& e : estimated) {
-      const std::vector<double>& values = results::array_of<double>(b, *e.quantity);
-      for (std::size_t column = 0; column < e.width; ++column) {
-        stats::Moments m;
-        for (int i = 0; i < b.count; ++i) {
-          if (b.status[i] == run::kValid) m.add(values[static_cast<std::size_t>(i) * e.width + column]);
-        }
-        m.append_to(out);
-      }
-    }
-  }
-  return out;
-}
 
 /// Writes the estimates of every table entry that estimates `source`, at index `i`.
 void store(const stats::EnsembleEstimate& est, const std::string& source, std::size_t i,
@@ -129,18 +92,10 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
   const int n_lyap = spec.statistics.lyapunov.enabled ? spec.statistics.lyapunov.exponents : 0;
   const std::size_t n_cases = plan.cases.size();
   const std::vector<Estimated> estimated = estimated_quantities(plan);
-  std::size_t columns = 0;
-  for (const Estimated& e : estimated) columns += e.width;
-
-  const std::vector<std::int64_t> indices = batch_indices(local);
-  const std::vector<double> merged = merge_batches(
-      comm, merge_shape(plan), stats::SummaryLayout{columns, 0}, indices, summarise(local, estimated));
-  std::vector<std::int64_t> local_counts;
-  std::int64_t local_bad = 0;
-  for (const run::BatchResult& b : local) {
-    local_counts.insert(local_counts.end(), b.histogram.begin(), b.histogram.end());
-    for (int i = 0; i < b.count; ++i) local_bad += b.status[i] != run::kValid ? 1 : 0;
-  }
+  const LocalSummaries mine(spec, plan, local);
+  const std::size_t columns = mine.parts.estimated.layout.moments;
+  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.estimated.layout,
+                                                   mine.indices, mine.part(mine.parts.estimated));
 
   // moments[case][column] over the estimated columns
   std::vector<stats::Moments> moments(n_cases * columns);
@@ -148,7 +103,8 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
     moments[i] = stats::Moments::unpack(merged.data() + i * kMomentWidth);
   }
   EnsembleResults r;
-  r.histogram = sum_batches(comm, merge_shape(plan), static_cast<std::size_t>(bins), indices, local_counts);
+  r.histogram = sum_batches(comm, merge_shape(plan), static_cast<std::size_t>(bins), mine.indices,
+                            mine.count_part(mine.parts.histogram_offset, static_cast<std::size_t>(bins)));
 
   // Every estimate array sized [case][width] (intervals [case][width][2]) and filled.
   std::size_t first_column = 0;
@@ -175,11 +131,13 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
     r.valid_members[c] = valid;
     r.effective_members[c] = static_cast<double>(valid);
   }
-  r.non_finite_members = comm.sum(local_bad);
-  reduce_time_mean_errors(comm, plan, local, r);
+  std::int64_t non_finite = 0;
+  for (std::size_t i = 0; i < mine.indices.size(); ++i) non_finite += mine.counts[i * mine.parts.count_width];
+  r.non_finite_members = comm.sum(non_finite);
+  reduce_time_mean_errors(comm, plan, mine, r);
   fit_slopes(plan, spec.sweep.size(), r);
-  reduce_twins(comm, spec, plan, local, r);
-  reduce_snapshots(comm, spec, plan, local, r);
+  reduce_twins(comm, spec, plan, mine, r);
+  reduce_snapshots(comm, spec, plan, mine, r);
   check_cases(spec, plan, n_lyap, r);
   return r;
 }

@@ -3,46 +3,22 @@
 
 #include <cmath>
 
+#include "parallel/batch_summary.hpp"
 #include "parallel/merge_batches.hpp"
 #include "stats/member_errors.hpp"
 
 namespace chaosweep::parallel {
-namespace {
-
-constexpr int kSums = stats::MemberErrorSums::kPacked;
-
-/// Per batch and observable, the sums over the batch's valid members.
-std::vector<double> summarise(const std::vector<run::BatchResult>& local, int n_obs) {
-  std::vector<double> out(local.size() * kSums * static_cast<std::size_t>(n_obs));
-  double* p = out.data();
-  for (const run::BatchResult& b : local) {
-    for (int o = 0; o < n_obs; ++o, p += kSums) {
-      stats::MemberErrorSums sums;
-      for (int i = 0; i < b.count; ++i) {
-        if (b.status[i] != run::kValid) continue;
-        const std::size_t k = static_cast<std::size_t>(i) * n_obs + o;
-        sums.add(b.time_mean_samples[k], b.time_mean_stderr[k], b.time_mean_tau[k],
-                 b.time_variance[k]);
-      }
-      sums.append_to(p);
-    }
-  }
-  return out;
-}
-
-}  // namespace
 
 void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
-                             const std::vector<run::BatchResult>& local, EnsembleResults& r) {
+                             const LocalSummaries& mine, EnsembleResults& r) {
   const int n_obs = static_cast<int>(plan.observables.size());
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t width = static_cast<std::size_t>(kSums * n_obs);
-  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), stats::SummaryLayout{0, width},
-                                                   batch_indices(local), summarise(local, n_obs));
+  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.errors.layout,
+                                                   mine.indices, mine.part(mine.parts.errors));
 
   // sums[case][observable]
   std::vector<stats::MemberErrorSums> sums(n_cases * static_cast<std::size_t>(n_obs));
-  for (std::size_t i = 0; i < sums.size(); ++i) sums[i].merge(merged.data() + i * kSums);
+  for (std::size_t i = 0; i < sums.size(); ++i) sums[i].merge(merged.data() + i * stats::MemberErrorSums::kPacked);
 
   r.time_mean_stderr.assign(n_cases * n_obs, NAN);
   r.effective_samples.assign(n_cases * n_obs, NAN);

@@ -16,6 +16,6 @@ namespace chaosweep::parallel {
 /// Fills r.time_mean_stderr, r.effective_samples and r.decorrelation_time ([case][observable])
 /// from the members' blocking estimates; needs r.time_mean_std and r.valid_members. Collective.
 void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
-                             const std::vector<run::BatchResult>& local, EnsembleResults& r);
+                             const LocalSummaries& mine, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

@@ -15,6 +15,7 @@
 #include <cmath>
 
 #include "core/error.hpp"
+#include "parallel/batch_summary.hpp"
 #include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "run/twins.hpp"
@@ -26,64 +27,27 @@ namespace {
 
 constexpr int kMomentWidth = stats::Moments::kPacked;  // n, mean, m2
 
-/// Doubles per batch: [leads][3] log-separation moments, the horizon's and the log threshold
-/// distance's (n, mean, m2), [leads] separations first seen at each lead, the unseparated.
-std::size_t per_batch_width(std::size_t leads) { return (leads + 2) * kMomentWidth + leads + 1; }
-
-std::vector<double> summarise_twins(const std::vector<run::BatchResult>& local,
-                                    const std::vector<double>& lead, double threshold) {
-  const std::size_t leads = lead.size();
-  std::vector<double> out;
-  out.reserve(local.size() * per_batch_width(leads));
-  for (const run::BatchResult& b : local) {
-    if (b.twin_moments.size() != leads * kMomentWidth) {
-      throw Error("batch " + std::to_string(b.batch_index) + " has no twin results");
-    }
-    out.insert(out.end(), b.twin_moments.begin(), b.twin_moments.end());
-    stats::Moments h, level;
-    std::vector<double> separated(leads, 0.0);
-    double unseparated = 0.0;
-    for (int i = 0; i < b.count; ++i) {
-      // a valid pair: a valid member whose spread (and so its twin) is finite
-      if (b.status[i] != run::kValid || !std::isfinite(b.spread[i])) continue;
-      level.add(std::log(threshold * b.spread[i]));
-      if (!std::isfinite(b.horizon[i])) {
-        unseparated += 1.0;
-        continue;
-      }
-      h.add(b.horizon[i]);
-      // horizons are lead times, computed exactly as the lead coordinate is
-      const auto k = std::lower_bound(lead.begin(), lead.end(), b.horizon[i]) - lead.begin();
-      if (k == static_cast<std::ptrdiff_t>(leads) || lead[static_cast<std::size_t>(k)] != b.horizon[i]) {
-        throw Error("batch " + std::to_string(b.batch_index) + ": a horizon is not a lead time");
-      }
-      separated[static_cast<std::size_t>(k)] += 1.0;
-    }
-    h.append_to(out);
-    level.append_to(out);
-    out.insert(out.end(), separated.begin(), separated.end());
-    out.push_back(unseparated);
-  }
-  return out;
-}
+/// Doubles per case: [leads][3] log-separation moments, the horizon's and the log threshold
+/// distance's (n, mean, m2), [leads] separations first seen at each lead, the unseparated
+/// (the batch summaries' twin part, parallel/batch_summary.cpp).
+std::size_t per_case_width(std::size_t leads) { return (leads + 2) * kMomentWidth + leads + 1; }
 
 }  // namespace
 
 void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                  const std::vector<run::BatchResult>& local, EnsembleResults& r) {
+                  const LocalSummaries& mine, EnsembleResults& r) {
   const run::TwinTimes& times = plan.twins;
   if (times.every_steps == 0) return;
   const std::size_t leads = static_cast<std::size_t>(times.leads);
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_batch = per_batch_width(leads);
+  const std::size_t per_case = per_case_width(leads);
   const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);
-  const std::vector<double> merged = merge_batches(
-      comm, merge_shape(plan), stats::SummaryLayout{leads + 2, leads + 1}, batch_indices(local),
-      summarise_twins(local, lead, spec.statistics.twins.threshold));
+  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.twins.layout,
+                                                   mine.indices, mine.part(mine.parts.twins));
 
   std::vector<stats::TwinPartials> cases(n_cases, stats::TwinPartials(leads));
   for (std::size_t index = 0; index < n_cases; ++index) {
-    const double* p = merged.data() + index * per_batch;
+    const double* p = merged.data() + index * per_case;
     stats::TwinPartials& c = cases[index];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
       c.separation[k] = stats::Moments::unpack(p);

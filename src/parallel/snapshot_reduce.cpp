@@ -8,6 +8,7 @@
 //   mean = merged mean,  variance = m2 / (n - 1),  regime fraction = count / valid members.
 #include <cmath>
 
+#include "parallel/batch_summary.hpp"
 #include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "stats/ensemble.hpp"
@@ -15,23 +16,17 @@
 namespace chaosweep::parallel {
 
 void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                      const std::vector<run::BatchResult>& local, EnsembleResults& r) {
+                      const LocalSummaries& mine, EnsembleResults& r) {
   const std::size_t times = static_cast<std::size_t>(plan.snapshot_count);
   if (times == 0) return;
   const std::size_t n_obs = plan.observables.size(), n_reg = plan.regime_labels.size();
   const std::size_t n_cases = plan.cases.size();
-  std::vector<double> local_moments;
-  std::vector<std::int64_t> local_counts;
-  for (const run::BatchResult& b : local) {
-    local_moments.insert(local_moments.end(), b.snapshot_moments.begin(), b.snapshot_moments.end());
-    local_counts.insert(local_counts.end(), b.snapshot_regimes.begin(), b.snapshot_regimes.end());
-  }
-  const std::vector<std::int64_t> indices = batch_indices(local);
-  const std::vector<double> moments =
-      merge_batches(comm, merge_shape(plan), stats::SummaryLayout{times * n_obs, 0}, indices, local_moments);
+  const std::vector<double> moments = merge_batches(
+      comm, merge_shape(plan), mine.parts.snapshots.layout, mine.indices, mine.part(mine.parts.snapshots));
   // members[case][time][regime]
-  const std::vector<std::int64_t> members =
-      sum_batches(comm, merge_shape(plan), times * n_reg, indices, local_counts);
+  const std::vector<std::int64_t> members = sum_batches(
+      comm, merge_shape(plan), times * n_reg, mine.indices,
+      mine.count_part(mine.parts.regimes_offset, times * n_reg));
   std::vector<stats::Moments> merged(n_cases * times * n_obs);
   for (std::size_t i = 0; i < merged.size(); ++i) merged[i] = stats::Moments::unpack(moments.data() + 3 * i);
 
