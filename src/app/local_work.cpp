@@ -23,8 +23,9 @@ double seconds_since(Clock::time_point start) {
 LocalWork::LocalWork(const spec::Spec& spec, const plan::Plan& plan, plan::Range share,
                      const checkpoint::Store* store)
     : spec_(spec), plan_(plan), share_(share), store_(store),
-      results_(static_cast<std::size_t>(share.last - share.first)),
-      resumed_(results_.size()) {}
+      finished_flags_(static_cast<std::size_t>(share.last - share.first), 0),
+      partial_(spec, plan, share.first),
+      resumed_(finished_flags_.size()) {}
 
 LocalWork::Restored LocalWork::restore() {
   Restored r;
@@ -33,13 +34,13 @@ LocalWork::Restored LocalWork::restore() {
   checkpoint::DoneIndex done = store_->index_done(share_.first, share_.last);
   r.segment_problems = std::move(done.problems);
   r.cut_short = std::move(done.cut_short);
-  for (std::size_t i = 0; i < results_.size(); ++i) {
+  for (std::size_t i = 0; i < finished_flags_.size(); ++i) {
     const std::int64_t batch = share_.first + static_cast<std::int64_t>(i);
     std::string problem;
-    results_[i] = store_->load_done(done, batch, &problem);
-    if (results_[i]) {
+    std::optional<run::BatchResult> restored = store_->load_done(done, batch, &problem);
+    if (restored) {
+      keep(i, std::move(*restored));
       ++r.finished;
-      ++finished_;
       continue;
     }
     if (!problem.empty()) {
@@ -63,7 +64,7 @@ LocalWork::Restored LocalWork::restore() {
 }
 
 bool LocalWork::done() const {
-  return !current_ && finished_ == static_cast<std::int64_t>(results_.size());
+  return !current_ && finished_ == static_cast<std::int64_t>(finished_flags_.size());
 }
 
 std::int64_t LocalWork::finished_count() const { return finished_; }
@@ -105,14 +106,14 @@ const std::vector<double>& LocalWork::base_state(std::int64_t case_index) {
 }
 
 void LocalWork::prepare_cases() {
-  for (std::size_t i = 0; i < results_.size(); ++i) {
-    if (!results_[i]) in_case(i, [&] { base_state(batch_at(i).case_index); });
+  for (std::size_t i = 0; i < finished_flags_.size(); ++i) {
+    if (!finished_flags_[i]) in_case(i, [&] { base_state(batch_at(i).case_index); });
   }
 }
 
 void LocalWork::start_next() {
-  while (next_ < results_.size() && results_[next_]) ++next_;
-  if (next_ == results_.size()) return;
+  while (next_ < finished_flags_.size() && finished_flags_[next_]) ++next_;
+  if (next_ == finished_flags_.size()) return;
   const std::size_t i = next_;
   const plan::Batch batch = batch_at(i);
   in_case(i, [&] {
@@ -149,11 +150,20 @@ void LocalWork::finish_current() {
     // The reduction needs only the summary; the archive only the kept member rows.
     parallel::summarise(spec_, plan_, result);
     parallel::keep_archived_rows(plan_, result);
-    results_[current_index_] = std::move(result);
-    ++finished_;
+    if (store_) store_->save_done(result);
+    keep(current_index_, std::move(result));
   });
   current_.reset();
-  if (store_) store_->save_done(*results_[current_index_]);
+}
+
+void LocalWork::keep(std::size_t i, run::BatchResult result) {
+  partial_.add(result);
+  finished_flags_[i] = 1;
+  ++finished_;
+  // What stays for the archive: the kept member rows and stored trajectories, if any.
+  result.summary = {};
+  result.summary_counts = {};
+  if (!result.status.empty() || !result.trajectory.empty()) kept_.emplace(i, std::move(result));
 }
 
 bool LocalWork::work(double seconds) {
@@ -181,8 +191,9 @@ std::int64_t LocalWork::save_in_progress(std::int64_t generation) const {
 
 std::vector<run::BatchResult> LocalWork::take_results() {
   std::vector<run::BatchResult> out;
-  out.reserve(results_.size());
-  for (auto& r : results_) out.push_back(std::move(*r));
+  out.reserve(kept_.size());
+  for (auto& [i, r] : kept_) out.push_back(std::move(r));
+  kept_.clear();
   return out;
 }
 

@@ -11,6 +11,7 @@
 
 #include "checkpoint/store.hpp"
 #include "core/error.hpp"
+#include "parallel/batch_summary.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "spec/spec.hpp"
@@ -54,10 +55,13 @@ class LocalWork {
   /// Saves the batch in progress (if any) into generation `generation`; returns its index or -1.
   std::int64_t save_in_progress(std::int64_t generation) const;
 
-  /// Finished results in batch order (only when done()).
+  /// The finished batches that hold something for the archive (kept member rows, stored
+  /// trajectories), in batch order (only when done()).
   std::vector<run::BatchResult> take_results();
+  /// Every finished batch's summary, folded for the reduction.
+  const parallel::LocalPartial& partial() const { return partial_; }
   std::int64_t finished_count() const;
-  std::int64_t batch_count() const { return static_cast<std::int64_t>(results_.size()); }
+  std::int64_t batch_count() const { return static_cast<std::int64_t>(finished_flags_.size()); }
   /// Steps times real members integrated by this process (restored work not counted).
   std::int64_t integrated_member_steps() const { return integrated_member_steps_; }
 
@@ -66,6 +70,9 @@ class LocalWork {
   void start_next();
   void advance_current(std::int64_t steps);
   void finish_current();
+  /// Records local batch i as finished: its summary goes into the partial, what the archive
+  /// holds of it (if anything) is kept.
+  void keep(std::size_t i, run::BatchResult result);
   const std::vector<double>& base_state(std::int64_t case_index);
   /// Runs `step` for the case of the batch at local index `i`; an Error it throws is
   /// rethrown with the case and its swept values in front.
@@ -76,7 +83,9 @@ class LocalWork {
   const plan::Plan& plan_;
   plan::Range share_;
   const checkpoint::Store* store_;
-  std::vector<std::optional<run::BatchResult>> results_;   // per local batch
+  std::vector<char> finished_flags_;                       // per local batch: finished
+  std::map<std::size_t, run::BatchResult> kept_;           // finished, with archive rows
+  parallel::LocalPartial partial_;                         // every finished batch's summary
   std::vector<std::optional<run::BatchState>> resumed_;    // restored states, per local batch
   std::map<std::int64_t, std::vector<double>> base_states_;  // per case, from prepare_cases()
   std::unique_ptr<run::CaseRunner> runner_;

@@ -474,7 +474,7 @@ int run_command(const RunOptions& options) {
 
     log_checkpoint_cost(comm, *store, seconds_since(start));
     const std::vector<run::BatchResult> local = work.take_results();
-    const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, local);
+    const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, work.partial());
     if (ensemble.non_finite_members > 0 && comm.rank() == 0) {
       spdlog::warn("{} of {} members became non-finite (dt too large?); they are excluded from "
                    "every estimate and marked in /member/status",

@@ -46,16 +46,16 @@ void add_errors(std::size_t n_obs, const run::BatchResult& b, std::vector<double
   }
 }
 
-/// The twin partials: [leads][3] log-separation moments (from the batch), the horizon's and
-/// the log threshold distance's moments, [leads] separations first seen at each lead, the
-/// pairs not separated by the last lead.
+/// The twin partials: into `moments` the [leads] log-separation moments (from the batch), the
+/// horizon's and the log threshold distance's; into `sums` the [leads] separations first seen
+/// at each lead and the pairs not separated by the last lead.
 void add_twins(const std::vector<double>& lead, double threshold, const run::BatchResult& b,
-               std::vector<double>& out) {
+               std::vector<double>& moments, std::vector<double>& sums) {
   const std::size_t leads = lead.size();
   if (b.twin_moments.size() != leads * kMomentWidth) {
     throw Error("batch " + std::to_string(b.batch_index) + " has no twin results");
   }
-  out.insert(out.end(), b.twin_moments.begin(), b.twin_moments.end());
+  moments.insert(moments.end(), b.twin_moments.begin(), b.twin_moments.end());
   stats::Moments h, level;
   std::vector<double> separated(leads, 0.0);
   double unseparated = 0.0;
@@ -75,10 +75,10 @@ void add_twins(const std::vector<double>& lead, double threshold, const run::Bat
     }
     separated[static_cast<std::size_t>(k)] += 1.0;
   }
-  h.append_to(out);
-  level.append_to(out);
-  out.insert(out.end(), separated.begin(), separated.end());
-  out.push_back(unseparated);
+  h.append_to(moments);
+  level.append_to(moments);
+  sums.insert(sums.end(), separated.begin(), separated.end());
+  sums.push_back(unseparated);
 }
 
 }  // namespace
@@ -96,26 +96,23 @@ std::vector<Estimated> estimated_quantities(const plan::Plan& plan) {
 
 SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan) {
   const std::size_t n_obs = plan.observables.size();
-  const std::size_t leads = plan.twins.every_steps > 0 ? static_cast<std::size_t>(plan.twins.leads) : 0;
   const std::size_t times = static_cast<std::size_t>(plan.snapshot_count);
-  std::size_t columns = 0;
-  for (const Estimated& e : estimated_quantities(plan)) columns += e.width;
   SummaryParts p;
-  std::size_t at = 0;
-  const auto place = [&at](SummaryPart& part, std::size_t moments, std::size_t sums) {
-    part.offset = at;
-    part.layout = stats::SummaryLayout{moments, sums};
-    at += part.layout.width();
-  };
-  place(p.estimated, columns, 0);
-  place(p.errors, 0, stats::MemberErrorSums::kPacked * n_obs);
-  if (leads > 0) place(p.twins, leads + 2, leads + 1);
-  place(p.snapshots, times * n_obs, 0);
-  p.width = at;
+  for (const Estimated& e : estimated_quantities(plan)) p.columns += e.width;
+  p.leads = plan.twins.every_steps > 0 ? static_cast<std::size_t>(plan.twins.leads) : 0;
+  const std::size_t twin_triples = p.leads > 0 ? p.leads + 2 : 0;
+  const std::size_t triples = p.columns + twin_triples + times * n_obs;
+  p.estimated = 0;
+  p.twin_moments = kMomentWidth * p.columns;
+  p.snapshots = p.twin_moments + kMomentWidth * twin_triples;
+  p.errors = kMomentWidth * triples;
+  p.twin_sums = p.errors + stats::MemberErrorSums::kPacked * n_obs;
+  const std::size_t sums = stats::MemberErrorSums::kPacked * n_obs + (p.leads > 0 ? p.leads + 1 : 0);
+  p.layout = stats::SummaryLayout{triples, sums};
   const std::size_t bins =
       spec.statistics.histogram.enabled ? static_cast<std::size_t>(spec.statistics.histogram.bins) : 0;
-  p.histogram_offset = 1;
-  p.regimes_offset = 1 + bins;
+  p.histogram = 1;
+  p.regimes = 1 + bins;
   p.count_width = 1 + bins + times * plan.regime_labels.size();
   return p;
 }
@@ -127,19 +124,23 @@ void append_summary(const spec::Spec& spec, const plan::Plan& plan, const Summar
                     const run::BatchResult& b, std::vector<double>& summary,
                     std::vector<std::int64_t>& counts) {
   const std::size_t s0 = summary.size(), c0 = counts.size();
+  std::vector<double> sums;
   add_estimated(estimated_quantities(plan), b, summary);
-  add_errors(plan.observables.size(), b, summary);
-  if (parts.twins.layout.width() > 0) {
+  if (parts.leads > 0) {
     add_twins(run::twin_leads(plan.twins, spec.integration.dt), spec.statistics.twins.threshold,
-              b, summary);
+              b, summary, sums);
   }
   summary.insert(summary.end(), b.snapshot_moments.begin(), b.snapshot_moments.end());
+  std::vector<double> errors;
+  add_errors(plan.observables.size(), b, errors);
+  summary.insert(summary.end(), errors.begin(), errors.end());
+  summary.insert(summary.end(), sums.begin(), sums.end());
   std::int64_t non_finite = 0;
   for (int i = 0; i < b.count; ++i) non_finite += b.status[i] != run::kValid ? 1 : 0;
   counts.push_back(non_finite);
   counts.insert(counts.end(), b.histogram.begin(), b.histogram.end());
   counts.insert(counts.end(), b.snapshot_regimes.begin(), b.snapshot_regimes.end());
-  if (summary.size() - s0 != parts.width || counts.size() - c0 != parts.count_width) {
+  if (summary.size() - s0 != parts.layout.width() || counts.size() - c0 != parts.count_width) {
     throw Error("batch " + std::to_string(b.batch_index) + ": its summary does not match the campaign");
   }
 }
@@ -154,42 +155,41 @@ void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult&
   b.summary_counts = std::move(counts);
 }
 
-LocalSummaries::LocalSummaries(const spec::Spec& spec, const plan::Plan& plan,
-                               const std::vector<run::BatchResult>& local)
-    : parts(summary_parts(spec, plan)) {
-  for (const run::BatchResult& b : local) {
-    indices.push_back(b.batch_index);
-    if (b.summary.empty() && b.summary_counts.empty()) {
-      append_summary(spec, plan, parts, b, summaries, counts);
-      continue;
-    }
-    if (b.summary.size() != parts.width || b.summary_counts.size() != parts.count_width) {
-      throw Error("batch " + std::to_string(b.batch_index) + ": its summary does not match the campaign");
-    }
-    summaries.insert(summaries.end(), b.summary.begin(), b.summary.end());
-    counts.insert(counts.end(), b.summary_counts.begin(), b.summary_counts.end());
+LocalPartial::LocalPartial(const spec::Spec& spec, const plan::Plan& plan, std::int64_t first)
+    : spec_(spec),
+      plan_(plan),
+      parts_(summary_parts(spec, plan)),
+      tree_(stats::MergeShape{static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()},
+            parts_.layout),
+      packed_(tree_.empty()),
+      counts_(plan.cases.size() * parts_.count_width, 0),
+      next_(first) {}
+
+void LocalPartial::add(const run::BatchResult& b) {
+  std::vector<double> summary = b.summary;
+  std::vector<std::int64_t> counts = b.summary_counts;
+  if (summary.empty() && counts.empty()) {
+    append_summary(spec_, plan_, parts_, b, summary, counts);
+  } else if (summary.size() != parts_.layout.width() || counts.size() != parts_.count_width) {
+    throw Error("batch " + std::to_string(b.batch_index) + ": its summary does not match the campaign");
+  }
+  // counts add exactly in any order
+  const std::size_t c = static_cast<std::size_t>(b.batch_index / plan_.batches_per_case());
+  for (std::size_t k = 0; k < parts_.count_width; ++k) counts_[c * parts_.count_width + k] += counts[k];
+  if (b.batch_index != next_) {
+    pending_.emplace(b.batch_index, std::move(summary));
+    return;
+  }
+  fold(b.batch_index, summary.data());
+  while (!pending_.empty() && pending_.begin()->first == next_) {
+    fold(next_, pending_.begin()->second.data());
+    pending_.erase(pending_.begin());
   }
 }
 
-std::vector<double> LocalSummaries::part(const SummaryPart& p) const {
-  const std::size_t w = p.layout.width();
-  std::vector<double> out;
-  out.reserve(indices.size() * w);
-  for (std::size_t i = 0; i < indices.size(); ++i) {
-    const double* at = summaries.data() + i * parts.width + p.offset;
-    out.insert(out.end(), at, at + w);
-  }
-  return out;
-}
-
-std::vector<std::int64_t> LocalSummaries::count_part(std::size_t offset, std::size_t width) const {
-  std::vector<std::int64_t> out;
-  out.reserve(indices.size() * width);
-  for (std::size_t i = 0; i < indices.size(); ++i) {
-    const std::int64_t* at = counts.data() + i * parts.count_width + offset;
-    out.insert(out.end(), at, at + width);
-  }
-  return out;
+void LocalPartial::fold(std::int64_t index, const double* summary) {
+  tree_.add(packed_, index, summary);
+  next_ = index + 1;
 }
 
 void keep_archived_rows(const plan::Plan& plan, run::BatchResult& b) {

@@ -1,11 +1,14 @@
 // What the reduction needs of one finished batch, computed once when the batch finishes: its
-// summary (per-column moments and sums over its valid members, laid out for the merge tree)
-// and its counts. With the summary, the batch keeps only the member rows the archive will
-// hold (output.members), so a rank's memory and its checkpoints hold summaries, not every
-// member's results. Pure: no communication.
+// summary (moments and sums over its valid members, laid out for the merge tree) and its
+// counts. With the summary, the batch keeps only the member rows the archive will hold
+// (output.members), and a rank folds the summaries of its batches into its part of the merge
+// tree as they finish: its memory holds the tree's nodes and per-case counts, not a summary
+// per batch. Pure: no communication.
 #pragma once
 
 #include <cstddef>
+#include <cstdint>
+#include <map>
 #include <vector>
 
 #include "plan/plan.hpp"
@@ -16,12 +19,6 @@
 
 namespace chaosweep::parallel {
 
-/// A part of BatchResult::summary: where it starts and how it merges.
-struct SummaryPart {
-  std::size_t offset = 0;
-  stats::SummaryLayout layout;
-};
-
 /// The per-member quantity of the table that has ensemble estimates (merge member_moments)
 /// in this campaign, with its columns per member.
 struct Estimated {
@@ -30,39 +27,68 @@ struct Estimated {
 };
 std::vector<Estimated> estimated_quantities(const plan::Plan& plan);
 
-/// The layout of a campaign's batch summaries. summary: [estimated moments | time-mean error
-/// sums | twins | snapshot moments]; summary_counts: [non-finite members | histogram |
-/// snapshot regime counts].
+/// The layout of a campaign's batch summaries: every (n, mean, m2) triple first, then every
+/// sum, so that one merge tree merges them all. Offsets count doubles from the start.
+///   summary: [estimated columns: moments | twins: [leads] log-separation moments, horizon and
+///            log threshold distance moments | snapshots: [time][observable] moments |
+///            time-mean errors: [observable] the 4 sums of stats::MemberErrorSums |
+///            twins: [leads] separations first seen at the lead, the pairs never separated]
+///   counts:  [non-finite members | histogram bins | [time][regime] snapshot regime counts]
 struct SummaryParts {
-  SummaryPart estimated;   // per estimated column: (n, mean, m2) over valid members
-  SummaryPart errors;      // per observable: the 4 sums of stats::MemberErrorSums
-  SummaryPart twins;       // per lead and for horizon and level: moments; separations: sums
-  SummaryPart snapshots;   // per snapshot time and observable: moments
-  std::size_t width = 0;
-  std::size_t histogram_offset = 1, regimes_offset = 1, count_width = 1;
+  stats::SummaryLayout layout;
+  std::size_t columns = 0, leads = 0;  // estimated columns; twin leads (0: no twins)
+  std::size_t estimated = 0, twin_moments = 0, snapshots = 0, errors = 0, twin_sums = 0;
+  std::size_t histogram = 1, regimes = 1, count_width = 1;
 };
 SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan);
 
 /// Fills b.summary and b.summary_counts from b's member rows and batch partials.
 void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& b);
-
-/// This rank's batches as the reduction sees them: their numbers and summaries in batch order
-/// (summarised here when a batch has not been yet).
-struct LocalSummaries {
-  SummaryParts parts;
-  std::vector<std::int64_t> indices;
-  std::vector<double> summaries;       // [batch][parts.width]
-  std::vector<std::int64_t> counts;    // [batch][parts.count_width]
-
-  LocalSummaries(const spec::Spec& spec, const plan::Plan& plan,
-                 const std::vector<run::BatchResult>& local);
-  /// One part of every batch's summary, [batch][part width].
-  std::vector<double> part(const SummaryPart& p) const;
-  /// Counts [offset, offset + width) of every batch, [batch][width].
-  std::vector<std::int64_t> count_part(std::size_t offset, std::size_t width) const;
-};
 /// Keeps only the member rows the archive holds (the first plan.archived_members of each case)
 /// and drops the batch partials the summary holds. Call after summarise().
 void keep_archived_rows(const plan::Plan& plan, run::BatchResult& b);
+
+/// A rank's share of the reduction: the merge-tree nodes of its batches and its per-case
+/// counts. Batches may be added in any order; they are folded into the tree in batch order
+/// (a batch that comes early waits until those before it have come).
+class LocalPartial {
+ public:
+  /// `first` is the rank's first batch (its share is contiguous).
+  LocalPartial(const spec::Spec& spec, const plan::Plan& plan, std::int64_t first);
+  /// Adds a batch (summarised here if it has not been).
+  void add(const run::BatchResult& b);
+
+  const SummaryParts& parts() const { return parts_; }
+  const stats::MergeTree& tree() const { return tree_; }
+  const std::vector<double>& packed() const { return packed_; }
+  const std::vector<std::int64_t>& counts() const { return counts_; }  // [case][count_width]
+  /// Batches added but still waiting for an earlier one.
+  std::size_t waiting() const { return pending_.size(); }
+
+ private:
+  void fold(std::int64_t index, const double* summary);
+
+  const spec::Spec& spec_;
+  const plan::Plan& plan_;
+  SummaryParts parts_;
+  stats::MergeTree tree_;
+  std::vector<double> packed_;
+  std::vector<std::int64_t> counts_;
+  std::int64_t next_;
+  std::map<std::int64_t, std::vector<double>> pending_;
+};
+
+/// Every case's merged summary and summed counts, the same on every rank.
+struct MergedCases {
+  SummaryParts parts;
+  std::vector<double> summary;       // [case][parts.layout.width()]
+  std::vector<std::int64_t> counts;  // [case][parts.count_width]
+  const double* at(std::size_t c, std::size_t offset) const {
+    return summary.data() + c * parts.layout.width() + offset;
+  }
+  const std::int64_t* counts_at(std::size_t c, std::size_t offset) const {
+    return counts.data() + c * parts.count_width + offset;
+  }
+};
 
 }  // namespace chaosweep::parallel

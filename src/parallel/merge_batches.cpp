@@ -6,11 +6,15 @@
 
 namespace chaosweep::parallel {
 
-std::vector<std::int64_t> batch_indices(const std::vector<run::BatchResult>& local) {
-  std::vector<std::int64_t> out;
-  out.reserve(local.size());
-  for (const run::BatchResult& b : local) out.push_back(b.batch_index);
-  return out;
+MergedCases merge_cases(const Communicator& comm, const LocalPartial& mine) {
+  if (mine.waiting() > 0) {
+    throw std::logic_error("merge_cases: " + std::to_string(mine.waiting()) +
+                           " batches wait for an earlier one that never came");
+  }
+  const stats::MergeTree& tree = mine.tree();
+  const std::vector<double> all = comm.combine_in_rank_order(
+      mine.packed(), [&tree](const double* left, double* right) { tree.combine(left, right); });
+  return MergedCases{mine.parts(), tree.finish(all), comm.sum(mine.counts())};
 }
 
 std::vector<double> merge_batches(const Communicator& comm, const stats::MergeShape& shape,

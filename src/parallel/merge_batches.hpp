@@ -9,19 +9,21 @@
 #include <vector>
 
 #include "parallel/communicator.hpp"
+#include "parallel/batch_summary.hpp"
 #include "plan/plan.hpp"
-#include "run/batch_runner.hpp"
 #include "stats/merge_tree.hpp"
 
 namespace chaosweep::parallel {
-
-/// The batch numbers of `local`, in order.
-std::vector<std::int64_t> batch_indices(const std::vector<run::BatchResult>& local);
 
 /// The batches of the plan as the merge tree sees them.
 inline stats::MergeShape merge_shape(const plan::Plan& plan) {
   return {static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()};
 }
+
+/// Every rank's partial joined in rank order: each case's merged summary and summed counts,
+/// on every rank. Throws std::logic_error when a rank's batches are not all folded (one is
+/// still waiting for an earlier one). Collective.
+MergedCases merge_cases(const Communicator& comm, const LocalPartial& mine);
 
 /// The summaries of this rank's batches (`indices`, increasing and contiguous within each
 /// case; `summaries` [batch][layout.width()] in the same order) merged per case over every

@@ -87,24 +87,38 @@ void check_cases(const spec::Spec& spec, const plan::Plan& plan, int n_lyap, Ens
 
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local) {
+  LocalPartial mine(spec, plan, local.empty() ? 0 : local.front().batch_index);
+  for (const run::BatchResult& b : local) mine.add(b);
+  return reduce(comm, spec, plan, mine);
+}
+
+EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                       const LocalPartial& mine) {
   const int n_obs = static_cast<int>(plan.observables.size());
-  const int bins = spec.statistics.histogram.enabled ? spec.statistics.histogram.bins : 0;
+  const std::size_t bins =
+      spec.statistics.histogram.enabled ? static_cast<std::size_t>(spec.statistics.histogram.bins) : 0;
   const int n_lyap = spec.statistics.lyapunov.enabled ? spec.statistics.lyapunov.exponents : 0;
   const std::size_t n_cases = plan.cases.size();
   const std::vector<Estimated> estimated = estimated_quantities(plan);
-  const LocalSummaries mine(spec, plan, local);
-  const std::size_t columns = mine.parts.estimated.layout.moments;
-  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.estimated.layout,
-                                                   mine.indices, mine.part(mine.parts.estimated));
+  const MergedCases merged = merge_cases(comm, mine);
+  const std::size_t columns = merged.parts.columns;
 
   // moments[case][column] over the estimated columns
   std::vector<stats::Moments> moments(n_cases * columns);
-  for (std::size_t i = 0; i < moments.size(); ++i) {
-    moments[i] = stats::Moments::unpack(merged.data() + i * kMomentWidth);
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    for (std::size_t k = 0; k < columns; ++k) {
+      moments[c * columns + k] =
+          stats::Moments::unpack(merged.at(c, merged.parts.estimated + k * kMomentWidth));
+    }
   }
   EnsembleResults r;
-  r.histogram = sum_batches(comm, merge_shape(plan), static_cast<std::size_t>(bins), mine.indices,
-                            mine.count_part(mine.parts.histogram_offset, static_cast<std::size_t>(bins)));
+  r.histogram.assign(n_cases * bins, 0);
+  r.non_finite_members = 0;
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    const std::int64_t* counts = merged.counts_at(c, merged.parts.histogram);
+    std::copy(counts, counts + bins, r.histogram.begin() + static_cast<std::ptrdiff_t>(c * bins));
+    r.non_finite_members += *merged.counts_at(c, 0);
+  }
 
   // Every estimate array sized [case][width] (intervals [case][width][2]) and filled.
   std::size_t first_column = 0;
@@ -131,13 +145,10 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
     r.valid_members[c] = valid;
     r.effective_members[c] = static_cast<double>(valid);
   }
-  std::int64_t non_finite = 0;
-  for (std::size_t i = 0; i < mine.indices.size(); ++i) non_finite += mine.counts[i * mine.parts.count_width];
-  r.non_finite_members = comm.sum(non_finite);
-  reduce_time_mean_errors(comm, plan, mine, r);
+  reduce_time_mean_errors(plan, merged, r);
   fit_slopes(plan, spec.sweep.size(), r);
-  reduce_twins(comm, spec, plan, mine, r);
-  reduce_snapshots(comm, spec, plan, mine, r);
+  reduce_twins(spec, plan, merged, r);
+  reduce_snapshots(spec, plan, merged, r);
   check_cases(spec, plan, n_lyap, r);
   return r;
 }

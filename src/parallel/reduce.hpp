@@ -11,6 +11,7 @@
 #include <string>
 #include <vector>
 
+#include "parallel/batch_summary.hpp"
 #include "parallel/communicator.hpp"
 #include "plan/plan.hpp"
 #include "results/ensemble_results.hpp"
@@ -27,19 +28,19 @@ using results::EnsembleResults;
 constexpr double kMostPairs = 0.9;
 
 /// Reduces the batches this rank ran (`local`, in batch order, a contiguous share of the plan's
-/// batches; each summarised when it finished, parallel/batch_summary.hpp, or here)
 /// batches) into campaign-wide estimates on every rank. Collective.
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const std::vector<run::BatchResult>& local);
+/// The same from this rank's partial, its batches folded as they finished. Collective.
+EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
+                       const LocalPartial& mine);
 
-struct LocalSummaries;  // parallel/batch_summary.hpp
-
-/// The twin part of reduce() (fills the twin fields of `r`; nothing without twins). Collective.
-void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                  const LocalSummaries& mine, EnsembleResults& r);
-/// The snapshot part of reduce() (snapshot_reduce.cpp): the batches' per-snapshot moments and
-/// regime counts merged per case along the merge tree. Collective; nothing when there are none.
-void reduce_snapshots(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                      const LocalSummaries& mine, EnsembleResults& r);
+/// The twin part of reduce() (fills the twin fields of `r`; nothing without twins).
+void reduce_twins(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                  EnsembleResults& r);
+/// The snapshot part of reduce() (snapshot_reduce.cpp): the per-snapshot moments and regime
+/// counts of every case. Nothing when there are none.
+void reduce_snapshots(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                      EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

@@ -4,21 +4,22 @@
 #include <cmath>
 
 #include "parallel/batch_summary.hpp"
-#include "parallel/merge_batches.hpp"
 #include "stats/member_errors.hpp"
 
 namespace chaosweep::parallel {
 
-void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
-                             const LocalSummaries& mine, EnsembleResults& r) {
+void reduce_time_mean_errors(const plan::Plan& plan, const MergedCases& merged, EnsembleResults& r) {
   const int n_obs = static_cast<int>(plan.observables.size());
   const std::size_t n_cases = plan.cases.size();
-  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.errors.layout,
-                                                   mine.indices, mine.part(mine.parts.errors));
+  constexpr int kSums = stats::MemberErrorSums::kPacked;
 
   // sums[case][observable]
   std::vector<stats::MemberErrorSums> sums(n_cases * static_cast<std::size_t>(n_obs));
-  for (std::size_t i = 0; i < sums.size(); ++i) sums[i].merge(merged.data() + i * stats::MemberErrorSums::kPacked);
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    for (int o = 0; o < n_obs; ++o) {
+      sums[c * n_obs + o].merge(merged.at(c, merged.parts.errors + static_cast<std::size_t>(o * kSums)));
+    }
+  }
 
   r.time_mean_stderr.assign(n_cases * n_obs, NAN);
   r.effective_samples.assign(n_cases * n_obs, NAN);

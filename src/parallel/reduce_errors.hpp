@@ -14,8 +14,7 @@
 namespace chaosweep::parallel {
 
 /// Fills r.time_mean_stderr, r.effective_samples and r.decorrelation_time ([case][observable])
-/// from the members' blocking estimates; needs r.time_mean_std and r.valid_members. Collective.
-void reduce_time_mean_errors(const Communicator& comm, const plan::Plan& plan,
-                             const LocalSummaries& mine, EnsembleResults& r);
+/// from the members' blocking estimates; needs r.time_mean_std and r.valid_members.
+void reduce_time_mean_errors(const plan::Plan& plan, const MergedCases& merged, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

@@ -16,7 +16,6 @@
 
 #include "core/error.hpp"
 #include "parallel/batch_summary.hpp"
-#include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "run/twins.hpp"
 #include "stats/ensemble.hpp"
@@ -27,27 +26,19 @@ namespace {
 
 constexpr int kMomentWidth = stats::Moments::kPacked;  // n, mean, m2
 
-/// Doubles per case: [leads][3] log-separation moments, the horizon's and the log threshold
-/// distance's (n, mean, m2), [leads] separations first seen at each lead, the unseparated
-/// (the batch summaries' twin part, parallel/batch_summary.cpp).
-std::size_t per_case_width(std::size_t leads) { return (leads + 2) * kMomentWidth + leads + 1; }
-
 }  // namespace
 
-void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
-                  const LocalSummaries& mine, EnsembleResults& r) {
+void reduce_twins(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                  EnsembleResults& r) {
   const run::TwinTimes& times = plan.twins;
   if (times.every_steps == 0) return;
   const std::size_t leads = static_cast<std::size_t>(times.leads);
   const std::size_t n_cases = plan.cases.size();
-  const std::size_t per_case = per_case_width(leads);
   const std::vector<double> lead = run::twin_leads(times, spec.integration.dt);
-  const std::vector<double> merged = merge_batches(comm, merge_shape(plan), mine.parts.twins.layout,
-                                                   mine.indices, mine.part(mine.parts.twins));
 
   std::vector<stats::TwinPartials> cases(n_cases, stats::TwinPartials(leads));
   for (std::size_t index = 0; index < n_cases; ++index) {
-    const double* p = merged.data() + index * per_case;
+    const double* p = merged.at(index, merged.parts.twin_moments);
     stats::TwinPartials& c = cases[index];
     for (std::size_t k = 0; k < leads; ++k, p += kMomentWidth) {
       c.separation[k] = stats::Moments::unpack(p);
@@ -55,9 +46,9 @@ void reduce_twins(const Communicator& comm, const spec::Spec& spec, const plan::
     c.horizon = stats::Moments::unpack(p);
     p += kMomentWidth;
     c.level = stats::Moments::unpack(p);
-    p += kMomentWidth;
-    for (std::size_t k = 0; k < leads; ++k) c.separated[k] = *p++;
-    c.unseparated = *p;
+    const double* q = merged.at(index, merged.parts.twin_sums);
+    for (std::size_t k = 0; k < leads; ++k) c.separated[k] = *q++;
+    c.unseparated = *q;
   }
 
   r.twin_log_separation.assign(n_cases * leads, NAN);
