@@ -13,12 +13,14 @@
 #include "core/error.hpp"
 #include "integrators/lanes.hpp"
 #include "models/model.hpp"
+#include "parallel/batch_summary.hpp"
 #include "plan/member_output.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
 #include "run/lyapunov.hpp"
 #include "run/twins.hpp"
 #include "spec/load.hpp"
+#include "stats/merge_tree.hpp"
 
 namespace chaosweep::app {
 namespace {
@@ -36,8 +38,9 @@ std::string hours_text(double seconds) {
   return text;
 }
 
-/// Per-member values kept until the archive is written (doubles): initial state, time mean and
-/// variance per observable, regime fraction and residence, transitions and status.
+/// Per-member values of an archived member kept until the archive is written (doubles):
+/// initial state, time mean and variance per observable, regime fraction and residence,
+/// transitions and status.
 double per_member_doubles(const plan::Plan& plan) {
   const double n_obs = static_cast<double>(plan.observables.size());
   const double n_reg = static_cast<double>(plan.regime_labels.size());
@@ -45,7 +48,7 @@ double per_member_doubles(const plan::Plan& plan) {
 }
 
 /// Snapshot statistics per rank (doubles): the batch in progress keeps every member's values
-/// at every snapshot time; a finished batch keeps (n, mean, m2) per time and observable and a
+/// at every snapshot time; `batches` finished ones (n, mean, m2) per time and observable and a
 /// count per time and regime.
 double snapshot_doubles_per_rank(const plan::Plan& plan, double batches) {
   const double times = static_cast<double>(plan.snapshot_count);
@@ -286,10 +289,20 @@ int check_command(const CheckOptions& options) {
   std::printf("  batches        %lld of %d members; at most %.0f per rank on %d ranks\n",
               static_cast<long long>(n_batches), plan.batch_size, share, options.ranks);
 
+  // A rank keeps the member rows the archive holds (at most all of them, at most its share),
+  // the batch in progress, and its part of the merge tree (packed, and twice more while the
+  // ranks' parts are combined); finished batches leave only their summary in the tree.
+  const parallel::SummaryParts parts = parallel::summary_parts(spec, plan);
+  const stats::MergeTree tree({static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()},
+                              parts.layout);
+  const double tree_bytes =
+      8.0 * (static_cast<double>(tree.packed_size()) + cases * static_cast<double>(parts.count_width));
+  const double kept_rows = std::min(share * plan.batch_size, cases * static_cast<double>(plan.archived_members));
   const double per_rank_bytes =
-      8.0 * (share * plan.batch_size * per_member_doubles(plan) +
-             trajectory_doubles(plan) / options.ranks + 8.0 * plan.batch_size * plan.state_dim +
-             twin_doubles(plan, share, false) + snapshot_doubles_per_rank(plan, share));
+      8.0 * (kept_rows * per_member_doubles(plan) + trajectory_doubles(plan) / options.ranks +
+             8.0 * plan.batch_size * plan.state_dim + twin_doubles(plan, 0.0, false) +
+             snapshot_doubles_per_rank(plan, 0.0)) +
+      3.0 * tree_bytes;
   const double archive_bytes =
       plan::member_bytes(plan, plan.archived_members) +
       8.0 * (trajectory_doubles(plan) +
@@ -316,6 +329,9 @@ int check_command(const CheckOptions& options) {
                 static_cast<long long>(plan.archived_members));
   }
   std::printf("  memory         about %s per rank\n", bytes_text(per_rank_bytes).c_str());
+  std::printf("  reduction      %s per rank exchanged once (merge tree: %zu nodes of %zu values per "
+              "case at most, whatever the batch count)\n",
+              bytes_text(tree_bytes).c_str(), tree.slots(), parts.layout.width());
   std::printf("  archive        about %s\n", bytes_text(archive_bytes).c_str());
 
   if (options.calibrate) {
