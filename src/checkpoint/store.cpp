@@ -47,9 +47,20 @@ std::int64_t generation_number(const std::string& name) {
   return std::stoll(name.substr(4));
 }
 
+/// The array `name` of a record, empty when the record has none (to_record leaves out empty
+/// arrays).
+template <class T>
+std::vector<T> array_or_empty(const std::vector<std::pair<std::string, std::vector<T>>>& arrays,
+                              const std::string& name) {
+  for (const auto& [n, values] : arrays) {
+    if (n == name) return values;
+  }
+  return {};
+}
+
 /// A finished batch as a record: its identity, then every array the results table declares
-/// for a batch (the member rows it kept, per-batch partials), under the quantity's name, and
-/// the batch's summary for the reduction ("summary", "summary_counts").
+/// for a batch (the member rows it kept, per-batch partials), under the quantity's name, empty
+/// ones left out, and the batch's summary for the reduction ("summary", "summary_counts").
 Record to_record(const run::BatchResult& r, const std::string& sha) {
   Record rec;
   rec.header = {{"kind", "done"}, {"spec_sha256", sha}, {"batch", std::to_string(r.batch_index)}};
@@ -57,6 +68,7 @@ Record to_record(const run::BatchResult& r, const std::string& sha) {
                            r.trajectory_members}}};
   results::for_each_array(r, [&](const results::Quantity& q, const auto& values) {
     using T = typename std::decay_t<decltype(values)>::value_type;
+    if (values.empty()) return;  // absent reads back as empty (most arrays once summarised)
     if constexpr (std::is_same_v<T, double>) {
       rec.reals.emplace_back(q.name, values);
     } else if constexpr (std::is_same_v<T, std::int64_t>) {
@@ -82,11 +94,11 @@ run::BatchResult to_result(const Record& rec) {
   results::for_each_array(r, [&](const results::Quantity& q, auto& values) {
     using T = typename std::decay_t<decltype(values)>::value_type;
     if constexpr (std::is_same_v<T, double>) {
-      values = rec.real(q.name);
+      values = array_or_empty(rec.reals, q.name);
     } else if constexpr (std::is_same_v<T, std::int64_t>) {
-      values = rec.integer(q.name);
+      values = array_or_empty(rec.integers, q.name);
     } else if constexpr (std::is_same_v<T, std::uint8_t>) {
-      values = rec.byte_array(q.name);
+      values = array_or_empty(rec.bytes, q.name);
     }
   });
   r.summary = rec.real("summary");
