@@ -8,24 +8,19 @@
 #include <cstdint>
 #include <vector>
 
-#include "parallel/communicator.hpp"
 #include "parallel/batch_summary.hpp"
-#include "plan/plan.hpp"
+#include "parallel/communicator.hpp"
 #include "stats/merge_tree.hpp"
 
 namespace chaosweep::parallel {
-
-/// The batches of the plan as the merge tree sees them.
-inline stats::MergeShape merge_shape(const plan::Plan& plan) {
-  return {static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()};
-}
 
 /// Every rank's partial joined in rank order: each case's merged summary and summed counts,
 /// on every rank. Throws std::logic_error when a rank's batches are not all folded (one is
 /// still waiting for an earlier one). Collective.
 MergedCases merge_cases(const Communicator& comm, const LocalPartial& mine);
 
-/// The summaries of this rank's batches (`indices`, increasing and contiguous within each
+/// The same collective for summaries given directly (the MPI tests use it): the summaries of
+/// this rank's batches (`indices`, increasing and contiguous within each
 /// case; `summaries` [batch][layout.width()] in the same order) merged per case over every
 /// rank's batches: [case][layout.width()]. Collective.
 std::vector<double> merge_batches(const Communicator& comm, const stats::MergeShape& shape,
