@@ -148,7 +148,7 @@ void LocalWork::finish_current() {
     run::BatchResult result = current_->finish();
     run::add_lyapunov(spec_, plan_, result);
     // The reduction needs only the summary; the archive only the kept member rows.
-    parallel::summarise(spec_, plan_, result);
+    partial_.summarise(result);
     parallel::keep_archived_rows(plan_, result);
     if (store_) store_->save_done(result);
     keep(current_index_, std::move(result));

@@ -117,65 +117,70 @@ SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan) {
   return p;
 }
 
-namespace {
+Summariser::Summariser(const spec::Spec& spec, const plan::Plan& plan)
+    : parts_(summary_parts(spec, plan)),
+      estimated_(estimated_quantities(plan)),
+      lead_(parts_.leads > 0 ? run::twin_leads(plan.twins, spec.integration.dt) : std::vector<double>{}),
+      threshold_(spec.statistics.twins.threshold),
+      observables_(plan.observables.size()) {}
 
-/// Appends b's summary and counts (see SummaryParts) to `summary` and `counts`.
-void append_summary(const spec::Spec& spec, const plan::Plan& plan, const SummaryParts& parts,
-                    const run::BatchResult& b, std::vector<double>& summary,
-                    std::vector<std::int64_t>& counts) {
+void Summariser::append(const run::BatchResult& b, std::vector<double>& summary,
+                        std::vector<std::int64_t>& counts) const {
   const std::size_t s0 = summary.size(), c0 = counts.size();
   std::vector<double> sums;
-  add_estimated(estimated_quantities(plan), b, summary);
-  if (parts.leads > 0) {
-    add_twins(run::twin_leads(plan.twins, spec.integration.dt), spec.statistics.twins.threshold,
-              b, summary, sums);
-  }
+  add_estimated(estimated_, b, summary);
+  if (parts_.leads > 0) add_twins(lead_, threshold_, b, summary, sums);
   summary.insert(summary.end(), b.snapshot_moments.begin(), b.snapshot_moments.end());
-  std::vector<double> errors;
-  add_errors(plan.observables.size(), b, errors);
-  summary.insert(summary.end(), errors.begin(), errors.end());
+  add_errors(observables_, b, summary);
   summary.insert(summary.end(), sums.begin(), sums.end());
   std::int64_t non_finite = 0;
   for (int i = 0; i < b.count; ++i) non_finite += b.status[i] != run::kValid ? 1 : 0;
   counts.push_back(non_finite);
   counts.insert(counts.end(), b.histogram.begin(), b.histogram.end());
   counts.insert(counts.end(), b.snapshot_regimes.begin(), b.snapshot_regimes.end());
-  if (summary.size() - s0 != parts.layout.width() || counts.size() - c0 != parts.count_width) {
+  if (summary.size() - s0 != parts_.layout.width() || counts.size() - c0 != parts_.count_width) {
     throw Error("batch " + std::to_string(b.batch_index) + ": its summary does not match the campaign");
   }
 }
 
-}  // namespace
-
-void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& b) {
+void Summariser::operator()(run::BatchResult& b) const {
   std::vector<double> summary;
   std::vector<std::int64_t> counts;
-  append_summary(spec, plan, summary_parts(spec, plan), b, summary, counts);
+  summary.reserve(parts_.layout.width());
+  counts.reserve(parts_.count_width);
+  append(b, summary, counts);
   b.summary = std::move(summary);
   b.summary_counts = std::move(counts);
 }
 
+void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& b) {
+  Summariser(spec, plan)(b);
+}
+
 LocalPartial::LocalPartial(const spec::Spec& spec, const plan::Plan& plan, std::int64_t first)
-    : spec_(spec),
-      plan_(plan),
-      parts_(summary_parts(spec, plan)),
+    : plan_(plan),
+      summariser_(spec, plan),
       tree_(stats::MergeShape{static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()},
-            parts_.layout),
+            summariser_.parts().layout),
       packed_(tree_.empty()),
-      counts_(plan.cases.size() * parts_.count_width, 0),
+      counts_(plan.cases.size() * summariser_.parts().count_width, 0),
       next_(first) {}
 
 void LocalPartial::add(const run::BatchResult& b) {
-  std::vector<double> summary = b.summary;
-  std::vector<std::int64_t> counts = b.summary_counts;
-  if (summary.empty() && counts.empty()) {
-    append_summary(spec_, plan_, parts_, b, summary, counts);
-  } else if (summary.size() != parts_.layout.width() || counts.size() != parts_.count_width) {
+  const SummaryParts& parts = summariser_.parts();
+  std::vector<double> summary;
+  std::vector<std::int64_t> counts;
+  if (b.summary.empty() && b.summary_counts.empty()) {
+    summariser_.append(b, summary, counts);
+  } else if (b.summary.size() == parts.layout.width() && b.summary_counts.size() == parts.count_width) {
+    summary = b.summary;
+    counts = b.summary_counts;
+  } else {
     throw Error("batch " + std::to_string(b.batch_index) + ": its summary does not match the campaign");
   }
   // counts add exactly in any order
   const std::size_t c = static_cast<std::size_t>(b.batch_index / plan_.batches_per_case());
-  for (std::size_t k = 0; k < parts_.count_width; ++k) counts_[c * parts_.count_width + k] += counts[k];
+  for (std::size_t k = 0; k < parts.count_width; ++k) counts_[c * parts.count_width + k] += counts[k];
   if (b.batch_index != next_) {
     pending_.emplace(b.batch_index, std::move(summary));
     return;

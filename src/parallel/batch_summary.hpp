@@ -42,7 +42,26 @@ struct SummaryParts {
 };
 SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan);
 
-/// Fills b.summary and b.summary_counts from b's member rows and batch partials.
+/// Computes batch summaries of one campaign (what they need of the spec and plan resolved once).
+class Summariser {
+ public:
+  Summariser(const spec::Spec& spec, const plan::Plan& plan);
+  const SummaryParts& parts() const { return parts_; }
+  /// Fills b.summary and b.summary_counts from b's member rows and batch partials.
+  void operator()(run::BatchResult& b) const;
+  /// Appends b's summary and counts to `summary` and `counts`.
+  void append(const run::BatchResult& b, std::vector<double>& summary,
+              std::vector<std::int64_t>& counts) const;
+
+ private:
+  SummaryParts parts_;
+  std::vector<Estimated> estimated_;
+  std::vector<double> lead_;  // twin lead times (none without twins)
+  double threshold_;
+  std::size_t observables_;
+};
+
+/// Fills b.summary and b.summary_counts (a Summariser made for one batch).
 void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult& b);
 /// Keeps only the member rows the archive holds (the first plan.archived_members of each case)
 /// and drops the batch partials the summary holds. Call after summarise().
@@ -55,10 +74,12 @@ class LocalPartial {
  public:
   /// `first` is the rank's first batch (its share is contiguous).
   LocalPartial(const spec::Spec& spec, const plan::Plan& plan, std::int64_t first);
+  /// Fills b.summary and b.summary_counts.
+  void summarise(run::BatchResult& b) const { summariser_(b); }
   /// Adds a batch (summarised here if it has not been).
   void add(const run::BatchResult& b);
 
-  const SummaryParts& parts() const { return parts_; }
+  const SummaryParts& parts() const { return summariser_.parts(); }
   const stats::MergeTree& tree() const { return tree_; }
   const std::vector<double>& packed() const { return packed_; }
   const std::vector<std::int64_t>& counts() const { return counts_; }  // [case][count_width]
@@ -68,9 +89,8 @@ class LocalPartial {
  private:
   void fold(std::int64_t index, const double* summary);
 
-  const spec::Spec& spec_;
   const plan::Plan& plan_;
-  SummaryParts parts_;
+  Summariser summariser_;
   stats::MergeTree tree_;
   std::vector<double> packed_;
   std::vector<std::int64_t> counts_;
