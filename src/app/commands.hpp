@@ -3,6 +3,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "app/pilot.hpp"
 
@@ -23,6 +24,7 @@ struct RunOptions {
   bool overwrite = false;
   bool resume = false;                 // continue from the campaign's checkpoints
   bool restart_from_scratch = false;   // with resume: start over if no checkpoint is usable
+  std::string part;                    // "I/N": run part I of N into a part archive
   std::string progress = "auto";
   bool verbose = false;
 };
@@ -52,6 +54,16 @@ int check_command(const CheckOptions& options);
 int run_command(const RunOptions& options);  // needs MPI initialised
 int summary_command(const SummaryOptions& options);
 int slurm_command(const SlurmOptions& options);
+
+/// `chaosweep merge ARCHIVE PART...`: the archive of a campaign run as several jobs, from
+/// their part archives (see archive/part.hpp).
+struct MergeOptions {
+  std::string archive;
+  std::vector<std::string> parts;
+  bool overwrite = false;
+  bool verbose = false;
+};
+int merge_command(const MergeOptions& options);  // needs MPI initialised
 
 /// `chaosweep models`: models_reference() on standard output.
 int models_command();

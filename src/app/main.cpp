@@ -20,11 +20,12 @@ namespace {
 using namespace chaosweep;
 
 /// Runs a command that needs MPI; on failure prints one line and takes every rank down.
-int run_with_mpi(int argc, char** argv, const app::RunOptions& options) {
+template <class Command>
+int run_with_mpi(int argc, char** argv, Command&& command) {
   parallel::Session session(&argc, &argv);
   parallel::Communicator comm;
   try {
-    return app::run_command(options);
+    return command();
   } catch (const Error& e) {
     app::print_error(e.what(), comm.rank(), comm.size());
     if (comm.size() > 1) comm.abort(e.exit_code());
@@ -89,7 +90,18 @@ int main(int argc, char** argv) {
                     "With --resume: start over when no checkpoint can be used");
   run_cmd->add_option("--progress", run.progress, "Progress display: auto, bar, log or none")
       ->check(CLI::IsMember({"auto", "bar", "log", "none"}));
+  run_cmd->add_option("--part", run.part,
+                      "Run part I of N of the campaign (I/N) into a part archive, for "
+                      "`chaosweep merge`");
   run_cmd->add_flag("-v,--verbose", run.verbose, "Log more detail");
+
+  app::MergeOptions merge;
+  CLI::App* merge_cmd = cli.add_subcommand(
+      "merge", "Write the archive of a campaign run in parts (`run --part I/N`) from its parts");
+  merge_cmd->add_option("ARCHIVE", merge.archive, "The campaign's archive to write")->required();
+  merge_cmd->add_option("PART", merge.parts, "Every part archive, in any order")->required();
+  merge_cmd->add_flag("--overwrite", merge.overwrite, "Replace an existing archive");
+  merge_cmd->add_flag("-v,--verbose", merge.verbose, "Log more detail");
 
   app::SummaryOptions summary;
   CLI::App* summary_cmd = cli.add_subcommand("summary", "Print the response tables of an archive");
@@ -140,7 +152,8 @@ int main(int argc, char** argv) {
   }
 
   for (const CLI::Option* o : pilot_opts) check.pilot_options_given |= o->count() > 0;
-  if (*run_cmd) return run_with_mpi(argc, argv, run);
+  if (*run_cmd) return run_with_mpi(argc, argv, [&] { return app::run_command(run); });
+  if (*merge_cmd) return run_with_mpi(argc, argv, [&] { return app::merge_command(merge); });
   try {
     if (*check_cmd) return app::check_command(check);
     if (*summary_cmd) return app::summary_command(summary);

@@ -12,17 +12,20 @@
 #include <memory>
 #include <sstream>
 
+#include "app/collective.hpp"
 #include "app/commands.hpp"
 #include "app/local_work.hpp"
 #include "app/logging.hpp"
 #include "app/progress.hpp"
 #include "app/signals.hpp"
 #include "app/test_hooks.hpp"
+#include "archive/part.hpp"
 #include "archive/reader.hpp"
 #include "archive/writer.hpp"
 #include "checkpoint/store.hpp"
 #include "core/error.hpp"
 #include "parallel/communicator.hpp"
+#include "parallel/merge_batches.hpp"
 #include "parallel/reduce.hpp"
 #include "plan/member_output.hpp"
 #include "plan/plan.hpp"
@@ -38,34 +41,8 @@ using Clock = std::chrono::steady_clock;
 /// signal waits).
 constexpr double kRoundSeconds = 0.5;
 
-std::string utc_now() {
-  const std::time_t now = std::time(nullptr);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", std::gmtime(&now));
-  return text;
-}
-
 double seconds_since(Clock::time_point start) {
   return std::chrono::duration<double>(Clock::now() - start).count();
-}
-
-/// Runs `step` on every rank; if it throws an Error on any rank, every rank returns the same
-/// exit status and the lowest failing rank prints its one-line message (with contiguous shares
-/// of the batches, the error of the lowest case). Used for the checks that precede any work,
-/// where no rank is left waiting in a collective and no abort is needed.
-int agree(const parallel::Communicator& comm, const std::function<void()>& step) {
-  int code = 0;
-  std::string message;
-  try {
-    step();
-  } catch (const Error& e) {
-    code = e.exit_code();
-    message = e.what();
-  }
-  if (!comm.any(code != 0)) return 0;
-  const int reporter = -static_cast<int>(comm.max(code != 0 ? -comm.rank() : -comm.size()));
-  if (comm.rank() == reporter) print_error(message, comm.rank(), 0);
-  return static_cast<int>(comm.max(code != 0 ? code : 0));
 }
 
 std::string spec_where(const spec::Spec& spec, spec::Location at, const std::string& key) {
@@ -73,13 +50,46 @@ std::string spec_where(const spec::Spec& spec, spec::Location at, const std::str
          ": " + key + ": ";
 }
 
+/// Which part of the campaign a run covers (`--part I/N`); count 0: the whole campaign.
+struct PartChoice {
+  int index = 0, count = 0;
+  bool whole() const { return count == 0; }
+  std::string tag() const { return fmt::format("part-{}-of-{}", index, count); }
+};
+
+PartChoice parse_part(const std::string& text) {
+  if (text.empty()) return {};
+  const std::size_t slash = text.find('/');
+  const auto number = [](const std::string& digits) {
+    if (digits.empty() || digits.size() > 7 ||
+        digits.find_first_not_of("0123456789") != std::string::npos) {
+      return -1;
+    }
+    return std::stoi(digits);
+  };
+  const int i = slash == std::string::npos ? -1 : number(text.substr(0, slash));
+  const int n = slash == std::string::npos ? -1 : number(text.substr(slash + 1));
+  if (i < 1 || n < 1 || i > n) {
+    throw UsageError("--part: `" + text + "` is not I/N with 1 <= I <= N (part I of N, e.g. 2/8)");
+  }
+  return PartChoice{i, n};
+}
+
+/// Where part I of N goes by default: beside the archive, `NAME.part-I-of-N.EXT`.
+std::string default_part_path(const std::string& archive, const PartChoice& part) {
+  const fs::path p(archive);
+  return (p.parent_path() / (p.stem().string() + "." + part.tag() + p.extension().string()))
+      .string();
+}
+
 /// The archive path the run writes, checked before any work: its directory must exist and be
 /// writable, and an existing archive is replaced only with --overwrite (with --resume the
 /// caller first checks whether it is this campaign's complete archive).
 std::string checked_archive_path(const spec::Spec& spec, const RunOptions& options,
-                                 std::string& exists_error) {
+                                 const PartChoice& part, std::string& exists_error) {
   const bool from_spec = options.archive.empty();
-  const std::string path = from_spec ? spec.output.archive : options.archive;
+  std::string path = from_spec ? spec.output.archive : options.archive;
+  if (from_spec && !part.whole()) path = default_part_path(path, part);
   const std::string where =
       from_spec ? spec_where(spec, spec.output.archive_where, "output.archive") : "--archive: ";
   fs::path dir = fs::path(path).parent_path();
@@ -94,15 +104,20 @@ std::string checked_archive_path(const spec::Spec& spec, const RunOptions& optio
   if (fs::is_directory(path, ec)) throw UsageError(where + "`" + path + "` is a directory");
   exists_error.clear();
   if (fs::exists(path, ec) && !options.overwrite) {
-    exists_error = where + "archive `" + path + "` exists; pass --overwrite to replace it";
+    exists_error = where + (part.whole() ? "archive `" : "part archive `") + path +
+                   "` exists; pass --overwrite to replace it";
     if (!options.resume) throw UsageError(exists_error);
   }
   return path;
 }
 
-std::string checkpoint_directory(const spec::Spec& spec, const std::string& archive_path) {
-  return spec.checkpoint.directory.empty() ? archive_path + ".checkpoints"
-                                           : spec.checkpoint.directory;
+/// The run's checkpoints: beside its archive (or part archive), or in checkpoint.directory,
+/// where each part has its own subdirectory.
+std::string checkpoint_directory(const spec::Spec& spec, const std::string& archive_path,
+                                 const PartChoice& part) {
+  if (spec.checkpoint.directory.empty()) return archive_path + ".checkpoints";
+  if (part.whole()) return spec.checkpoint.directory;
+  return (fs::path(spec.checkpoint.directory) / part.tag()).string();
 }
 
 /// "line N: `old` is now `new`" for the first line where two spec texts differ.
@@ -157,9 +172,18 @@ bool check_checkpoints(const spec::Spec& spec, const RunOptions& options,
 /// finished, or killed between sealing the archive and removing its checkpoints. The archive
 /// must be sealed, complete and made from this very spec.
 bool already_complete(const spec::Spec& spec, const std::string& archive_path,
-                      const RunOptions& options) {
+                      const RunOptions& options, const PartChoice& part) {
   std::error_code ec;
   if (!options.resume || options.overwrite || !fs::exists(archive_path, ec)) return false;
+  if (!part.whole()) {  // the same part of this very spec
+    try {
+      const archive::PartIdentity id = archive::read_part_identity(archive_path);
+      return id.spec_sha256 == spec.sha256 && id.part.index == part.index &&
+             id.part.count == part.count;
+    } catch (const Error&) {
+      return false;
+    }
+  }
   try {
     const archive::ArchiveSummary s = archive::read_summary(archive_path);
     return s.status == "complete" && s.spec_sha256 == spec.sha256;
@@ -239,10 +263,25 @@ void log_checkpoint_cost(const parallel::Communicator& comm, const checkpoint::S
   }
 }
 
-void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks) {
-  spdlog::info("campaign `{}`: model {}, {} cases x {} members, {} batches of {} on {} ranks",
-               spec.name, spec.model, plan.cases.size(), plan.members, plan.batch_count(),
-               plan.batch_size, ranks);
+void log_plan(const spec::Spec& spec, const plan::Plan& plan, int ranks,
+              const archive::PartRange& range, bool whole) {
+  const std::string head =
+      fmt::format("campaign `{}`: model {}, {} cases x {} members, {} batches of {}", spec.name,
+                  spec.model, plan.cases.size(), plan.members, plan.batch_count(), plan.batch_size);
+  if (whole) {
+    spdlog::info("{} on {} ranks", head, ranks);
+  } else {
+    spdlog::info("{}; part {} of {}: batches {} to {} ({} of them) on {} ranks", head, range.index,
+                 range.count, range.first_batch, range.end_batch - 1,
+                 range.end_batch - range.first_batch, ranks);
+  }
+}
+
+/// Members in the batches [0, b) of the plan.
+std::int64_t members_before(const plan::Plan& plan, std::int64_t b) {
+  const std::int64_t p = plan.batches_per_case();
+  if (p <= 0) return 0;
+  return b / p * plan.members + std::min<std::int64_t>(b % p * plan.batch_size, plan.members);
 }
 
 /// Restores checkpointed batches on every rank and applies --restart-from-scratch.
@@ -292,6 +331,7 @@ std::string shell_word(const std::string& word) {
 std::string resume_command(const RunOptions& options, int ranks) {
   std::string command = ranks > 1 ? "mpirun -np " + std::to_string(ranks) + " " : "";
   command += "chaosweep run " + shell_word(options.spec_path);
+  if (!options.part.empty()) command += " --part " + shell_word(options.part);
   if (!options.archive.empty()) command += " --archive " + shell_word(options.archive);
   if (options.overwrite) command += " --overwrite";
   return command + " --resume";
@@ -329,10 +369,12 @@ void log_peak_memory(const parallel::Communicator& comm) {
 /// The integration rate of this run: only the member-steps integrated by this process count,
 /// not the batches read back from checkpoints.
 void log_rate(const parallel::Communicator& comm, const plan::Plan& plan, const LocalWork& work,
-              double seconds) {
+              const archive::PartRange& range, double seconds) {
   const std::int64_t integrated = comm.sum(work.integrated_member_steps());
   if (comm.rank() != 0) return;
-  const std::int64_t campaign = plan.member_count() * plan.total_steps();
+  const std::int64_t campaign =
+      (members_before(plan, range.end_batch) - members_before(plan, range.first_batch)) *
+      plan.total_steps();
   std::string restored;
   if (integrated < campaign) {
     restored = fmt::format("; the other {} of the campaign's {} were read back from checkpoints",
@@ -342,56 +384,36 @@ void log_rate(const parallel::Communicator& comm, const plan::Plan& plan, const 
                integrated, seconds, integrated / seconds, comm.size(), restored);
 }
 
-/// A campaign in which some case kept no valid member has no estimate for it: the archive is
-/// written, but the run fails (exit 1, one line naming the cases) so that a dependent job does
-/// not go on as if every case had results.
-int report_empty_cases(const parallel::Communicator& comm, const spec::Spec& spec,
-                       const plan::Plan& plan, const parallel::EnsembleResults& e) {
-  std::string cases;
-  std::size_t count = 0;
-  for (std::size_t c = 0; c < e.valid_members.size(); ++c) {
-    if (e.valid_members[c] > 0) continue;
-    if (++count <= 5) cases += (cases.empty() ? "" : "; ") + plan::describe_case(spec, plan.cases[c]);
-  }
-  if (count == 0) return kExitComplete;
-  if (count > 5) cases += fmt::format("; and {} more", count - 5);
+/// The end of a `--part` run: the part's node lists and counts joined over its ranks and its
+/// rows written into the part archive, for `chaosweep merge`.
+int finish_part(const parallel::Communicator& comm, const RunOptions& options,
+                const spec::Spec& spec, const plan::Plan& plan, const archive::PartRange& range,
+                const std::vector<run::BatchResult>& local, const LocalWork& work,
+                const checkpoint::Store& store, const std::string& path,
+                Clock::time_point start) {
+  const parallel::PartialCases joined = parallel::join_ranks(comm, work.partial());
+  const Clock::time_point integrated = Clock::now();
+  archive::RunInfo info;
+  info.ranks = comm.size();
+  info.rank = comm.rank();
+  info.created_utc = comm.broadcast(utc_now());
+  archive::write_part(path, spec, plan, range, local, joined.nodes, joined.counts, info);
+  comm.barrier();
+  if (comm.rank() == 0) store.remove_all();
+  log_rate(comm, plan, work, range, std::chrono::duration<double>(integrated - start).count());
   if (comm.rank() == 0) {
-    print_error(fmt::format("{} of {} cases kept no valid member (every member became "
-                            "non-finite; a smaller dt?), so they have no estimates: {}",
-                            count, plan.cases.size(), cases),
-                0, 1);
+    spdlog::info("part archive {} written in {:.2f} s", path, seconds_since(integrated));
+    spdlog::info("part {} of {} is complete; when all {} are, write the archive with: chaosweep "
+                 "merge {} PART... (the {} part archives, in any order)",
+                 range.index, range.count, range.count,
+                 shell_word(options.archive.empty() ? spec.output.archive : "ARCHIVE"),
+                 range.count);
   }
-  return kExitFailure;
+  log_peak_memory(comm);
+  return kExitComplete;
 }
 
 }  // namespace
-
-/// Warns (rank 0) about cases whose estimates need care: non-chaotic cases, and twin pairs of
-/// which fewer than kMostPairs separated within the window.
-void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
-                          const parallel::EnsembleResults& e) {
-  for (std::size_t c = 0; c < e.non_chaotic.size(); ++c) {
-    if (e.non_chaotic[c] == 0) continue;
-    spdlog::warn("{} does not behave chaotically: {}", plan::describe_case(spec, plan.cases[c]),
-                 e.non_chaotic_reason[c]);
-  }
-  for (std::size_t c = 0; c < e.twin_pairs.size(); ++c) {
-    const double pairs = static_cast<double>(e.twin_pairs[c]);
-    const double reached = static_cast<double>(e.horizon_reached[c]);
-    if (!(pairs > 0.0) || reached >= parallel::kMostPairs * pairs) continue;
-    if (e.twins_not_separating[c] != 0) continue;  // flagged above
-    if (std::isfinite(e.suggested_duration[c])) {
-      spdlog::warn("{}: only {} of {} twin pairs separated within the window; at the pace so "
-                   "far a duration of about {:.3g} would let about 90% separate",
-                   plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c], e.suggested_duration[c]);
-    } else {
-      spdlog::warn("{}: only {} of {} twin pairs separated within the window, and their "
-                   "survival curve levelled off or too few separated to extrapolate: a longer "
-                   "window may not separate the rest",
-                   plan::describe_case(spec, plan.cases[c]), e.horizon_reached[c], e.twin_pairs[c]);
-    }
-  }
-}
 
 int run_command(const RunOptions& options) {
   const parallel::Communicator comm;
@@ -403,19 +425,27 @@ int run_command(const RunOptions& options) {
   std::string archive_path;
   std::unique_ptr<checkpoint::Store> store;
   bool complete = false, discard = false;
+  PartChoice part;
   const ProgressMode mode = parse_progress_mode(options.progress);
   if (int code = agree(comm, [&] {
+        part = parse_part(options.part);
         spec = spec::load_spec(options.spec_path);
-        plan::check_member_output(spec, plan::make_plan(spec));
+        const plan::Plan plan = plan::make_plan(spec);
+        plan::check_member_output(spec, plan);
+        if (part.count > plan.batch_count()) {
+          throw UsageError(fmt::format("--part: {} parts, but the campaign has only {} batches; "
+                                       "use at most {} parts", part.count, plan.batch_count(),
+                                       plan.batch_count()));
+        }
       })) {
     return code;
   }
   if (int code = agree(comm, [&] {
         std::string exists_error;
-        archive_path = checked_archive_path(spec, options, exists_error);
-        store = std::make_unique<checkpoint::Store>(checkpoint_directory(spec, archive_path),
-                                                    spec.sha256, comm.rank());
-        complete = already_complete(spec, archive_path, options);
+        archive_path = checked_archive_path(spec, options, part, exists_error);
+        store = std::make_unique<checkpoint::Store>(
+            checkpoint_directory(spec, archive_path, part), spec.sha256, comm.rank());
+        complete = already_complete(spec, archive_path, options, part);
         if (!complete && !exists_error.empty()) throw UsageError(exists_error);
         if (!complete) discard = check_checkpoints(spec, options, *store);
       })) {
@@ -427,15 +457,23 @@ int run_command(const RunOptions& options) {
       const std::string stored = store->has_content() ? store->stored_spec() : std::string();
       const bool leftovers = store->has_content() && (stored.empty() || stored == spec.text);
       if (leftovers) store->remove_all();
-      spdlog::info("the campaign is complete: archive {} holds its results{}; nothing to do",
-                   archive_path, leftovers ? " (its leftover checkpoints were removed)" : "");
+      spdlog::info("the {} is complete: {} {} holds its results{}; nothing to do",
+                   part.whole() ? "campaign" : "part " + std::to_string(part.index) + " of " +
+                                                   std::to_string(part.count),
+                   part.whole() ? "archive" : "part archive", archive_path,
+                   leftovers ? " (its leftover checkpoints were removed)" : "");
     }
     return kExitComplete;
   }
 
   const plan::Plan plan = plan::make_plan(spec);
-  if (comm.rank() == 0) log_plan(spec, plan, comm.size());
-  const plan::Range share = plan::share(plan.batch_count(), comm.rank(), comm.size());
+  const archive::PartRange range = part.whole()
+                                       ? archive::PartRange{1, 1, 0, plan.batch_count()}
+                                       : archive::part_range(plan, part.index, part.count);
+  if (comm.rank() == 0) log_plan(spec, plan, comm.size(), range, part.whole());
+  const plan::Range mine =
+      plan::share(range.end_batch - range.first_batch, comm.rank(), comm.size());
+  const plan::Range share{range.first_batch + mine.first, range.first_batch + mine.last};
   LocalWork work(spec, plan, share, store.get());
   std::int64_t generation = 1;
   const bool resuming = options.resume && store->has_content();
@@ -474,6 +512,8 @@ int run_command(const RunOptions& options) {
 
     log_checkpoint_cost(comm, *store, seconds_since(start));
     const std::vector<run::BatchResult> local = work.take_results();
+    if (!part.whole()) return finish_part(comm, options, spec, plan, range, local, work, *store,
+                                          archive_path, start);
     const parallel::EnsembleResults ensemble = parallel::reduce(comm, spec, plan, work.partial());
     if (ensemble.non_finite_members > 0 && comm.rank() == 0) {
       spdlog::warn("{} of {} members became non-finite (dt too large?); they are excluded from "
@@ -491,7 +531,7 @@ int run_command(const RunOptions& options) {
     comm.barrier();
     if (comm.rank() == 0) store->remove_all();
 
-    log_rate(comm, plan, work, std::chrono::duration<double>(integrated - start).count());
+    log_rate(comm, plan, work, range, std::chrono::duration<double>(integrated - start).count());
     if (comm.rank() == 0) {
       spdlog::info("archive {} written in {:.2f} s", archive_path, seconds_since(integrated));
     }

@@ -84,7 +84,7 @@ void seal_file(const std::string& path) {
   checkpoint::sync_file(path);
 }
 
-void verify_seal(const std::string& path) {
+void verify_seal(const std::string& path, const std::string& remedy) {
   std::ifstream in(path, std::ios::binary);
   if (!in) throw UsageError(path + ": cannot open: " + std::strerror(errno));
   std::string text(kSealBytes, '\0');
@@ -115,8 +115,10 @@ void verify_seal(const std::string& path) {
   }
   if (!mismatch.empty()) {
     throw UsageError(path + ": archive is damaged or was changed after chaosweep wrote it (" +
-                     mismatch + "); `summary --no-verify` reads it anyway, at the risk of a "
-                     "crash inside HDF5 if it is damaged");
+                     mismatch + "); " +
+                     (remedy.empty() ? "`summary --no-verify` reads it anyway, at the risk of a "
+                                       "crash inside HDF5 if it is damaged"
+                                     : remedy));
   }
 }
 

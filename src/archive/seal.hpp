@@ -25,8 +25,9 @@ void seal_file(const std::string& path);
 
 /// Checks the header of the file at `path` against its content. Throws chaosweep::UsageError
 /// with a one-line message starting with `path` when it is not a sealed chaosweep archive, is of
-/// a newer format than this program reads, or its size or digest disagree with the header.
-void verify_seal(const std::string& path);
+/// a newer format than this program reads, or its size or digest disagree with the header;
+/// `remedy` ends the message of a damaged file (by default: how `summary` reads it anyway).
+void verify_seal(const std::string& path, const std::string& remedy = "");
 
 /// `bytes` (a whole file) with its header rewritten to match its content, or unchanged when
 /// shorter than the header. For tests and fuzzing of what lies behind the seal.

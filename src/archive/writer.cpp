@@ -247,6 +247,7 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   root.set_attribute("created_utc", info.created_utc);
   root.set_attribute("ranks", static_cast<std::int64_t>(info.ranks));
   root.set_attribute("status", info.status);
+  if (info.parts > 0) root.set_attribute("parts", static_cast<std::int64_t>(info.parts));
   root.set_attribute("members_per_case", plan.members);
   root.set_attribute("dt", spec.integration.dt);
   root.set_attribute("spinup", spec.integration.spinup);
@@ -479,7 +480,10 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   const MemberRows rows(plan, local);
   write_groups(file, Sources{spec, plan, local, ensemble, rows});
   file.close();
+  seal_into_place(partial, path);
+}
 
+void seal_into_place(const std::string& partial, const std::string& path) {
   // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it
   // into place, then syncs the directory; every rank learns the outcome.
   const parallel::Communicator comm;

@@ -17,6 +17,7 @@ struct RunInfo {
   int rank = 0;
   std::string created_utc;  // ISO 8601
   std::string status = "complete";
+  int parts = 0;  // > 0: merged from this many part archives (`chaosweep merge`)
 };
 
 /// Collective. `local` are this rank's batch results in batch order (a contiguous share of the
@@ -25,5 +26,10 @@ struct RunInfo {
 void write_archive(const std::string& path, const spec::Spec& spec, const plan::Plan& plan,
                    const std::vector<run::BatchResult>& local,
                    const parallel::EnsembleResults& ensemble, const RunInfo& info);
+
+/// Collective, after every rank has closed the file at `partial`: rank 0 seals it
+/// (archive/seal.hpp), renames it to `path` and syncs the directory. Throws IoError on every
+/// rank when any step fails.
+void seal_into_place(const std::string& partial, const std::string& path);
 
 }  // namespace chaosweep::archive

@@ -160,7 +160,8 @@ void summarise(const spec::Spec& spec, const plan::Plan& plan, run::BatchResult&
 LocalPartial::LocalPartial(const spec::Spec& spec, const plan::Plan& plan, std::int64_t first)
     : plan_(plan),
       summariser_(spec, plan),
-      tree_(stats::MergeShape{static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()},
+      tree_(stats::MergeShape{static_cast<std::int64_t>(plan.cases.size()),
+                              plan.batches_per_case()},
             summariser_.parts().layout),
       packed_(tree_.empty()),
       counts_(plan.cases.size() * summariser_.parts().count_width, 0),

@@ -6,15 +6,40 @@
 
 namespace chaosweep::parallel {
 
-MergedCases merge_cases(const Communicator& comm, const LocalPartial& mine) {
+stats::MergeTree campaign_tree(const plan::Plan& plan, const SummaryParts& parts) {
+  return stats::MergeTree(
+      stats::MergeShape{static_cast<std::int64_t>(plan.cases.size()), plan.batches_per_case()},
+      parts.layout);
+}
+
+PartialCases join_ranks(const Communicator& comm, const LocalPartial& mine) {
   if (mine.waiting() > 0) {
-    throw std::logic_error("merge_cases: " + std::to_string(mine.waiting()) +
+    throw std::logic_error("join_ranks: " + std::to_string(mine.waiting()) +
                            " batches wait for an earlier one that never came");
   }
   const stats::MergeTree& tree = mine.tree();
-  const std::vector<double> all = comm.combine_in_rank_order(
-      mine.packed(), [&tree](const double* left, double* right) { tree.combine(left, right); });
-  return MergedCases{mine.parts(), tree.finish(all), comm.sum(mine.counts())};
+  return PartialCases{
+      comm.combine_in_rank_order(
+          mine.packed(), [&tree](const double* left, double* right) { tree.combine(left, right); }),
+      comm.sum(mine.counts())};
+}
+
+void join_runs(const stats::MergeTree& tree, const PartialCases& left, PartialCases& right) {
+  if (left.nodes.size() != tree.packed_size() || right.nodes.size() != tree.packed_size() ||
+      left.counts.size() != right.counts.size()) {
+    throw std::logic_error("join_runs: partials of another campaign's shape");
+  }
+  tree.combine(left.nodes.data(), right.nodes.data());
+  for (std::size_t k = 0; k < right.counts.size(); ++k) right.counts[k] += left.counts[k];
+}
+
+MergedCases finish_cases(const stats::MergeTree& tree, const SummaryParts& parts,
+                         const PartialCases& all) {
+  return MergedCases{parts, tree.finish(all.nodes), all.counts};
+}
+
+MergedCases merge_cases(const Communicator& comm, const LocalPartial& mine) {
+  return finish_cases(mine.tree(), mine.parts(), join_ranks(comm, mine));
 }
 
 std::vector<double> merge_batches(const Communicator& comm, const stats::MergeShape& shape,

@@ -94,13 +94,16 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
 
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const LocalPartial& mine) {
+  return reduce(spec, plan, merge_cases(comm, mine));
+}
+
+EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged) {
   const int n_obs = static_cast<int>(plan.observables.size());
   const std::size_t bins =
       spec.statistics.histogram.enabled ? static_cast<std::size_t>(spec.statistics.histogram.bins) : 0;
   const int n_lyap = spec.statistics.lyapunov.enabled ? spec.statistics.lyapunov.exponents : 0;
   const std::size_t n_cases = plan.cases.size();
   const std::vector<Estimated> estimated = estimated_quantities(plan);
-  const MergedCases merged = merge_cases(comm, mine);
   const std::size_t columns = merged.parts.columns;
 
   // moments[case][column] over the estimated columns

@@ -34,6 +34,9 @@ EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const p
 /// The same from this rank's partial, its batches folded as they finished. Collective.
 EnsembleResults reduce(const Communicator& comm, const spec::Spec& spec, const plan::Plan& plan,
                        const LocalPartial& mine);
+/// The estimates from every case's merged summary (however the batches were joined: ranks of
+/// one job, or the parts of a campaign run as several jobs). Pure.
+EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged);
 
 /// The twin part of reduce() (fills the twin fields of `r`; nothing without twins).
 void reduce_twins(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
