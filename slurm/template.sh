@@ -17,11 +17,13 @@
 # submitting this script again with CHAOSWEEP_RESUME=1 in the environment); 1 the launcher
 # never ran the campaign; anything else is the run's own failure status.
 #
+{{ARRAY_NOTE}}
 # This text comes from slurm/template.sh; `chaosweep slurm` fills in its fields.
 #SBATCH --job-name={{JOB_NAME}}
 #SBATCH --nodes={{NODES}}
 #SBATCH --ntasks-per-node={{TASKS_PER_NODE}}
 #SBATCH --time={{TIME}}
+{{SBATCH_ARRAY}}
 {{SBATCH_PLACEMENT}}
 #SBATCH --chdir={{WORKDIR}}
 #SBATCH --output={{LOG}}
@@ -38,7 +40,9 @@ workdir={{WORKDIR_QUOTED}}
 max_requeues={{MAX_REQUEUES}}
 restart_count=${SLURM_RESTART_COUNT:-0}
 launcher_name={{LAUNCHER_NAME}}
+{{PART_LINES}}
 archive={{ARCHIVE_QUOTED}}
+{{PART_FLAGS}}
 launch_retries={{LAUNCH_RETRIES}}
 launch_retry_delay=${CHAOSWEEP_LAUNCH_RETRY_DELAY:-15}
 
@@ -46,7 +50,7 @@ log() { echo "$(date -u +%Y-%m-%dT%H:%M:%SZ) job ${SLURM_JOB_ID:-none}: $*"; }
 now() { date +%s.%N; }
 seconds_since() { awk -v a="$1" -v b="$(now)" 'BEGIN { printf "%.1f", b - a }'; }
 
-log "attempt $((restart_count + 1)), restart count $restart_count" \
+log "$what: attempt $((restart_count + 1)), restart count $restart_count" \
     "(requeues allowed: $max_requeues), ${SLURM_NTASKS:-?} tasks on ${SLURM_JOB_NODELIST:-?}"
 
 # The spec's relative paths (archive, checkpoints) are taken from here, also when this script
@@ -91,9 +95,10 @@ trap 'on_signal INT' INT
 # status. `wait` returns early when a trapped signal arrives: wait again until the run has
 # ended. A second wait for a run already collected fails with 127; the first status stands.
 run_once() {
-  {{LAUNCH}} "$chaosweep" run "$spec" --progress log "$@" &
+  {{LAUNCH}} "$chaosweep" run "$spec" --progress log "${part_flags[@]}" "$@" &
   run_pid=$!
-  log "started $launcher_name (pid $run_pid): $chaosweep run $spec --progress log $*"
+  log "started $launcher_name (pid $run_pid): $chaosweep run $spec --progress log" \
+      "${part_flags[*]}" "$*"
   status=
   while :; do
     interrupted=0
@@ -143,7 +148,7 @@ case $status in
           "nothing was changed"
       exit 1
     fi
-    log "campaign complete"
+    log "$what complete"
     exit 0
     ;;
   3)

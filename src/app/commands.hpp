@@ -48,6 +48,7 @@ struct SlurmOptions {
   std::string site_file;        // slurm/sites/<site>.sh sourced by the script; may be empty
   std::string script;           // write the script here; empty: standard output
   int signal_margin = -1;       // seconds of warning before the time limit; -1: estimated
+  int parts = 0;                // > 0: a job array of this many parts plus a merge job
 };
 
 int check_command(const CheckOptions& options);

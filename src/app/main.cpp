@@ -130,6 +130,10 @@ int main(int argc, char** argv) {
       ->check(CLI::IsMember({"srun", "mpirun"}));
   slurm_cmd->add_option("--site", slurm.site_file, "Site settings to source first (modules, MPI), slurm/sites/<site>.sh");
   slurm_cmd->add_option("--script", slurm.script, "Write the batch script to this file (default: stdout)");
+  slurm_cmd->add_option("--parts", slurm.parts,
+                        "Run the campaign as a job array of this many parts (run --part I/N) "
+                        "plus a merge job; needs --script")
+      ->check(CLI::Range(1, 1 << 20));
   slurm_cmd->add_option("--signal-margin", slurm.signal_margin,
                         "Seconds between the warning signal and the time limit (default: estimated)");
 

@@ -24,8 +24,11 @@
 
 namespace chaosweep::app {
 
-/// The text of slurm/template.sh (generated at configure time from that file).
+/// The texts of slurm/template.sh, merge.sh and submit.sh (generated at configure time from
+/// those files).
 std::string_view slurm_template_text();
+std::string_view slurm_merge_text();
+std::string_view slurm_submit_text();
 
 namespace {
 
@@ -159,6 +162,7 @@ std::string command_line(const SlurmOptions& o, const std::string& spec_path,
   out << " --max-requeues " << o.max_requeues << " --launcher " << o.launcher;
   if (!site_path.empty()) out << " --site " << site_path;
   out << " --signal-margin " << margin.seconds;
+  if (o.parts > 0) out << " --parts " << o.parts << " --script " << o.script;
   std::string text = out.str();
   for (char& c : text) {
     if (c == '\n' || c == '\r') c = ' ';
@@ -217,17 +221,104 @@ std::string absolute_existing_file(const std::string& option, const std::string&
 
 void write_script(const std::string& path, const std::string& script) {
   std::ofstream out(path, std::ios::binary | std::ios::trunc);
-  if (!out) throw IoError("--script: cannot write `" + path + "`");
+  if (!out) throw UsageError("--script: cannot write `" + path + "`");
   out << script;
   out.close();
   if (!out) throw IoError("--script: writing `" + path + "` failed");
   chmod(path.c_str(), 0755);
 }
 
+/// --parts needs --script (three files are written) and at most one part per batch.
+void check_parts(const SlurmOptions& options, const spec::Spec& spec) {
+  if (options.parts < 1) throw UsageError("--parts: must be 1 or more");
+  if (options.script.empty()) {
+    throw UsageError("--parts: needs --script FILE (the job array's script; the merge job's and "
+                     "the submitting script are written beside it)");
+  }
+  const std::int64_t batches = plan::make_plan(spec).batch_count();
+  if (options.parts > batches) {
+    throw UsageError("--parts: " + std::to_string(options.parts) +
+                     " parts, but the campaign has only " + std::to_string(batches) +
+                     " batches; use at most " + std::to_string(batches) + " parts");
+  }
+}
+
+/// `dir/NAME.sh` -> `dir/NAME-<what>.sh`.
+std::string sibling(const std::string& script, const std::string& what) {
+  const fs::path p(script);
+  return (p.parent_path() / (p.stem().string() + "-" + what + p.extension().string())).string();
+}
+
+/// The job array's script (the template with one part per task), the merge job's and the
+/// script that submits both with the dependency.
+void write_array_scripts(const SlurmOptions& options, const spec::Spec& spec,
+                         const std::string& archive, std::map<std::string, std::string> fields) {
+  const std::string n = std::to_string(options.parts);
+  // part I's archive, as `run --part I/N` names it: NAME.part-I-of-N.EXT beside the archive
+  const fs::path a(archive);
+  const std::string prefix = (a.parent_path() / (a.stem().string() + ".part-")).string();
+  const std::string suffix = "-of-" + n + a.extension().string();
+  const auto part_archive = [&](const std::string& index) {
+    return shell_quote(prefix) + "\"$" + index + "\"" + shell_quote(suffix);
+  };
+  const std::string array_path = options.script, merge_path = sibling(options.script, "merge"),
+                    submit_path = sibling(options.script, "submit");
+  const std::string array_name = fs::path(array_path).filename().string(),
+                    merge_name = fs::path(merge_path).filename().string();
+  const std::string workdir = fields.at("WORKDIR"), name = fields.at("JOB_NAME");
+
+  fields["ARRAY_NOTE"] =
+      "# Job array: task I (1 to " + n + ") runs part I of " + n + " of the campaign (`chaosweep "
+      "run --part I/" + n + "`)\n# into the part archive " + prefix + "I" + suffix +
+      ",\n# checkpointing beside it; each task stops, requeues and resumes like a single job. "
+      "The merge\n# job (" + merge_name + ") writes the archive from the parts; " +
+      fs::path(submit_path).filename().string() + " submits both.";
+  fields["SBATCH_ARRAY"] = "#SBATCH --array=1-" + n;
+  fields["LOG"] = workdir + "/" + name + "-%A_%a.log";
+  fields["PART_LINES"] =
+      "part_index=${SLURM_ARRAY_TASK_ID:?is not set: this script runs as a job array, one part "
+      "per task (sbatch --array=1-" + n + ")}\nwhat=\"part $part_index of " + n + "\"";
+  fields["ARCHIVE_QUOTED"] = part_archive("part_index");
+  fields["PART_FLAGS"] =
+      "part_flags=(--part \"$part_index/" + n + "\" --archive \"$archive\")";
+  write_script(array_path, fill_template(slurm_template_text(), fields));
+
+  fields["PARTS"] = n;
+  fields["SUBMIT_NAME"] = fs::path(submit_path).filename().string();
+  fields["ARCHIVE_QUOTED"] = shell_quote(archive);
+  fields["PART_ARCHIVE"] = part_archive("i");
+  fields["LOG"] = workdir + "/" + name + "-merge-%j.log";
+  fields["LAUNCH"] = options.launcher == "srun" ? "srun --mpi=pmix -n 1" : "mpirun -np 1";
+  write_script(merge_path, fill_template(slurm_merge_text(), fields));
+
+  fs::path dir = fs::path(array_path).parent_path();
+  if (dir.empty()) dir = ".";
+  std::string here = fs::absolute(dir).lexically_normal().string();
+  if (here.size() > 1 && here.back() == '/') here.pop_back();
+  fields["DIR_QUOTED"] = shell_quote(here);
+  fields["ARRAY_NAME"] = shell_quote(array_name);
+  fields["MERGE_NAME"] = shell_quote(merge_name);
+  fields["ARRAY_LOGS"] = workdir + "/" + name + "-${array}_I.log";
+  fields["MERGE_LOG"] = workdir + "/" + name + "-merge-${merge}.log";
+  write_script(submit_path, fill_template(slurm_submit_text(), fields));
+
+  const std::string run_submit =
+      submit_path.find('/') == std::string::npos ? "./" + submit_path : submit_path;
+  std::printf("wrote %s (job array of %d parts), %s (merge job) and %s: submit both with `%s`\n",
+              array_path.c_str(), options.parts, merge_path.c_str(), submit_path.c_str(),
+              run_submit.c_str());
+  if (options.parts > 1000) {
+    std::fprintf(stderr, "chaosweep: warning: --parts %d: array indices above 1000 exceed "
+                         "Slurm's default MaxArraySize (1001); see `scontrol show config`\n",
+                 options.parts);
+  }
+}
+
 }  // namespace
 
 int slurm_command(const SlurmOptions& options) {
   const spec::Spec spec = spec::load_spec(options.spec_path);
+  if (options.parts != 0) check_parts(options, spec);
   const long limit_seconds = parse_time_limit(options.time);
   if (!options.partition.empty()) check_sbatch_word("--partition", options.partition, false);
   if (!options.account.empty()) check_sbatch_word("--account", options.account, false);
@@ -246,7 +337,7 @@ int slurm_command(const SlurmOptions& options) {
   // not start the tasks; the spec's relative path is taken from the working directory.
   const std::string archive = (fs::path(workdir) / spec.output.archive).lexically_normal().string();
 
-  const std::map<std::string, std::string> fields = {
+  std::map<std::string, std::string> fields = {
       {"CAMPAIGN", spec.name},
       {"COMMAND_LINE", command_line(options, spec_path, site_path, margin)},
       {"MARGIN", std::to_string(margin.seconds)},
@@ -268,16 +359,23 @@ int slurm_command(const SlurmOptions& options) {
       {"ARCHIVE_QUOTED", shell_quote(archive)},
       {"LAUNCH_RETRIES", std::to_string(kLaunchRetries)},
       {"LAUNCH", srun ? "srun --mpi=pmix" : "mpirun -np \"$SLURM_NTASKS\""},
+      {"ARRAY_NOTE", ""},
+      {"SBATCH_ARRAY", ""},
+      {"PART_LINES", "what=campaign"},
+      {"PART_FLAGS", "part_flags=()"},
   };
-  const std::string script = fill_template(slurm_template_text(), fields);
-
-  if (options.script.empty()) {
-    std::fputs(script.c_str(), stdout);
-  } else {
-    write_script(options.script, script);
-    std::printf("wrote %s: submit it with `sbatch %s`\n", options.script.c_str(),
-                options.script.c_str());
+  if (options.parts == 0) {
+    const std::string script = fill_template(slurm_template_text(), fields);
+    if (options.script.empty()) {
+      std::fputs(script.c_str(), stdout);
+    } else {
+      write_script(options.script, script);
+      std::printf("wrote %s: submit it with `sbatch %s`\n", options.script.c_str(),
+                  options.script.c_str());
+    }
+    return kExitComplete;
   }
+  write_array_scripts(options, spec, archive, fields);
   return kExitComplete;
 }
 

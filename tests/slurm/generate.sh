@@ -130,4 +130,30 @@ expect_usage_error "invalid spec" "$SOURCE_DIR/tests/fixtures/specs/invalid/batc
   --nodes 1 --tasks-per-node 2 --time 01:00:00
 grep -q 'batch_size_12.yaml:[0-9]*:[0-9]*: ' bad.err || fail "spec error without FILE:LINE:COL"
 
+# --parts: more parts than batches (3 cases x 3 batches), zero parts; and without --script.
+expect_usage_error "more parts than batches" "${good[@]}" --time 01:00:00 --parts 10
+expect_usage_error "zero parts" "${good[@]}" --time 01:00:00 --parts 0
+"$CHAOSWEEP" slurm "${good[@]}" --time 01:00:00 --parts 2 >bad.out 2>bad.err
+[ $? -eq 2 ] && [ "$(wc -l <bad.err)" -eq 1 ] && grep -q -- "--parts: needs --script" bad.err ||
+  fail "--parts without --script: $(cat bad.err)"
+
+# --- a job array of 3 parts: the array script is the template with one part per task -------
+"$CHAOSWEEP" slurm "${good[@]}" --time 01:00:00 --parts 3 --script array.sh >array.out 2>&1 ||
+  fail "--parts 3: $(cat array.out)"
+for script in array.sh array-merge.sh array-submit.sh; do
+  [ -x "$script" ] || fail "$script was not written executable"
+  bash -n "$script" || fail "$script is not valid bash"
+done
+expect_line array.sh "#SBATCH --array=1-3"
+expect_line array.sh "#SBATCH --output=$work/slurm-l63-small-%A_%a.log"
+expect_line array.sh "archive='$work/slurm-l63-small.part-'\"\$part_index\"'-of-3.h5'"
+expect_line array.sh 'part_flags=(--part "$part_index/3" --archive "$archive")'
+expect_line array-merge.sh "#SBATCH --ntasks=1"
+expect_line array-merge.sh "archive='$work/slurm-l63-small.h5'"
+grep -q -- '--dependency=afterok:"$array"' array-submit.sh || fail "the merge job does not wait"
+# The part archives the array's tasks write are those the merge job reads (bash expands both).
+tasks=$(for i in 1 2 3; do part_index=$i; eval "$(grep '^archive=' array.sh)"; echo "$archive"; done)
+merged=$(eval "$(sed -n '/^parts=()/,/^done/p' array-merge.sh)"; printf '%s\n' "${parts[@]}")
+[ "$tasks" = "$merged" ] || fail "the tasks write $tasks, the merge reads $merged"
+
 echo "slurm.generate: ok"
