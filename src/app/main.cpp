@@ -7,6 +7,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <exception>
+#include <malloc.h>
 
 #include "app/commands.hpp"
 #include "app/logging.hpp"
@@ -43,6 +44,13 @@ int main(int argc, char** argv) {
   // A file-size limit then makes a write fail with EFBIG (reported as one error line) instead
   // of killing the process.
   std::signal(SIGXFSZ, SIG_IGN);
+  // Batches and archive rows allocate and free buffers of megabytes again and again. By default
+  // glibc returns such memory to the system at once (mmap for blocks above its threshold, heap
+  // trimming), and every later allocation pays a page fault per 4 KiB: writing the member rows
+  // of 2 x 1e6 members took 2.0 s instead of 0.6 s. Freed memory is kept for reuse instead:
+  // blocks up to the largest threshold glibc allows come from the heap, which is not trimmed.
+  mallopt(M_MMAP_THRESHOLD, 32 << 20);
+  mallopt(M_TRIM_THRESHOLD, 1 << 30);
   CLI::App cli{"chaosweep: forced-response ensemble campaigns for low-order chaotic models"};
   cli.set_version_flag("--version", kToolVersion);
   cli.require_subcommand(1);

@@ -66,7 +66,9 @@ Header parse(const std::string& text) {
 
 }  // namespace
 
-void seal_file(const std::string& path) {
+void seal_file(const std::string& path) { write_seal(path, seal_header(path)); }
+
+std::string seal_header(const std::string& path) {
   std::uint64_t size = 0;
   std::string digest;
   {
@@ -74,7 +76,10 @@ void seal_file(const std::string& path) {
     if (!in) io_fail("cannot read", path);
     digest = body_digest(in, size);
   }
-  const std::string header = header_text(kArchiveFormatVersion, size, digest);
+  return header_text(kArchiveFormatVersion, size, digest);
+}
+
+void write_seal(const std::string& path, const std::string& header) {
   {
     std::fstream out(path, std::ios::binary | std::ios::in | std::ios::out);
     out.write(header.data(), static_cast<std::streamsize>(header.size()));

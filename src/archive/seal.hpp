@@ -22,6 +22,10 @@ inline constexpr std::uint64_t kSealBytes = 512;
 /// Writes the header into the first kSealBytes of the complete file at `path` and syncs the
 /// file to disk. Throws chaosweep::IoError.
 void seal_file(const std::string& path);
+/// The two steps of seal_file: the header for the file as it is (reads it whole), and
+/// writing a header into the file, then syncing it.
+std::string seal_header(const std::string& path);
+void write_seal(const std::string& path, const std::string& header);
 
 /// Checks the header of the file at `path` against its content. Throws chaosweep::UsageError
 /// with a one-line message starting with `path` when it is not a sealed chaosweep archive, is of

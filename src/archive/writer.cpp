@@ -216,12 +216,16 @@ class MemberRows {
 };
 
 /// Concatenates the kept rows of one per-member array of every local batch; `width` values
-/// per row. A batch holds at least its kept rows (all of its members' before it is
-/// summarised, parallel/batch_summary.hpp, only the kept ones after).
+/// per row, into `out` (whose memory is reused from one quantity to the next: allocating
+/// anew costs a page fault per 4 KiB). A batch holds at least its kept rows (all of its
+/// members' before it is summarised, parallel/batch_summary.hpp, only the kept ones after).
 template <class T>
-std::vector<T> gather(const plan::Plan& plan, const std::vector<run::BatchResult>& local,
-                      const Quantity& q, std::size_t width) {
-  std::vector<T> out;
+const std::vector<T>& gather(const plan::Plan& plan, const std::vector<run::BatchResult>& local,
+                             const Quantity& q, std::size_t width, std::vector<T>& out) {
+  out.clear();
+  std::size_t total = 0;
+  for (const run::BatchResult& b : local) total += width * static_cast<std::size_t>(kept_rows(plan, b));
+  out.reserve(total);
   for (const run::BatchResult& b : local) {
     const std::vector<T>& v = results::array_of<T>(b, q);
     const std::size_t kept = width * static_cast<std::size_t>(kept_rows(plan, b));
@@ -282,6 +286,12 @@ struct Sources {
   const std::vector<run::BatchResult>& local;
   const parallel::EnsembleResults& ensemble;
   const MemberRows& rows;
+  /// Room for this rank's rows of one quantity, reused.
+  struct Buffers {
+    std::vector<double> float64;
+    std::vector<std::int64_t> int64;
+    std::vector<std::uint8_t> uint8;
+  } mutable buffers;
 };
 
 /// Creates the scale of dimension `dim` in group `group`, with its coordinate values from the
@@ -416,9 +426,9 @@ void write_quantity(GroupWriter& g, const Quantity& q, const Sources& in) {
       const Dims trailing(shape.begin() + 2, shape.end());
       const std::size_t width = h5::element_count(trailing);
       switch (q.type) {
-        case ElementType::float64: in.rows.write(d, trailing, gather<double>(in.plan, in.local, q, width)); break;
-        case ElementType::int64: in.rows.write(d, trailing, gather<std::int64_t>(in.plan, in.local, q, width)); break;
-        case ElementType::uint8: in.rows.write(d, trailing, gather<std::uint8_t>(in.plan, in.local, q, width)); break;
+        case ElementType::float64: in.rows.write(d, trailing, gather(in.plan, in.local, q, width, in.buffers.float64)); break;
+        case ElementType::int64: in.rows.write(d, trailing, gather(in.plan, in.local, q, width, in.buffers.int64)); break;
+        case ElementType::uint8: in.rows.write(d, trailing, gather(in.plan, in.local, q, width, in.buffers.uint8)); break;
         case ElementType::text: throw std::logic_error("text per member: " + q.path);
       }
       break;
@@ -478,19 +488,40 @@ void write_archive(const std::string& path, const spec::Spec& spec, const plan::
   h5::File file = h5::File::create_parallel(partial, MPI_COMM_WORLD, kSealBytes);
   write_root(file, spec, plan, info);
   const MemberRows rows(plan, local);
-  write_groups(file, Sources{spec, plan, local, ensemble, rows});
+  write_groups(file, Sources{spec, plan, local, ensemble, rows, {}});
   file.close();
   seal_into_place(partial, path);
 }
 
 void seal_into_place(const std::string& partial, const std::string& path) {
   // Rank 0 seals the complete file (header with its checksum, synced to disk) and renames it
-  // into place, then syncs the directory; every rank learns the outcome.
+  // into place, then syncs the directory; every rank learns the outcome. While rank 0 reads
+  // the file back for its checksum, rank 1 (when there is one) already flushes it to disk, so
+  // that rank 0's final sync has little left to do.
   const parallel::Communicator comm;
-  std::string failure;
+  std::string failure, header;
   if (comm.rank() == 0) {
     try {
-      seal_file(partial);
+      header = seal_header(partial);
+    } catch (const Error& e) {
+      failure = e.what();
+    }
+  } else if (comm.rank() == 1) {
+    try {
+      checkpoint::sync_file(partial);
+    } catch (const Error& e) {
+      failure = e.what();
+    }
+  }
+  // (a write-back error is reported to one sync only: rank 1's counts before the rename)
+  if (comm.any(!failure.empty())) {
+    const std::string first = comm.broadcast(failure);
+    throw IoError(!failure.empty() ? failure : !first.empty() ? first
+                                                              : "cannot sync " + partial);
+  }
+  if (comm.rank() == 0) {
+    try {
+      write_seal(partial, header);
       if (std::rename(partial.c_str(), path.c_str()) != 0) {
         failure = "cannot rename " + partial + " to " + path + ": " + std::strerror(errno);
       } else {
