@@ -28,10 +28,14 @@ LocalWork::LocalWork(const spec::Spec& spec, const plan::Plan& plan, plan::Range
       resumed_(finished_flags_.size()) {}
 
 LocalWork::Restored LocalWork::restore() {
+  if (!store_) return Restored{};
+  return restore(store_->index_done(share_.first, share_.last));
+}
+
+LocalWork::Restored LocalWork::restore(checkpoint::DoneIndex done) {
   Restored r;
   if (!store_) return r;
   const std::vector<std::int64_t> generations = store_->generations();
-  checkpoint::DoneIndex done = store_->index_done(share_.first, share_.last);
   r.segment_problems = std::move(done.problems);
   r.cut_short = std::move(done.cut_short);
   for (std::size_t i = 0; i < finished_flags_.size(); ++i) {

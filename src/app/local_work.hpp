@@ -40,6 +40,10 @@ class LocalWork {
     std::vector<std::string> cut_short;         // segments whose last record was cut short
   };
   Restored restore();
+  /// The same with the finished-batch index of this rank's batches given (made by the caller,
+  /// app/resume_index.hpp, without every rank reading every segment); the damage in `done`
+  /// is returned as found.
+  Restored restore(checkpoint::DoneIndex done);
 
   /// Computes the base state of every case that has a batch of this rank still to integrate
   /// (with `from: attractor`, its spin-up), so that a spin-up that diverges stops the run

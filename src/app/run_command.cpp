@@ -17,6 +17,7 @@
 #include "app/local_work.hpp"
 #include "app/logging.hpp"
 #include "app/progress.hpp"
+#include "app/resume_index.hpp"
 #include "app/signals.hpp"
 #include "app/test_hooks.hpp"
 #include "archive/part.hpp"
@@ -284,22 +285,24 @@ std::int64_t members_before(const plan::Plan& plan, std::int64_t b) {
   return b / p * plan.members + std::min<std::int64_t>(b % p * plan.batch_size, plan.members);
 }
 
-/// Restores checkpointed batches on every rank and applies --restart-from-scratch.
+/// Restores checkpointed batches on every rank and applies --restart-from-scratch. The ranks
+/// share out the reading of the segments (app/resume_index.hpp); each reports the damage of
+/// those it read.
 std::int64_t restore(const parallel::Communicator& comm, const RunOptions& options,
-                     const checkpoint::Store& store, LocalWork& work) {
-  const LocalWork::Restored r = work.restore();
-  // Every rank read the same segment headers: their damage is reported and counted once.
-  if (comm.rank() == 0) {
-    for (const std::string& path : r.cut_short) {
-      spdlog::info("{}: its last record was cut short (a write interrupted); ignored", path);
-    }
-    for (const std::string& problem : r.segment_problems) {
-      spdlog::warn("{}; the batches there will be recomputed", problem);
-    }
+                     const checkpoint::Store& store, LocalWork& work, plan::Range run) {
+  const Clock::time_point start = Clock::now();
+  checkpoint::DoneIndex index = distributed_index(comm, store, run);
+  const double index_seconds = comm.max(seconds_since(start));
+  const LocalWork::Restored r = work.restore(std::move(index));
+  for (const std::string& path : r.cut_short) {
+    spdlog::info("{}: its last record was cut short (a write interrupted); ignored", path);
+  }
+  for (const std::string& problem : r.segment_problems) {
+    spdlog::warn("{}; the batches there will be recomputed", problem);
   }
   const std::int64_t finished = comm.sum(r.finished), running = comm.sum(r.in_progress);
   const std::int64_t problems =
-      comm.sum(r.problems) + static_cast<std::int64_t>(r.segment_problems.size());
+      comm.sum(r.problems + static_cast<std::int64_t>(r.segment_problems.size()));
   if (finished + running == 0 && problems > 0 && !options.restart_from_scratch) {
     throw UsageError("--resume: no usable checkpoint in " + store.directory() + " (" +
                      std::to_string(problems) +
@@ -307,8 +310,10 @@ std::int64_t restore(const parallel::Communicator& comm, const RunOptions& optio
   }
   if (comm.rank() == 0) {
     spdlog::info("resuming from {}: {} batches finished, {} in progress, {} damaged checkpoints "
-                 "skipped (those batches are recomputed)",
-                 store.directory(), finished, running, problems);
+                 "skipped (those batches are recomputed); read in {:.2f} s (the index of finished "
+                 "batches {:.2f} s)",
+                 store.directory(), finished, running, problems, seconds_since(start),
+                 index_seconds);
   }
   std::int64_t newest = 0;
   for (std::int64_t g : store.generations()) newest = std::max(newest, g);
@@ -474,11 +479,12 @@ int run_command(const RunOptions& options) {
   const plan::Range mine =
       plan::share(range.end_batch - range.first_batch, comm.rank(), comm.size());
   const plan::Range share{range.first_batch + mine.first, range.first_batch + mine.last};
+  const plan::Range share_of_run{range.first_batch, range.end_batch};
   LocalWork work(spec, plan, share, store.get());
   std::int64_t generation = 1;
   const bool resuming = options.resume && store->has_content();
   if (resuming) {
-    if (int code = agree(comm, [&] { generation = restore(comm, options, *store, work); })) {
+    if (int code = agree(comm, [&] { generation = restore(comm, options, *store, work, share_of_run); })) {
       return code;
     }
   }

@@ -46,6 +46,8 @@ std::string fixed_digest(const std::string& sha256) {
 }
 
 /// A file open for reading at offsets; closed when destroyed.
+}  // namespace
+
 class ReadFile {
  public:
   explicit ReadFile(const std::string& path)
@@ -61,8 +63,26 @@ class ReadFile {
     if (::fstat(fd_, &st) != 0) fail("cannot stat", path_, errno);
     return static_cast<std::uint64_t>(st.st_size);
   }
-  /// Reads up to `n` bytes at `offset` into `out`; fewer only at the end of the file.
+  /// Reads up to `n` bytes at `offset` into `out`; fewer only at the end of the file. Small
+  /// reads are served from a window read ahead (records are read in file order, mostly), so
+  /// that a scan of many records makes a system call per window, not per record.
   std::size_t read_at(std::uint64_t offset, std::size_t n, char* out) const {
+    if (n > kWindow / 4) return pread_all(offset, n, out);
+    if (offset < window_start_ || offset + n > window_start_ + window_.size()) {
+      window_.resize(kWindow);
+      window_.resize(pread_all(offset, kWindow, window_.data()));
+      window_start_ = offset;
+    }
+    const std::size_t have =
+        std::min<std::size_t>(n, static_cast<std::size_t>(window_start_ + window_.size() - offset));
+    std::memcpy(out, window_.data() + (offset - window_start_), have);
+    return have;
+  }
+
+ private:
+  static constexpr std::size_t kWindow = 1 << 20;
+
+  std::size_t pread_all(std::uint64_t offset, std::size_t n, char* out) const {
     std::size_t done = 0;
     while (done < n) {
       const ssize_t got = ::pread(fd_, out + done, n - done, static_cast<off_t>(offset + done));
@@ -74,10 +94,13 @@ class ReadFile {
     return done;
   }
 
- private:
   std::string path_;
   int fd_;
+  mutable std::vector<char> window_;
+  mutable std::uint64_t window_start_ = 0;
 };
+
+namespace {
 
 /// A header's fields, once its magic and checksum have been verified.
 struct Header {
@@ -200,19 +223,27 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
   return scan;
 }
 
-std::string read_payload(const std::string& path, const SegmentEntry& entry) {
-  const ReadFile file(path);
-  const std::string where = path + ": damaged checkpoint (record of batch " +
+SegmentReader::SegmentReader(const std::string& path)
+    : path_(path), file_(std::make_unique<ReadFile>(path)) {}
+
+SegmentReader::~SegmentReader() = default;
+
+std::string SegmentReader::payload(const SegmentEntry& entry) const {
+  const std::string where = path_ + ": damaged checkpoint (record of batch " +
                             std::to_string(entry.batch) + " at byte " +
                             std::to_string(entry.payload_offset - kSegmentHeaderSize) + ": ";
   std::string payload(static_cast<std::size_t>(entry.payload_length), '\0');
-  if (file.read_at(entry.payload_offset, payload.size(), payload.data()) != payload.size()) {
+  if (file_->read_at(entry.payload_offset, payload.size(), payload.data()) != payload.size()) {
     throw CorruptCheckpoint(where + "truncated)");
   }
   if (sha256_hex(payload) != entry.payload_sha256) {
     throw CorruptCheckpoint(where + "checksum mismatch)");
   }
   return payload;
+}
+
+std::string read_payload(const std::string& path, const SegmentEntry& entry) {
+  return SegmentReader(path).payload(entry);
 }
 
 void seal_segment_record(std::string* record, std::int64_t batch,

@@ -21,6 +21,7 @@
 #pragma once
 
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -53,6 +54,21 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
 /// The payload of `entry` in `path`, checked against its checksum; throws CorruptCheckpoint
 /// when it does not match or the file is too short, IoError when it cannot be read.
 std::string read_payload(const std::string& path, const SegmentEntry& entry);
+
+class ReadFile;
+/// read_payload() for many records of one segment: the file stays open, and records read in
+/// file order come from a window read ahead.
+class SegmentReader {
+ public:
+  explicit SegmentReader(const std::string& path);  // IoError when it cannot be opened
+  ~SegmentReader();
+  const std::string& path() const { return path_; }
+  std::string payload(const SegmentEntry& entry) const;
+
+ private:
+  std::string path_;
+  std::unique_ptr<ReadFile> file_;
+};
 
 /// Completes a record in `record`, which holds kSegmentHeaderSize bytes of room followed by
 /// the payload: writes the header into that room (so that a writer reuses one buffer).

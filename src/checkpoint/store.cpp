@@ -232,26 +232,33 @@ void Store::sync_done() const {
   stats_.seconds += seconds_since(start);
 }
 
+std::vector<std::string> Store::segment_paths() const {
+  std::vector<std::string> paths;
+  for (auto& [rank, path] : segments()) paths.push_back(std::move(path));
+  return paths;
+}
+
+void Store::index_segment(DoneIndex& index, std::size_t k, std::int64_t first,
+                          std::int64_t last) const {
+  const std::string& path = index.segments.at(k);
+  SegmentScan scan;
+  try {
+    scan = scan_segment(path, spec_sha256_);
+  } catch (const Error& e) {  // unreadable: its batches are recomputed
+    index.problems.push_back(std::string(e.what()) + " (damaged checkpoint)");
+    return;
+  }
+  for (const SegmentEntry& entry : scan.entries) {
+    if (entry.batch >= first && entry.batch < last) index.batches[entry.batch].push_back({k, entry});
+  }
+  for (std::string& p : scan.problems) index.problems.push_back(std::move(p));
+  if (scan.cut_short) index.cut_short.push_back(path);
+}
+
 DoneIndex Store::index_done(std::int64_t first, std::int64_t last) const {
   DoneIndex index;
-  for (const auto& [rank, path] : segments()) {
-    SegmentScan scan;
-    try {
-      scan = scan_segment(path, spec_sha256_);
-    } catch (const Error& e) {  // unreadable: its batches are recomputed
-      index.problems.push_back(std::string(e.what()) + " (damaged checkpoint)");
-      continue;
-    }
-    const std::size_t segment = index.segments.size();
-    index.segments.push_back(path);
-    for (const SegmentEntry& entry : scan.entries) {
-      if (entry.batch >= first && entry.batch < last) {
-        index.batches[entry.batch].push_back({segment, entry});
-      }
-    }
-    for (std::string& p : scan.problems) index.problems.push_back(std::move(p));
-    if (scan.cut_short) index.cut_short.push_back(path);
-  }
+  index.segments = segment_paths();
+  for (std::size_t k = 0; k < index.segments.size(); ++k) index_segment(index, k, first, last);
   return index;
 }
 
@@ -263,7 +270,11 @@ std::optional<run::BatchResult> Store::load_done(const DoneIndex& index, std::in
   for (const DoneIndex::Location& at : found->second) {  // the first sound record wins
     const std::string& path = index.segments[at.segment];
     try {
-      const Record rec = decode_body(read_payload(path, at.entry), path);
+      if (!index.reader || index.reader->path() != path) {
+        index.reader.reset();
+        index.reader = std::make_unique<SegmentReader>(path);
+      }
+      const Record rec = decode_body(index.reader->payload(at.entry), path);
       if (rec.field("kind") != "done") throw CorruptCheckpoint(path + ": not a done record");
       if (rec.field("spec_sha256") != spec_sha256_) {
         throw CorruptCheckpoint(path + ": written for a different spec");
@@ -303,6 +314,7 @@ void Store::save_state(std::int64_t generation, const run::BatchState& state) co
 
 void Store::commit_generation(std::int64_t generation, const std::vector<std::int64_t>& batches,
                               int keep) const {
+  manifests_.clear();
   Record manifest;
   manifest.header = {{"kind", "manifest"},
                      {"spec_sha256", spec_sha256_},
@@ -336,14 +348,26 @@ std::vector<std::int64_t> Store::generations() const {
 std::optional<run::BatchState> Store::load_state(std::int64_t generation, std::int64_t batch,
                                                  std::string* problem) const {
   const std::string dir = generation_path(generation, false);
-  std::string why;
-  const std::optional<Record> manifest = load_record(dir + "/MANIFEST", "manifest", spec_sha256_, &why);
-  if (!manifest) {
-    if (problem) *problem = why.empty() ? dir + ": no manifest" : why;
+  auto known = manifests_.find(generation);
+  if (known == manifests_.end()) {  // read once: a resume asks for every batch of the rank
+    Manifest m;
+    std::string why;
+    const std::optional<Record> manifest =
+        load_record(dir + "/MANIFEST", "manifest", spec_sha256_, &why);
+    if (manifest) {
+      m.batches = manifest->integer("batches");
+      std::sort(m.batches->begin(), m.batches->end());
+    } else {
+      m.problem = why.empty() ? dir + ": no manifest" : why;
+    }
+    known = manifests_.emplace(generation, std::move(m)).first;
+  }
+  if (!known->second.batches) {
+    if (problem) *problem = known->second.problem;
     return std::nullopt;
   }
-  const std::vector<std::int64_t>& listed = manifest->integer("batches");
-  if (std::find(listed.begin(), listed.end(), batch) == listed.end()) return std::nullopt;
+  const std::vector<std::int64_t>& listed = *known->second.batches;
+  if (!std::binary_search(listed.begin(), listed.end(), batch)) return std::nullopt;
   const std::string path = dir + "/" + numbered("batch-", batch, 10) + ".ckpt";
   std::optional<Record> rec = load_record(path, "state", spec_sha256_, problem);
   if (!rec) {
@@ -360,6 +384,7 @@ std::optional<run::BatchState> Store::load_state(std::int64_t generation, std::i
 
 void Store::remove_all() const {
   segment_.reset();
+  manifests_.clear();
   segment_unsynced_ = directory_unsynced_ = false;
   std::error_code ec;
   fs::remove(directory_ + "/campaign.yaml", ec);

@@ -40,6 +40,9 @@ struct DoneIndex {
   std::map<std::int64_t, std::vector<Location>> batches;       // by segment, then file order
   std::vector<std::string> problems;  // damaged headers, records of another spec (one line each)
   std::vector<std::string> cut_short;  // segments whose last record was cut short (ignored)
+  /// The segment load_done() read last, kept open for the next record (batches are restored
+  /// in order, so mostly from the same segment).
+  mutable std::unique_ptr<SegmentReader> reader;
 };
 
 class Store {
@@ -71,6 +74,14 @@ class Store {
   /// Reads the record headers of every segment (seeking past the payloads) and indexes the
   /// records of batches in [first, last).
   DoneIndex index_done(std::int64_t first, std::int64_t last) const;
+  /// The segments present, in rank order (the same list on every process).
+  std::vector<std::string> segment_paths() const;
+  /// Reads the record headers of segment `k` of index.segments and adds the records of
+  /// batches in [first, last) to `index`, and its damage to index.problems / cut_short.
+  /// (A resume on many ranks has each rank scan some segments and send the entries to the
+  /// ranks that own the batches; app/resume_index.cpp.)
+  void index_segment(DoneIndex& index, std::size_t k, std::int64_t first,
+                     std::int64_t last) const;
   /// A finished batch from the first of its indexed records that is sound; otherwise nullopt
   /// and, when a record exists but none can be used, the reason in `problem`.
   std::optional<run::BatchResult> load_done(const DoneIndex& index, std::int64_t batch,
@@ -116,6 +127,11 @@ class Store {
   int rank_;
   mutable WriteStats stats_;
   mutable std::unique_ptr<SegmentWriter> segment_;  // opened by the first save_done()
+  struct Manifest {
+    std::optional<std::vector<std::int64_t>> batches;  // sorted; none when unusable
+    std::string problem;                               // why it is unusable
+  };
+  mutable std::map<std::int64_t, Manifest> manifests_;  // generations load_state() read
   mutable std::string record_;                      // the record being appended (reused)
   mutable bool segment_unsynced_ = false;           // records appended since the last sync
   mutable bool directory_unsynced_ = false;         // the segment was created since then

@@ -81,6 +81,39 @@ std::vector<std::int64_t> Communicator::allgather_in_rank_order(
   return allgather(local, MPI_INT64_T, size_);
 }
 
+std::vector<std::int64_t> Communicator::exchange(
+    const std::vector<std::vector<std::int64_t>>& to_rank) const {
+  if (to_rank.size() != static_cast<std::size_t>(size_)) {
+    throw std::logic_error("exchange: one vector per rank expected");
+  }
+  if (serial_) return to_rank[0];
+  std::vector<int> send_counts(size_), send_displs(size_), recv_counts(size_), recv_displs(size_);
+  std::vector<std::int64_t> sent;
+  for (int r = 0; r < size_; ++r) {
+    if (sent.size() + to_rank[r].size() > static_cast<std::size_t>(INT32_MAX)) {
+      throw IoError("MPI Alltoallv: more than 2^31 values to send");
+    }
+    send_displs[r] = static_cast<int>(sent.size());
+    send_counts[r] = static_cast<int>(to_rank[r].size());
+    sent.insert(sent.end(), to_rank[r].begin(), to_rank[r].end());
+  }
+  check(MPI_Alltoall(send_counts.data(), 1, MPI_INT, recv_counts.data(), 1, MPI_INT,
+                     MPI_COMM_WORLD),
+        "Alltoall");
+  std::int64_t total = 0;
+  for (int r = 0; r < size_; ++r) {
+    recv_displs[r] = static_cast<int>(total);
+    total += recv_counts[r];
+  }
+  if (total > INT32_MAX) throw IoError("MPI Alltoallv: more than 2^31 values to receive");
+  std::vector<std::int64_t> received(static_cast<std::size_t>(total));
+  check(MPI_Alltoallv(sent.data(), send_counts.data(), send_displs.data(), MPI_INT64_T,
+                      received.data(), recv_counts.data(), recv_displs.data(), MPI_INT64_T,
+                      MPI_COMM_WORLD),
+        "Alltoallv");
+  return received;
+}
+
 std::vector<double> Communicator::combine_in_rank_order(const std::vector<double>& local,
                                                         const Combine& combine) const {
   if (serial_ || size_ == 1 || local.empty()) return local;

@@ -32,6 +32,10 @@ class Communicator {
   /// Gathers every rank's `local` values, concatenated in rank order, on every rank.
   std::vector<std::int64_t> allgather_in_rank_order(const std::vector<std::int64_t>& local) const;
 
+  /// All to all: `to_rank[r]` goes to rank r (one vector per rank); returns what every rank
+  /// sent this one, concatenated in rank order.
+  std::vector<std::int64_t> exchange(const std::vector<std::vector<std::int64_t>>& to_rank) const;
+
   /// right = left (+) right for two same-sized blocks, `left` from the lower ranks.
   using Combine = std::function<void(const double* left, double* right)>;
   /// Every rank's `local` block (the same size on every rank) combined in rank order,

@@ -191,4 +191,15 @@ Range share(std::int64_t n, int rank, int size) {
   return r;
 }
 
+int owner(std::int64_t n, std::int64_t index, int size) {
+  if (index < 0 || index >= n || size < 1) {
+    throw std::out_of_range("item " + std::to_string(index) + " outside [0, " +
+                            std::to_string(n) + ")");
+  }
+  const std::int64_t base = n / size, extra = n % size;
+  const std::int64_t longer = extra * (base + 1);  // items of the ranks that get one more
+  if (index < longer) return static_cast<int>(index / (base + 1));
+  return static_cast<int>(extra + (index - longer) / base);
+}
+
 }  // namespace chaosweep::plan

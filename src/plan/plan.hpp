@@ -102,5 +102,7 @@ struct Range {
   std::int64_t last = 0;
 };
 Range share(std::int64_t n, int rank, int size);
+/// The rank whose share(n, rank, size) holds item `index` (std::out_of_range outside [0, n)).
+int owner(std::int64_t n, std::int64_t index, int size);
 
 }  // namespace chaosweep::plan

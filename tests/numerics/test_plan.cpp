@@ -135,3 +135,20 @@ TEST(Plan, BillionMembersArePlannedWithoutListing) {
 
 }  // namespace
 }  // namespace chaosweep::testing
+
+// plan::owner inverts plan::share: enumerated, every item lies in exactly its owner's share,
+// for item counts below, equal to and above the rank count; outside [0, n) it throws.
+TEST(Plan, OwnerIsTheRankWhoseShareHoldsTheItem) {
+  for (int size : {1, 2, 3, 5, 16}) {
+    for (std::int64_t n : {0, 1, 2, 4, 5, 15, 16, 17, 100}) {
+      for (int rank = 0; rank < size; ++rank) {
+        const chaosweep::plan::Range r = chaosweep::plan::share(n, rank, size);
+        for (std::int64_t i = r.first; i < r.last; ++i) {
+          EXPECT_EQ(chaosweep::plan::owner(n, i, size), rank) << n << " items, " << size << " ranks";
+        }
+      }
+    }
+  }
+  EXPECT_THROW(chaosweep::plan::owner(10, 10, 3), std::out_of_range);
+  EXPECT_THROW(chaosweep::plan::owner(10, -1, 3), std::out_of_range);
+}
