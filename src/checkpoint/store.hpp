@@ -11,8 +11,9 @@
 //   gen-NNNNNNNN/MANIFEST               written last: the generation is complete
 //   gen-NNNNNNNN.partial/               a generation being written (ignored when resuming)
 // The file count is therefore bounded by the ranks and the kept generations, never by the
-// batches. Records are keyed by batch, not by rank: a resume on any number of ranks reads the
-// record headers of every segment to find the finished batches, and each rank reads only the
+// batches. Records are keyed by batch, not by rank: a resume on any number of ranks finds the
+// finished batches from the segments' record headers (each rank reads some segments and sends
+// the entries to the batches' owners, app/resume_index.hpp), and each rank reads only the
 // payloads of its own. Generation files are written under a temporary name and renamed.
 // Because every batch's numbers depend only on the spec, a damaged or missing record or file
 // costs only the time to recompute that batch, never a different result.
