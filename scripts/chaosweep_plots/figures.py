@@ -236,6 +236,62 @@ def fig_response(arch, outdir):
     return out
 
 
+def fig_local_slope(arch, outdir):
+    """The local slope of each time mean along each axis, against that axis, beside the one
+    least-squares slope: where they part, one slope does not describe the response."""
+    if not arch.axes or arch.local_slope is None:
+        return [Skip("local-slope", "the campaign has no swept parameter")]
+    out = []
+    obs_pages = _pages(list(range(len(arch.observables))))
+    for axis in arch.axes:
+        a = arch.axes.index(axis)
+        groups, total = _groups(arch, axis)
+        colors = _colors(len(groups)) if len(groups) > 1 else ["tab:blue"]
+        x = arch.axis_values[axis]
+        for page, obs in enumerate(obs_pages):
+            fig, title = _new_figure(arch, f"local response of the time means to {axis}")
+            axes = fig.subplots(*_grid(len(obs)), squeeze=False)
+            for ax, o in zip(axes.flat, obs):
+                name = arch.observables[o]
+                for (label, cases), color in zip(groups, colors):
+                    d = arch.local_slope[a, cases, o]
+                    half = 1.96 * arch.local_slope_stderr[a, cases, o]
+                    ax.errorbar(x[cases], d, yerr=half, color=color, marker="o", capsize=3,
+                                label=label)
+                s, se = arch.slope[a, o], arch.slope_stderr[a, o]
+                if np.isfinite(s):
+                    ax.axhline(s, color="black", linestyle="--", linewidth=1.2)
+                    ax.axhspan(s - 1.96 * se, s + 1.96 * se, color="black", alpha=0.08)
+                fit = ""
+                if arch.slope_p_value is not None and np.isfinite(arch.slope_p_value[o]):
+                    fit = (f"\nlinear fit: chi2 {arch.slope_chi2[o]:.3g} for "
+                           f"{int(arch.slope_dof[o])} dof, p = {arch.slope_p_value[o]:.2g}")
+                ax.set_title(f"d<{name}>/d{axis}{fit}")
+                ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
+                ax.set_ylabel(f"local slope of <{name}> (per unit {axis})")
+                ax.grid(alpha=0.3)
+            _hide_unused(axes, len(obs))
+            handles = [Line2D([], [], color="tab:blue" if len(groups) == 1 else "gray",
+                              marker="o", label="local slope, 95% interval"),
+                       Line2D([], [], color="black", linestyle="--",
+                              label="least-squares slope over all cases")]
+            if len(groups) > 1:
+                handles += [Line2D([], [], color=c, marker="o", label=lab)
+                            for (lab, _), c in zip(groups, colors)]
+            axes.flat[0].legend(handles=handles, loc="best")
+            more = f" Lines for {len(groups)} of {total} values of the other axes." \
+                if total > len(groups) else ""
+            caption = (f"Derivative of each ensemble time mean along {axis} at every case, the "
+                       f"other parameters fixed (central differences between neighbouring "
+                       f"cases, one-sided at the ends), with 95% intervals from the cases' "
+                       f"standard errors; dashed with its band: the one least-squares slope. "
+                       f"The title gives the chi-square of the best linear fit: a small p means "
+                       f"one slope does not describe the response.{more}")
+            out.append(_save(fig, outdir, _page_name(f"local-slope-{axis}", page,
+                                                      len(obs_pages)), title, caption))
+    return out
+
+
 # --- regime fractions -----------------------------------------------------------------------
 
 def fig_regimes(arch, outdir):
@@ -624,6 +680,7 @@ def all_figures(arch, outdir, window):
     """Every figure in report order."""
     results = []
     results += fig_response(arch, outdir)
+    results += fig_local_slope(arch, outdir)
     results += fig_regimes(arch, outdir)
     results += fig_heatmap(arch, outdir)
     results += fig_histogram(arch, outdir)

@@ -39,6 +39,13 @@ int agree(const parallel::Communicator& comm, const std::function<void()>& step)
 
 void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
                           const parallel::EnsembleResults& e) {
+  for (std::size_t o = 0; o < e.slope_p_value.size(); ++o) {
+    if (!(e.slope_p_value[o] < 0.01)) continue;
+    spdlog::warn("the response of {} to the sweep is not linear within the errors (chi-square "
+                 "{:.3g} for {} degrees of freedom, p {:.2g}): one slope does not describe it; "
+                 "see /response/local_slope",
+                 plan.observables[o], e.slope_chi2[o], e.slope_dof[o], e.slope_p_value[o]);
+  }
   for (std::size_t c = 0; c < e.non_chaotic.size(); ++c) {
     if (e.non_chaotic[c] == 0) continue;
     spdlog::warn("{} does not behave chaotically: {}", plan::describe_case(spec, plan.cases[c]),

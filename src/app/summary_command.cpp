@@ -280,11 +280,34 @@ void print_json(const ArchiveSummary& s) {
   for (std::size_t a = 0; a < s.axes.size(); ++a) {
     for (std::size_t o = 0; o < n_obs; ++o) {
       const std::size_t i = idx(a, n_obs, o);
-      response.push_back(Json{{"axis", s.axes[a]}, {"observable", s.observables[o]},
-                              {"slope", s.slope[i]}, {"stderr", s.slope_stderr[i]}});
+      Json entry{{"axis", s.axes[a]}, {"observable", s.observables[o]},
+                 {"slope", s.slope[i]}, {"stderr", s.slope_stderr[i]}};
+      if (s.slope_chi2.size() == n_obs) {  // archives of earlier versions lack the fit test
+        entry["linear_fit"] = Json{{"chi2", s.slope_chi2[o]}, {"dof", s.slope_dof[o]},
+                                   {"p_value", s.slope_p_value[o]}};
+      }
+      const std::size_t cases = static_cast<std::size_t>(s.cases);
+      if (s.local_slope.size() == s.axes.size() * cases * n_obs) {
+        Json local = Json::array(), local_se = Json::array();
+        for (std::size_t c = 0; c < cases; ++c) {
+          local.push_back(s.local_slope[(a * cases + c) * n_obs + o]);
+          local_se.push_back(s.local_slope_stderr[(a * cases + c) * n_obs + o]);
+        }
+        entry["local_slope"] = local;
+        entry["local_slope_stderr"] = local_se;
+      }
+      response.push_back(entry);
     }
   }
   doc["response"] = response;
+  if (!s.axes.empty()) {
+    doc["linear_fit"] = "chi2 of the best weighted linear fit of the cases' time means on the "
+                        "parameters (weights 1/stderr^2), its degrees of freedom and p-value: a "
+                        "small p_value flags a response that is not linear";
+    doc["local_slope"] = "per case (in case order): the derivative of the time mean along the "
+                         "parameter, the other parameters fixed (central differences, one-sided "
+                         "at the ends of the axis), and its standard error";
+  }
   std::printf("%s\n", doc.dump(2).c_str());
 }
 
@@ -599,6 +622,66 @@ void print_non_chaotic(const ArchiveSummary& s) {
   }
 }
 
+/// The response slopes with the test of one linear fit, then the local slopes per case.
+void print_response(const ArchiveSummary& s) {
+  const std::size_t n_obs = s.observables.size(), cases = static_cast<std::size_t>(s.cases);
+  const bool tested = s.slope_chi2.size() == n_obs;
+  std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
+              "parameter (least squares over the cases)%s\n",
+              tested ? "; chi2/dof and p of the best weighted linear fit: a small p says one "
+                       "slope does not describe the response"
+                     : "");
+  std::vector<std::vector<std::string>> rows{{"observable", "parameter", "slope", "std error"}};
+  if (tested) {
+    rows[0].push_back("chi2/dof");
+    rows[0].push_back("p (linear)");
+  }
+  std::vector<std::string> not_linear;
+  for (std::size_t a = 0; a < s.axes.size(); ++a) {
+    for (std::size_t o = 0; o < n_obs; ++o) {
+      const std::size_t i = idx(a, n_obs, o);
+      rows.push_back({s.observables[o], s.axes[a], number_text("%.4g", s.slope[i]),
+                      number_text("%.2g", s.slope_stderr[i])});
+      if (!tested) continue;
+      rows.back().push_back(number_text("%.3g", s.slope_chi2[o]) + "/" +
+                            std::to_string(s.slope_dof[o]));
+      rows.back().push_back(number_text("%.2g", s.slope_p_value[o]));
+      if (a == 0 && s.slope_p_value[o] < 0.01) not_linear.push_back(s.observables[o]);
+    }
+  }
+  print_aligned(rows);
+  if (!not_linear.empty()) {
+    std::string names;
+    for (const std::string& n : not_linear) names += (names.empty() ? "" : ", ") + n;
+    std::printf("not linear within the errors (p < 0.01): %s; read the local slopes below\n",
+                names.c_str());
+  }
+  if (s.local_slope.size() != s.axes.size() * cases * n_obs) return;
+  std::printf("\nlocal slope of the ensemble time mean at each case, along each parameter with "
+              "the others fixed (central differences, one-sided at the ends of the axis): "
+              "slope +- std error\n");
+  std::vector<std::vector<std::string>> local{{"case"}};
+  for (const std::string& a : s.axes) local[0].push_back(a);
+  for (const std::string& a : s.axes) {
+    for (const std::string& o : s.observables) local[0].push_back("d" + o + "/d" + a);
+  }
+  for (std::size_t c = 0; c < cases; ++c) {
+    std::vector<std::string> row{std::to_string(c)};
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      row.push_back(number_text("%.4g", s.axis_values[a][c]));
+    }
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      for (std::size_t o = 0; o < n_obs; ++o) {
+        const std::size_t i = (a * cases + c) * n_obs + o;
+        row.push_back(number_text("%.4g", s.local_slope[i]) + " +- " +
+                      number_text("%.2g", s.local_slope_stderr[i]));
+      }
+    }
+    local.push_back(row);
+  }
+  print_aligned(local);
+}
+
 void print_table(const ArchiveSummary& s) {
   std::int64_t valid = 0;
   for (std::int64_t v : s.valid_members) valid += v;
@@ -629,17 +712,7 @@ void print_table(const ArchiveSummary& s) {
                 snapshot_names(s, snap, " t=%g"), snap.mean, snap.ci95);
   }
   if (!s.axes.empty()) {
-    std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
-                "parameter (least squares over the cases)\n");
-    std::vector<std::vector<std::string>> rows{{"observable", "parameter", "slope", "std error"}};
-    for (std::size_t a = 0; a < s.axes.size(); ++a) {
-      for (std::size_t o = 0; o < s.observables.size(); ++o) {
-        const std::size_t i = idx(a, s.observables.size(), o);
-        rows.push_back({s.observables[o], s.axes[a], number_text("%.4g", s.slope[i]),
-                        number_text("%.2g", s.slope_stderr[i])});
-      }
-    }
-    print_aligned(rows);
+    print_response(s);
   }
   std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
               "mean +- t(0.975, n-1) se, n = valid members; se is the standard error below for "

@@ -55,6 +55,83 @@ void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) 
   }
 }
 
+/// The cases along axis `a` through case `c`: the sweep grid's other coordinates fixed (cases
+/// are the cartesian product of the axes, the last varying fastest).
+std::vector<std::size_t> line_through(const spec::Spec& spec, std::size_t c, std::size_t a) {
+  std::size_t stride = 1;
+  for (std::size_t b = a + 1; b < spec.sweep.size(); ++b) stride *= spec.sweep[b].values.size();
+  const std::size_t n = spec.sweep[a].values.size();
+  const std::size_t first = c - (c / stride % n) * stride;
+  std::vector<std::size_t> line(n);
+  for (std::size_t k = 0; k < n; ++k) line[k] = first + k * stride;
+  return line;
+}
+
+/// Local slopes of `values` [case][width] (errors `errors`) along every axis into
+/// `slope`, `slope_se` [axis][case][width].
+void local_slopes(const spec::Spec& spec, std::size_t n_cases, std::size_t width,
+                  const std::vector<double>& values, const std::vector<double>& errors,
+                  std::vector<double>& slope, std::vector<double>& slope_se) {
+  const std::size_t axes = spec.sweep.size();
+  slope.assign(axes * n_cases * width, NAN);
+  slope_se.assign(axes * n_cases * width, NAN);
+  for (std::size_t a = 0; a < axes; ++a) {
+    const std::vector<double>& x = spec.sweep[a].values;
+    for (std::size_t c = 0; c < n_cases; ++c) {
+      const std::vector<std::size_t> line = line_through(spec, c, a);
+      if (line.front() != c) continue;  // each line once, from its first case
+      for (std::size_t k = 0; k < width; ++k) {
+        std::vector<double> y, se;
+        for (std::size_t at : line) {
+          y.push_back(values[at * width + k]);
+          se.push_back(errors[at * width + k]);
+        }
+        const std::vector<stats::Slope> d = stats::gradient_along(x, y, se);
+        for (std::size_t i = 0; i < line.size(); ++i) {
+          slope[(a * n_cases + line[i]) * width + k] = d[i].slope;
+          slope_se[(a * n_cases + line[i]) * width + k] = d[i].stderr_;
+        }
+      }
+    }
+  }
+}
+
+/// The local response along each axis (time means, regime fractions) and how well one linear
+/// fit describes the time means.
+void local_response(const spec::Spec& spec, const plan::Plan& plan, EnsembleResults& r) {
+  const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
+  const std::size_t n_regimes = plan.regime_labels.size();
+  r.slope_chi2.assign(n_obs, NAN);
+  r.slope_dof.assign(n_obs, 0);
+  r.slope_p_value.assign(n_obs, NAN);
+  if (spec.sweep.empty()) return;
+  std::vector<std::vector<double>> x(n_cases);
+  for (std::size_t c = 0; c < n_cases; ++c) x[c] = plan.cases[c].axis_values;
+  for (std::size_t o = 0; o < n_obs; ++o) {
+    std::vector<double> y(n_cases), se(n_cases);
+    for (std::size_t c = 0; c < n_cases; ++c) {
+      y[c] = r.time_mean[c * n_obs + o];
+      se[c] = r.time_mean_stderr[c * n_obs + o];
+    }
+    const stats::FitQuality q = stats::linear_fit_quality(x, y, se);
+    r.slope_chi2[o] = q.chi2;
+    r.slope_dof[o] = q.dof;
+    r.slope_p_value[o] = q.p_value;
+  }
+  local_slopes(spec, n_cases, n_obs, r.time_mean, r.time_mean_stderr, r.local_slope,
+               r.local_slope_stderr);
+  if (n_regimes == 0) return;
+  std::vector<double> regime_se(n_cases * n_regimes, NAN);
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    const double n = static_cast<double>(r.valid_members[c]);
+    for (std::size_t k = 0; k < n_regimes; ++k) {
+      regime_se[c * n_regimes + k] = r.regime_fraction_std[c * n_regimes + k] / std::sqrt(n);
+    }
+  }
+  local_slopes(spec, n_cases, n_regimes, r.regime_fraction, regime_se, r.local_regime_slope,
+               r.local_regime_slope_stderr);
+}
+
 /// Flags the cases that do not behave chaotically (stats/dynamics_check.hpp); needs the
 /// time-mean errors, the Lyapunov exponents and the twins already reduced.
 void check_cases(const spec::Spec& spec, const plan::Plan& plan, int n_lyap, EnsembleResults& r) {
@@ -150,6 +227,7 @@ EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const Mer
   }
   reduce_time_mean_errors(plan, merged, r);
   fit_slopes(plan, spec.sweep.size(), r);
+  local_response(spec, plan, r);
   reduce_twins(spec, plan, merged, r);
   reduce_snapshots(spec, plan, merged, r);
   check_cases(spec, plan, n_lyap, r);

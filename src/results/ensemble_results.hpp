@@ -50,6 +50,13 @@ struct EnsembleResults {
   // response to the sweep, histogram, snapshots
   std::vector<double> slope;
   std::vector<double> slope_stderr;
+  std::vector<double> slope_chi2;
+  std::vector<std::int64_t> slope_dof;
+  std::vector<double> slope_p_value;
+  std::vector<double> local_slope;
+  std::vector<double> local_slope_stderr;
+  std::vector<double> local_regime_slope;
+  std::vector<double> local_regime_slope_stderr;
   std::vector<std::int64_t> histogram;
   std::vector<double> snapshot_time;
   std::vector<double> snapshot_mean;

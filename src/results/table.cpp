@@ -288,6 +288,41 @@ std::vector<Quantity> make_table() {
                "standard error of the slope, propagated from each case's "
                "/ensemble/time_mean_stderr",
                S::sweep, derived("stats::response_slopes of the cases' time means")),
+      ensemble(&E::slope_chi2, "/response/slope_chi2", {"observable"}, "1",
+               "chi-square of the best weighted linear fit of the cases' ensemble time means on "
+               "the swept parameters (weights: 1 / /ensemble/time_mean_stderr^2): large when the "
+               "response is not linear",
+               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
+      ensemble(&E::slope_dof, "/response/slope_dof", {"observable"}, "1",
+               "degrees of freedom of that chi-square: cases used - varying parameters - 1",
+               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
+      ensemble(&E::slope_p_value, "/response/slope_p_value", {"observable"}, "1",
+               "probability of a chi-square at least as large if the response were linear (a "
+               "small value, below 0.01 say, flags a non-linear response: read the local slopes)",
+               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
+      ensemble(&E::local_slope, "/response/local_slope", {"axis", "case", "observable"}, "1",
+               "derivative of the ensemble time mean along the swept parameter at the case, the "
+               "other parameters fixed: second-order central differences (non-uniform spacing "
+               "allowed), first-order one-sided at the ends of the axis, as numpy.gradient",
+               S::sweep, derived("stats::gradient_along each axis of the cases' time means")),
+      ensemble(&E::local_slope_stderr, "/response/local_slope_stderr",
+               {"axis", "case", "observable"}, "1",
+               "standard error of the local slope, propagated from the cases' "
+               "/ensemble/time_mean_stderr (independent cases)",
+               S::sweep, derived("stats::gradient_along each axis of the cases' time means")),
+      ensemble(&E::local_regime_slope, "/response/local_regime_slope", {"axis", "case", "regime"},
+               "1",
+               "derivative of the ensemble regime fraction along the swept parameter at the "
+               "case, the other parameters fixed (as /response/local_slope)",
+               S::sweep_regimes,
+               derived("stats::gradient_along each axis of the cases' regime fractions")),
+      ensemble(&E::local_regime_slope_stderr, "/response/local_regime_slope_stderr",
+               {"axis", "case", "regime"}, "1",
+               "standard error of the local regime slope, propagated from the cases' standard "
+               "errors of the regime fraction (/ensemble/regime_fraction_std / sqrt(valid "
+               "members))",
+               S::sweep_regimes,
+               derived("stats::gradient_along each axis of the cases' regime fractions")),
       // twin experiment
       coordinate("/twins/lead", {"lead"}, T::float64, kTime,
                  "lead time since the end of the spin-up, in model time units", S::twins),
@@ -411,6 +446,7 @@ bool is_on(Switch s, const Options& o) {
     case Switch::histogram: return o.histogram;
     case Switch::snapshots: return o.snapshots;
     case Switch::snapshot_regimes: return o.snapshots && o.regimes;
+    case Switch::sweep_regimes: return o.sweep && o.regimes;
     case Switch::trajectories: return o.trajectories;
   }
   return false;
@@ -426,6 +462,7 @@ std::string switch_text(Switch s) {
     case Switch::histogram: return "statistics.histogram";
     case Switch::snapshots: return "statistics.snapshots";
     case Switch::snapshot_regimes: return "statistics.snapshots and statistics.regimes";
+    case Switch::sweep_regimes: return "sweep and statistics.regimes";
     case Switch::trajectories: return "output.trajectories";
   }
   return "";

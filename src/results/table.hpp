@@ -56,7 +56,7 @@ enum class Estimate { none, mean, median, std, ci95, detail };
 
 /// The spec option that switches a quantity on.
 enum class Switch { always, sweep, regimes, lyapunov, twins, histogram, snapshots,
-                    snapshot_regimes, trajectories };
+                    snapshot_regimes, sweep_regimes, trajectories };
 
 /// Which switches a campaign turns on (plan::Plan::outputs).
 struct Options {

@@ -59,4 +59,28 @@ struct Slope {
 std::vector<Slope> response_slopes(const std::vector<std::vector<double>>& x,
                                    const std::vector<double>& y, const std::vector<double>& y_se);
 
+/// How well a linear response describes the cases: the chi-square of the weighted
+/// least-squares fit y_c = b0 + sum_k b_k x_ck (weights 1 / se_c^2) over the cases with a
+/// finite value and a positive finite error, its degrees of freedom (cases - varying axes - 1)
+/// and the probability of a chi-square at least as large if the response were linear and the
+/// errors Gaussian (its p-value). NaN chi-square and p-value, 0 degrees of freedom, when
+/// there are too few such cases.
+struct FitQuality {
+  double chi2 = 0.0;
+  std::int64_t dof = 0;
+  double p_value = 0.0;
+};
+FitQuality linear_fit_quality(const std::vector<std::vector<double>>& x,
+                              const std::vector<double>& y, const std::vector<double>& y_se);
+
+/// The derivative dy/dx at every point of one line of the grid, as numpy.gradient(y, x)
+/// defines it (edge_order 1): at interior points the second-order central difference for
+/// non-uniform spacing, f'_i = a f_{i-1} + b f_i + c f_{i+1} with h1 = x_i - x_{i-1},
+/// h2 = x_{i+1} - x_i, a = -h2 / (h1 (h1 + h2)), b = (h2 - h1) / (h1 h2), c = h1 / (h2 (h1 + h2))
+/// ((f_{i+1} - f_{i-1}) / (2h) when the spacing is uniform); at the two ends the one-sided
+/// first difference. The standard error treats the points' errors as independent:
+/// sqrt(sum of coefficient^2 se^2). Fewer than two points: NaN.
+std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vector<double>& y,
+                                  const std::vector<double>& y_se);
+
 }  // namespace chaosweep::stats

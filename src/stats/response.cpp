@@ -1,5 +1,8 @@
 // Least-squares response slopes of case values on the swept axes (declared in ensemble.hpp).
 #include <Eigen/Dense>
+#include <gsl/gsl_cdf.h>
+
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <set>
@@ -85,6 +88,83 @@ std::vector<Slope> response_slopes(const std::vector<std::vector<double>>& x,
     }
     out[kept[j]] = Slope{slope, std::sqrt(var)};
   }
+  return out;
+}
+
+FitQuality linear_fit_quality(const std::vector<std::vector<double>>& x,
+                              const std::vector<double>& y, const std::vector<double>& y_se) {
+  if (x.size() != y.size() || y_se.size() != y.size()) {
+    throw std::invalid_argument("linear_fit_quality needs one axis row, value and error per case.");
+  }
+  FitQuality q{kNaN, 0, kNaN};
+  const std::size_t axes = x.empty() ? 0 : x.front().size();
+  std::vector<std::size_t> used;
+  for (std::size_t c : usable_cases(x, y)) {
+    if (std::isfinite(y_se[c]) && y_se[c] > 0.0) used.push_back(c);
+  }
+  const std::vector<std::size_t> kept = varying_axes(x, used, axes);
+  const std::size_t p = kept.size() + 1;
+  if (kept.empty() || used.size() <= p) return q;
+  // Weighted least squares: rows scaled by 1 / se, so the residual norm is the chi-square.
+  const Eigen::Index n = static_cast<Eigen::Index>(used.size());
+  Eigen::MatrixXd design(n, static_cast<Eigen::Index>(p));
+  Eigen::VectorXd target(n);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    const double w = 1.0 / y_se[used[i]];
+    design(i, 0) = w;
+    for (std::size_t j = 0; j < kept.size(); ++j) design(i, j + 1) = w * x[used[i]][kept[j]];
+    target(i) = w * y[used[i]];
+  }
+  Eigen::ColPivHouseholderQR<Eigen::MatrixXd> qr(design);
+  if (qr.rank() < static_cast<Eigen::Index>(p)) return q;
+  const Eigen::VectorXd b = qr.solve(target);
+  q.chi2 = (design * b - target).squaredNorm();
+  q.dof = static_cast<std::int64_t>(used.size() - p);
+  q.p_value = gsl_cdf_chisq_Q(q.chi2, static_cast<double>(q.dof));
+  return q;
+}
+
+std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vector<double>& y,
+                                  const std::vector<double>& y_se) {
+  const std::size_t n = x.size();
+  if (y.size() != n || y_se.size() != n) {
+    throw std::invalid_argument("gradient_along needs one value and error per point.");
+  }
+  std::vector<Slope> out(n, Slope{kNaN, kNaN});
+  if (n < 2) return out;
+  const auto combine = [&](std::size_t i, const double* coef, const std::size_t* at, int k) {
+    double value = 0.0, var = 0.0;
+    for (int j = 0; j < k; ++j) {
+      value += coef[j] * y[at[j]];
+      var += coef[j] * coef[j] * y_se[at[j]] * y_se[at[j]];
+    }
+    out[i] = Slope{value, std::sqrt(var)};
+  };
+  bool uniform = true;
+  for (std::size_t i = 1; i + 1 < n; ++i) uniform = uniform && (x[i + 1] - x[i] == x[1] - x[0]);
+  for (std::size_t i = 1; i + 1 < n; ++i) {
+    const double h1 = x[i] - x[i - 1], h2 = x[i + 1] - x[i];
+    const std::size_t at[3] = {i - 1, i, i + 1};
+    if (uniform) {
+      const double coef[3] = {-1.0 / (2.0 * h1), 0.0, 1.0 / (2.0 * h1)};
+      const std::size_t ends[2] = {i - 1, i + 1};
+      const double two[2] = {coef[0], coef[2]};
+      combine(i, two, ends, 2);
+      // numpy's uniform form, (f_{i+1} - f_{i-1}) / (2 h), computed as it computes it
+      out[i].slope = (y[i + 1] - y[i - 1]) / (2.0 * h1);
+    } else {
+      const double coef[3] = {-h2 / (h1 * (h1 + h2)), (h2 - h1) / (h1 * h2), h1 / (h2 * (h1 + h2))};
+      combine(i, coef, at, 3);
+    }
+  }
+  const double first[2] = {-1.0 / (x[1] - x[0]), 1.0 / (x[1] - x[0])};
+  const std::size_t first_at[2] = {0, 1};
+  combine(0, first, first_at, 2);
+  out[0].slope = (y[1] - y[0]) / (x[1] - x[0]);
+  const double last[2] = {-1.0 / (x[n - 1] - x[n - 2]), 1.0 / (x[n - 1] - x[n - 2])};
+  const std::size_t last_at[2] = {n - 2, n - 1};
+  combine(n - 1, last, last_at, 2);
+  out[n - 1].slope = (y[n - 1] - y[n - 2]) / (x[n - 1] - x[n - 2]);
   return out;
 }
 

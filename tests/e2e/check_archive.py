@@ -982,6 +982,65 @@ def check_root_attributes(readme, *paths):
     print(f"ok: {len(documented)} root attributes documented, all seen in {len(paths)} archives")
 
 
+def check_local_response(path):
+    """/response/local_slope against numpy.gradient(time_mean, axis values, axis=a,
+    edge_order=1) on the sweep grid (numpy's own second-order central differences for
+    non-uniform spacing, one-sided at the ends), and its standard error against the same
+    gradient applied to each case's unit vector (the coefficients of the linear map) with the
+    cases' errors; likewise the regime fractions. /response/slope_chi2 against the residual sum
+    of squares of numpy.linalg.lstsq on the weighted design (intercept and the axes), its p-value
+    against scipy.stats.chi2.sf. Tolerance 1e-12 relative (rounding order only)."""
+    from scipy import stats
+    with h5py.File(path, "r") as f:
+        axes = [a.decode() if isinstance(a, bytes) else a for a in f["response/axis"][()]]
+        coords = [f["case/" + a][()] for a in axes]
+        grid = [np.unique(c, return_index=True) for c in coords]
+        # the axis values in spec order: first appearance along the case dimension
+        values = [c[np.sort(idx)] for c, (_, idx) in zip(coords, grid)]
+        shape = tuple(len(v) for v in values)
+        sources = [("time_mean", f["ensemble/time_mean"][()], f["ensemble/time_mean_stderr"][()],
+                    "response/local_slope")]
+        if "response/local_regime_slope" in f:
+            valid = f["ensemble/valid_members"][()].astype(float)
+            sources.append(("regime_fraction", f["ensemble/regime_fraction"][()],
+                            f["ensemble/regime_fraction_std"][()] / np.sqrt(valid)[:, None],
+                            "response/local_regime_slope"))
+        for name, y, se, out in sources:
+            slope, slope_se = f[out][()], f[out + "_stderr"][()]
+            width = y.shape[1]
+            for a, x in enumerate(values):
+                yg = y.reshape(shape + (width,))
+                want = np.gradient(yg, x, axis=a, edge_order=1).reshape(-1, width)
+                if not np.allclose(slope[a], want, rtol=1e-12, atol=1e-12 * np.abs(want).max()):
+                    fail(f"{path}: {out} along {axes[a]} differs from numpy.gradient")
+                # coefficients: the gradient of each unit vector along the axis
+                var = np.zeros_like(want)
+                for c in range(y.shape[0]):
+                    unit = np.zeros(y.shape[0])
+                    unit[c] = 1.0
+                    coef = np.gradient(unit.reshape(shape), x, axis=a, edge_order=1).reshape(-1)
+                    var += (coef[:, None] * se[c][None, :]) ** 2
+                if not np.allclose(slope_se[a], np.sqrt(var), rtol=1e-10, atol=0):
+                    fail(f"{path}: {out}_stderr along {axes[a]} differs from the propagated error")
+            print(f"ok: {out} = numpy.gradient of /ensemble/{name} along {axes} "
+                  f"({len(axes)} axes, grid {shape})")
+        tm, tse = f["ensemble/time_mean"][()], f["ensemble/time_mean_stderr"][()]
+        chi2, dof, p = (f["response/slope_" + k][()] for k in ("chi2", "dof", "p_value"))
+        X = np.column_stack([np.ones(len(tm))] + [c for c in coords])
+        for o in range(tm.shape[1]):
+            w = 1.0 / tse[:, o]
+            _, rss, _, _ = np.linalg.lstsq(X * w[:, None], tm[:, o] * w, rcond=None)
+            want_dof = len(tm) - X.shape[1]
+            if dof[o] != want_dof:
+                fail(f"{path}: slope_dof[{o}] = {dof[o]}, expected {want_dof}")
+            if not math.isclose(chi2[o], rss[0], rel_tol=1e-9):
+                fail(f"{path}: slope_chi2[{o}] = {chi2[o]}, lstsq gives {rss[0]}")
+            if not math.isclose(p[o], stats.chi2.sf(rss[0], want_dof), rel_tol=1e-9, abs_tol=1e-300):
+                fail(f"{path}: slope_p_value[{o}] = {p[o]}, scipy gives {stats.chi2.sf(rss[0], want_dof)}")
+        print(f"ok: chi-square of the linear fit = lstsq residual, p-value = scipy.stats.chi2.sf "
+              f"({tm.shape[1]} observables; p = {', '.join(f'{v:.3g}' for v in p)})")
+
+
 CHECKS = {
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
@@ -1005,6 +1064,7 @@ CHECKS = {
     "fixed-point": check_fixed_point,
     "case-coordinates": check_case_coordinates,
     "root-attributes": check_root_attributes,
+    "local-response": check_local_response,
 }
 
 if __name__ == "__main__":

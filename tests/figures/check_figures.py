@@ -68,6 +68,12 @@ class ArchiveData:
             self.regime_ci = f["ensemble/regime_fraction_ci95"][()] if self.regimes else None
             self.slope = f["response/slope"][()] if self.axes else None
             self.slope_stderr = f["response/slope_stderr"][()] if self.axes else None
+            fit = self.axes and "response/slope_chi2" in f
+            self.slope_chi2 = f["response/slope_chi2"][()] if fit else None
+            self.slope_dof = f["response/slope_dof"][()] if fit else None
+            self.slope_p = f["response/slope_p_value"][()] if fit else None
+            self.local_slope = f["response/local_slope"][()] if fit else None
+            self.local_slope_stderr = f["response/local_slope_stderr"][()] if fit else None
             self.snap_time = f["snapshot/time"][()] if "snapshot" in f else None
             self.snap_mean = f["snapshot/mean"][()] if "snapshot" in f else None
             self.snap_var = f["snapshot/variance"][()] if "snapshot" in f else None
@@ -212,7 +218,10 @@ def printed_close(printed, value):
 
 
 def printed_sig_close(printed, value, digits):
-    """A number printed with `digits` significant digits (%g) equals `value` rounded to them."""
+    """A number printed with `digits` significant digits (%g) equals `value` rounded to them
+    (a NaN prints as nan)."""
+    if printed == "nan" or not np.isfinite(value):
+        return printed == "nan" and np.isnan(value)
     return abs(float(printed) - value) <= 0.5 * 10.0 ** (1 - digits) * abs(value) * (1 + 1e-9)
 
 
@@ -529,6 +538,8 @@ def check_summary_table(archive, program):
             block = "regime"
         elif line.startswith("response slope"):
             block = "slope"
+        elif line.startswith("local slope"):
+            block = "local"
         elif line.startswith("beside each time mean"):
             block = "errors"
         elif line.startswith("snapshots of"):
@@ -589,12 +600,27 @@ def check_summary_table(archive, program):
             for cell, (k, time, mean, _, ci) in zip(cells[lead:], shown):
                 check_estimate(cell, mean, ci, f"table case {c} snapshot t={time:g}")
                 seen.add(("snapshot", c, k))
-        elif block == "slope" and columns and len(cells) == 4:
+        elif block == "slope" and columns and len(cells) in (4, 6) and cells[0] in arch.observables:
             a, o = arch.axes.index(cells[1]), arch.observables.index(cells[0])
             if not (printed_sig_close(cells[2], arch.slope[a, o], 4)
                     and printed_sig_close(cells[3], arch.slope_stderr[a, o], 2)):
                 fail(f"table slope {cells} differs from the archive")
+            if arch.slope_chi2 is not None:  # the test of one linear fit beside the slope
+                chi2, dof = cells[4].split("/") if len(cells) == 6 else ("", "")
+                if not (printed_sig_close(chi2, arch.slope_chi2[o], 3)
+                        and int(dof) == arch.slope_dof[o]
+                        and printed_sig_close(cells[5], arch.slope_p[o], 2)):
+                    fail(f"table slope {cells}: chi2/dof or p differs from the archive")
             seen.add(("slope", a, o))
+        elif block == "local" and columns and cells[0].isdigit():
+            c, lead = int(cells[0]), 1 + len(arch.axes)
+            for k, cell in enumerate(cells[lead:]):
+                a, o = divmod(k, len(arch.observables))
+                value, err = cell.split(" +- ")
+                if not (printed_sig_close(value, arch.local_slope[a, c, o], 4)
+                        and printed_sig_close(err, arch.local_slope_stderr[a, c, o], 2)):
+                    fail(f"table local slope case {c} {columns[lead + k]}: {cell} differs")
+                seen.add(("local", a, c, o))
     wanted = {("time", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("regime", c, n) for c in range(arch.cases) for n in arch.regimes}
     wanted |= {("errors", c, n) for c in range(arch.cases) for n in arch.observables}
@@ -602,6 +628,9 @@ def check_summary_table(archive, program):
                for o in range(len(arch.observables))}
     wanted |= {("snapshot", c, k) for c, rows in arch.snapshots_shown().items()
                for k, *_ in rows}
+    if arch.local_slope is not None:
+        wanted |= {("local", a, c, o) for a in range(len(arch.axes)) for c in range(arch.cases)
+                   for o in range(len(arch.observables))}
     if seen != wanted:
         fail(f"table lacks {sorted(wanted - seen)[:5]}")
     print(f"ok: summary table aligned and equal to the archive ({len(seen)} entries)")
