@@ -348,5 +348,70 @@ TEST(ResponseSlopes, NonFiniteCasesAreLeftOut) {
   EXPECT_NEAR(s[0].stderr_, std::sqrt(var), 1e-12);
 }
 
+// Exact: the second-order difference is exact for a quadratic at every interior point of an
+// uneven grid, and the one-sided ends are exact for a straight line (rounding only, 1e-12);
+// with even spacing the interior is (f_{i+1} - f_{i-1}) / 2h. The errors are the closed
+// forms: sqrt(a^2 s^2 + b^2 s^2 + c^2 s^2) inside, sqrt(2) s / h at an end.
+TEST(GradientAlong, ExactForQuadraticsInsideAndLinesAtTheEnds) {
+  const std::vector<double> x = {0.0, 0.5, 2.0, 2.25, 4.0};
+  std::vector<double> quad, line, se(x.size(), 0.1);
+  for (double v : x) {
+    quad.push_back(1.0 - 2.0 * v + 0.75 * v * v);
+    line.push_back(3.0 - 1.5 * v);
+  }
+  const std::vector<Slope> dq = gradient_along(x, quad, se);
+  for (std::size_t i = 1; i + 1 < x.size(); ++i) {
+    EXPECT_NEAR(dq[i].slope, -2.0 + 1.5 * x[i], 1e-12) << "point " << i;
+    const double h1 = x[i] - x[i - 1], h2 = x[i + 1] - x[i];
+    const double a = -h2 / (h1 * (h1 + h2)), b = (h2 - h1) / (h1 * h2), c = h1 / (h2 * (h1 + h2));
+    EXPECT_NEAR(dq[i].stderr_, 0.1 * std::sqrt(a * a + b * b + c * c), 1e-12) << "point " << i;
+  }
+  const std::vector<Slope> dl = gradient_along(x, line, se);
+  for (const Slope& d : dl) EXPECT_NEAR(d.slope, -1.5, 1e-12);
+  EXPECT_NEAR(dl[0].stderr_, std::sqrt(2.0) * 0.1 / 0.5, 1e-12);
+  EXPECT_NEAR(dl[4].stderr_, std::sqrt(2.0) * 0.1 / 1.75, 1e-12);
+
+  const std::vector<double> even = {1.0, 2.0, 3.0, 4.0};
+  const std::vector<double> y = {1.0, 4.0, 9.0, 16.0}, e(4, 1.0);
+  const std::vector<Slope> de = gradient_along(even, y, e);
+  EXPECT_EQ(de[1].slope, (9.0 - 1.0) / 2.0);
+  EXPECT_EQ(de[2].slope, (16.0 - 4.0) / 2.0);
+  EXPECT_TRUE(std::isnan(gradient_along({1.0}, {2.0}, {0.1})[0].slope));
+}
+
+// Exact: data on a plane have chi-square 0 (rounding) and p-value 1. A line with +d and -d
+// added alternately, equal errors: the weighted fit is then the ordinary one, so the
+// chi-square is the sum of the squared residuals of the simple regression (closed-form
+// operator above) over se^2. Its p-value is the upper tail of the chi-square distribution,
+// exp(-chi2 / 2) for 2 degrees of freedom (exact).
+TEST(LinearFitQuality, ChiSquareOfTheWeightedFitAndItsUpperTail) {
+  const auto x = grid();
+  std::vector<double> y, se;
+  for (std::size_t c = 0; c < x.size(); ++c) {
+    y.push_back(2.0 + 3.0 * x[c][0] - 0.5 * x[c][1]);
+    se.push_back(0.1 + 0.05 * c);
+  }
+  const FitQuality plane = linear_fit_quality(x, y, se);
+  EXPECT_NEAR(plane.chi2, 0.0, 1e-18);
+  EXPECT_NEAR(plane.p_value, 1.0, 1e-12);
+
+  const std::vector<std::vector<double>> line = {{0.0}, {1.0}, {2.0}, {3.0}};
+  const double d = 0.3, s = 0.2;
+  const std::vector<double> yl = {1.0 + d, 2.0 - d, 3.0 + d, 4.0 - d}, sl(4, s);
+  const std::vector<double> a = simple_operator({0.0, 1.0, 2.0, 3.0});
+  double slope = 0.0;
+  for (int c = 0; c < 4; ++c) slope += a[c] * yl[c];
+  const double intercept = (yl[0] + yl[1] + yl[2] + yl[3]) / 4.0 - slope * 1.5;
+  double chi2 = 0.0;
+  for (int c = 0; c < 4; ++c) {
+    const double r = (yl[c] - intercept - slope * c) / s;
+    chi2 += r * r;
+  }
+  const FitQuality q = linear_fit_quality(line, yl, sl);
+  EXPECT_EQ(q.dof, 2);
+  EXPECT_NEAR(q.chi2, chi2, 1e-12 * chi2);
+  EXPECT_NEAR(q.p_value, std::exp(-chi2 / 2.0), 1e-12);
+}
+
 }  // namespace
 }  // namespace chaosweep::stats
