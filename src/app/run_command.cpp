@@ -408,11 +408,19 @@ int finish_part(const parallel::Communicator& comm, const RunOptions& options,
   log_rate(comm, plan, work, range, std::chrono::duration<double>(integrated - start).count());
   if (comm.rank() == 0) {
     spdlog::info("part archive {} written in {:.2f} s", path, seconds_since(integrated));
+    // with the default names the parts are one shell pattern (when the path needs no quotes)
+    std::string parts = "PART...";
+    if (options.archive.empty()) {
+      const std::string first = default_part_path(spec.output.archive, PartChoice{1, range.count});
+      const std::size_t at = first.rfind(".part-1-of-");
+      if (at != std::string::npos && shell_word(first) == first) {
+        parts = first.substr(0, at) + ".part-*-of-" + first.substr(at + 11);
+      }
+    }
     spdlog::info("part {} of {} is complete; when all {} are, write the archive with: chaosweep "
-                 "merge {} PART... (the {} part archives, in any order)",
+                 "merge {} {}",
                  range.index, range.count, range.count,
-                 shell_word(options.archive.empty() ? spec.output.archive : "ARCHIVE"),
-                 range.count);
+                 shell_word(options.archive.empty() ? spec.output.archive : "ARCHIVE"), parts);
   }
   log_peak_memory(comm);
   return kExitComplete;
