@@ -76,6 +76,27 @@ with h5py.File(sys.argv[1], "r") as f:
     assert f["trajectory/state"].shape[1] == 24  # every stored member came through
 PY
 
+# With checkpoint.directory set, each part keeps its checkpoints in its own subdirectory:
+# both parts stopped, then resumed, each from its own.
+sed 's/^run: {batch_size: 8}/run: {batch_size: 8}\ncheckpoint: {directory: shared-ckpt}/' "$many" \
+  > shared.yaml
+for i in 1 2; do
+  CHAOSWEEP_TEST_ROUND_SECONDS=0.001 CHAOSWEEP_TEST_STOP=0:1 \
+    mpirun 1 run shared.yaml --part $i/2 --archive shared-$i.h5 --progress none > shared-$i.log 2>&1
+  expect_status 3 $? "part $i/2 with checkpoint.directory stopped" shared-$i.log
+done
+for i in 1 2; do
+  mpirun 1 run shared.yaml --part $i/2 --archive shared-$i.h5 --progress none --resume \
+    >> shared-$i.log 2>&1 || fail "part $i/2 with checkpoint.directory resumed"
+  grep -q "resuming from shared-ckpt/part-$i-of-2: [1-9]" shared-$i.log ||
+    fail "part $i/2 did not resume from its own subdirectory: $(grep resuming shared-$i.log)"
+done
+mpirun 1 merge shared-merged.h5 shared-2.h5 shared-1.h5 > shared-merge.log 2>&1 ||
+  fail "merge of the parts with checkpoint.directory"
+mpirun 2 run shared.yaml --archive shared-whole.h5 --progress none > shared-whole.log 2>&1 ||
+  fail "single run with checkpoint.directory"
+$check bitwise shared-whole.h5 shared-merged.h5 || fail "parts with checkpoint.directory differ"
+
 # Bad parts: one line naming the part, exit 2, no archive written.
 bad_merge() {  # bad_merge WHAT PATTERN PART...
   local what=$1 pattern=$2
