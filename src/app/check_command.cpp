@@ -214,7 +214,19 @@ void print_parameters(const spec::Spec& spec, const plan::Plan& plan) {
     } else {
       const bool given = std::any_of(spec.parameters_given.begin(), spec.parameters_given.end(),
                                      [&](const auto& g) { return g.first == p.name; });
-      text = value_text(spec.parameters.at(p.name)) + (given ? "" : " (default)");
+      const std::vector<double>& v = spec.parameters.at(p.name);
+      text = value_text(v);
+      if (p.shape == models::ParameterShape::matrix) {  // as its rows
+        const std::size_t side = static_cast<std::size_t>(std::lround(std::sqrt(v.size())));
+        text.clear();
+        for (std::size_t r = 0; side > 0 && r < side; ++r) {
+          text += (text.empty() ? "" : ", ") +
+                  value_text({v.begin() + static_cast<std::ptrdiff_t>(r * side),
+                              v.begin() + static_cast<std::ptrdiff_t>((r + 1) * side)});
+        }
+        text = "[" + text + "]";
+      }
+      text += given ? "" : " (default)";
     }
     std::printf("  %-14s %-*s  %s\n", label, width, p.name.c_str(), text.c_str());
     label = "";

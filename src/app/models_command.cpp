@@ -51,7 +51,11 @@ std::string allowed_text(const models::ParameterInfo& p) {
   } else {
     text = "any";
   }
-  if (p.default_value.size() > 1) {
+  if (p.shape == models::ParameterShape::matrix) {
+    text = "a square matrix (its rows), each entry " + text;
+  } else if (p.shape == models::ParameterShape::list) {
+    text = "one component per state variable, each " + text;
+  } else if (p.default_value.size() > 1) {
     text = std::to_string(p.default_value.size()) + " components, each " + text;
   }
   return p.integer ? "integer, " + text : text;
@@ -110,7 +114,18 @@ std::string model_section(const models::ModelInfo& info) {
                                            : "no (a vector)";
     const std::string schedule =
         p.structural || !scalar ? "no" : model->parameter_slot(p.name) >= 0 ? "yes" : "no";
-    text += "| `" + p.name + "` | " + value_text(p.default_value) + " | " + allowed_text(p) +
+    std::string shown = value_text(p.default_value);
+    if (p.shape == models::ParameterShape::matrix) {  // row by row
+      const std::size_t side = static_cast<std::size_t>(std::lround(std::sqrt(p.default_value.size())));
+      shown.clear();
+      for (std::size_t r = 0; r < side; ++r) {
+        const std::vector<double> row(p.default_value.begin() + static_cast<std::ptrdiff_t>(r * side),
+                                      p.default_value.begin() + static_cast<std::ptrdiff_t>((r + 1) * side));
+        shown += (shown.empty() ? "" : ", ") + value_text(row);
+      }
+      shown = "[" + shown + "]";
+    }
+    text += "| `" + p.name + "` | " + shown + " | " + allowed_text(p) +
             " | " + sweep + " | " + schedule + " | " + p.long_name + " |\n";
   }
   const auto& observables = model->observables();

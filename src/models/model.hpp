@@ -20,6 +20,10 @@ namespace chaosweep::models {
 /// Parameter values by name. Every parameter is a vector; scalars have length 1.
 using ParameterValues = std::map<std::string, std::vector<double>>;
 
+/// How many components a parameter has: as many as its default (fixed), any number from one
+/// (list), or a square matrix given as its rows and stored row by row (matrix).
+enum class ParameterShape { fixed, list, matrix };
+
 /// Description of one model parameter.
 struct ParameterInfo {
   std::string name;
@@ -29,6 +33,7 @@ struct ParameterInfo {
   bool integer = false;     // must hold an integer value (e.g. lorenz96 n)
   bool structural = false;  // changes the state dimension: may not be swept or scheduled
   std::string long_name;    // one line, for --help, archives and errors
+  ParameterShape shape = ParameterShape::fixed;
 };
 
 /// A named quantity computed from the state: the state variables first, then derived ones.

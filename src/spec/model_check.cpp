@@ -45,24 +45,50 @@ void check_component(const Field& where, const models::ParameterInfo& p, double 
 }
 
 /// A parameter value: one number for a scalar parameter, a list of the declared length for a
-/// vector one (e.g. forcing_direction, 3 components).
+/// vector one (e.g. forcing_direction, 3 components), a list of any length for a list-shaped
+/// one, and a list of equal rows, as many as their length, for a matrix (stored row by row).
 std::vector<double> read_parameter(const Field& f, const models::ParameterInfo& p) {
   const std::size_t n = p.default_value.size();
+  if (p.shape == models::ParameterShape::matrix) {
+    if (!f.is_list()) f.fail("`" + p.name + "` is a matrix; give its rows, e.g. [[-1, 0], [0, -2]]");
+    const auto rows = f.items();
+    std::vector<double> values;
+    for (std::size_t r = 0; r < rows.size(); ++r) {
+      if (!rows[r].is_list()) rows[r].fail("row " + std::to_string(r) + " of `" + p.name + "` is not a list of numbers");
+      const auto items = rows[r].items();
+      if (items.size() != rows.size()) {
+        rows[r].fail("`" + p.name + "` must be square: row " + std::to_string(r) + " has " +
+                     std::to_string(items.size()) + " numbers, and there are " +
+                     std::to_string(rows.size()) + " rows");
+      }
+      for (const auto& item : items) {
+        values.push_back(item.number());
+        check_component(item, p, values.back());
+      }
+    }
+    if (values.empty()) f.fail("`" + p.name + "` needs at least one row");
+    return values;
+  }
   if (!f.is_list()) {
-    if (n != 1) {
-      f.fail("`" + p.name + "` has " + std::to_string(n) + " components; give a list of " +
-             std::to_string(n) + " numbers, got " + f.kind());
+    if (n != 1 || p.shape == models::ParameterShape::list) {
+      f.fail("`" + p.name + "` has " +
+             (p.shape == models::ParameterShape::list ? std::string("several")
+                                                      : std::to_string(n)) +
+             " components; give a list of numbers, got " + f.kind());
     }
     const double v = f.number();
     check_component(f, p, v);
     return {v};
   }
-  if (n == 1) f.fail("`" + p.name + "` is a scalar parameter; give one number, not a list");
+  if (n == 1 && p.shape == models::ParameterShape::fixed) {
+    f.fail("`" + p.name + "` is a scalar parameter; give one number, not a list");
+  }
   const auto items = f.items();
-  if (items.size() != n) {
+  if (p.shape == models::ParameterShape::fixed && items.size() != n) {
     f.fail("`" + p.name + "` needs " + std::to_string(n) + " components, got " +
            std::to_string(items.size()));
   }
+  if (items.empty()) f.fail("`" + p.name + "` needs at least one component");
   std::vector<double> values;
   for (const auto& item : items) {
     values.push_back(item.number());
