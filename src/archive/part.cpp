@@ -5,6 +5,7 @@
 #include <filesystem>
 #include <stdexcept>
 
+#include "archive/identity.hpp"
 #include "archive/seal.hpp"
 #include "core/error.hpp"
 #include "core/version.hpp"
@@ -166,15 +167,7 @@ void write_part(const std::string& path, const spec::Spec& spec, const plan::Pla
     root.set_attribute("parts", static_cast<std::int64_t>(part.count));
     root.set_attribute("first_batch", part.first_batch);
     root.set_attribute("end_batch", part.end_batch);
-    root.set_attribute("campaign", spec.name);
-    root.set_attribute("model", spec.model);
-    root.set_attribute("tool_version", std::string(kToolVersion));
-    root.set_attribute("format_version", static_cast<std::int64_t>(kArchiveFormatVersion));
-    root.set_attribute("spec_yaml", spec.text);
-    root.set_attribute("spec_sha256", spec.sha256);
-    root.set_attribute("created_utc", info.created_utc);
-    root.set_attribute("ranks", static_cast<std::int64_t>(info.ranks));
-    root.set_attribute("status", info.status);
+    write_identity(root, spec, info);
 
     h5::Group merge = root.create_group("merge");
     merge.create_dataset("nodes", h5::ElementType::Float64, {nodes.size()}).write_from_rank0(nodes);

@@ -13,6 +13,7 @@
 #include <map>
 #include <stdexcept>
 
+#include "archive/identity.hpp"
 #include "archive/seal.hpp"
 #include "checkpoint/files.hpp"
 #include "core/error.hpp"
@@ -241,16 +242,8 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
                 const RunInfo& info) {
   h5::Group root = file.root();
   root.set_attribute("title", "chaosweep campaign " + spec.name);
-  root.set_attribute("campaign", spec.name);
   root.set_attribute("description", spec.description);
-  root.set_attribute("model", spec.model);
-  root.set_attribute("tool_version", std::string(kToolVersion));
-  root.set_attribute("format_version", static_cast<std::int64_t>(kArchiveFormatVersion));
-  root.set_attribute("spec_yaml", spec.text);
-  root.set_attribute("spec_sha256", spec.sha256);
-  root.set_attribute("created_utc", info.created_utc);
-  root.set_attribute("ranks", static_cast<std::int64_t>(info.ranks));
-  root.set_attribute("status", info.status);
+  write_identity(root, spec, info);
   if (info.parts > 0) root.set_attribute("parts", static_cast<std::int64_t>(info.parts));
   root.set_attribute("members_per_case", plan.members);
   root.set_attribute("dt", spec.integration.dt);
@@ -480,6 +473,18 @@ void write_groups(h5::File& file, const Sources& in) {
 }
 
 }  // namespace
+
+void write_identity(h5::Group& root, const spec::Spec& spec, const RunInfo& info) {
+  root.set_attribute("campaign", spec.name);
+  root.set_attribute("model", spec.model);
+  root.set_attribute("tool_version", std::string(kToolVersion));
+  root.set_attribute("format_version", static_cast<std::int64_t>(kArchiveFormatVersion));
+  root.set_attribute("spec_yaml", spec.text);
+  root.set_attribute("spec_sha256", spec.sha256);
+  root.set_attribute("created_utc", info.created_utc);
+  root.set_attribute("ranks", static_cast<std::int64_t>(info.ranks));
+  root.set_attribute("status", info.status);
+}
 
 void write_archive(const std::string& path, const spec::Spec& spec, const plan::Plan& plan,
                    const std::vector<run::BatchResult>& local,

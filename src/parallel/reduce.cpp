@@ -33,11 +33,15 @@ void store(const stats::EnsembleEstimate& est, const std::string& source, std::s
   }
 }
 
-/// Response slopes of every observable's ensemble time mean against the sweep axes.
+/// Response slopes of every observable's ensemble time mean against the sweep axes, and how
+/// well one linear fit describes the time means.
 void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) {
   const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
   r.slope.assign(n_axes * n_obs, NAN);
   r.slope_stderr.assign(n_axes * n_obs, NAN);
+  r.slope_chi2.assign(n_obs, NAN);
+  r.slope_dof.assign(n_obs, 0);
+  r.slope_p_value.assign(n_obs, NAN);
   if (n_axes == 0) return;
   std::vector<std::vector<double>> x(n_cases);
   for (std::size_t c = 0; c < n_cases; ++c) x[c] = plan.cases[c].axis_values;
@@ -52,6 +56,10 @@ void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) 
       r.slope[a * n_obs + o] = fits[a].slope;
       r.slope_stderr[a * n_obs + o] = fits[a].stderr_;
     }
+    const stats::FitQuality q = stats::linear_fit_quality(x, y, se);
+    r.slope_chi2[o] = q.chi2;
+    r.slope_dof[o] = q.dof;
+    r.slope_p_value[o] = q.p_value;
   }
 }
 
@@ -96,28 +104,11 @@ void local_slopes(const spec::Spec& spec, std::size_t n_cases, std::size_t width
   }
 }
 
-/// The local response along each axis (time means, regime fractions) and how well one linear
-/// fit describes the time means.
+/// The local response along each axis: time means, and regime fractions.
 void local_response(const spec::Spec& spec, const plan::Plan& plan, EnsembleResults& r) {
   const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
   const std::size_t n_regimes = plan.regime_labels.size();
-  r.slope_chi2.assign(n_obs, NAN);
-  r.slope_dof.assign(n_obs, 0);
-  r.slope_p_value.assign(n_obs, NAN);
   if (spec.sweep.empty()) return;
-  std::vector<std::vector<double>> x(n_cases);
-  for (std::size_t c = 0; c < n_cases; ++c) x[c] = plan.cases[c].axis_values;
-  for (std::size_t o = 0; o < n_obs; ++o) {
-    std::vector<double> y(n_cases), se(n_cases);
-    for (std::size_t c = 0; c < n_cases; ++c) {
-      y[c] = r.time_mean[c * n_obs + o];
-      se[c] = r.time_mean_stderr[c * n_obs + o];
-    }
-    const stats::FitQuality q = stats::linear_fit_quality(x, y, se);
-    r.slope_chi2[o] = q.chi2;
-    r.slope_dof[o] = q.dof;
-    r.slope_p_value[o] = q.p_value;
-  }
   local_slopes(spec, n_cases, n_obs, r.time_mean, r.time_mean_stderr, r.local_slope,
                r.local_slope_stderr);
   if (n_regimes == 0) return;
