@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cstring>
 #include <stdexcept>
+#include <string>
 #include <tuple>
 
 namespace chaosweep::app {
@@ -50,6 +51,38 @@ checkpoint::DoneIndex::Location decode(const std::int64_t* words) {
   return at;
 }
 
+/// A line of damage found in segment `segment` as sent to rank 0: the segment's number, its
+/// kind ('P' a problem, 'C' a record cut short) and the line, ended by a NUL.
+void add_report(std::string& out, std::size_t segment, char kind, const std::string& line) {
+  out += std::to_string(segment) + ' ' + kind + ' ' + line + '\0';
+}
+
+/// Every rank's reports on rank 0, into index.problems and index.cut_short in segment order
+/// (each segment's lines in the order found), as an index that reads every segment lists them;
+/// nothing on the other ranks.
+void gather_reports(const parallel::Communicator& comm, const std::string& mine,
+                    checkpoint::DoneIndex& index) {
+  struct Report {
+    std::size_t segment;
+    char kind;
+    std::string line;
+  };
+  std::vector<Report> all;
+  for (const std::string& text : comm.gather_on_root(mine)) {
+    for (std::size_t from = 0; from < text.size();) {
+      const std::size_t space = text.find(' ', from), end = text.find('\0', from);
+      all.push_back({std::stoul(text.substr(from, space - from)), text[space + 1],
+                     text.substr(space + 3, end - space - 3)});
+      from = end + 1;
+    }
+  }
+  std::stable_sort(all.begin(), all.end(),
+                   [](const Report& a, const Report& b) { return a.segment < b.segment; });
+  for (Report& r : all) {
+    (r.kind == 'C' ? index.cut_short : index.problems).push_back(std::move(r.line));
+  }
+}
+
 }  // namespace
 
 checkpoint::DoneIndex distributed_index(const parallel::Communicator& comm,
@@ -57,9 +90,17 @@ checkpoint::DoneIndex distributed_index(const parallel::Communicator& comm,
   // The segments this rank reads, indexed with every batch of the run.
   checkpoint::DoneIndex read;
   read.segments = store.segment_paths();
+  std::string reports;  // the damage found, for rank 0
   for (std::size_t k = static_cast<std::size_t>(comm.rank()); k < read.segments.size();
        k += static_cast<std::size_t>(comm.size())) {
+    const std::size_t problems = read.problems.size(), cut_short = read.cut_short.size();
     store.index_segment(read, k, run.first, run.last);
+    for (std::size_t i = problems; i < read.problems.size(); ++i) {
+      add_report(reports, k, 'P', read.problems[i]);
+    }
+    for (std::size_t i = cut_short; i < read.cut_short.size(); ++i) {
+      add_report(reports, k, 'C', read.cut_short[i]);
+    }
   }
   // Every entry to the owner of its batch.
   const std::int64_t n = run.last - run.first;
@@ -80,8 +121,7 @@ checkpoint::DoneIndex distributed_index(const parallel::Communicator& comm,
   checkpoint::DoneIndex index;
   index.segments = std::move(read.segments);
   for (checkpoint::DoneIndex::Location& at : mine) index.batches[at.entry.batch].push_back(std::move(at));
-  index.problems = std::move(read.problems);
-  index.cut_short = std::move(read.cut_short);
+  gather_reports(comm, reports, index);
   return index;
 }
 

@@ -15,9 +15,10 @@
 namespace chaosweep::app {
 
 /// The records of this rank's batches. `run` is the run's batches [first, last) (the whole
-/// campaign, or a part), shared among the ranks by plan::share. The damage found in the
-/// segments this rank read is in the result's problems and cut_short (each segment is read by
-/// one rank, so each is reported once). Collective.
+/// campaign, or a part), shared among the ranks by plan::share. The damage found in every
+/// segment is gathered on rank 0, in segment order, into its result's problems and cut_short
+/// (each segment is read by one rank, so each is reported once; rank 0 alone logs at info
+/// level); the other ranks' lists are empty. Collective.
 checkpoint::DoneIndex distributed_index(const parallel::Communicator& comm,
                                         const checkpoint::Store& store, plan::Range run);
 

@@ -286,19 +286,21 @@ std::int64_t members_before(const plan::Plan& plan, std::int64_t b) {
 }
 
 /// Restores checkpointed batches on every rank and applies --restart-from-scratch. The ranks
-/// share out the reading of the segments (app/resume_index.hpp); each reports the damage of
-/// those it read.
+/// share out the reading of the segments (app/resume_index.hpp); rank 0 reports the damage
+/// of them all, gathered there.
 std::int64_t restore(const parallel::Communicator& comm, const RunOptions& options,
                      const checkpoint::Store& store, LocalWork& work, plan::Range run) {
   const Clock::time_point start = Clock::now();
   checkpoint::DoneIndex index = distributed_index(comm, store, run);
   const double index_seconds = comm.max(seconds_since(start));
   const LocalWork::Restored r = work.restore(std::move(index));
-  for (const std::string& path : r.cut_short) {
-    spdlog::info("{}: its last record was cut short (a write interrupted); ignored", path);
-  }
-  for (const std::string& problem : r.segment_problems) {
-    spdlog::warn("{}; the batches there will be recomputed", problem);
+  if (comm.rank() == 0) {
+    for (const std::string& path : r.cut_short) {
+      spdlog::info("{}: its last record was cut short (a write interrupted); ignored", path);
+    }
+    for (const std::string& problem : r.segment_problems) {
+      spdlog::warn("{}; the batches there will be recomputed", problem);
+    }
   }
   const std::int64_t finished = comm.sum(r.finished), running = comm.sum(r.in_progress);
   const std::int64_t problems =

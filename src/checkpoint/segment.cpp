@@ -21,6 +21,11 @@ constexpr std::string_view kMagic = "CWSEGREC";
 constexpr std::size_t kDigestSize = 64;                       // SHA-256 as hex
 constexpr std::size_t kChecked = kSegmentHeaderSize - kDigestSize;  // under the header checksum
 constexpr std::size_t kSearchChunk = std::size_t{1} << 16;   // read at a time to resynchronise
+// A scan reads the next header ahead (with the records after it) only past a payload shorter
+// than this: the bytes of a few short records cost less than a system call each, but reading
+// ahead across long payloads (archived member rows) would read the whole segment to find its
+// headers.
+constexpr std::uint64_t kReadAheadBelow = 4096;
 
 [[noreturn]] void fail(const std::string& doing, const std::string& path, int error) {
   throw IoError(doing + " " + path + ": " + std::strerror(error));
@@ -45,9 +50,9 @@ std::string fixed_digest(const std::string& sha256) {
   return text;
 }
 
-/// A file open for reading at offsets; closed when destroyed.
 }  // namespace
 
+/// A file open for reading at offsets; closed when destroyed.
 class ReadFile {
  public:
   explicit ReadFile(const std::string& path)
@@ -65,10 +70,13 @@ class ReadFile {
   }
   /// Reads up to `n` bytes at `offset` into `out`; fewer only at the end of the file. Small
   /// reads are served from a window read ahead (records are read in file order, mostly), so
-  /// that a scan of many records makes a system call per window, not per record.
-  std::size_t read_at(std::uint64_t offset, std::size_t n, char* out) const {
-    if (n > kWindow / 4) return pread_all(offset, n, out);
-    if (offset < window_start_ || offset + n > window_start_ + window_.size()) {
+  /// that a scan of many records makes a system call per window, not per record; with `ahead`
+  /// false, a read outside the window goes to the file alone and leaves the window as it is.
+  std::size_t read_at(std::uint64_t offset, std::size_t n, char* out, bool ahead = true) const {
+    const bool in_window =
+        offset >= window_start_ && offset + n <= window_start_ + window_.size();
+    if (n > kWindow / 4 || (!ahead && !in_window)) return pread_all(offset, n, out);
+    if (!in_window) {
       window_.resize(kWindow);
       window_.resize(pread_all(offset, kWindow, window_.data()));
       window_start_ = offset;
@@ -173,6 +181,7 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
   std::int64_t other_spec = 0, other_version = 0;
   char header[kSegmentHeaderSize];
   std::uint64_t pos = 0;
+  bool ahead = true;  // read the next header with the records after it (kReadAheadBelow)
   while (pos < size) {
     const std::uint64_t left = size - pos;
     if (left < kSegmentHeaderSize) {
@@ -186,7 +195,7 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
       }
       break;
     }
-    file.read_at(pos, kSegmentHeaderSize, header);
+    file.read_at(pos, kSegmentHeaderSize, header, ahead);
     Header h;
     if (!parse_header(header, &h)) {
       const std::uint64_t next = next_record(file, pos + 1, size);
@@ -211,6 +220,7 @@ SegmentScan scan_segment(const std::string& path, const std::string& spec_sha256
     }
     pos += kSegmentHeaderSize + h.length;
     scan.sound_end = pos;
+    ahead = h.length < kReadAheadBelow;
   }
   if (other_spec > 0) {
     scan.problems.push_back(path + ": " + std::to_string(other_spec) +

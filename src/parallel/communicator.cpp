@@ -114,6 +114,31 @@ std::vector<std::int64_t> Communicator::exchange(
   return received;
 }
 
+std::vector<std::string> Communicator::gather_on_root(const std::string& local) const {
+  if (serial_) return {local};
+  if (local.size() > static_cast<std::size_t>(INT32_MAX)) {
+    throw IoError("MPI Gatherv: more than 2^31 bytes from one rank");
+  }
+  const int n = static_cast<int>(local.size());
+  std::vector<int> counts(rank_ == 0 ? size_ : 0), displs(counts.size());
+  check(MPI_Gather(&n, 1, MPI_INT, counts.data(), 1, MPI_INT, 0, MPI_COMM_WORLD), "Gather");
+  std::size_t total = 0;
+  for (std::size_t r = 0; r < counts.size(); ++r) {
+    displs[r] = static_cast<int>(total);
+    total += static_cast<std::size_t>(counts[r]);
+    if (total > static_cast<std::size_t>(INT32_MAX)) {
+      throw IoError("MPI Gatherv: more than 2^31 bytes to gather");
+    }
+  }
+  std::string all(total, '\0');
+  check(MPI_Gatherv(local.data(), n, MPI_CHAR, all.data(), counts.data(), displs.data(), MPI_CHAR,
+                    0, MPI_COMM_WORLD),
+        "Gatherv");
+  std::vector<std::string> texts;
+  for (std::size_t r = 0; r < counts.size(); ++r) texts.push_back(all.substr(displs[r], counts[r]));
+  return texts;
+}
+
 std::vector<double> Communicator::combine_in_rank_order(const std::vector<double>& local,
                                                         const Combine& combine) const {
   if (serial_ || size_ == 1 || local.empty()) return local;

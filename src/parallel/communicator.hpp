@@ -36,6 +36,9 @@ class Communicator {
   /// sent this one, concatenated in rank order.
   std::vector<std::int64_t> exchange(const std::vector<std::vector<std::int64_t>>& to_rank) const;
 
+  /// Every rank's `local` text on rank 0, in rank order; the other ranks get an empty list.
+  std::vector<std::string> gather_on_root(const std::string& local) const;
+
   /// right = left (+) right for two same-sized blocks, `left` from the lower ranks.
   using Combine = std::function<void(const double* left, double* right)>;
   /// Every rank's `local` block (the same size on every rank) combined in rank order,

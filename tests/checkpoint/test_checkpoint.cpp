@@ -239,6 +239,48 @@ TEST_F(StoreTest, FirstSoundRecordOfABatchIsUsed) {
   EXPECT_EQ(r->histogram, first.histogram);
 }
 
+// A segment of several read-ahead windows (1 MiB) whose payloads are short (headers read
+// ahead), of 12 KB (headers past them read alone) and longer than a quarter window (read
+// directly), with a damaged header far into the file and a last record cut short: every other
+// batch is indexed and read back exactly, whichever window boundary its header or payload
+// straddles.
+TEST_F(StoreTest, LargeSegmentIsReadExactlyAcrossReadAheadWindows) {
+  const Store store(dir_.string(), "abc", 0);
+  store.initialise("spec");
+  const auto result = [](std::int64_t b) {
+    run::BatchResult r = sample_result(b);
+    const std::int64_t values = b == 700 ? 40000 : b % 50 == 7 ? 1500 : 1 + b % 97;
+    r.trajectory.assign(static_cast<std::size_t>(values), 0.5 + static_cast<double>(b));
+    return r;
+  };
+  const std::int64_t n = 1500;
+  for (std::int64_t b = 0; b < n; ++b) store.save_done(result(b));
+  const fs::path file = segment(dir_, 0);
+  const std::vector<std::uint64_t> at = record_offsets(file);
+  ASSERT_EQ(at.size(), static_cast<std::size_t>(n));
+  ASSERT_GT(at[n - 1], std::uint64_t{2} << 20);
+  flip_bit(file, at[1200] + 20);                                // batch 1200's header
+  fs::resize_file(file, at[n - 1] + kSegmentHeaderSize + 5);  // the last batch cut short
+
+  const Store reader(dir_.string(), "abc", 1);
+  const DoneIndex index = reader.index_done(0, n);
+  ASSERT_EQ(index.problems.size(), 1u);
+  EXPECT_NE(index.problems[0].find("record header at byte " + std::to_string(at[1200])),
+            std::string::npos)
+      << index.problems[0];
+  EXPECT_EQ(index.cut_short.size(), 1u);
+  for (std::int64_t b = 0; b < n; ++b) {
+    std::string problem;
+    const auto r = reader.load_done(index, b, &problem);
+    ASSERT_EQ(r.has_value(), b != 1200 && b != n - 1) << "batch " << b << ": " << problem;
+    if (!r) continue;
+    const run::BatchResult want = result(b);
+    EXPECT_EQ(r->batch_index, b);
+    EXPECT_TRUE(same_bits(r->trajectory, want.trajectory)) << "batch " << b;
+    EXPECT_TRUE(same_bits(r->time_mean, want.time_mean)) << "batch " << b;
+  }
+}
+
 // Whatever bytes are flipped or wherever the segment is cut, a batch is either found with its
 // exact numbers or not found; the scan never fails.
 TEST_F(StoreTest, RandomDamageNeverGivesAWrongBatch) {

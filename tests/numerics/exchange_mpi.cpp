@@ -1,8 +1,11 @@
 // Communicator::exchange across real ranks: rank r sends rank d the values (r, d, k) for k
 // below (r + 2 d) mod 5 (some ranks nothing); every rank must receive exactly what each rank
-// meant for it, in rank order. Also plan::owner, the inverse of plan::share that tells where
-// an entry goes, on this rank count. Run at 1, 2, 3 and 4 ranks.
+// meant for it, in rank order. Communicator::gather_on_root: texts of different lengths (rank
+// 0's empty) arrive on rank 0 in rank order, and the other ranks receive none. Also
+// plan::owner, the inverse of plan::share that tells where an entry goes, on this rank count.
+// Run at 1, 2, 3 and 4 ranks.
 #include <cstdio>
+#include <string>
 #include <vector>
 
 #include "parallel/communicator.hpp"
@@ -26,6 +29,17 @@ int main(int argc, char** argv) {
   int failures = 0;
   if (comm.exchange(to_rank) != expected) {
     std::printf("rank %d: exchange did not deliver what each rank sent it\n", me);
+    ++failures;
+  }
+  const auto text = [](int rank) {
+    return rank == 0 ? std::string() : "rank " + std::to_string(rank) + std::string(rank * 7, '#');
+  };
+  const std::vector<std::string> gathered = comm.gather_on_root(text(me));
+  std::vector<std::string> texts;
+  for (int r = 0; me == 0 && r < size; ++r) texts.push_back(text(r));
+  if (gathered != texts) {
+    std::printf("rank %d: gather_on_root gave %zu texts, not every rank's on rank 0 in order\n",
+                me, gathered.size());
     ++failures;
   }
   // every item of n has one owner, whose share holds it
