@@ -45,4 +45,12 @@ double MemberNoise::gaussian(std::uint64_t i) const {
   return std::sqrt(-2.0 * std::log(u1)) * std::cos(kTwoPi * u2);
 }
 
+double wiener_increment(const MemberNoise& stream, std::int64_t step, int variables, int v,
+                        double sqrt_dt) {
+  const std::uint64_t draw =
+      static_cast<std::uint64_t>(step) * static_cast<std::uint64_t>(variables) +
+      static_cast<std::uint64_t>(v);
+  return sqrt_dt * stream.gaussian(draw);
+}
+
 }  // namespace chaosweep::run

@@ -17,7 +17,8 @@ class MemberNoise {
 
   /// Another stream of the same member: its key is the member's key mixed with `stream`
   /// (>= 1), so its draws are unrelated to the initial perturbation's (stream 0 above).
-  /// Streams: 1 the twin direction (run/twins.hpp).
+  /// Streams: 1 the twin direction (run/twins.hpp), 2 the Wiener increments of the
+  /// stochastic forcing (wiener_increment below).
   MemberNoise(std::uint64_t seed, std::int64_t case_index, std::int64_t member,
               std::uint64_t stream);
 
@@ -33,5 +34,12 @@ class MemberNoise {
  private:
   std::uint64_t key_;
 };
+
+/// The Wiener increment, N(0, dt), of noisy variable v (of `variables`) at step k of the
+/// stream: sqrt_dt times the stream's Gaussian draw k * variables + v. Keyed by the stream's
+/// (seed, case, member) and by (k, v) alone, so it is the same on any rank, in any batch and
+/// after any resume.
+double wiener_increment(const MemberNoise& stream, std::int64_t step, int variables, int v,
+                        double sqrt_dt);
 
 }  // namespace chaosweep::run

@@ -1,0 +1,55 @@
+// Stochastic steppers over a batch of members: Euler-Maruyama (Ito) and stochastic Heun
+// (Stratonovich). Pure numerics: the caller supplies the Wiener increments, so where they
+// come from (and their reproducibility) is decided above this layer.
+#pragma once
+
+#include <vector>
+
+#include "models/model.hpp"
+
+namespace chaosweep::integrators {
+
+/// How the noise enters the noisy variables i: additive, dx_i = f_i dt + A dW_i, or
+/// multiplicative, dx_i = f_i dt + A x_i dW_i.
+enum class NoiseForm { additive, multiplicative };
+
+/// The scheme. Without noise (no noisy variables, or A = 0) Euler-Maruyama is the forward
+/// Euler method and Heun the explicit trapezoidal rule.
+enum class SdeMethod {
+  /// x <- x + f(x) dt + g(x) dW. Strong order 1/2, weak order 1; Ito calculus.
+  euler_maruyama,
+  /// p = x + f(x) dt + g(x) dW; x <- x + (f(x) + f(p)) dt/2 + (g(x) + g(p)) dW/2.
+  /// Converges to the Stratonovich solution; weak order 2 for additive noise.
+  heun,
+};
+
+/// One stepper for batches of `width` members of one model (SoA layout, see model.hpp),
+/// with noise on `variables` (distinct state indices). Buffers are allocated once here; the
+/// steps do not allocate. Not thread-safe. The model must outlive the stepper.
+class SdeBatch {
+ public:
+  SdeBatch(const models::Model& model, int width, SdeMethod method, NoiseForm form,
+           std::vector<int> variables);
+
+  /// Advances x ([state_dim][width]) by one step dt in place, with amplitude A and the
+  /// Wiener increments dw ([variables.size()][width], each N(0, dt)).
+  void step(double* x, double dt, double amplitude, const double* dw);
+
+  int width() const { return width_; }
+  SdeMethod method() const { return method_; }
+
+ private:
+  /// g(x) dW added to out on the noisy rows: A dW, or A x dW.
+  void add_noise(const double* x, double amplitude, const double* dw, double scale,
+                 double* out) const;
+
+  const models::Model& model_;
+  int width_;
+  long size_;  // state_dim * width
+  SdeMethod method_;
+  NoiseForm form_;
+  std::vector<int> variables_;
+  std::vector<double> f0_, f1_, predictor_;  // each [state_dim][width]
+};
+
+}  // namespace chaosweep::integrators

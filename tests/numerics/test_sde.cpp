@@ -1,0 +1,225 @@
+// The stochastic steppers (Euler-Maruyama, Heun) driven by the keyed Wiener increments:
+// measured weak and strong orders against the exact solutions of geometric Brownian motion
+// and the Ornstein-Uhlenbeck process, and the increments' own distribution.
+//
+// Every path of a test follows one Brownian path, drawn at the finest step; a coarser step's
+// increment is the sum of its fine ones. The difference of the means at successive steps then
+// cancels most of the sampling error, and the ratio of successive differences measures the
+// order p (it tends to 2^p).
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <vector>
+
+#include "integrators/sde.hpp"
+#include "run/member_noise.hpp"
+
+namespace chaosweep::testing {
+namespace {
+
+using integrators::NoiseForm;
+using integrators::SdeBatch;
+using integrators::SdeMethod;
+
+/// The scalar linear drift dx/dt = mu x (mu < 0 gives geometric Brownian motion with
+/// multiplicative noise, the Ornstein-Uhlenbeck process with additive noise).
+class Scalar final : public models::Model {
+ public:
+  explicit Scalar(double mu) : mu_(mu) {}
+  int state_dim() const override { return 1; }
+  const std::vector<models::ObservableInfo>& observables() const override { return obs_; }
+  void rhs(const double* x, double* dxdt, int width) const override {
+    for (int m = 0; m < width; ++m) dxdt[m] = mu_ * x[m];
+  }
+  double max_stable_dt() const override { return 1.0; }
+  std::vector<double> default_initial_state() const override { return {1.0}; }
+
+ private:
+  double mu_;
+  std::vector<models::ObservableInfo> obs_ = {{"x", "state"}};
+};
+
+constexpr int kPaths = 100000;
+constexpr int kFinest = 64;  // fine steps to T = 1
+constexpr double kT = 1.0;
+
+/// Path m's fine increment k, N(0, T / kFinest), keyed like a member's forcing noise; drawn
+/// once for all the tests ([k][m]).
+double fine_increment(int m, int k) {
+  static const std::vector<double> drawn = [] {
+    std::vector<double> d(static_cast<std::size_t>(kFinest) * kPaths);
+    for (int p = 0; p < kPaths; ++p) {
+      const run::MemberNoise stream(2026, 0, p, 2);
+      for (int j = 0; j < kFinest; ++j)
+        d[static_cast<std::size_t>(j) * kPaths + p] =
+            run::wiener_increment(stream, j, 1, 0, std::sqrt(kT / kFinest));
+    }
+    return d;
+  }();
+  return drawn[static_cast<std::size_t>(k) * kPaths + m];
+}
+
+struct Paths {
+  std::vector<double> x;  // the end states, X(T) of every path
+  std::vector<double> w;  // W(T) of every path
+};
+
+/// Every path from x0 to T in `steps` steps (a divisor of kFinest) of the given scheme.
+Paths integrate(double mu, double sigma, SdeMethod method, NoiseForm form, int steps,
+                double x0 = 1.0) {
+  const Scalar model(mu);
+  SdeBatch stepper(model, kPaths, method, form, {0});
+  Paths out{std::vector<double>(kPaths, x0), std::vector<double>(kPaths, 0.0)};
+  std::vector<double> dw(kPaths);
+  const int per = kFinest / steps;
+  for (int k = 0; k < steps; ++k) {
+    for (int m = 0; m < kPaths; ++m) {
+      double sum = 0.0;
+      for (int j = 0; j < per; ++j) sum += fine_increment(m, k * per + j);
+      dw[m] = sum;
+      out.w[m] += sum;
+    }
+    stepper.step(out.x.data(), kT / steps, sigma, dw.data());
+  }
+  return out;
+}
+
+double mean(const std::vector<double>& v) {
+  double s = 0.0;
+  for (const double a : v) s += a;
+  return s / static_cast<double>(v.size());
+}
+
+template <class F>
+double mean_of(const Paths& p, F f) {
+  double s = 0.0;
+  for (int m = 0; m < kPaths; ++m) s += f(p.x[m], p.w[m]);
+  return s / kPaths;
+}
+
+/// Observed order from three estimates at steps h, h/2, h/4: log2 of the ratio of the
+/// successive differences.
+double order(double at_h, double at_half, double at_quarter) {
+  return std::log2((at_h - at_half) / (at_half - at_quarter));
+}
+
+// Exact: the Ito solution of dX = mu X dt + sigma X dW has mean X0 exp(mu t); Euler-Maruyama
+// converges to it with weak order 1 (Gardiner, Handbook of Stochastic Methods, ch. 4 for the
+// solution; Kloeden & Platen 1992, ch. 14 for the order).
+TEST(Sde, EulerMaruyamaHasWeakOrderOneOnGeometricBrownianMotion) {
+  const double mu = -1.0, sigma = 0.5;
+  std::vector<double> m;
+  for (const int steps : {8, 16, 32, 64}) {
+    m.push_back(mean(integrate(mu, sigma, SdeMethod::euler_maruyama, NoiseForm::multiplicative,
+                               steps).x));
+  }
+  EXPECT_NEAR(order(m[0], m[1], m[2]), 1.0, 0.15);
+  EXPECT_NEAR(order(m[1], m[2], m[3]), 1.0, 0.25);
+  // Richardson extrapolation of the two finest means against the Ito mean; the sampling
+  // error of the mean is about sd / sqrt(paths) = 4e-4.
+  EXPECT_NEAR(2.0 * m[3] - m[2], std::exp(mu * kT), 2e-3);
+  EXPECT_GT(std::abs(m[0] - std::exp(mu * kT)), 1e-2);  // the error measured is the scheme's
+}
+
+// Exact: the Stratonovich solution of the same equation has mean X0 exp((mu + sigma^2/2) t)
+// (Gardiner, ch. 4, the Ito-Stratonovich drift correction); the Heun scheme converges to it.
+TEST(Sde, HeunConvergesToTheStratonovichMeanOfGeometricBrownianMotion) {
+  const double mu = -1.0, sigma = 0.5;
+  std::vector<double> m;
+  for (const int steps : {8, 16, 32, 64}) {
+    m.push_back(
+        mean(integrate(mu, sigma, SdeMethod::heun, NoiseForm::multiplicative, steps).x));
+  }
+  const double stratonovich = std::exp((mu + 0.5 * sigma * sigma) * kT);
+  EXPECT_NEAR(order(m[1], m[2], m[3]), 1.0, 0.25);
+  // Richardson extrapolation; the sampling error of the mean is about 7e-4.
+  EXPECT_NEAR(2.0 * m[3] - m[2], stratonovich, 3e-3);
+  EXPECT_GT(std::abs(m[3] - std::exp(mu * kT)), 0.03);  // not the Ito mean, 0.049 away
+}
+
+// Exact: dX = -theta X dt + sigma dW from X0 has E X(t)^2 = X0^2 e^{-2 theta t} +
+// sigma^2 / (2 theta) (1 - e^{-2 theta t}) (Gardiner, ch. 4, the Ornstein-Uhlenbeck process).
+// Heun with additive noise has weak order 2, Euler-Maruyama weak order 1 (Kloeden & Platen).
+// The steps are chosen where each scheme's error is already in its asymptotic regime.
+TEST(Sde, HeunHasWeakOrderTwoForAdditiveNoise) {
+  auto exact = [](double theta, double sigma) {
+    return std::exp(-2.0 * theta * kT) +
+           sigma * sigma / (2.0 * theta) * (1.0 - std::exp(-2.0 * theta * kT));
+  };
+  auto second_moment = [&](double theta, SdeMethod method, int steps) {
+    return mean_of(integrate(-theta, 1.0, method, NoiseForm::additive, steps),
+                   [](double x, double) { return x * x; });
+  };
+  std::vector<double> heun, em;
+  for (const int steps : {4, 8, 16}) heun.push_back(second_moment(2.0, SdeMethod::heun, steps));
+  for (const int steps : {16, 32, 64})
+    em.push_back(second_moment(1.0, SdeMethod::euler_maruyama, steps));
+  EXPECT_NEAR(order(heun[0], heun[1], heun[2]), 2.0, 0.3);
+  EXPECT_NEAR(order(em[0], em[1], em[2]), 1.0, 0.2);
+  // Richardson extrapolation against the exact moment; the sampling error is about 3e-3.
+  EXPECT_NEAR((4.0 * heun[2] - heun[1]) / 3.0, exact(2.0, 1.0), 1e-2);
+  EXPECT_NEAR(2.0 * em[2] - em[1], exact(1.0, 1.0), 1e-2);
+}
+
+// Exact pathwise solutions along the same Brownian path W: Ito X0 exp((mu - sigma^2/2) t +
+// sigma W(t)), Stratonovich X0 exp(mu t + sigma W(t)) (Gardiner, ch. 4). Strong orders:
+// Euler-Maruyama 1/2, Heun 1 for one noise (Kloeden & Platen 1992, ch. 10).
+TEST(Sde, StrongOrdersOnGeometricBrownianMotion) {
+  const double mu = -0.5, sigma = 1.0;
+  auto strong_error = [&](SdeMethod method, int steps) {
+    const double drift = method == SdeMethod::heun ? mu : mu - 0.5 * sigma * sigma;
+    return mean_of(integrate(mu, sigma, method, NoiseForm::multiplicative, steps),
+                   [&](double x, double w) { return std::abs(x - std::exp(drift * kT + sigma * w)); });
+  };
+  const double em16 = strong_error(SdeMethod::euler_maruyama, 16);
+  const double em64 = strong_error(SdeMethod::euler_maruyama, 64);
+  const double heun16 = strong_error(SdeMethod::heun, 16);
+  const double heun64 = strong_error(SdeMethod::heun, 64);
+  EXPECT_NEAR(0.5 * std::log2(em16 / em64), 0.5, 0.15);
+  EXPECT_NEAR(0.5 * std::log2(heun16 / heun64), 1.0, 0.15);
+}
+
+// Exact identity of the schemes without noise: on dx/dt = mu x, forward Euler multiplies by
+// (1 + mu h) per step and the trapezoid predictor-corrector by 1 + mu h + (mu h)^2 / 2.
+TEST(Sde, WithoutNoiseTheSchemesAreEulerAndTheTrapezoidRule) {
+  const Scalar model(-0.7);
+  const double h = 0.1;
+  for (const SdeMethod method : {SdeMethod::euler_maruyama, SdeMethod::heun}) {
+    SdeBatch stepper(model, 3, method, NoiseForm::additive, {0});
+    std::vector<double> x = {1.0, -2.0, 0.5};
+    const std::vector<double> dw(3, 0.0);
+    for (int k = 0; k < 10; ++k) stepper.step(x.data(), h, 0.3, dw.data());
+    const double a = -0.7 * h;
+    const double factor = method == SdeMethod::heun ? 1.0 + a + 0.5 * a * a : 1.0 + a;
+    EXPECT_NEAR(x[0], std::pow(factor, 10), 1e-14);
+    EXPECT_NEAR(x[1], -2.0 * std::pow(factor, 10), 1e-14);
+  }
+}
+
+// The increments are N(0, dt): mean, variance and fourth moment (3 dt^2) within four standard
+// errors, and a pure function of the key (seed, case, member, step, variable).
+TEST(Sde, WienerIncrementsAreGaussianAndKeyed) {
+  const run::MemberNoise stream(7, 3, 11, 2);
+  const int n = 400000;
+  const double dt = 0.01;
+  double s1 = 0.0, s2 = 0.0, s4 = 0.0;
+  for (int k = 0; k < n; ++k) {
+    const double d = run::wiener_increment(stream, k / 2, 2, k % 2, std::sqrt(dt));
+    s1 += d;
+    s2 += d * d;
+    s4 += d * d * d * d;
+  }
+  EXPECT_NEAR(s1 / n, 0.0, 4.0 * std::sqrt(dt / n));
+  EXPECT_NEAR(s2 / n, dt, 4.0 * std::sqrt(2.0 / n) * dt);
+  EXPECT_NEAR(s4 / n, 3.0 * dt * dt, 4.0 * std::sqrt(96.0 / n) * dt * dt);
+  const run::MemberNoise again(7, 3, 11, 2), other_member(7, 3, 12, 2);
+  EXPECT_EQ(run::wiener_increment(stream, 5, 2, 1, 0.1),
+            run::wiener_increment(again, 5, 2, 1, 0.1));
+  EXPECT_NE(run::wiener_increment(stream, 5, 2, 1, 0.1),
+            run::wiener_increment(other_member, 5, 2, 1, 0.1));
+  EXPECT_NE(run::wiener_increment(stream, 5, 2, 1, 0.1),
+            run::wiener_increment(stream, 5, 2, 0, 0.1));
+}
+
+}  // namespace
+}  // namespace chaosweep::testing
