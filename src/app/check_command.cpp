@@ -3,6 +3,7 @@
 #include <charconv>
 #include <chrono>
 #include <cmath>
+#include <memory>
 #include <cstdio>
 #include <string>
 #include <vector>
@@ -260,6 +261,24 @@ double check_spinups(const spec::Spec& spec, const plan::Plan& plan) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
+/// The integration method, and the noise when there is some.
+void print_method_and_noise(const spec::Spec& spec, const plan::Plan& plan) {
+  const std::string& method = spec.integration.method;
+  const char* sense = method == "euler-maruyama" ? " (Ito)" : method == "heun" ? " (Stratonovich)" : "";
+  std::printf("  method         %s%s\n", method.c_str(), spec.noise.form == spec::NoiseForm::none ? "" : sense);
+  if (spec.noise.form == spec::NoiseForm::none) return;
+  const std::unique_ptr<models::Model> model = plan.model->make(spec.parameters);
+  std::string variables;
+  for (const int v : spec.noise.variables) {
+    variables += (variables.empty() ? "" : ", ") + model->observables()[v].name;
+  }
+  std::printf("  noise          %s, amplitude %g, on %s (%s)\n",
+              spec.noise.form == spec::NoiseForm::additive ? "additive" : "multiplicative",
+              spec.noise.amplitude, variables.c_str(),
+              spec.noise.shared ? "one realisation shared by the members of a case"
+                                : "a realisation per member");
+}
+
 }  // namespace
 
 int check_command(const CheckOptions& options) {
@@ -297,6 +316,7 @@ int check_command(const CheckOptions& options) {
   std::printf("  steps          %lld spin-up + %lld accumulated per member (dt %g)\n",
               static_cast<long long>(plan.spinup_steps),
               static_cast<long long>(plan.accumulate_steps), spec.integration.dt);
+  print_method_and_noise(spec, plan);
   std::printf("  member-steps   %.3g\n", member_steps);
   std::printf("  batches        %lld of %d members; at most %.0f per rank on %d ranks\n",
               static_cast<long long>(n_batches), plan.batch_size, share, options.ranks);

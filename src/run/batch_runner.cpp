@@ -107,6 +107,10 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   }
   s.snapshot_every = plan.snapshot_every_steps;
   s.snapshot_count = plan.snapshot_count;
+  s.method = spec.integration.method;
+  s.noise = spec.noise;
+  s.seed = spec.ensemble.seed;
+  s.case_index = c.index;
   s.kernel = choose_kernel(s);
   s.twins.times = plan.twins;
   s.twins.scale = spec.statistics.twins.scale;

@@ -46,7 +46,8 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   if (setup.snapshot_count > 0) snapshots_.emplace(setup, model, batch.count);
   kernel_ = make_kernel(setup, model,
                         {&moments_, regimes_ ? &*regimes_ : nullptr,
-                         histogram_ ? &*histogram_ : nullptr, &extremes_});
+                         histogram_ ? &*histogram_ : nullptr, &extremes_},
+                        {batch.first_member, batch.count});
   if (setup.twins.enabled()) {
     twins_.emplace(setup.twins, setup.state_dim, w, batch.case_index, batch.first_member,
                    batch.count, make_kernel(setup, model, {&moments_, nullptr, nullptr}));

@@ -47,6 +47,10 @@ struct Setup {
   std::optional<spec::Schedule> schedule;  // a time-dependent parameter (generic kernel only)
   double schedule_offset = 0.0;            // the case's swept value of that parameter, or 0
   std::int64_t snapshot_every = 0, snapshot_count = 0;  // 0: no snapshots
+  std::string method = "rk4";  // integration.method
+  spec::Noise noise;           // form none: no noise
+  std::uint64_t seed = 0;      // ensemble.seed, keys the noise
+  std::int64_t case_index = 0;
 };
 
 /// One batch from its initial states to its BatchResult, advanced in chunks of any size.

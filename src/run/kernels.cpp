@@ -10,9 +10,11 @@
 #include "integrators/lanes.hpp"
 #include "integrators/rk4.hpp"
 #include "integrators/rk4_ring.hpp"
+#include "integrators/sde.hpp"
 #include "models/lorenz96_equations.hpp"
 #include "run/batch_work.hpp"
 #include "run/fused_kernel.hpp"
+#include "run/member_noise.hpp"
 #include "run/ring_kernel.hpp"
 #include "run/schedule.hpp"
 
@@ -146,6 +148,63 @@ class RingStepper final : public Stepper {
   std::vector<integrators::Lanes> scratch_;
 };
 
+/// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise. The Wiener increment
+/// of noisy variable i at step n of member m is keyed by (seed, case, m, n, i) (run/member_noise.hpp);
+/// with a shared realisation the member is left out (every member draws member -1's stream).
+/// The step index comes from set_step, so chunks and resumes draw the same increments.
+class StochasticStepper final : public Stepper {
+ public:
+  StochasticStepper(const models::Model& model, const Setup& s, KernelMembers members)
+      : sde_(model, s.width,
+             s.method == "heun" ? integrators::SdeMethod::heun
+                                : integrators::SdeMethod::euler_maruyama,
+             s.noise.form == spec::NoiseForm::multiplicative ? integrators::NoiseForm::multiplicative
+                                                             : integrators::NoiseForm::additive,
+             s.noise.form == spec::NoiseForm::none ? std::vector<int>{} : s.noise.variables),
+        variables_(s.noise.form == spec::NoiseForm::none ? std::vector<int>{} : s.noise.variables),
+        state_dim_(s.state_dim),
+        width_(s.width),
+        dt_(s.dt),
+        sqrt_dt_(std::sqrt(s.dt)),
+        amplitude_(s.noise.amplitude),
+        shared_(s.noise.shared),
+        dw_(variables_.size() * static_cast<std::size_t>(s.width)) {
+    const int streams = shared_ ? 1 : s.width;
+    for (int m = 0; m < streams; ++m) {
+      const std::int64_t member = shared_ ? -1 : members.first + std::min(m, members.count - 1);
+      streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
+    }
+  }
+  void set_step(std::int64_t step) override { step_ = step; }
+  void step(double* x) override {
+    const int w = width_;
+    for (std::size_t r = 0; r < variables_.size(); ++r) {
+      double* row = dw_.data() + r * static_cast<std::size_t>(w);
+      if (shared_) {
+        const double d = wiener_increment(streams_[0], step_, state_dim_, variables_[r], sqrt_dt_);
+        std::fill(row, row + w, d);
+      } else {
+        for (int m = 0; m < w; ++m) {
+          row[m] = wiener_increment(streams_[m], step_, state_dim_, variables_[r], sqrt_dt_);
+        }
+      }
+    }
+    sde_.step(x, dt_, amplitude_, dw_.data());
+    ++step_;
+  }
+
+ private:
+  static constexpr std::uint64_t kForcingStream = 2;
+  integrators::SdeBatch sde_;
+  std::vector<int> variables_;
+  int state_dim_, width_;
+  double dt_, sqrt_dt_, amplitude_;
+  bool shared_;
+  std::vector<MemberNoise> streams_;
+  std::vector<double> dw_;  // [variables][width]
+  std::int64_t step_ = 0;
+};
+
 /// A stepper followed, in accumulate(), by the generic per-step feed.
 class SteppedKernel final : public Kernel {
  public:
@@ -173,7 +232,7 @@ bool is_state(const Setup& s, int observable) { return observable < s.state_dim;
 }  // namespace
 
 KernelKind choose_kernel(const Setup& s) {
-  if (s.schedule) return KernelKind::generic;
+  if (s.schedule || s.method != "rk4") return KernelKind::generic;
   if (s.width % integrators::kLanes != 0) return KernelKind::generic;
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
@@ -202,7 +261,7 @@ void flag_non_finite_columns(double* x, int dim, int width, const std::vector<do
 }
 
 std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
-                                    const Accumulators& acc) {
+                                    const Accumulators& acc, KernelMembers members) {
   switch (s.kernel) {
     case KernelKind::fused:
       return make_fused_lorenz63_kernel(s, acc);
@@ -210,6 +269,10 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
       return make_ring_kernel(s, acc);
     case KernelKind::generic:
       break;
+  }
+  if (s.method != "rk4") {
+    return std::make_unique<SteppedKernel>(
+        std::make_unique<StochasticStepper>(model, s, members), s, model, acc);
   }
   if (s.schedule) {  // derived observables from the scheduled copy, as of the step's end
     auto stepper = std::make_unique<ScheduledStepper>(s);

@@ -72,7 +72,13 @@ constexpr int kMaxSegment = 32;
 void flag_non_finite_columns(double* x, int dim, int width, const std::vector<double>& base,
                              std::vector<std::uint8_t>& flags);
 
+/// The members of the batch a kernel integrates, for kernels whose noise is keyed by member.
+struct KernelMembers {
+  std::int64_t first = 0;
+  int count = 1;  // columns count .. width-1 are padding: they draw the first member's noise
+};
+
 std::unique_ptr<Kernel> make_kernel(const Setup& setup, const models::Model& model,
-                                    const Accumulators& acc);
+                                    const Accumulators& acc, KernelMembers members = {});
 
 }  // namespace chaosweep::run

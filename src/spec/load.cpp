@@ -164,7 +164,7 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
   const Field top_field(&source_name, root, "", location_of(root, Location{1, 1}));
   if (!root.IsMap()) top_field.fail("the top level must be a map of sections, got " + top_field.kind());
   const Map top(top_field, {{"campaign", "model", "sweep", "ensemble", "integration",
-                             "statistics", "output", "checkpoint", "run", "schedule"},
+                             "statistics", "output", "checkpoint", "run", "schedule", "noise"},
                             {}, "key", ""});
   read_campaign(top.required("campaign"), spec);
   ModelFacts facts = read_model(top.required("model"), spec);
@@ -175,11 +175,13 @@ Spec parse_spec(const std::string& text, const std::string& source_name) {
   if (top.has("schedule")) read_schedule(top.get("schedule"), top.required("model"), facts, spec);
   read_integration(top.required("integration"), facts, spec);
   read_ensemble(top.required("ensemble"), facts, spec);
+  if (top.has("noise")) read_noise(top.get("noise"), facts, spec);
   if (top.has("statistics")) read_statistics(top.get("statistics"), facts, spec);
   if (spec.statistics.observables.empty()) spec.statistics.observables = facts.observables;
   read_output(top.required("output"), spec);
   if (top.has("checkpoint")) read_checkpoint(top.get("checkpoint"), spec);
   if (top.has("run")) read_run(top.get("run"), spec);
+  check_method_features(spec);
   return spec;
 }
 

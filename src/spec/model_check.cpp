@@ -305,11 +305,16 @@ void read_sweep(const Field& sweep, ModelFacts& facts, Spec& spec) {
 
 void check_stable_dt(const Field& dt, const ModelFacts& facts, const Spec& spec) {
   const double value = spec.integration.dt;
-  if (value > facts.max_dt) {
+  // The models estimate RK4's limit, 2.785 / |largest eigenvalue| on the negative real axis;
+  // forward Euler (euler-maruyama) and Heun are stable there up to 2 / |eigenvalue|.
+  const bool rk4 = spec.integration.method == "rk4";
+  const double max_dt = rk4 ? facts.max_dt : facts.max_dt * (2.0 / 2.785);
+  if (value > max_dt) {
     char limit[32];  // the model's estimate is rough: three significant digits
-    std::snprintf(limit, sizeof limit, "%.3g", facts.max_dt);
-    dt.fail(format_number(value) + " is outside RK4's stable range for " + spec.model +
-            " (at most about " + limit + facts.max_dt_where + ")");
+    std::snprintf(limit, sizeof limit, "%.3g", max_dt);
+    dt.fail(format_number(value) + " is outside " + (rk4 ? "RK4" : spec.integration.method) +
+            "'s stable range for " + spec.model + " (at most about " + limit +
+            facts.max_dt_where + ")");
   }
 }
 

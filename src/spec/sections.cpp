@@ -181,7 +181,11 @@ void read_campaign(const Field& campaign, Spec& spec) {
 void read_integration(const Field& integration, const ModelFacts& facts, Spec& spec) {
   const Map map(integration, {{"method", "dt", "spinup", "duration"}, {}, "key", ""});
   Integration& out = spec.integration;
-  if (map.has("method")) out.method = map.get("method").choice({"rk4"}, "method");
+  if (map.has("method")) {
+    const Field method = map.get("method");
+    out.method = method.choice({"rk4", "euler-maruyama", "heun"}, "method");
+    out.method_where = method.where();
+  }
   const Field dt = map.required("dt");
   out.dt = dt.number_above(0.0);
   out.dt_where = dt.where();
@@ -200,6 +204,53 @@ void read_integration(const Field& integration, const ModelFacts& facts, Spec& s
   if ((out.spinup + out.duration) / out.dt > kMaxSteps) {
     duration.fail("spinup + duration is more than 2^53 steps of dt");
   }
+}
+
+void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
+  const Map map(noise, {{"form", "amplitude", "variables", "realisation"}, {}, "key", ""});
+  Noise& out = spec.noise;
+  out.where = noise.where();
+  const Field form = map.required("form");
+  out.form = form.choice({"additive", "multiplicative"}, "form") == "additive"
+                 ? NoiseForm::additive
+                 : NoiseForm::multiplicative;
+  out.amplitude = map.required("amplitude").number_at_least(0.0);
+  if (map.has("variables")) {
+    const Field variables = map.get("variables");
+    const std::vector<std::string> state(facts.observables.begin(),
+                                         facts.observables.begin() + facts.state_dim);
+    for (const Field& v : variables.items()) {
+      const std::string name = v.choice(state, "state variable");
+      const int index = static_cast<int>(std::find(state.begin(), state.end(), name) - state.begin());
+      if (std::find(out.variables.begin(), out.variables.end(), index) != out.variables.end()) {
+        v.fail(name + " is listed twice");
+      }
+      out.variables.push_back(index);
+    }
+    if (out.variables.empty()) variables.fail("must list at least one state variable");
+    std::sort(out.variables.begin(), out.variables.end());
+  } else {
+    for (int i = 0; i < facts.state_dim; ++i) out.variables.push_back(i);
+  }
+  if (map.has("realisation")) {
+    out.shared = map.get("realisation").choice({"per-member", "shared"}, "realisation") == "shared";
+  }
+  if (spec.integration.method == "rk4") {
+    form.fail("RK4 takes no noise; set integration.method to euler-maruyama (Ito) or heun "
+              "(Stratonovich)");
+  }
+}
+
+void check_method_features(const Spec& spec) {
+  const std::string& method = spec.integration.method;
+  if (method == "rk4") return;
+  const auto refuse = [&](const std::string& what) {
+    fail_at(spec.source_path, spec.integration.method_where, "integration.method",
+            method + " does not run " + what + " yet; use rk4 without noise for it");
+  };
+  if (spec.statistics.lyapunov.enabled) refuse("statistics.lyapunov");
+  if (spec.statistics.twins.enabled) refuse("statistics.twins");
+  if (spec.schedule.kind != ScheduleKind::none) refuse("a schedule");
 }
 
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {

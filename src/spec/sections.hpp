@@ -37,6 +37,10 @@ void check_stable_dt(const Field& dt, const ModelFacts& facts, const Spec& spec)
 void read_campaign(const Field& campaign, Spec& spec);
 void read_integration(const Field& integration, const ModelFacts& facts, Spec& spec);
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec);
+/// `noise`: the stochastic forcing; needs a stochastic integration.method.
+void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec);
+/// Refuses what the stochastic methods do not run yet (called once every section is read).
+void check_method_features(const Spec& spec);
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec);
 void read_output(const Field& output, Spec& spec);
 void read_checkpoint(const Field& checkpoint, Spec& spec);

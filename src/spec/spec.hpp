@@ -52,11 +52,27 @@ struct Ensemble {
 };
 
 struct Integration {
-  std::string method = "rk4";  // only rk4 for now
+  /// rk4 (deterministic only), euler-maruyama (Ito) or heun (Stratonovich); the last two
+  /// also run without noise (forward Euler, the explicit trapezoidal rule).
+  std::string method = "rk4";
+  Location method_where;       // for the features a method does not run (yet)
   double dt = 0.01;            // > 0
   Location dt_where;           // for errors found later (a spin-up that diverges)
   double spinup = 0.0;         // >= 0, time units discarded before accumulation
   double duration = 0.0;       // > 0, time units accumulated
+};
+
+/// Stochastic forcing (`noise`) on the listed state variables i, with independent Wiener
+/// processes W_i and amplitude A: additive dx_i = f_i dt + A dW_i, multiplicative
+/// dx_i = f_i dt + A x_i dW_i. From t = 0 of every member's integration, spin-up included.
+enum class NoiseForm { none, additive, multiplicative };
+
+struct Noise {
+  NoiseForm form = NoiseForm::none;
+  double amplitude = 0.0;       // >= 0
+  std::vector<int> variables;   // state indices, ascending, distinct; default every variable
+  bool shared = false;          // one realisation for every member of a case
+  Location where;               // the section
 };
 
 enum class RegimeKind { none, sign, nearest };
@@ -188,6 +204,7 @@ struct Spec {
   Schedule schedule;                    // kind none: every parameter constant in time
   Ensemble ensemble;
   Integration integration;
+  Noise noise;                          // form none: deterministic
   Statistics statistics;
   Output output;
   Checkpoint checkpoint;

@@ -1071,7 +1071,63 @@ def check_linear(path, matrix, direction):
           f"{exact} (largest difference {worst:.1e})")
 
 
+def check_ou_covariance(path, matrix, amplitude, duration):
+    """The linear model with additive noise, dx = A x dt + a dW, is the multivariate
+    Ornstein-Uhlenbeck process (Gardiner, Handbook of Stochastic Methods, ch. 4): its stationary
+    covariance C solves A C + C A^T + a^2 I = 0 (scipy.linalg.solve_continuous_lyapunov, an
+    independent solver). A member's time variance over a window T is, in expectation, C_ii less
+    the variance of its time mean, (2/T) (-A^-1 C)_ii to first order in 1/T (the integral of the
+    lagged covariance e^{A tau} C). The ensemble mean of the members' time variances must lie
+    within 3 standard errors (across members) of that, for every variable; the time mean of
+    every case must lie within its 95% interval of the exact mean -A^-1 f d (here f = 0: zero)
+    up to 3 standard errors. MATRIX: rows separated by ';', entries by ','."""
+    import scipy.linalg
+    A = np.array([[float(v) for v in row.split(",")] for row in matrix.split(";")])
+    a = float(amplitude)
+    T = float(duration)
+    C = scipy.linalg.solve_continuous_lyapunov(A, -a * a * np.eye(len(A)))
+    expected = np.diag(C) - np.diag(2.0 / T * (-np.linalg.solve(A, C)))
+    with h5py.File(path, "r") as f:
+        v = f["member/time_variance"][()]
+        mean = f["ensemble/time_mean"][()]
+        stderr = f["ensemble/time_mean_stderr"][()]
+    worst = 0.0
+    for c in range(v.shape[0]):
+        got = v[c].mean(axis=0)
+        se = v[c].std(axis=0, ddof=1) / math.sqrt(v.shape[1])
+        z = np.abs(got - expected) / se
+        worst = max(worst, z.max())
+        if (z > 3).any():
+            fail(f"{path}: case {c} mean time variance {got} is not the OU value {expected} "
+                 f"(standard errors {se})")
+        if (np.abs(mean[c]) > 3 * stderr[c]).any():
+            fail(f"{path}: case {c} time mean {mean[c]} is not 0 within 3 standard errors {stderr[c]}")
+    print(f"ok: {path}: time variances match the OU covariance diag {np.diag(C)} "
+          f"(largest {worst:.2f} standard errors)")
+
+
+def check_shared_noise(path, shared_path):
+    """One noise realisation shared by every member of a case: in the linear model with
+    additive noise the difference of two members obeys the noiseless equation d(dx)/dt = A dx
+    (the noise cancels exactly), so members that start 1e-3 apart converge and their time means
+    agree to within 1e-3 / T; with a realisation per member (PATH) they differ by the noise."""
+    with h5py.File(path, "r") as f:
+        own = f["ensemble/time_mean_std"][()]
+    with h5py.File(shared_path, "r") as f:
+        shared = f["ensemble/time_mean_std"][()]
+        members = f["member/time_mean"][()]
+    if not (shared < 1e-4).all():
+        fail(f"{shared_path}: members under one shared realisation differ: std {shared}")
+    if not (own > 100 * shared).all() or not (own > 1e-3).all():
+        fail(f"{path}: independent realisations give time-mean spread {own}, shared {shared}")
+    if not np.isfinite(members).all():
+        fail(f"{shared_path}: non-finite member time means")
+    print(f"ok: shared realisation spread {shared.max():.1e}, per-member {own.min():.1e}")
+
+
 CHECKS = {
+    "ou-covariance": check_ou_covariance,
+    "shared-noise": check_shared_noise,
     "stderr-series": check_stderr_series,
     "stderr-ensemble": check_stderr_ensemble,
     "twins-unchanged": check_twins_unchanged,
