@@ -1125,7 +1125,37 @@ def check_shared_noise(path, shared_path):
     print(f"ok: shared realisation spread {shared.max():.1e}, per-member {own.min():.1e}")
 
 
+def check_gbm_means(path, mu, sigma, calculus):
+    """Geometric Brownian motion dx = mu x dt + sigma x dW from x0 = 1 (Gardiner, Handbook of
+    Stochastic Methods, ch. 4; Kloeden & Platen 1992): read in the Ito sense its mean is
+    exp(mu t), in the Stratonovich sense exp((mu + sigma^2/2) t). At every snapshot time the
+    mean across members must lie within 3 standard errors (sqrt(variance / members)) of the
+    CALCULUS's mean, and at the last time more than 5 standard errors from the other's, so the
+    check tells the two readings apart."""
+    mu, sigma = float(mu), float(sigma)
+    shift = 0.5 * sigma * sigma
+    with h5py.File(path, "r") as f:
+        t = f["snapshot/time"][()]
+        mean = f["snapshot/mean"][0, :, 0]
+        var = f["snapshot/variance"][0, :, 0]
+        members = int(f.attrs["members_per_case"])
+    want = np.exp((mu + (shift if calculus == "stratonovich" else 0.0)) * t)
+    other = np.exp((mu + (0.0 if calculus == "stratonovich" else shift)) * t)
+    se = np.sqrt(var / members)
+    z = np.abs(mean[1:] - want[1:]) / se[1:]
+    if (z > 3).any():
+        fail(f"{path}: snapshot means {mean} are not the {calculus} means {want} "
+             f"(standard errors {se})")
+    apart = abs(mean[-1] - other[-1]) / se[-1]
+    if apart < 5:
+        fail(f"{path}: the last mean {mean[-1]} is only {apart:.1f} standard errors from the "
+             f"other calculus's {other[-1]}")
+    print(f"ok: {path}: {calculus} means within {z.max():.2f} standard errors, the other "
+          f"reading {apart:.0f} away")
+
+
 CHECKS = {
+    "gbm-means": check_gbm_means,
     "ou-covariance": check_ou_covariance,
     "shared-noise": check_shared_noise,
     "stderr-series": check_stderr_series,
