@@ -50,7 +50,9 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
                         {batch.first_member, batch.count});
   if (setup.twins.enabled()) {
     twins_.emplace(setup.twins, setup.state_dim, w, batch.case_index, batch.first_member,
-                   batch.count, make_kernel(setup, model, {&moments_, nullptr, nullptr}));
+                   batch.count,
+                   make_kernel(setup, model, {&moments_, nullptr, nullptr},
+                               {batch.first_member, batch.count}));
   }
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;

@@ -151,6 +151,7 @@ class RingStepper final : public Stepper {
 /// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise. The Wiener increment
 /// of noisy variable i at step n of member m is keyed by (seed, case, m, n, i) (run/member_noise.hpp);
 /// with a shared realisation the member is left out (every member draws member -1's stream).
+/// A twin kernel is given its members' numbers, so each twin draws its member's noise.
 /// The step index comes from set_step, so chunks and resumes draw the same increments.
 class StochasticStepper final : public Stepper {
  public:
@@ -171,7 +172,7 @@ class StochasticStepper final : public Stepper {
         dw_(variables_.size() * static_cast<std::size_t>(s.width)) {
     const int streams = shared_ ? 1 : s.width;
     for (int m = 0; m < streams; ++m) {
-      const std::int64_t member = shared_ ? -1 : members.first + std::min(m, members.count - 1);
+      const std::int64_t member = shared_ ? -1 : members.first + (m < members.count ? m : 0);
       streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
     }
   }

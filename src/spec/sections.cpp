@@ -249,7 +249,6 @@ void check_method_features(const Spec& spec) {
             method + " does not run " + what + " yet; use rk4 without noise for it");
   };
   if (spec.statistics.lyapunov.enabled) refuse("statistics.lyapunov");
-  if (spec.statistics.twins.enabled) refuse("statistics.twins");
   if (spec.schedule.kind != ScheduleKind::none) refuse("a schedule");
 }
 
