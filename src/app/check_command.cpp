@@ -272,9 +272,15 @@ void print_method_and_noise(const spec::Spec& spec, const plan::Plan& plan) {
   for (const int v : spec.noise.variables) {
     variables += (variables.empty() ? "" : ", ") + model->observables()[v].name;
   }
-  std::printf("  noise          %s, amplitude %g, on %s (%s)\n",
+  char amplitude[64];
+  if (spec.noise.amplitude_swept) {
+    std::snprintf(amplitude, sizeof amplitude, "swept");
+  } else {
+    std::snprintf(amplitude, sizeof amplitude, "%g", spec.noise.amplitude);
+  }
+  std::printf("  noise          %s, amplitude %s, on %s (%s)\n",
               spec.noise.form == spec::NoiseForm::additive ? "additive" : "multiplicative",
-              spec.noise.amplitude, variables.c_str(),
+              amplitude, variables.c_str(),
               spec.noise.shared ? "one realisation shared by the members of a case"
                                 : "a realisation per member");
 }

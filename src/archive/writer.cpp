@@ -248,7 +248,7 @@ void write_method_and_noise(h5::Group& root, const spec::Spec& spec, const plan:
                                                    ? "additive"
                                                    : "multiplicative"));
   root.set_attribute("noise_calculus", std::string(method == "heun" ? "Stratonovich" : "Ito"));
-  root.set_attribute("noise_amplitude", spec.noise.amplitude);
+  if (!spec.noise.amplitude_swept) root.set_attribute("noise_amplitude", spec.noise.amplitude);
   const std::unique_ptr<models::Model> model = plan.model->make(spec.parameters);
   std::string variables;
   for (const int v : spec.noise.variables) {

@@ -109,6 +109,9 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   s.snapshot_count = plan.snapshot_count;
   s.method = spec.integration.method;
   s.noise = spec.noise;
+  if (spec.noise.amplitude_swept) {
+    s.noise.amplitude = c.parameters.at(spec::kNoiseAmplitudeAxis).at(0);
+  }
   s.seed = spec.ensemble.seed;
   s.case_index = c.index;
   s.kernel = choose_kernel(s);

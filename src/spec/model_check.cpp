@@ -206,6 +206,24 @@ SweepAxis read_axis(const Field& item, ModelFacts& facts, const Spec& spec,
   SweepAxis out;
   out.parameter = name_field.string();
   out.where = item.where();
+  if (out.parameter == "noise.amplitude") {  // the stochastic forcing's amplitude (noise section)
+    out.parameter = kNoiseAmplitudeAxis;
+    for (std::size_t i = 0; i < earlier.size(); ++i) {
+      if (earlier[i].parameter == out.parameter) {
+        name_field.fail("`noise.amplitude` is already swept by sweep[" + std::to_string(i) +
+                        "]; give each parameter one axis");
+      }
+    }
+    std::vector<Field> where;
+    axis_values(axis, out.values, where);
+    for (std::size_t i = 0; i < out.values.size(); ++i) {
+      if (out.values[i] < 0) where[i].fail("a noise amplitude must be at least 0, got " + format_number(out.values[i]));
+      for (std::size_t j = 0; j < i; ++j) {
+        if (out.values[j] == out.values[i]) where[i].fail("repeats the value " + format_number(out.values[i]));
+      }
+    }
+    return out;
+  }
   const models::ModelInfo& info = *facts.info;
   const models::ParameterInfo* p = find_parameter(info, out.parameter);
   if (!p) {

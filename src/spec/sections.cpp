@@ -214,7 +214,19 @@ void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
   out.form = form.choice({"additive", "multiplicative"}, "form") == "additive"
                  ? NoiseForm::additive
                  : NoiseForm::multiplicative;
-  out.amplitude = map.required("amplitude").number_at_least(0.0);
+  const auto swept = std::find_if(spec.sweep.begin(), spec.sweep.end(), [](const SweepAxis& a) {
+    return a.parameter == kNoiseAmplitudeAxis;
+  });
+  out.amplitude_swept = swept != spec.sweep.end();
+  if (out.amplitude_swept) {
+    if (map.has("amplitude")) {
+      map.get("amplitude").fail("also swept (line " +
+                                std::to_string(swept->where.line) +
+                                "); the sweep gives it in every case, so remove one of them");
+    }
+  } else {
+    out.amplitude = map.required("amplitude").number_at_least(0.0);
+  }
   if (map.has("variables")) {
     const Field variables = map.get("variables");
     const std::vector<std::string> state(facts.observables.begin(),
@@ -242,6 +254,12 @@ void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
 }
 
 void check_method_features(const Spec& spec) {
+  for (const SweepAxis& axis : spec.sweep) {
+    if (axis.parameter == kNoiseAmplitudeAxis && spec.noise.form == NoiseForm::none) {
+      fail_at(spec.source_path, axis.where, "sweep",
+              "noise.amplitude is swept, but the spec has no noise section");
+    }
+  }
   const std::string& method = spec.integration.method;
   if (method == "rk4") return;
   const auto refuse = [&](const std::string& what) {

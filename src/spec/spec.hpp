@@ -18,6 +18,10 @@ struct Location {
 };
 
 /// One sweep axis: a scalar model parameter and the values it takes.
+/// The sweep axis of the noise amplitude (`parameter: noise.amplitude` in the spec), also the
+/// name of its values in the archive (/case/noise_amplitude).
+inline constexpr const char* kNoiseAmplitudeAxis = "noise_amplitude";
+
 struct SweepAxis {
   std::string parameter;
   std::vector<double> values;  // at least one, all finite, no duplicates
@@ -69,7 +73,8 @@ enum class NoiseForm { none, additive, multiplicative };
 
 struct Noise {
   NoiseForm form = NoiseForm::none;
-  double amplitude = 0.0;       // >= 0
+  double amplitude = 0.0;       // >= 0; per case when swept (kNoiseAmplitudeAxis)
+  bool amplitude_swept = false;
   std::vector<int> variables;   // state indices, ascending, distinct; default every variable
   bool shared = false;          // one realisation for every member of a case
   Location where;               // the section
