@@ -1179,7 +1179,35 @@ def check_noisy_twins(path, dt, scale, rate):
     print(f"ok: {path}: twins follow the noiseless decay within {worst:.1e}")
 
 
+def check_ou_autocorrelation(path, theta, spinup, max_lag):
+    """The Ornstein-Uhlenbeck process dx = -theta x dt + a dW has the stationary autocorrelation
+    exp(-theta tau) and mean 0 (Gardiner, Handbook of Stochastic Methods, ch. 4). From every
+    member's stored trajectory after the spin-up, at each lag tau (a multiple of the sampling
+    interval, up to MAX_LAG): r_m = mean(x(t) x(t + tau)) / mean(x(t)^2) (the exact mean 0
+    is not estimated). The mean of r_m across members must lie within 3 standard errors
+    (across members) of exp(-theta tau)."""
+    theta, spinup, max_lag = float(theta), float(spinup), float(max_lag)
+    with h5py.File(path, "r") as f:
+        t = f["trajectory/time"][()]
+        x = f["trajectory/state"][0, :, :, 0]
+    x = x[:, t >= spinup - 1e-9]
+    every = t[1] - t[0]
+    members = x.shape[0]
+    worst = 0.0
+    for k in range(1, int(round(max_lag / every)) + 1):
+        r = (x[:, :-k] * x[:, k:]).mean(axis=1) / (x * x).mean(axis=1)
+        want = math.exp(-theta * k * every)
+        z = abs(r.mean() - want) / (r.std(ddof=1) / math.sqrt(members))
+        worst = max(worst, z)
+        if z > 3:
+            fail(f"{path}: autocorrelation {r.mean():.4f} at lag {k * every:g} is not "
+                 f"exp(-theta tau) = {want:.4f} ({z:.1f} standard errors)")
+    print(f"ok: {path}: autocorrelation exp(-{theta:g} tau) up to lag {max_lag:g} within "
+          f"{worst:.2f} standard errors")
+
+
 CHECKS = {
+    "ou-autocorrelation": check_ou_autocorrelation,
     "noisy-twins": check_noisy_twins,
     "gbm-means": check_gbm_means,
     "ou-covariance": check_ou_covariance,
