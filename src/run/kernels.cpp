@@ -179,15 +179,17 @@ class StochasticStepper final : public Stepper {
   void set_step(std::int64_t step) override { step_ = step; }
   void step(double* x) override {
     const int w = width_;
-    for (std::size_t r = 0; r < variables_.size(); ++r) {
-      double* row = dw_.data() + r * static_cast<std::size_t>(w);
-      if (shared_) {
-        const double d = wiener_increment(streams_[0], step_, state_dim_, variables_[r], sqrt_dt_);
-        std::fill(row, row + w, d);
-      } else {
-        for (int m = 0; m < w; ++m) {
-          row[m] = wiener_increment(streams_[m], step_, state_dim_, variables_[r], sqrt_dt_);
-        }
+    const std::size_t stride = static_cast<std::size_t>(w);
+    if (shared_) {
+      wiener_increments(streams_[0], step_, state_dim_, variables_, sqrt_dt_, dw_.data(), stride);
+      for (std::size_t r = 0; r < variables_.size(); ++r) {
+        double* row = dw_.data() + r * stride;
+        std::fill(row + 1, row + w, row[0]);
+      }
+    } else {
+      for (int m = 0; m < w; ++m) {
+        wiener_increments(streams_[m], step_, state_dim_, variables_, sqrt_dt_, dw_.data() + m,
+                          stride);
       }
     }
     sde_.step(x, dt_, amplitude_, dw_.data());

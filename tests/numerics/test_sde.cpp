@@ -221,5 +221,25 @@ TEST(Sde, WienerIncrementsAreGaussianAndKeyed) {
             run::wiener_increment(stream, 5, 2, 0, 0.1));
 }
 
+// The batched draw gives the single draws bitwise; the two branches of a pair (variables 0 and
+// 1) are uncorrelated: their sample correlation within four standard errors of 0 (1/sqrt(n)).
+TEST(Sde, BatchedIncrementsEqualSingleOnesAndPairBranchesAreUncorrelated) {
+  const run::MemberNoise stream(5, 1, 2, 2);
+  const std::vector<int> noisy = {0, 1, 2, 4};
+  std::vector<double> out(noisy.size() * 3);
+  for (std::int64_t k = 0; k < 50; ++k) {
+    run::wiener_increments(stream, k, 5, noisy, 0.1, out.data() + 1, 3);
+    for (std::size_t r = 0; r < noisy.size(); ++r) {
+      EXPECT_EQ(out[1 + r * 3], run::wiener_increment(stream, k, 5, noisy[r], 0.1));
+    }
+  }
+  const int n = 200000;
+  double sxy = 0.0;
+  for (int k = 0; k < n; ++k) {
+    sxy += run::wiener_increment(stream, k, 2, 0, 1.0) * run::wiener_increment(stream, k, 2, 1, 1.0);
+  }
+  EXPECT_NEAR(sxy / n, 0.0, 4.0 / std::sqrt(static_cast<double>(n)));
+}
+
 }  // namespace
 }  // namespace chaosweep::testing
