@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # A campaign run as several jobs (`run --part I/N`, then `merge`) gives the archive of one
 # job, dataset by dataset bitwise: parts on different rank counts, one part stopped and
-# resumed on another rank count, parts given to merge in any order, merge on 1 or 2 ranks.
+# resumed on another rank count, parts given to merge in any order, merge on 1 or 2 ranks;
+# also under stochastic forcing, with twins.
 # Bad parts (another spec, a duplicate, a missing one, a damaged file, a whole archive) and
 # bad --part values exit 2 with one line naming the part, and write nothing.
 # Usage: parts.sh CHAOSWEEP WORKDIR SOURCE_DIR MPIEXEC
@@ -75,6 +76,24 @@ with h5py.File(sys.argv[1], "r") as f:
     assert f.attrs["status"] == "complete"
     assert f["trajectory/state"].shape[1] == 24  # every stored member came through
 PY
+
+# Under stochastic forcing (increments keyed by member and step, not by part): the noisy
+# Ornstein-Uhlenbeck campaign in 3 parts and the one with twins sharing their member's noise
+# in 2, each merged bitwise into the single run's archive.
+for noisy in ou-heun:3 ou-twins:2; do
+  name=${noisy%%:*} parts=${noisy##*:}
+  spec=$src/tests/e2e/specs/$name.yaml
+  mpirun 2 run "$spec" --archive $name-whole.h5 --progress none > $name-whole.log 2>&1 ||
+    fail "single run of $name"
+  list=()
+  for i in $(seq 1 "$parts"); do
+    mpirun $((i % 2 + 1)) run "$spec" --part $i/$parts --archive $name-$i.h5 --progress none \
+      > $name-$i.log 2>&1 || fail "$name part $i/$parts"
+    list=("$name-$i.h5" "${list[@]}")
+  done
+  mpirun 2 merge $name-merged.h5 "${list[@]}" > $name-merge.log 2>&1 || fail "merge of $name"
+  $check bitwise $name-whole.h5 $name-merged.h5 || fail "$name: merged archive differs"
+done
 
 # With checkpoint.directory set, each part keeps its checkpoints in its own subdirectory:
 # both parts stopped, then resumed, each from its own.
