@@ -3,7 +3,6 @@
 #include <charconv>
 #include <chrono>
 #include <cmath>
-#include <memory>
 #include <cstdio>
 #include <string>
 #include <vector>
@@ -262,27 +261,24 @@ double check_spinups(const spec::Spec& spec, const plan::Plan& plan) {
 }
 
 /// The integration method, and the noise when there is some.
-void print_method_and_noise(const spec::Spec& spec, const plan::Plan& plan) {
+void print_method_and_noise(const spec::Spec& spec) {
   const std::string& method = spec.integration.method;
-  const char* sense = method == "euler-maruyama" ? " (Ito)" : method == "heun" ? " (Stratonovich)" : "";
-  std::printf("  method         %s%s\n", method.c_str(), spec.noise.form == spec::NoiseForm::none ? "" : sense);
-  if (spec.noise.form == spec::NoiseForm::none) return;
-  const std::unique_ptr<models::Model> model = plan.model->make(spec.parameters);
+  const spec::Noise& noise = spec.noise;
+  if (noise.form == spec::NoiseForm::none) {
+    std::printf("  method         %s\n", method.c_str());
+    return;
+  }
+  std::printf("  method         %s (%s)\n", method.c_str(), spec::noise_calculus(method));
   std::string variables;
-  for (const int v : spec.noise.variables) {
-    variables += (variables.empty() ? "" : ", ") + model->observables()[v].name;
+  for (const std::string& name : noise.variable_names) {
+    variables += (variables.empty() ? "" : ", ") + name;
   }
   char amplitude[64];
-  if (spec.noise.amplitude_swept) {
-    std::snprintf(amplitude, sizeof amplitude, "swept");
-  } else {
-    std::snprintf(amplitude, sizeof amplitude, "%g", spec.noise.amplitude);
-  }
-  std::printf("  noise          %s, amplitude %s, on %s (%s)\n",
-              spec.noise.form == spec::NoiseForm::additive ? "additive" : "multiplicative",
-              amplitude, variables.c_str(),
-              spec.noise.shared ? "one realisation shared by the members of a case"
-                                : "a realisation per member");
+  std::snprintf(amplitude, sizeof amplitude, "%g", noise.amplitude);
+  std::printf("  noise          %s, amplitude %s, on %s (%s)\n", spec::noise_form_name(noise.form),
+              noise.amplitude_swept ? "swept" : amplitude, variables.c_str(),
+              noise.shared ? "one realisation shared by the members of a case"
+                           : "a realisation per member");
 }
 
 }  // namespace
@@ -322,7 +318,7 @@ int check_command(const CheckOptions& options) {
   std::printf("  steps          %lld spin-up + %lld accumulated per member (dt %g)\n",
               static_cast<long long>(plan.spinup_steps),
               static_cast<long long>(plan.accumulate_steps), spec.integration.dt);
-  print_method_and_noise(spec, plan);
+  print_method_and_noise(spec);
   std::printf("  member-steps   %.3g\n", member_steps);
   std::printf("  batches        %lld of %d members; at most %.0f per rank on %d ranks\n",
               static_cast<long long>(n_batches), plan.batch_size, share, options.ranks);

@@ -251,8 +251,8 @@ std::string sibling(const std::string& script, const std::string& what) {
 
 /// The job array's script (the template with one part per task), the merge job's and the
 /// script that submits both with the dependency.
-void write_array_scripts(const SlurmOptions& options, const spec::Spec& spec,
-                         const std::string& archive, std::map<std::string, std::string> fields) {
+void write_array_scripts(const SlurmOptions& options, const std::string& archive,
+                         std::map<std::string, std::string> fields) {
   const std::string n = std::to_string(options.parts);
   // part I's archive, as `run --part I/N` names it: NAME.part-I-of-N.EXT beside the archive
   const fs::path a(archive);
@@ -375,7 +375,7 @@ int slurm_command(const SlurmOptions& options) {
     }
     return kExitComplete;
   }
-  write_array_scripts(options, spec, archive, fields);
+  write_array_scripts(options, archive, fields);
   return kExitComplete;
 }
 

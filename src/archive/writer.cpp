@@ -239,23 +239,21 @@ const std::vector<T>& gather(const plan::Plan& plan, const std::vector<run::Batc
 }
 
 /// The stochastic methods and the noise, as root attributes (absent for RK4 without noise).
-void write_method_and_noise(h5::Group& root, const spec::Spec& spec, const plan::Plan& plan) {
+void write_method_and_noise(h5::Group& root, const spec::Spec& spec) {
   const std::string& method = spec.integration.method;
   if (method == "rk4") return;
   root.set_attribute("integration_method", method);
-  if (spec.noise.form == spec::NoiseForm::none) return;
-  root.set_attribute("noise_form", std::string(spec.noise.form == spec::NoiseForm::additive
-                                                   ? "additive"
-                                                   : "multiplicative"));
-  root.set_attribute("noise_calculus", std::string(method == "heun" ? "Stratonovich" : "Ito"));
-  if (!spec.noise.amplitude_swept) root.set_attribute("noise_amplitude", spec.noise.amplitude);
-  const std::unique_ptr<models::Model> model = plan.model->make(spec.parameters);
+  const spec::Noise& noise = spec.noise;
+  if (noise.form == spec::NoiseForm::none) return;
+  root.set_attribute("noise_form", std::string(spec::noise_form_name(noise.form)));
+  root.set_attribute("noise_calculus", std::string(spec::noise_calculus(method)));
+  if (!noise.amplitude_swept) root.set_attribute("noise_amplitude", noise.amplitude);
   std::string variables;
-  for (const int v : spec.noise.variables) {
-    variables += (variables.empty() ? "" : " ") + model->observables()[v].name;
+  for (const std::string& name : noise.variable_names) {
+    variables += (variables.empty() ? "" : " ") + name;
   }
   root.set_attribute("noise_variables", variables);
-  root.set_attribute("noise_realisation", std::string(spec.noise.shared ? "shared" : "per-member"));
+  root.set_attribute("noise_realisation", std::string(noise.shared ? "shared" : "per-member"));
 }
 
 void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
@@ -273,7 +271,7 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
     // the swept values of this parameter (/case/<parameter>) are offsets added to its schedule
     root.set_attribute("scheduled_parameter", spec.schedule.parameter);
   }
-  write_method_and_noise(root, spec, plan);
+  write_method_and_noise(root, spec);
 }
 
 /// Exponent indices 1..k (the coordinate of the `exponent` dimension).

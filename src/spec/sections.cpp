@@ -244,6 +244,7 @@ void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
   } else {
     for (int i = 0; i < facts.state_dim; ++i) out.variables.push_back(i);
   }
+  for (const int v : out.variables) out.variable_names.push_back(facts.observables[v]);
   if (map.has("realisation")) {
     out.shared = map.get("realisation").choice({"per-member", "shared"}, "realisation") == "shared";
   }

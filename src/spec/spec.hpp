@@ -76,9 +76,21 @@ struct Noise {
   double amplitude = 0.0;       // >= 0; per case when swept (kNoiseAmplitudeAxis)
   bool amplitude_swept = false;
   std::vector<int> variables;   // state indices, ascending, distinct; default every variable
+  std::vector<std::string> variable_names;  // the model's names of `variables`, same order
   bool shared = false;          // one realisation for every member of a case
   Location where;               // the section
 };
+
+/// "additive" or "multiplicative" (for messages, the check report and the archive).
+inline const char* noise_form_name(NoiseForm form) {
+  return form == NoiseForm::multiplicative ? "multiplicative" : "additive";
+}
+
+/// The sense in which a stochastic integration method solves a noisy equation: "Ito"
+/// (euler-maruyama) or "Stratonovich" (heun).
+inline const char* noise_calculus(const std::string& method) {
+  return method == "heun" ? "Stratonovich" : "Ito";
+}
 
 enum class RegimeKind { none, sign, nearest };
 
