@@ -264,18 +264,25 @@ double check_spinups(const spec::Spec& spec, const plan::Plan& plan) {
 void print_method_and_noise(const spec::Spec& spec) {
   const std::string& method = spec.integration.method;
   const spec::Noise& noise = spec.noise;
-  if (noise.form == spec::NoiseForm::none) {
+  if (noise.kind == spec::NoiseKind::none) {
     std::printf("  method         %s\n", method.c_str());
     return;
   }
-  std::printf("  method         %s (%s)\n", method.c_str(), spec::noise_calculus(method));
+  if (noise.kind == spec::NoiseKind::red) {
+    std::printf("  method         %s\n", method.c_str());
+  } else {
+    std::printf("  method         %s (%s)\n", method.c_str(), spec::noise_calculus(method));
+  }
   std::string variables;
   for (const std::string& name : noise.variable_names) {
     variables += (variables.empty() ? "" : ", ") + name;
   }
   char amplitude[64];
   std::snprintf(amplitude, sizeof amplitude, "%g", noise.amplitude);
-  std::printf("  noise          %s, amplitude %s, on %s (%s)\n", spec::noise_form_name(noise.form),
+  char kind[96];
+  std::snprintf(kind, sizeof kind, "red (correlation time %g)", noise.correlation_time);
+  std::printf("  noise          %s, amplitude %s, on %s (%s)\n",
+              noise.kind == spec::NoiseKind::red ? kind : spec::noise_kind_name(noise.kind),
               noise.amplitude_swept ? "swept" : amplitude, variables.c_str(),
               noise.shared ? "one realisation shared by the members of a case"
                            : "a realisation per member");

@@ -244,9 +244,13 @@ void write_method_and_noise(h5::Group& root, const spec::Spec& spec) {
   if (method == "rk4") return;
   root.set_attribute("integration_method", method);
   const spec::Noise& noise = spec.noise;
-  if (noise.form == spec::NoiseForm::none) return;
-  root.set_attribute("noise_form", std::string(spec::noise_form_name(noise.form)));
-  root.set_attribute("noise_calculus", std::string(spec::noise_calculus(method)));
+  if (noise.kind == spec::NoiseKind::none) return;
+  root.set_attribute("noise_kind", std::string(spec::noise_kind_name(noise.kind)));
+  if (noise.kind == spec::NoiseKind::red) {  // a smooth forcing: no stochastic calculus
+    root.set_attribute("noise_correlation_time", noise.correlation_time);
+  } else {
+    root.set_attribute("noise_calculus", std::string(spec::noise_calculus(method)));
+  }
   if (!noise.amplitude_swept) root.set_attribute("noise_amplitude", noise.amplitude);
   std::string variables;
   for (const std::string& name : noise.variable_names) {

@@ -148,48 +148,65 @@ class RingStepper final : public Stepper {
   std::vector<integrators::Lanes> scratch_;
 };
 
-/// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise. The Wiener increment
-/// of noisy variable i at step n of member m is keyed by (seed, case, m, n, i) (run/member_noise.hpp);
-/// with a shared realisation the member is left out (every member draws member -1's stream).
-/// A twin kernel is given its members' numbers, so each twin draws its member's noise.
-/// The step index comes from set_step, so chunks and resumes draw the same increments.
+/// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise. The Gaussian draw
+/// of noisy variable i at step n of member m is keyed by (seed, case, m, n, i)
+/// (run/member_noise.hpp); with a shared realisation the member is left out (every member
+/// draws member -1's stream). A twin kernel is given its members' numbers, so each twin draws
+/// its member's noise. The step index comes from set_step, so chunks and resumes draw the
+/// same increments.
+///
+/// White noise (additive, multiplicative): draw n is the Wiener increment of step n.
+/// Red noise: eta_i is the unit-variance Ornstein-Uhlenbeck process of correlation time T,
+/// started from its stationary law and advanced by its exact update,
+///   eta(0) = xi_0,  eta(n + 1) = a eta(n) + sqrt(1 - a^2) xi_(n+1),  a = exp(-dt / T),
+/// with xi_n the unit Gaussian draw n. It enters as an additive forcing A eta dt, integrated
+/// over the step by the method's own rule: eta(n) dt (Euler-Maruyama) or the trapezoid
+/// (eta(n) + eta(n + 1)) dt / 2 (Heun). eta is a pure function of the draws up to step n;
+/// a kernel asked for a step its eta is not at replays the draws from step 0 (after a
+/// resume), so eta never needs to be checkpointed.
 class StochasticStepper final : public Stepper {
  public:
   StochasticStepper(const models::Model& model, const Setup& s, KernelMembers members)
       : sde_(model, s.width,
              s.method == "heun" ? integrators::SdeMethod::heun
                                 : integrators::SdeMethod::euler_maruyama,
-             s.noise.form == spec::NoiseForm::multiplicative ? integrators::NoiseForm::multiplicative
+             s.noise.kind == spec::NoiseKind::multiplicative ? integrators::NoiseForm::multiplicative
                                                              : integrators::NoiseForm::additive,
-             s.noise.form == spec::NoiseForm::none ? std::vector<int>{} : s.noise.variables),
-        variables_(s.noise.form == spec::NoiseForm::none ? std::vector<int>{} : s.noise.variables),
+             noisy_variables(s)),
+        variables_(noisy_variables(s)),
         state_dim_(s.state_dim),
         width_(s.width),
         dt_(s.dt),
         sqrt_dt_(std::sqrt(s.dt)),
         amplitude_(s.noise.amplitude),
-        shared_(s.noise.shared),
+        red_(s.noise.kind == spec::NoiseKind::red),
+        heun_(s.method == "heun"),
+        decay_(red_ ? std::exp(-s.dt / s.noise.correlation_time) : 0.0),
+        innovation_(std::sqrt(1.0 - decay_ * decay_)),
+        columns_(s.noise.shared ? 1 : s.width),
         dw_(variables_.size() * static_cast<std::size_t>(s.width)) {
-    const int streams = shared_ ? 1 : s.width;
-    for (int m = 0; m < streams; ++m) {
-      const std::int64_t member = shared_ ? -1 : members.first + (m < members.count ? m : 0);
+    for (int m = 0; m < columns_; ++m) {
+      const std::int64_t member =
+          s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
       streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
+    }
+    if (red_) {
+      eta_.assign(dw_.size(), 0.0);
+      eta_next_.assign(dw_.size(), 0.0);
     }
   }
   void set_step(std::int64_t step) override { step_ = step; }
   void step(double* x) override {
-    const int w = width_;
-    const std::size_t stride = static_cast<std::size_t>(w);
-    if (shared_) {
-      wiener_increments(streams_[0], step_, state_dim_, variables_, sqrt_dt_, dw_.data(), stride);
+    if (red_) {
+      red_increments();
+    } else {
+      draw(step_, sqrt_dt_, dw_.data());
+    }
+    if (columns_ == 1) {  // a shared realisation: column 0's noise for every member
+      const std::size_t stride = static_cast<std::size_t>(width_);
       for (std::size_t r = 0; r < variables_.size(); ++r) {
         double* row = dw_.data() + r * stride;
-        std::fill(row + 1, row + w, row[0]);
-      }
-    } else {
-      for (int m = 0; m < w; ++m) {
-        wiener_increments(streams_[m], step_, state_dim_, variables_, sqrt_dt_, dw_.data() + m,
-                          stride);
+        std::fill(row + 1, row + width_, row[0]);
       }
     }
     sde_.step(x, dt_, amplitude_, dw_.data());
@@ -197,14 +214,71 @@ class StochasticStepper final : public Stepper {
   }
 
  private:
+  static std::vector<int> noisy_variables(const Setup& s) {
+    return s.noise.kind == spec::NoiseKind::none ? std::vector<int>{} : s.noise.variables;
+  }
+
+  /// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
+  /// columns_ columns).
+  void draw(std::int64_t step, double scale, double* out) const {
+    const std::size_t stride = static_cast<std::size_t>(width_);
+    for (int m = 0; m < columns_; ++m) {
+      wiener_increments(streams_[m], step, state_dim_, variables_, scale, out + m, stride);
+    }
+  }
+
+  /// eta_ <- eta at step `to`, from eta at step eta_step_ (or from step 0).
+  void advance_eta(std::int64_t to) {
+    if (eta_step_ < 0 || eta_step_ > to) {
+      draw(0, 1.0, eta_.data());
+      eta_step_ = 0;
+    }
+    while (eta_step_ < to) {
+      next_eta(eta_step_ + 1, eta_.data());
+      ++eta_step_;
+    }
+  }
+
+  /// eta <- a eta + sqrt(1 - a^2) xi_step, in place, on the first columns_ columns.
+  void next_eta(std::int64_t step, double* eta) {
+    draw(step, 1.0, eta_next_.data());
+    const std::size_t stride = static_cast<std::size_t>(width_);
+    for (std::size_t r = 0; r < variables_.size(); ++r) {
+      for (int m = 0; m < columns_; ++m) {
+        const std::size_t i = r * stride + static_cast<std::size_t>(m);
+        eta[i] = decay_ * eta[i] + innovation_ * eta_next_[i];
+      }
+    }
+  }
+
+  /// dw_ <- the step's integral of eta, and eta_ advanced to step_ + 1.
+  void red_increments() {
+    advance_eta(step_);
+    const std::size_t n = dw_.size();
+    if (!heun_) {
+      for (std::size_t i = 0; i < n; ++i) dw_[i] = eta_[i] * dt_;
+      next_eta(step_ + 1, eta_.data());
+    } else {
+      const double half = 0.5 * dt_;
+      for (std::size_t i = 0; i < n; ++i) dw_[i] = eta_[i];
+      next_eta(step_ + 1, eta_.data());
+      for (std::size_t i = 0; i < n; ++i) dw_[i] = half * (dw_[i] + eta_[i]);
+    }
+    eta_step_ = step_ + 1;
+  }
+
   static constexpr std::uint64_t kForcingStream = 2;
   integrators::SdeBatch sde_;
   std::vector<int> variables_;
   int state_dim_, width_;
   double dt_, sqrt_dt_, amplitude_;
-  bool shared_;
+  bool red_, heun_;
+  double decay_, innovation_;  // red: a = exp(-dt / T), sqrt(1 - a^2)
+  int columns_;                // streams: 1 (shared realisation) or width
   std::vector<MemberNoise> streams_;
-  std::vector<double> dw_;  // [variables][width]
+  std::vector<double> dw_;                 // [variables][width]
+  std::vector<double> eta_, eta_next_;     // red: [variables][width]; eta_next_ scratch draws
+  std::int64_t eta_step_ = -1;             // the step eta_ holds; -1: none yet
   std::int64_t step_ = 0;
 };
 

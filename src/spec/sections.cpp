@@ -207,13 +207,28 @@ void read_integration(const Field& integration, const ModelFacts& facts, Spec& s
 }
 
 void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
-  const Map map(noise, {{"form", "amplitude", "variables", "realisation"}, {}, "key", ""});
+  const Map map(noise, {{"kind", "amplitude", "variables", "correlation_time", "realisation"},
+                        {},
+                        "key",
+                        ""});
   Noise& out = spec.noise;
   out.where = noise.where();
-  const Field form = map.required("form");
-  out.form = form.choice({"additive", "multiplicative"}, "form") == "additive"
-                 ? NoiseForm::additive
-                 : NoiseForm::multiplicative;
+  const Field kind = map.required("kind");
+  const std::string name = kind.choice({"additive", "multiplicative", "red"}, "kind");
+  out.kind = name == "additive"         ? NoiseKind::additive
+             : name == "multiplicative" ? NoiseKind::multiplicative
+                                        : NoiseKind::red;
+  if (out.kind == NoiseKind::red) {
+    const Field t = map.required("correlation_time");
+    out.correlation_time = t.number_above(0.0);
+    if (out.correlation_time < spec.integration.dt) {
+      t.fail("must be at least integration.dt (" + format_number(spec.integration.dt) +
+             ") for the steps to resolve the noise, got " + format_number(out.correlation_time));
+    }
+  } else if (map.has("correlation_time")) {
+    map.get("correlation_time").fail("applies only to kind: red (the noise here is " + name +
+                                     ")");
+  }
   const auto swept = std::find_if(spec.sweep.begin(), spec.sweep.end(), [](const SweepAxis& a) {
     return a.parameter == kNoiseAmplitudeAxis;
   });
@@ -249,14 +264,14 @@ void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
     out.shared = map.get("realisation").choice({"per-member", "shared"}, "realisation") == "shared";
   }
   if (spec.integration.method == "rk4") {
-    form.fail("RK4 takes no noise; set integration.method to euler-maruyama (Ito) or heun "
+    kind.fail("RK4 takes no noise; set integration.method to euler-maruyama (Ito) or heun "
               "(Stratonovich)");
   }
 }
 
 void check_method_features(const Spec& spec) {
   for (const SweepAxis& axis : spec.sweep) {
-    if (axis.parameter == kNoiseAmplitudeAxis && spec.noise.form == NoiseForm::none) {
+    if (axis.parameter == kNoiseAmplitudeAxis && spec.noise.kind == NoiseKind::none) {
       fail_at(spec.source_path, axis.where, "sweep",
               "noise.amplitude is swept, but the spec has no noise section");
     }

@@ -68,22 +68,27 @@ struct Integration {
 
 /// Stochastic forcing (`noise`) on the listed state variables i, with independent Wiener
 /// processes W_i and amplitude A: additive dx_i = f_i dt + A dW_i, multiplicative
-/// dx_i = f_i dt + A x_i dW_i. From t = 0 of every member's integration, spin-up included.
-enum class NoiseForm { none, additive, multiplicative };
+/// dx_i = f_i dt + A x_i dW_i, red dx_i = f_i dt + A eta_i dt with eta_i a unit-variance
+/// Ornstein-Uhlenbeck process of correlation time T (d eta = -eta/T dt + sqrt(2/T) dW_i).
+/// From t = 0 of every member's integration, spin-up included.
+enum class NoiseKind { none, additive, multiplicative, red };
 
 struct Noise {
-  NoiseForm form = NoiseForm::none;
+  NoiseKind kind = NoiseKind::none;
   double amplitude = 0.0;       // >= 0; per case when swept (kNoiseAmplitudeAxis)
   bool amplitude_swept = false;
+  double correlation_time = 0.0;  // red: T > 0
   std::vector<int> variables;   // state indices, ascending, distinct; default every variable
   std::vector<std::string> variable_names;  // the model's names of `variables`, same order
   bool shared = false;          // one realisation for every member of a case
   Location where;               // the section
 };
 
-/// "additive" or "multiplicative" (for messages, the check report and the archive).
-inline const char* noise_form_name(NoiseForm form) {
-  return form == NoiseForm::multiplicative ? "multiplicative" : "additive";
+/// "additive", "multiplicative" or "red" (for messages, the check report and the archive).
+inline const char* noise_kind_name(NoiseKind kind) {
+  return kind == NoiseKind::multiplicative ? "multiplicative"
+         : kind == NoiseKind::red          ? "red"
+                                           : "additive";
 }
 
 /// The sense in which a stochastic integration method solves a noisy equation: "Ito"

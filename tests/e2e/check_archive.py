@@ -1071,7 +1071,7 @@ def check_linear(path, matrix, direction):
           f"{exact} (largest difference {worst:.1e})")
 
 
-def check_ou_covariance(path, matrix, amplitude, duration):
+def check_ou_covariance(path, matrix, amplitude, duration, correlation_time=None):
     """The linear model with additive noise, dx = A x dt + a dW, is the multivariate
     Ornstein-Uhlenbeck process (Gardiner, Handbook of Stochastic Methods, ch. 4): its stationary
     covariance C solves A C + C A^T + a^2 I = 0 (scipy.linalg.solve_continuous_lyapunov, an
@@ -1081,9 +1081,15 @@ def check_ou_covariance(path, matrix, amplitude, duration):
     within 3 standard errors (across members) of that, for every variable; the time mean of
     every case must lie within its 95% interval of the exact mean -A^-1 f d (here f = 0: zero)
     up to 3 standard errors. MATRIX: rows separated by ';', entries by ','. AMPLITUDE `swept`:
-    each case's own, from /case/noise_amplitude."""
+    each case's own, from /case/noise_amplitude.
+
+    With CORRELATION_TIME tau (red noise, dx = A x dt + a eta dt, d eta = -eta/tau dt +
+    sqrt(2/tau) dW), (x, eta) is itself an Ornstein-Uhlenbeck process (same source) with drift
+    [[A, a I], [0, -I/tau]] and noise covariance diag(0, 2/tau I); the same formulas apply to
+    it, read on the x block."""
     import scipy.linalg
     A = np.array([[float(v) for v in row.split(",")] for row in matrix.split(";")])
+    n = len(A)
     T = float(duration)
     with h5py.File(path, "r") as f:
         v = f["member/time_variance"][()]
@@ -1094,8 +1100,14 @@ def check_ou_covariance(path, matrix, amplitude, duration):
     worst = 0.0
     for c in range(v.shape[0]):
         a = amplitudes[c]
-        C = scipy.linalg.solve_continuous_lyapunov(A, -a * a * np.eye(len(A)))
-        expected = np.diag(C) - np.diag(2.0 / T * (-np.linalg.solve(A, C)))
+        if correlation_time is None:
+            drift, q = A, a * a * np.eye(n)
+        else:
+            tau = float(correlation_time)
+            drift = np.block([[A, a * np.eye(n)], [np.zeros((n, n)), -np.eye(n) / tau]])
+            q = np.diag(np.r_[np.zeros(n), np.full(n, 2.0 / tau)])
+        C = scipy.linalg.solve_continuous_lyapunov(drift, -q)
+        expected = (np.diag(C) - np.diag(2.0 / T * (-np.linalg.solve(drift, C))))[:n]
         got = v[c].mean(axis=0)
         se = v[c].std(axis=0, ddof=1) / math.sqrt(v.shape[1])
         z = np.abs(got - expected) / se
