@@ -279,11 +279,17 @@ void print_method_and_noise(const spec::Spec& spec) {
   }
   char amplitude[64];
   std::snprintf(amplitude, sizeof amplitude, "%g", noise.amplitude);
+  const bool scheduled = spec.schedule.kind != spec::ScheduleKind::none &&
+                         spec.schedule.parameter == spec::kNoiseAmplitudeAxis;
   char kind[96];
   std::snprintf(kind, sizeof kind, "red (correlation time %g)", noise.correlation_time);
   std::printf("  noise          %s, amplitude %s, on %s (%s)\n",
               noise.kind == spec::NoiseKind::red ? kind : spec::noise_kind_name(noise.kind),
-              noise.amplitude_swept ? "swept" : amplitude, variables.c_str(),
+              scheduled ? (noise.amplitude_swept ? "scheduled, offset by the swept value"
+                                                 : "scheduled")
+              : noise.amplitude_swept ? "swept"
+                                      : amplitude,
+              variables.c_str(),
               noise.shared ? "one realisation shared by the members of a case"
                            : "a realisation per member");
 }

@@ -251,7 +251,9 @@ void write_method_and_noise(h5::Group& root, const spec::Spec& spec) {
   } else {
     root.set_attribute("noise_calculus", std::string(spec::noise_calculus(method)));
   }
-  if (!noise.amplitude_swept) root.set_attribute("noise_amplitude", noise.amplitude);
+  const bool scheduled = spec.schedule.kind != spec::ScheduleKind::none &&
+                         spec.schedule.parameter == spec::kNoiseAmplitudeAxis;
+  if (!noise.amplitude_swept && !scheduled) root.set_attribute("noise_amplitude", noise.amplitude);
   std::string variables;
   for (const std::string& name : noise.variable_names) {
     variables += (variables.empty() ? "" : " ") + name;

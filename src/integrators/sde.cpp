@@ -40,13 +40,16 @@ void SdeBatch::add_noise(const double* x, double amplitude, const double* dw, do
   }
 }
 
-void SdeBatch::step(double* x, double dt, double amplitude, const double* dw) {
+template <class Before>
+void SdeBatch::advance(double* x, double dt, const StepNoise& noise, double t0, double t1,
+                       Before before) {
   const long n = size_;
   double* __restrict f0 = f0_.data();
   double* __restrict p = predictor_.data();
+  before(t0);
   model_.rhs(x, f0, width_);
   for (long i = 0; i < n; ++i) p[i] = x[i] + dt * f0[i];
-  add_noise(x, amplitude, dw, 1.0, p);
+  add_noise(x, noise.a0, noise.dw0, 1.0, p);
   if (method_ == SdeMethod::euler_maruyama) {
     for (long i = 0; i < n; ++i) x[i] = p[i];
     return;
@@ -54,13 +57,23 @@ void SdeBatch::step(double* x, double dt, double amplitude, const double* dw) {
   // Heun: the drift and the noise are both averaged over x and the predictor. The noise of
   // the predictor is taken before x is overwritten, so the two halves see the same step.
   double* __restrict f1 = f1_.data();
+  before(t1);
   model_.rhs(p, f1, width_);
   const double half = 0.5 * dt;
-  // f1 becomes the increment: (f0 + f1) dt/2 + (g(x) + g(p)) dW/2.
+  // f1 becomes the increment: (f0 + f1) dt/2 + (a0 g(x) dw0 + a1 g(p) dw1)/2.
   for (long i = 0; i < n; ++i) f1[i] = half * (f0[i] + f1[i]);
-  add_noise(x, amplitude, dw, 0.5, f1);
-  add_noise(p, amplitude, dw, 0.5, f1);
+  add_noise(x, noise.a0, noise.dw0, 0.5, f1);
+  add_noise(p, noise.a1, noise.dw1, 0.5, f1);
   for (long i = 0; i < n; ++i) x[i] += f1[i];
+}
+
+void SdeBatch::step(double* x, double dt, const StepNoise& noise) {
+  advance(x, dt, noise, 0.0, dt, [](double) {});
+}
+
+void SdeBatch::step_at(double* x, double dt, const StepNoise& noise, double t0, double t1,
+                       Rk4Batch::StageClock& clock) {
+  advance(x, dt, noise, t0, t1, [&](double t) { clock.set_time(t); });
 }
 
 }  // namespace chaosweep::integrators

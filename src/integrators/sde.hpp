@@ -5,6 +5,7 @@
 
 #include <vector>
 
+#include "integrators/rk4.hpp"
 #include "models/model.hpp"
 
 namespace chaosweep::integrators {
@@ -23,6 +24,17 @@ enum class SdeMethod {
   heun,
 };
 
+/// The noise of one step from t0 to t1: the amplitude at each end and the increments the
+/// scheme multiplies g(x) (dw0, at t0) and g(p) (dw1, Heun's corrector, at t1) by, each
+/// [variables][width]. The predictor (and Euler-Maruyama's whole step) takes a0 g(x) dw0,
+/// Heun's corrector (a0 g(x) dw0 + a1 g(p) dw1) / 2. White noise gives dw1 = dw0 = dW;
+/// a noise that is an ordinary forcing (red noise) gives its values at t0 and t1 times dt.
+struct StepNoise {
+  double a0 = 0.0, a1 = 0.0;
+  const double* dw0 = nullptr;
+  const double* dw1 = nullptr;
+};
+
 /// One stepper for batches of `width` members of one model (SoA layout, see model.hpp),
 /// with noise on `variables` (distinct state indices). Buffers are allocated once here; the
 /// steps do not allocate. Not thread-safe. The model must outlive the stepper.
@@ -33,12 +45,28 @@ class SdeBatch {
 
   /// Advances x ([state_dim][width]) by one step dt in place, with amplitude A and the
   /// Wiener increments dw ([variables.size()][width], each N(0, dt)).
-  void step(double* x, double dt, double amplitude, const double* dw);
+  void step(double* x, double dt, double amplitude, const double* dw) {
+    step(x, dt, StepNoise{amplitude, amplitude, dw, dw});
+  }
+
+  /// One step with the noise given per end of the step (StepNoise).
+  void step(double* x, double dt, const StepNoise& noise);
+
+  /// One step from t0 to t1 (= t0 + dt, from step counts) with the same arithmetic as
+  /// step(), for a model with a time-dependent parameter: the clock is set to t0 before
+  /// f(x) and to t1 before Heun's f(p).
+  void step_at(double* x, double dt, const StepNoise& noise, double t0, double t1,
+               Rk4Batch::StageClock& clock);
 
   int width() const { return width_; }
   SdeMethod method() const { return method_; }
 
  private:
+  /// The step; before(t) runs before each right-hand side at time t.
+  template <class Before>
+  void advance(double* x, double dt, const StepNoise& noise, double t0, double t1,
+               Before before);
+
   /// g(x) dW added to out on the noisy rows: A dW, or A x dW.
   void add_noise(const double* x, double amplitude, const double* dw, double scale,
                  double* out) const;

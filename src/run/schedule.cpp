@@ -59,6 +59,7 @@ double schedule_offset(const spec::Spec& spec, const plan::Case& c) {
 models::ParameterValues parameters_at_start(const spec::Spec& spec, const plan::Case& c) {
   models::ParameterValues p = c.parameters;
   if (spec.schedule.kind == spec::ScheduleKind::none) return p;
+  if (spec.schedule.parameter == spec::kNoiseAmplitudeAxis) return p;  // not a model parameter
   const ParameterSchedule schedule(spec.schedule, schedule_offset(spec, c));
   p[spec.schedule.parameter] = {schedule.at(0.0)};
   return p;

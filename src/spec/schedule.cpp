@@ -136,6 +136,30 @@ void check_extremes(const Field& where, const models::ParameterInfo& p, ModelFac
   }
 }
 
+/// A schedule of the noise amplitude: archived (and offset by a sweep) under the sweep's
+/// name of it; every value it takes, with the sweep's offsets, at least 0.
+void read_noise_amplitude_schedule(const Field& schedule, const Map& map, Spec& spec) {
+  Schedule& out = spec.schedule;
+  out.parameter = kNoiseAmplitudeAxis;
+  for (const SweepAxis& axis : spec.sweep) {
+    if (axis.parameter == out.parameter) out.offset_by_sweep = true;
+  }
+  read_kind(map, out);
+  auto [low, high] = schedule_range(out);
+  for (const SweepAxis& axis : spec.sweep) {
+    if (axis.parameter != out.parameter) continue;
+    const auto [lo, hi] = std::minmax_element(axis.values.begin(), axis.values.end());
+    low += *lo;
+    high += *hi;
+  }
+  if (!std::isfinite(low) || !std::isfinite(high)) schedule.fail("the scheduled values overflow");
+  if (low < 0) {
+    schedule.fail("the scheduled noise amplitude reaches " + format_number(low) +
+                  (out.offset_by_sweep ? " (with the sweep's offsets)" : "") +
+                  ", below 0");
+  }
+}
+
 }  // namespace
 
 void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts, Spec& spec) {
@@ -156,6 +180,10 @@ void read_schedule(const Field& schedule, const Field& model, ModelFacts& facts,
                              : ScheduleKind::periodic;
   const Field name = map.required("parameter");
   out.parameter = name.string();
+  if (out.parameter == "noise.amplitude") {  // the stochastic forcing's (noise section)
+    read_noise_amplitude_schedule(schedule, map, spec);
+    return;
+  }
   const models::ModelInfo& info = *facts.info;
   const models::ParameterInfo* p = find_parameter(info, out.parameter);
   if (!p) {

@@ -233,7 +233,15 @@ void read_noise(const Field& noise, const ModelFacts& facts, Spec& spec) {
     return a.parameter == kNoiseAmplitudeAxis;
   });
   out.amplitude_swept = swept != spec.sweep.end();
-  if (out.amplitude_swept) {
+  const bool scheduled = spec.schedule.kind != ScheduleKind::none &&
+                         spec.schedule.parameter == kNoiseAmplitudeAxis;
+  if (scheduled) {
+    if (map.has("amplitude")) {
+      map.get("amplitude").fail("also scheduled (line " +
+                                std::to_string(spec.schedule.where.line) +
+                                "); the schedule gives it at every time, so remove one of them");
+    }
+  } else if (out.amplitude_swept) {
     if (map.has("amplitude")) {
       map.get("amplitude").fail("also swept (line " +
                                 std::to_string(swept->where.line) +
@@ -276,6 +284,11 @@ void check_method_features(const Spec& spec) {
               "noise.amplitude is swept, but the spec has no noise section");
     }
   }
+  if (spec.schedule.kind != ScheduleKind::none && spec.schedule.parameter == kNoiseAmplitudeAxis &&
+      spec.noise.kind == NoiseKind::none) {
+    fail_at(spec.source_path, spec.schedule.where, "schedule",
+            "noise.amplitude is scheduled, but the spec has no noise section");
+  }
   const std::string& method = spec.integration.method;
   if (method == "rk4") return;
   const auto refuse = [&](const std::string& what) {
@@ -283,7 +296,6 @@ void check_method_features(const Spec& spec) {
             method + " does not run " + what + " yet; use rk4 without noise for it");
   };
   if (spec.statistics.lyapunov.enabled) refuse("statistics.lyapunov");
-  if (spec.schedule.kind != ScheduleKind::none) refuse("a schedule");
 }
 
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {

@@ -1218,7 +1218,49 @@ def check_ou_autocorrelation(path, theta, spinup, max_lag):
           f"{worst:.2f} standard errors")
 
 
+def check_linear_moments(path, rate, forcing, amplitude):
+    """The one-dimensional linear model with additive noise and time-dependent coefficients,
+    dx = (-rate x + f(t)) dt + A(t) dW, has a Gaussian law whose mean and variance obey
+    dm/dt = -rate m + f(t) and dv/dt = -2 rate v + A(t)^2 exactly (Gardiner, Handbook of
+    Stochastic Methods, ch. 4), integrated here independently by scipy.integrate.solve_ivp from
+    the first snapshot's ensemble mean and variance. FORCING and AMPLITUDE are Python
+    expressions in t and `offset` (the case's value of /case/noise_amplitude, 0 without it).
+    At every later snapshot time of every case the ensemble mean must lie within 4 standard
+    errors sqrt(v/N) and the variance within 4 standard errors v sqrt(2/(N-1)) (Gaussian
+    samples)."""
+    import scipy.integrate
+    rate = float(rate)
+    f_of = eval("lambda t, offset: " + forcing)
+    a_of = eval("lambda t, offset: " + amplitude)
+    with h5py.File(path, "r") as f:
+        t = f["snapshot/time"][()]
+        mean = f["snapshot/mean"][:, :, 0]
+        var = f["snapshot/variance"][:, :, 0]
+        members = int(f.attrs["members_per_case"])
+        offsets = f["case/noise_amplitude"][()] if "case/noise_amplitude" in f else [0.0]
+    worst = 0.0
+    for c, offset in enumerate(offsets):
+        def rhs(time, y):
+            a = a_of(time, offset)
+            return [-rate * y[0] + f_of(time, offset), -2.0 * rate * y[1] + a * a]
+        # max_step resolves a step in f or A (the integrator would otherwise step over it)
+        sol = scipy.integrate.solve_ivp(rhs, (t[0], t[-1]), [mean[c, 0], var[c, 0]], t_eval=t,
+                                        rtol=1e-10, atol=1e-12, max_step=0.01)
+        m, v = sol.y
+        z_mean = np.abs(mean[c, 1:] - m[1:]) / np.sqrt(v[1:] / members)
+        z_var = np.abs(var[c, 1:] - v[1:]) / (v[1:] * math.sqrt(2.0 / (members - 1)))
+        worst = max(worst, z_mean.max(), z_var.max())
+        if (z_mean > 4).any() or (z_var > 4).any():
+            k = int(np.argmax(np.maximum(z_mean, z_var))) + 1
+            fail(f"{path}: case {c} at t = {t[k]:g}: mean {mean[c, k]:.5g} and variance "
+                 f"{var[c, k]:.5g} against the exact {m[k]:.5g} and {v[k]:.5g} "
+                 f"({z_mean[k - 1]:.1f} and {z_var[k - 1]:.1f} standard errors)")
+    print(f"ok: {path}: snapshot means and variances of {len(offsets)} case(s) follow the exact "
+          f"moment equations within {worst:.2f} standard errors")
+
+
 CHECKS = {
+    "linear-moments": check_linear_moments,
     "ou-autocorrelation": check_ou_autocorrelation,
     "noisy-twins": check_noisy_twins,
     "gbm-means": check_gbm_means,
