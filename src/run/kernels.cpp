@@ -14,6 +14,7 @@
 #include "integrators/sde.hpp"
 #include "models/lorenz96_equations.hpp"
 #include "run/batch_work.hpp"
+#include "run/forcing_noise.hpp"
 #include "run/fused_kernel.hpp"
 #include "run/member_noise.hpp"
 #include "run/ring_kernel.hpp"
@@ -149,79 +150,27 @@ class RingStepper final : public Stepper {
   std::vector<integrators::Lanes> scratch_;
 };
 
-/// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise. The Gaussian draw
-/// of noisy variable i at step n of member m is keyed by (seed, case, m, n, i)
-/// (run/member_noise.hpp); with a shared realisation the member is left out (every member
-/// draws member -1's stream). A twin kernel is given its members' numbers, so each twin draws
-/// its member's noise. The step index comes from set_step, so chunks and resumes draw the
-/// same increments, and step n runs from t0 = n dt to t1 = (n + 1) dt (run/schedule.hpp).
-///
-/// White noise (additive, multiplicative): draw n is the Wiener increment of step n.
-/// Red noise: eta_i is the unit-variance Ornstein-Uhlenbeck process of correlation time T,
-/// started from its stationary law and advanced by its exact update,
-///   eta(0) = xi_0,  eta(n + 1) = a eta(n) + sqrt(1 - a^2) xi_(n+1),  a = exp(-dt / T),
-/// with xi_n the unit Gaussian draw n. It is an ordinary forcing A eta, integrated over the
-/// step by the method's own rule: A(t0) eta(n) dt (Euler-Maruyama; Heun's predictor), the
-/// trapezoid (A(t0) eta(n) + A(t1) eta(n + 1)) dt / 2 (Heun). eta is a pure function of the
-/// draws up to step n; a kernel asked for a step its eta is not at replays the draws from
-/// step 0 (after a resume), so eta never needs to be checkpointed.
-///
-/// A schedule either varies a model parameter (the stepper's own model copy, set at t0
-/// before f(x) and at t1 before Heun's f(p), as for RK4) or the noise amplitude (A(t0) and
-/// A(t1) above; A(t0) alone for Euler-Maruyama's white noise).
+/// Euler-Maruyama or Heun (integrators/sde.hpp), with or without noise, driven by the batch's
+/// ForcingNoise (run/forcing_noise.hpp: keyed draws, red noise, a scheduled amplitude). A twin
+/// kernel is given its members' numbers, so each twin draws its member's noise. The step
+/// index comes from set_step, so chunks and resumes draw the same increments. A scheduled
+/// model parameter is set on the stepper's own model copy at t0 before f(x) and at t1 before
+/// Heun's f(p), as for RK4.
 class StochasticStepper final : public Stepper {
  public:
   StochasticStepper(const models::Model& model, const Setup& s, KernelMembers members)
       : own_model_(schedules_model(s) ? s.model_info->make(s.parameters) : nullptr),
-        sde_(own_model_ ? *own_model_ : model, s.width,
-             s.method == "heun" ? integrators::SdeMethod::heun
-                                : integrators::SdeMethod::euler_maruyama,
-             s.noise.kind == spec::NoiseKind::multiplicative ? integrators::NoiseForm::multiplicative
-                                                             : integrators::NoiseForm::additive,
-             noisy_variables(s)),
-        variables_(noisy_variables(s)),
-        state_dim_(s.state_dim),
-        width_(s.width),
-        dt_(s.dt),
-        sqrt_dt_(std::sqrt(s.dt)),
-        amplitude_(s.noise.amplitude),
-        red_(s.noise.kind == spec::NoiseKind::red),
-        decay_(red_ ? std::exp(-s.dt / s.noise.correlation_time) : 0.0),
-        innovation_(std::sqrt(1.0 - decay_ * decay_)),
-        columns_(s.noise.shared ? 1 : s.width),
-        dw_(variables_.size() * static_cast<std::size_t>(s.width)) {
-    for (int m = 0; m < columns_; ++m) {
-      const std::int64_t member =
-          s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
-      streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
-    }
-    if (red_) {
-      eta_.assign(dw_.size(), 0.0);
-      draws_.assign(dw_.size(), 0.0);
-      dw1_.assign(dw_.size(), 0.0);
-    }
+        noise_(s, s.width, members),
+        sde_(own_model_ ? *own_model_ : model, s.width, sde_method(s), sde_noise_form(s),
+             noise_.variables()),
+        dt_(s.dt) {
     if (own_model_) clock_.emplace(*own_model_, *s.schedule, s.schedule_offset);
-    if (s.schedule && !own_model_) amplitude_schedule_.emplace(*s.schedule, s.schedule_offset);
   }
   void set_step(std::int64_t step) override { step_ = step; }
   void step(double* x) override {
-    const StepTimes t = step_times(step_, dt_);
-    integrators::StepNoise noise{amplitude_, amplitude_, dw_.data(), dw_.data()};
-    if (amplitude_schedule_) {
-      noise.a0 = amplitude_schedule_->at(t.t0);
-      noise.a1 = amplitude_schedule_->at(t.t1);
-    }
-    if (red_) {
-      red_increments();
-      noise.dw1 = dw1_.data();
-    } else {
-      draw(step_, sqrt_dt_, dw_.data());
-    }
-    if (columns_ == 1) {  // a shared realisation: column 0's noise for every member
-      broadcast(dw_);
-      if (red_) broadcast(dw1_);
-    }
+    const integrators::StepNoise noise = noise_.at(step_);
     if (clock_) {
+      const StepTimes t = step_times(step_, dt_);
       sde_.step_at(x, dt_, noise, t.t0, t.t1, *clock_);
     } else {
       sde_.step(x, dt_, noise);
@@ -232,72 +181,11 @@ class StochasticStepper final : public Stepper {
   const models::Model* scheduled_model() const { return own_model_.get(); }
 
  private:
-  static bool schedules_model(const Setup& s) {
-    return s.schedule && s.schedule->parameter != spec::kNoiseAmplitudeAxis;
-  }
-  static std::vector<int> noisy_variables(const Setup& s) {
-    return s.noise.kind == spec::NoiseKind::none ? std::vector<int>{} : s.noise.variables;
-  }
-
-  /// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
-  /// columns_ columns).
-  void draw(std::int64_t step, double scale, double* out) const {
-    const std::size_t stride = static_cast<std::size_t>(width_);
-    for (int m = 0; m < columns_; ++m) {
-      wiener_increments(streams_[m], step, state_dim_, variables_, scale, out + m, stride);
-    }
-  }
-
-  /// Column 0 of every row copied to the others.
-  void broadcast(std::vector<double>& rows) const {
-    const std::size_t stride = static_cast<std::size_t>(width_);
-    for (std::size_t r = 0; r < variables_.size(); ++r) {
-      double* row = rows.data() + r * stride;
-      std::fill(row + 1, row + width_, row[0]);
-    }
-  }
-
-  /// eta <- a eta + sqrt(1 - a^2) xi_step, in place, on the first columns_ columns.
-  void next_eta(std::int64_t step) {
-    draw(step, 1.0, draws_.data());
-    const std::size_t stride = static_cast<std::size_t>(width_);
-    for (std::size_t r = 0; r < variables_.size(); ++r) {
-      for (int m = 0; m < columns_; ++m) {
-        const std::size_t i = r * stride + static_cast<std::size_t>(m);
-        eta_[i] = decay_ * eta_[i] + innovation_ * draws_[i];
-      }
-    }
-  }
-
-  /// dw_ <- eta(step_) dt, dw1_ <- eta(step_ + 1) dt; eta_ left at step_ + 1. Replays the
-  /// draws from step 0 when eta_ is not at step_ (a new kernel, or a resume).
-  void red_increments() {
-    if (eta_step_ < 0 || eta_step_ > step_) {
-      draw(0, 1.0, eta_.data());
-      eta_step_ = 0;
-    }
-    while (eta_step_ < step_) next_eta(++eta_step_);
-    const std::size_t n = dw_.size();
-    for (std::size_t i = 0; i < n; ++i) dw_[i] = eta_[i] * dt_;
-    next_eta(++eta_step_);
-    for (std::size_t i = 0; i < n; ++i) dw1_[i] = eta_[i] * dt_;
-  }
-
-  static constexpr std::uint64_t kForcingStream = 2;
   std::unique_ptr<models::Model> own_model_;  // a scheduled model parameter: the stepper's copy
+  ForcingNoise noise_;
   integrators::SdeBatch sde_;
-  std::optional<ScheduledParameter> clock_;              // a scheduled model parameter
-  std::optional<ParameterSchedule> amplitude_schedule_;  // a scheduled noise amplitude
-  std::vector<int> variables_;
-  int state_dim_, width_;
-  double dt_, sqrt_dt_, amplitude_;
-  bool red_;
-  double decay_, innovation_;  // red: a = exp(-dt / T), sqrt(1 - a^2)
-  int columns_;                // streams: 1 (shared realisation) or width
-  std::vector<MemberNoise> streams_;
-  std::vector<double> dw_;               // [variables][width]: the step's dw0
-  std::vector<double> eta_, draws_, dw1_;  // red: [variables][width]
-  std::int64_t eta_step_ = -1;           // red: the step eta_ holds; -1: none yet
+  std::optional<ScheduledParameter> clock_;  // a scheduled model parameter
+  double dt_;
   std::int64_t step_ = 0;
 };
 

@@ -1,0 +1,122 @@
+// The stochastic forcing of a batch, step by step; see forcing_noise.hpp.
+#include "run/forcing_noise.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "run/batch_work.hpp"
+
+namespace chaosweep::run {
+namespace {
+
+constexpr std::uint64_t kForcingStream = 2;
+
+std::vector<int> noisy_variables(const Setup& s) {
+  return s.noise.kind == spec::NoiseKind::none ? std::vector<int>{} : s.noise.variables;
+}
+
+}  // namespace
+
+integrators::SdeMethod sde_method(const Setup& s) {
+  return s.method == "heun" ? integrators::SdeMethod::heun
+                            : integrators::SdeMethod::euler_maruyama;
+}
+
+integrators::NoiseForm sde_noise_form(const Setup& s) {
+  return s.noise.kind == spec::NoiseKind::multiplicative ? integrators::NoiseForm::multiplicative
+                                                         : integrators::NoiseForm::additive;
+}
+
+bool schedules_model(const Setup& s) {
+  return s.schedule && s.schedule->parameter != spec::kNoiseAmplitudeAxis;
+}
+
+ForcingNoise::ForcingNoise(const Setup& s, int width, KernelMembers members)
+    : variables_(noisy_variables(s)),
+      state_dim_(s.state_dim),
+      width_(width),
+      dt_(s.dt),
+      sqrt_dt_(std::sqrt(s.dt)),
+      amplitude_(s.noise.amplitude),
+      red_(s.noise.kind == spec::NoiseKind::red),
+      decay_(red_ ? std::exp(-s.dt / s.noise.correlation_time) : 0.0),
+      innovation_(std::sqrt(1.0 - decay_ * decay_)),
+      columns_(s.noise.shared ? 1 : width),
+      dw_(variables_.size() * static_cast<std::size_t>(width)) {
+  for (int m = 0; m < columns_; ++m) {
+    const std::int64_t member = s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
+    streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
+  }
+  if (red_) {
+    eta_.assign(dw_.size(), 0.0);
+    draws_.assign(dw_.size(), 0.0);
+    dw1_.assign(dw_.size(), 0.0);
+  }
+  if (s.schedule && !schedules_model(s)) amplitude_schedule_.emplace(*s.schedule, s.schedule_offset);
+}
+
+integrators::StepNoise ForcingNoise::at(std::int64_t step) {
+  integrators::StepNoise noise{amplitude_, amplitude_, dw_.data(), dw_.data()};
+  if (amplitude_schedule_) {
+    const StepTimes t = step_times(step, dt_);
+    noise.a0 = amplitude_schedule_->at(t.t0);
+    noise.a1 = amplitude_schedule_->at(t.t1);
+  }
+  if (red_) {
+    red_increments(step);
+    noise.dw1 = dw1_.data();
+  } else {
+    draw(step, sqrt_dt_, dw_.data());
+  }
+  if (columns_ == 1) {  // a shared realisation: column 0's noise for every member
+    broadcast(dw_);
+    if (red_) broadcast(dw1_);
+  }
+  return noise;
+}
+
+/// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
+/// columns_ columns).
+void ForcingNoise::draw(std::int64_t step, double scale, double* out) const {
+  const std::size_t stride = static_cast<std::size_t>(width_);
+  for (int m = 0; m < columns_; ++m) {
+    wiener_increments(streams_[m], step, state_dim_, variables_, scale, out + m, stride);
+  }
+}
+
+/// Column 0 of every row copied to the others.
+void ForcingNoise::broadcast(std::vector<double>& rows) const {
+  const std::size_t stride = static_cast<std::size_t>(width_);
+  for (std::size_t r = 0; r < variables_.size(); ++r) {
+    double* row = rows.data() + r * stride;
+    std::fill(row + 1, row + width_, row[0]);
+  }
+}
+
+/// eta <- a eta + sqrt(1 - a^2) xi_step, in place, on the first columns_ columns.
+void ForcingNoise::next_eta(std::int64_t step) {
+  draw(step, 1.0, draws_.data());
+  const std::size_t stride = static_cast<std::size_t>(width_);
+  for (std::size_t r = 0; r < variables_.size(); ++r) {
+    for (int m = 0; m < columns_; ++m) {
+      const std::size_t i = r * stride + static_cast<std::size_t>(m);
+      eta_[i] = decay_ * eta_[i] + innovation_ * draws_[i];
+    }
+  }
+}
+
+/// dw_ <- eta(step) dt, dw1_ <- eta(step + 1) dt; eta_ left at step + 1. Replays the draws
+/// from step 0 when eta_ is not at `step` (a new source, or a resume).
+void ForcingNoise::red_increments(std::int64_t step) {
+  if (eta_step_ < 0 || eta_step_ > step) {
+    draw(0, 1.0, eta_.data());
+    eta_step_ = 0;
+  }
+  while (eta_step_ < step) next_eta(++eta_step_);
+  const std::size_t n = dw_.size();
+  for (std::size_t i = 0; i < n; ++i) dw_[i] = eta_[i] * dt_;
+  next_eta(++eta_step_);
+  for (std::size_t i = 0; i < n; ++i) dw1_[i] = eta_[i] * dt_;
+}
+
+}  // namespace chaosweep::run
