@@ -2,6 +2,7 @@
 // every loop runs over whole rows, so a member's arithmetic does not depend on its column.
 #include "integrators/sde.hpp"
 
+#include <algorithm>
 #include <stdexcept>
 #include <utility>
 
@@ -65,6 +66,58 @@ void SdeBatch::advance(double* x, double dt, const StepNoise& noise, double t0, 
   add_noise(x, noise.a0, noise.dw0, 0.5, f1);
   add_noise(p, noise.a1, noise.dw1, 0.5, f1);
   for (long i = 0; i < n; ++i) x[i] += f1[i];
+}
+
+template <class Before>
+void SdeBatch::tangent(const double* x, const double* p, double* v, double dt,
+                       const StepNoise& noise, double t0, double t1, Before before) {
+  const long n = size_;
+  const bool multiplicative = form_ == NoiseForm::multiplicative;
+  double* __restrict d0 = d0_.data();
+  double* __restrict dp = dp_.data();
+  before(t0);
+  model_.tangent(x, v, d0, width_);
+  for (long i = 0; i < n; ++i) dp[i] = v[i] + dt * d0[i];
+  if (multiplicative) add_noise(v, noise.a0, noise.dw0, 1.0, dp);
+  if (method_ == SdeMethod::euler_maruyama) {
+    for (long i = 0; i < n; ++i) v[i] = dp[i];
+    return;
+  }
+  double* __restrict d1 = d1_.data();
+  before(t1);
+  model_.tangent(p, dp, d1, width_);
+  const double half = 0.5 * dt;
+  for (long i = 0; i < n; ++i) d1[i] = half * (d0[i] + d1[i]);
+  if (multiplicative) {
+    add_noise(v, noise.a0, noise.dw0, 0.5, d1);
+    add_noise(dp, noise.a1, noise.dw1, 0.5, d1);
+  }
+  for (long i = 0; i < n; ++i) v[i] += d1[i];
+}
+
+void SdeBatch::step_tangent(double* x, double* tangents, int vectors, double dt,
+                            const StepNoise& noise, double t0, double t1,
+                            Rk4Batch::StageClock* clock) {
+  if (!model_.has_tangent()) {
+    throw std::invalid_argument("SDE tangent step: the model has no tangent-linear product");
+  }
+  const long n = size_;
+  for (auto* buffer : {&start_, &d0_, &d1_, &dp_}) {
+    if (static_cast<long>(buffer->size()) != n) buffer->assign(static_cast<std::size_t>(n), 0.0);
+  }
+  std::copy(x, x + n, start_.data());
+  // The state first, with step()'s arithmetic; its predictor stays in predictor_.
+  if (clock != nullptr) {
+    step_at(x, dt, noise, t0, t1, *clock);
+  } else {
+    step(x, dt, noise);
+  }
+  const auto before = [&](double t) {
+    if (clock != nullptr) clock->set_time(t);
+  };
+  for (int j = 0; j < vectors; ++j) {
+    tangent(start_.data(), predictor_.data(), tangents + j * n, dt, noise, t0, t1, before);
+  }
 }
 
 void SdeBatch::step(double* x, double dt, const StepNoise& noise) {

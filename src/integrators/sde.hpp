@@ -58,6 +58,17 @@ class SdeBatch {
   void step_at(double* x, double dt, const StepNoise& noise, double t0, double t1,
                Rk4Batch::StageClock& clock);
 
+  /// step() together with the tangent of the step's map (the noise fixed) for `vectors`
+  /// tangent vectors (tangents: [vectors][state_dim][width], vector j at
+  /// tangents + j * state_dim * width); the state gets bitwise what step() gives it. With x
+  /// the state at the start, p the predictor, J the model's tangent(), G v the noise's
+  /// linearisation (0 for additive noise, v on the noisy rows for multiplicative noise):
+  ///   dp = v + J(x) v dt + a0 G v dw0                        (Euler-Maruyama: v <- dp)
+  ///   v <- v + (J(x) v + J(p) dp) dt/2 + (a0 G v dw0 + a1 G dp dw1)/2          (Heun)
+  /// With a clock (non-null) it is set to t0 before J(x) and to t1 before J(p), for each vector.
+  void step_tangent(double* x, double* tangents, int vectors, double dt, const StepNoise& noise,
+                    double t0, double t1, Rk4Batch::StageClock* clock);
+
   int width() const { return width_; }
   SdeMethod method() const { return method_; }
 
@@ -77,7 +88,13 @@ class SdeBatch {
   SdeMethod method_;
   NoiseForm form_;
   std::vector<int> variables_;
+  /// The tangent step of one vector v in place, x and p the step's start and predictor.
+  template <class Before>
+  void tangent(const double* x, const double* p, double* v, double dt, const StepNoise& noise,
+               double t0, double t1, Before before);
+
   std::vector<double> f0_, f1_, predictor_;  // each [state_dim][width]
+  std::vector<double> start_, d0_, d1_, dp_;   // tangent steps: each [state_dim][width]
 };
 
 }  // namespace chaosweep::integrators

@@ -69,6 +69,46 @@ void resolve_regimes(const spec::Regimes& r, const plan::Plan& plan, const model
   }
 }
 
+
+/// Base state reached on the attractor: the model's default initial state integrated for
+/// `steps` steps of dt (the plan's attractor spin-up) with the batch stepper at full width (every column identical), so the
+/// result is the same on every rank that computes it.
+std::vector<double> attractor_state(const models::Model& model, int width, std::int64_t steps,
+                                    double dt) {
+  const int d = model.state_dim();
+  const std::vector<double> start = model.default_initial_state();
+  std::vector<double> x(static_cast<std::size_t>(d) * width);
+  for (int i = 0; i < d; ++i) {
+    for (int m = 0; m < width; ++m) x[static_cast<std::size_t>(i) * width + m] = start[i];
+  }
+  integrators::Rk4Batch stepper(model, width);
+  for (std::int64_t k = 0; k < steps; ++k) stepper.step(x.data(), dt);
+  std::vector<double> base(static_cast<std::size_t>(d));
+  for (int i = 0; i < d; ++i) {
+    base[i] = x[static_cast<std::size_t>(i) * width];
+    if (!std::isfinite(base[i])) {
+      throw SpinupDiverged("the spin-up to the attractor (" + std::to_string(steps) +
+                           " steps) ended on a non-finite state");
+    }
+  }
+  return base;
+}
+
+std::vector<double> perturbed_state(const spec::Ensemble& ensemble,
+                                    const std::vector<double>& base, std::int64_t case_index,
+                                    std::int64_t member) {
+  const MemberNoise noise(ensemble.seed, case_index, member);
+  const double scale = ensemble.perturbation.scale;
+  const bool gaussian = ensemble.perturbation.distribution == spec::Distribution::gaussian;
+  std::vector<double> x(base.size());
+  for (std::size_t i = 0; i < base.size(); ++i) {
+    x[i] = base[i] + scale * (gaussian ? noise.gaussian(i) : noise.uniform(i));
+  }
+  return x;
+}
+
+}  // namespace
+
 Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
                  const models::Model& model) {
   Setup s;
@@ -121,45 +161,6 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   s.twins.seed = spec.ensemble.seed;
   return s;
 }
-
-/// Base state reached on the attractor: the model's default initial state integrated for
-/// `steps` steps of dt (the plan's attractor spin-up) with the batch stepper at full width (every column identical), so the
-/// result is the same on every rank that computes it.
-std::vector<double> attractor_state(const models::Model& model, int width, std::int64_t steps,
-                                    double dt) {
-  const int d = model.state_dim();
-  const std::vector<double> start = model.default_initial_state();
-  std::vector<double> x(static_cast<std::size_t>(d) * width);
-  for (int i = 0; i < d; ++i) {
-    for (int m = 0; m < width; ++m) x[static_cast<std::size_t>(i) * width + m] = start[i];
-  }
-  integrators::Rk4Batch stepper(model, width);
-  for (std::int64_t k = 0; k < steps; ++k) stepper.step(x.data(), dt);
-  std::vector<double> base(static_cast<std::size_t>(d));
-  for (int i = 0; i < d; ++i) {
-    base[i] = x[static_cast<std::size_t>(i) * width];
-    if (!std::isfinite(base[i])) {
-      throw SpinupDiverged("the spin-up to the attractor (" + std::to_string(steps) +
-                           " steps) ended on a non-finite state");
-    }
-  }
-  return base;
-}
-
-std::vector<double> perturbed_state(const spec::Ensemble& ensemble,
-                                    const std::vector<double>& base, std::int64_t case_index,
-                                    std::int64_t member) {
-  const MemberNoise noise(ensemble.seed, case_index, member);
-  const double scale = ensemble.perturbation.scale;
-  const bool gaussian = ensemble.perturbation.distribution == spec::Distribution::gaussian;
-  std::vector<double> x(base.size());
-  for (std::size_t i = 0; i < base.size(); ++i) {
-    x[i] = base[i] + scale * (gaussian ? noise.gaussian(i) : noise.uniform(i));
-  }
-  return x;
-}
-
-}  // namespace
 
 std::vector<double> member_initial_state(const spec::Spec& spec, const std::vector<double>& base,
                                          std::int64_t case_index, std::int64_t member) {

@@ -53,6 +53,11 @@ struct Setup {
   std::int64_t case_index = 0;
 };
 
+/// The case's Setup: the spec's choices resolved against the model (observable indices,
+/// regimes, schedule offset, noise amplitude of the case, kernel).
+Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c,
+                 const models::Model& model);
+
 /// One batch from its initial states to its BatchResult, advanced in chunks of any size.
 /// The state is a full-width SoA array [state_dim][width]; columns count .. width-1 are padding
 /// copies of the first member. The CaseRunner's Setup, model and base state must outlive it.

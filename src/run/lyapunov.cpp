@@ -9,7 +9,10 @@
 #include <optional>
 #include <stdexcept>
 
+#include "integrators/sde.hpp"
 #include "integrators/tangent_rk4.hpp"
+#include "run/batch_work.hpp"
+#include "run/forcing_noise.hpp"
 #include "run/schedule.hpp"
 #include "stats/lyapunov.hpp"
 
@@ -25,11 +28,25 @@ constexpr int kWidth = 8;
 /// (integrators/tangent_rk4.hpp) advances both.
 class Batch {
  public:
-  Batch(const models::Model& model, int k, double dt)
-      : stepper_(model, kWidth, k), n_(model.state_dim()), k_(k),
-        size_(static_cast<long>(n_) * kWidth), dt_(dt), x_(size_),
-        tangents_(static_cast<long>(k) * size_), column_(static_cast<long>(n_) * k), logs_(k),
-        dead_(kWidth, false) {}
+  /// RK4, or with `stochastic` (a case's Setup with a stochastic method) its scheme, whose
+  /// forcing begin() keys by the batch's members.
+  Batch(const models::Model& model, int k, double dt, const Setup* stochastic)
+      : n_(model.state_dim()), k_(k), size_(static_cast<long>(n_) * kWidth), dt_(dt),
+        x_(size_), tangents_(static_cast<long>(k) * size_), column_(static_cast<long>(n_) * k),
+        logs_(k), dead_(kWidth, false), stochastic_(stochastic) {
+    if (stochastic) {
+      sde_.emplace(model, kWidth, sde_method(*stochastic), sde_noise_form(*stochastic),
+                   ForcingNoise(*stochastic, kWidth, {}).variables());
+    } else {
+      rk4_.emplace(model, kWidth, k);
+    }
+  }
+
+  /// A new batch of members (first .. first + count - 1; the padding columns draw the first
+  /// member's forcing).
+  void begin(std::int64_t first, int count) {
+    if (stochastic_) noise_.emplace(*stochastic_, kWidth, KernelMembers{first, count});
+  }
 
   /// Member m's start state; the tangent vectors become the first k unit vectors.
   void load(int m, const double* state) {
@@ -45,13 +62,21 @@ class Batch {
   /// this is step n of the run (from n dt to (n + 1) dt, run/schedule.hpp step_times): the
   /// clock is set to each stage's time before that stage's rhs and tangent products, the times
   /// Rk4Batch::step_at gives, so the state follows the members' own scheduled integration.
+  /// Under stochastic forcing, the member's own forcing of step n (run/forcing_noise.hpp) and
+  /// the scheme's step with its tangent (integrators::SdeBatch::step_tangent), so the state
+  /// follows the member's own noisy trajectory bitwise and the exponents are those of the
+  /// random dynamical system along that realisation.
   void step(std::int64_t n, integrators::Rk4Batch::StageClock* clock) {
-    if (clock == nullptr) {
-      stepper_.step(x_.data(), tangents_.data(), dt_);
+    const StepTimes t = step_times(n, dt_);
+    if (sde_) {
+      sde_->step_tangent(x_.data(), tangents_.data(), k_, dt_, noise_->at(n), t.t0, t.t1, clock);
       return;
     }
-    const StepTimes t = step_times(n, dt_);
-    stepper_.step_at(x_.data(), tangents_.data(), dt_, t.t0, t.t1, *clock);
+    if (clock == nullptr) {
+      rk4_->step(x_.data(), tangents_.data(), dt_);
+      return;
+    }
+    rk4_->step_at(x_.data(), tangents_.data(), dt_, t.t0, t.t1, *clock);
   }
 
   /// QR re-orthonormalisation of every live member's tangent vectors; adds log|R_ii| to
@@ -90,12 +115,15 @@ class Batch {
   bool dead(int m) const { return dead_[m]; }
 
  private:
-  integrators::TangentRk4Batch stepper_;
   int n_, k_;
   long size_;
   double dt_;
   std::vector<double> x_, tangents_, column_, logs_;
   std::vector<bool> dead_;
+  const Setup* stochastic_;
+  std::optional<integrators::TangentRk4Batch> rk4_;
+  std::optional<integrators::SdeBatch> sde_;
+  std::optional<ForcingNoise> noise_;  // stochastic: the current batch's forcing
 };
 
 }  // namespace
@@ -104,7 +132,8 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
                                        const std::vector<double>& initial, int count, double dt,
                                        std::int64_t spinup_steps, std::int64_t steps,
                                        int exponents, std::int64_t renormalise_every_steps,
-                                       integrators::Rk4Batch::StageClock* clock) {
+                                       integrators::Rk4Batch::StageClock* clock,
+                                       const Setup* stochastic, std::int64_t first_member) {
   const int n = model.state_dim();
   if (!model.has_tangent()) {
     throw std::invalid_argument("lyapunov_exponents: the model has no tangent-linear product");
@@ -128,10 +157,11 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
   std::vector<double> result(static_cast<std::size_t>(count) * k, nan);
   const double time = static_cast<double>(steps) * dt;
 
-  Batch batch(model, k, dt);
+  Batch batch(model, k, dt, stochastic);
   std::vector<double> sums(static_cast<std::size_t>(kWidth) * k);
   for (int first = 0; first < count; first += kWidth) {
     const int live = std::min(kWidth, count - first);
+    batch.begin(first_member + first, live);
     for (int m = 0; m < kWidth; ++m) {
       const int member = first + std::min(m, live - 1);  // padding: copies of the last member
       batch.load(m, initial.data() + static_cast<std::size_t>(member) * n);
@@ -171,14 +201,18 @@ void add_lyapunov(const spec::Spec& spec, const plan::Plan& plan, BatchResult& r
   const plan::Case& c = plan.cases[static_cast<std::size_t>(r.case_index)];
   const std::unique_ptr<models::Model> model = info->make(parameters_at_start(spec, c));
   std::optional<ScheduledParameter> clock;
-  if (spec.schedule.kind != spec::ScheduleKind::none) {
+  if (spec.schedule.kind != spec::ScheduleKind::none &&
+      spec.schedule.parameter != spec::kNoiseAmplitudeAxis) {  // the amplitude: ForcingNoise
     clock.emplace(*model, spec.schedule, schedule_offset(spec, c));
   }
+  std::optional<Setup> stochastic;
+  if (spec.integration.method != "rk4") stochastic.emplace(make_setup(spec, plan, c, *model));
   const double dt = spec.integration.dt;
   const std::int64_t every = plan.lyapunov_every_steps;
   r.lyapunov = lyapunov_exponents(*model, r.initial_state, r.count, dt, plan.spinup_steps,
                                    plan.accumulate_steps, l.exponents, every,
-                                   clock ? &*clock : nullptr);
+                                   clock ? &*clock : nullptr, stochastic ? &*stochastic : nullptr,
+                                   r.first_member);
   for (int m = 0; m < r.count; ++m) {
     if (r.status[static_cast<std::size_t>(m)] == kValid) continue;
     for (int k = 0; k < l.exponents; ++k) {

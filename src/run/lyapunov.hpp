@@ -15,6 +15,8 @@
 
 namespace chaosweep::run {
 
+struct Setup;
+
 /// The k leading Lyapunov exponents of each of `count` members.
 ///
 ///   model     a model with has_tangent() true (else std::invalid_argument)
@@ -36,6 +38,13 @@ namespace chaosweep::run {
 ///             of the members' scheduled integration, and the tangent vectors its linearisation.
 ///             The exponents are then finite-time averages of the growth rates over the
 ///             accumulation window of this time-dependent system.
+///   stochastic  null for RK4; else the case's Setup with a stochastic method (euler-maruyama
+///             or heun): each member is integrated by that scheme under its own forcing
+///             (run/forcing_noise.hpp, member first_member + m of the case), the tangent
+///             vectors by the tangent of the scheme's map with the noise fixed
+///             (integrators::SdeBatch::step_tangent): the exponents of the random dynamical
+///             system along the member's realisation. The clock then sets a scheduled model
+///             parameter at the scheme's stage times.
 ///
 /// Returns [count][k], member-major, per member in descending order: exponent i is the sum of
 /// log|R_ii| over the accumulation divided by steps * dt. The tangent vectors start as the
@@ -48,7 +57,9 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
                                        const std::vector<double>& initial, int count, double dt,
                                        std::int64_t spinup_steps, std::int64_t steps,
                                        int exponents, std::int64_t renormalise_every_steps,
-                                       integrators::Rk4Batch::StageClock* clock = nullptr);
+                                       integrators::Rk4Batch::StageClock* clock = nullptr,
+                                       const Setup* stochastic = nullptr,
+                                       std::int64_t first_member = 0);
 
 /// The leading Lyapunov exponents of a finished batch's members (statistics.lyapunov; nothing
 /// when not requested), from their initial states: a second integration with tangent vectors

@@ -289,13 +289,6 @@ void check_method_features(const Spec& spec) {
     fail_at(spec.source_path, spec.schedule.where, "schedule",
             "noise.amplitude is scheduled, but the spec has no noise section");
   }
-  const std::string& method = spec.integration.method;
-  if (method == "rk4") return;
-  const auto refuse = [&](const std::string& what) {
-    fail_at(spec.source_path, spec.integration.method_where, "integration.method",
-            method + " does not run " + what + " yet; use rk4 without noise for it");
-  };
-  if (spec.statistics.lyapunov.enabled) refuse("statistics.lyapunov");
 }
 
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
