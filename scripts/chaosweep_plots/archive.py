@@ -62,6 +62,9 @@ class Archive:
             self.regime = _get(f, "ensemble/regime_fraction")
             self.regime_ci = _get(f, "ensemble/regime_fraction_ci95")
             self.member_regime = _get(f, "member/regime_fraction")
+            self.residence = _get(f, "ensemble/regime_mean_residence")
+            self.residence_ci = _get(f, "ensemble/regime_mean_residence_ci95")
+            self.member_residence = _get(f, "member/regime_mean_residence")
 
             self.hist_counts = _get(f, "histogram/counts")
             self.hist_edges = _get(f, "histogram/edges")

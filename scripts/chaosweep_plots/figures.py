@@ -294,44 +294,45 @@ def fig_local_slope(arch, outdir):
 
 # --- regime fractions -----------------------------------------------------------------------
 
-def fig_regimes(arch, outdir):
-    if arch.regime is None:
-        return [Skip("regimes", "the campaign defines no regimes (statistics.regimes)")]
-    if not arch.axes:
-        return [Skip("regimes", "the campaign has no swept parameter")]
+def _per_regime(arch, outdir, stem, values, ci, members, what, panel_title, ylabel, caption,
+                logy=False):
+    """A figure per swept axis of a per-regime ensemble estimate (values and ci [case][regime],
+    members [case][member][regime]) against the axis: one panel with a line per regime, or with
+    more axes a panel per regime and a line per group of the other axes."""
     out = []
     mask = arch.valid_mask
     for axis in arch.axes:
         groups, total = _groups(arch, axis)
         x = arch.axis_values[axis]
         jitter = _jitter(arch, axis)
-        fig, title = _new_figure(arch, f"regime fractions against {axis}")
+        fig, title = _new_figure(arch, f"{what} against {axis}")
         if len(groups) == 1:
             # One panel: a line per regime.
             ax = fig.subplots()
             cases = groups[0][1]
             colors = _colors(len(arch.regimes))
             for k, (label, color) in enumerate(zip(arch.regimes, colors)):
-                _members(ax, x[cases], arch.member_regime[cases, :, k], mask[cases],
-                         jitter[cases], color)
-                ci = arch.regime_ci[cases, k]
-                _band(ax, x[cases], arch.regime[cases, k], ci[:, 0], ci[:, 1], color, label)
+                if members is not None:
+                    _members(ax, x[cases], members[cases, :, k], mask[cases], jitter[cases], color)
+                band = ci[cases, k]
+                _band(ax, x[cases], values[cases, k], band[:, 0], band[:, 1], color, label)
             panels = [ax]
             ax.legend(handles=_standard_handles(fit=False) + [
                 Line2D([], [], color=c, marker="o", label=f"regime {lab}")
                 for lab, c in zip(arch.regimes, colors)], loc="best")
-            ax.set_title("share of time in each regime")
+            ax.set_title(panel_title)
         else:
             # A panel per regime: a line per group of the other axes.
             regs = arch.regimes[:PANELS_PER_PAGE]
-            axes = fig.subplots(*_grid(len(regs)), squeeze=False)
+            axes = fig.subplots(*_grid(len(regs)), squeeze=False, sharey=logy)
             colors = _colors(len(groups))
             for ax, k in zip(axes.flat, range(len(regs))):
                 for (label, cases), color in zip(groups, colors):
-                    _members(ax, x[cases], arch.member_regime[cases, :, k], mask[cases],
-                             jitter[cases], color)
-                    ci = arch.regime_ci[cases, k]
-                    _band(ax, x[cases], arch.regime[cases, k], ci[:, 0], ci[:, 1], color, label)
+                    if members is not None:
+                        _members(ax, x[cases], members[cases, :, k], mask[cases], jitter[cases],
+                                 color)
+                    band = ci[cases, k]
+                    _band(ax, x[cases], values[cases, k], band[:, 0], band[:, 1], color, label)
                 ax.set_title(f"regime {regs[k]}")
             _hide_unused(axes, len(regs))
             panels = list(axes.flat[:len(regs)])
@@ -340,13 +341,44 @@ def fig_regimes(arch, outdir):
                 for (lab, _), c in zip(groups, colors)], loc="best")
         for ax in panels:
             ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
-            ax.set_ylabel("share of time in the regime (fraction, 0-1)")
+            ax.set_ylabel(ylabel)
+            if logy:
+                ax.set_yscale("log")
             ax.grid(alpha=0.3)
-        caption = (f"Ensemble-mean share of time spent in each regime against {axis}, with the "
-                   f"95% confidence interval of the mean; faint points are the individual "
-                   f"members.")
-        out.append(_save(fig, outdir, f"regimes-{axis}", title, caption))
+        out.append(_save(fig, outdir, f"{stem}-{axis}", title, caption(axis)))
     return out
+
+
+def fig_regimes(arch, outdir):
+    if arch.regime is None:
+        return [Skip("regimes", "the campaign defines no regimes (statistics.regimes)")]
+    if not arch.axes:
+        return [Skip("regimes", "the campaign has no swept parameter")]
+    return _per_regime(
+        arch, outdir, "regimes", arch.regime, arch.regime_ci, arch.member_regime,
+        "regime fractions", "share of time in each regime",
+        "share of time in the regime (fraction, 0-1)",
+        lambda axis: (f"Ensemble-mean share of time spent in each regime against {axis}, with "
+                      f"the 95% confidence interval of the mean; faint points are the "
+                      f"individual members."))
+
+
+def fig_residence(arch, outdir):
+    if arch.residence is None:
+        return [Skip("residence", "the campaign defines no regimes (statistics.regimes)")]
+    if not arch.axes:
+        return [Skip("residence", "the campaign has no swept parameter")]
+    return _per_regime(
+        arch, outdir, "residence", arch.residence, arch.residence_ci, arch.member_residence,
+        "mean residence time", "mean length of a stay in each regime",
+        "mean residence time (model time units, log scale)",
+        lambda axis: (f"Ensemble mean of the members' mean residence time (the mean length of "
+                      f"an uninterrupted stay) in each regime against {axis}, with the 95% "
+                      f"confidence interval of the mean, over the members that visited the "
+                      f"regime; faint points are the individual members. Stays cut by the "
+                      f"end of the window count as they are, so residence times comparable "
+                      f"to the window are underestimated."),
+        logy=True)
 
 
 # --- histogram ------------------------------------------------------------------------------
@@ -682,6 +714,7 @@ def all_figures(arch, outdir, window):
     results += fig_response(arch, outdir)
     results += fig_local_slope(arch, outdir)
     results += fig_regimes(arch, outdir)
+    results += fig_residence(arch, outdir)
     results += fig_heatmap(arch, outdir)
     results += fig_histogram(arch, outdir)
     results += fig_trajectories(arch, outdir, window)

@@ -27,7 +27,8 @@
 
 namespace chaosweep::checkpoint {
 
-inline constexpr std::uint32_t kSegmentVersion = 2;  // 2: records carry the batch summary
+// 2: records carry the batch summary; 3: the summary estimates the regimes' mean residence
+inline constexpr std::uint32_t kSegmentVersion = 3;
 inline constexpr std::size_t kSegmentHeaderSize = 224;
 
 /// A record whose header is sound: what it holds and where its payload lies.

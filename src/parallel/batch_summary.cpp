@@ -15,7 +15,8 @@ namespace {
 
 constexpr std::size_t kMomentWidth = stats::Moments::kPacked;
 
-/// Per estimated column, the moments across the batch's valid members.
+/// Per estimated column, the moments across the batch's valid members whose value is finite
+/// (a regime's mean residence is NaN for a member that never visited it).
 void add_estimated(const std::vector<Estimated>& estimated, const run::BatchResult& b,
                    std::vector<double>& out) {
   for (const Estimated& e : estimated) {
@@ -23,7 +24,8 @@ void add_estimated(const std::vector<Estimated>& estimated, const run::BatchResu
     for (std::size_t column = 0; column < e.width; ++column) {
       stats::Moments m;
       for (int i = 0; i < b.count; ++i) {
-        if (b.status[i] == run::kValid) m.add(values[static_cast<std::size_t>(i) * e.width + column]);
+        const double v = values[static_cast<std::size_t>(i) * e.width + column];
+        if (b.status[i] == run::kValid && std::isfinite(v)) m.add(v);
       }
       m.append_to(out);
     }

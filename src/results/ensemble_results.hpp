@@ -28,6 +28,9 @@ struct EnsembleResults {
   std::vector<double> regime_fraction;
   std::vector<double> regime_fraction_std;
   std::vector<double> regime_fraction_ci95;
+  std::vector<double> regime_mean_residence;
+  std::vector<double> regime_mean_residence_std;
+  std::vector<double> regime_mean_residence_ci95;
   std::vector<double> lyapunov;
   std::vector<double> lyapunov_std;
   std::vector<double> lyapunov_ci95;

@@ -6,7 +6,7 @@ checksum is recomputed here with hashlib, independently of chaosweep:
 
     offset  size
          0     8  magic b"CWSEGREC"
-         8     4  u32 format version (2)
+         8     4  u32 format version (3)
         12     4  u32 zero
         16     8  i64 batch index
         24     8  u64 payload length L
@@ -49,7 +49,7 @@ def records(path):
         version, zero, batch, length = struct.unpack_from("<IIqQ", header, 8)
         if hashlib.sha256(header[:160]).hexdigest().encode() != header[160:224]:
             raise Unsound(f"{path}: header checksum wrong at byte {at}")
-        if version != 2 or zero != 0:
+        if version != 3 or zero != 0:
             raise Unsound(f"{path}: version {version}, reserved {zero} at byte {at}")
         payload = data[at + HEADER:at + HEADER + length]
         if len(payload) != length:

@@ -1303,7 +1303,41 @@ def check_linear_lyapunov(path, matrix, dt, method):
     print(f"ok: {path}: every member's exponents are the {method} map's {exact} within {worst:.1e}")
 
 
+def check_residence_estimates(path):
+    """The ensemble mean residence time in each regime is the mean of the members' own mean
+    residence times over the valid members that visited the regime (a member that never did
+    holds NaN), its std the sample standard deviation (n-1) and its interval
+    mean +- t(0.975, n-1) std / sqrt(n), recomputed with numpy and scipy's Student t from the
+    member datasets: mean and std to 1e-9 relative (the merge tree sums in another order), the
+    bounds to 1e-8 of the half-width (GSL's t quantile, which chaosweep uses, agrees with
+    scipy's to about 5e-9 relative)."""
+    from scipy.stats import t as student
+    with h5py.File(path, "r") as f:
+        member = f["member/regime_mean_residence"][()]
+        status = f["member/status"][()]
+        mean = f["ensemble/regime_mean_residence"][()]
+        std = f["ensemble/regime_mean_residence_std"][()]
+        ci = f["ensemble/regime_mean_residence_ci95"][()]
+    skipped = 0
+    for c in range(member.shape[0]):
+        for k in range(member.shape[2]):
+            v = member[c, :, k][(status[c] == 0) & np.isfinite(member[c, :, k])]
+            skipped += int(((status[c] == 0) & ~np.isfinite(member[c, :, k])).sum())
+            if len(v) < 2:
+                continue
+            m, s = v.mean(), v.std(ddof=1)
+            half = student.ppf(0.975, len(v) - 1) * s / math.sqrt(len(v))
+            got = np.array([mean[c, k], std[c, k], ci[c, k, 0], ci[c, k, 1]])
+            want = np.array([m, s, m - half, m + half])
+            if not (np.allclose(got[:2], want[:2], rtol=1e-9, atol=0)
+                    and np.all(np.abs(got[2:] - want[2:]) <= 1e-8 * half)):
+                fail(f"{path}: case {c} regime {k}: residence estimate {got} is not {want}")
+    print(f"ok: {path}: residence estimates match the members' ({skipped} member-regimes never "
+          f"visited, left out)")
+
+
 CHECKS = {
+    "residence-estimates": check_residence_estimates,
     "gbm-lyapunov": check_gbm_lyapunov,
     "linear-lyapunov": check_linear_lyapunov,
     "linear-moments": check_linear_moments,

@@ -66,6 +66,11 @@ class ArchiveData:
             self.regime = f["ensemble/regime_fraction"][()] if self.regimes else None
             self.regime_std = f["ensemble/regime_fraction_std"][()] if self.regimes else None
             self.regime_ci = f["ensemble/regime_fraction_ci95"][()] if self.regimes else None
+            self.residence = f["ensemble/regime_mean_residence"][()] if self.regimes else None
+            self.residence_std = (f["ensemble/regime_mean_residence_std"][()] if self.regimes
+                                  else None)
+            self.residence_ci = (f["ensemble/regime_mean_residence_ci95"][()] if self.regimes
+                                 else None)
             self.slope = f["response/slope"][()] if self.axes else None
             self.slope_stderr = f["response/slope_stderr"][()] if self.axes else None
             fit = self.axes and "response/slope_chi2" in f
@@ -481,6 +486,10 @@ def check_summary_csv(archive, program):
         for k, label in enumerate(arch.regimes):
             expected.append((c, "regime_fraction", label, arch.regime[c, k],
                              arch.regime_std[c, k], arch.regime_ci[c, k], "1", None))
+        for k, label in enumerate(arch.regimes):
+            expected.append((c, "regime_mean_residence", label, arch.residence[c, k],
+                             arch.residence_std[c, k], arch.residence_ci[c, k],
+                             "model_time_unit", None))
         expected.append((c, "valid_members", "", arch.valid[c], None, None, "1", None))
         expected.append((c, "effective_members", "", arch.effective[c], None, None, "1", None))
         expected.append((c, "non_chaotic", "", arch.non_chaotic[c], None, None, "1", None))
@@ -536,6 +545,8 @@ def check_summary_table(archive, program):
             block = "time"
         elif line.startswith("regime fraction"):
             block = "regime"
+        elif line.startswith("regime mean residence"):
+            block = "residence"
         elif line.startswith("response slope"):
             block = "slope"
         elif line.startswith("local slope"):
@@ -547,19 +558,20 @@ def check_summary_table(archive, program):
         if not line.strip():
             continue
         cells = re.split(r"\s{2,}", line.strip())
-        if block in ("time", "regime", "errors") and re.fullmatch(r"\d+\*", cells[0]):
+        if block in ("time", "regime", "residence", "errors") and re.fullmatch(r"\d+\*", cells[0]):
             # a case flagged non-chaotic is marked "*"
             if not arch.non_chaotic[int(cells[0][:-1])]:
                 fail(f"table marks case {cells[0]} non-chaotic, the archive does not")
             cells[0] = cells[0][:-1]
-        elif block in ("time", "regime") and cells[0].isdigit() and arch.non_chaotic[int(cells[0])]:
+        elif (block in ("time", "regime", "residence") and cells[0].isdigit()
+              and arch.non_chaotic[int(cells[0])]):
             fail(f"table does not mark the non-chaotic case {cells[0]}")
         if cells[0] in ("case", "observable"):
             columns = cells
             # Aligned: every column ends at the same character on the header and data rows.
             ends = [m.end() for m in re.finditer(r"\S+(?: \S+)*", line)]
             continue
-        if block in ("time", "regime") and columns and cells[0].isdigit() \
+        if block in ("time", "regime", "residence") and columns and cells[0].isdigit() \
                 and len(cells) == len(columns):
             got = [m.end() for m in re.finditer(r"\S+(?: \S+)*", line)]
             if got != ends:
@@ -573,8 +585,10 @@ def check_summary_table(archive, program):
                     fail(f"table case {c} {axis} = {cells[1 + a]}")
             if cells[lead - 1] != f"{arch.valid[c]}/{arch.members}":
                 fail(f"table case {c}: valid/total {cells[lead - 1]}")
-            names, mean, ci = ((arch.observables, arch.mean, arch.ci) if block == "time"
-                               else (arch.regimes, arch.regime, arch.regime_ci))
+            names, mean, ci = {
+                "time": (arch.observables, arch.mean, arch.ci),
+                "regime": (arch.regimes, arch.regime, arch.regime_ci),
+                "residence": (arch.regimes, arch.residence, arch.residence_ci)}[block]
             for name, cell in zip(columns[lead:], cells[lead:]):
                 k = names.index(name)
                 check_estimate(cell, mean[c, k], ci[c, k], f"table case {c} {name}")
@@ -623,6 +637,7 @@ def check_summary_table(archive, program):
                 seen.add(("local", a, c, o))
     wanted = {("time", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("regime", c, n) for c in range(arch.cases) for n in arch.regimes}
+    wanted |= {("residence", c, n) for c in range(arch.cases) for n in arch.regimes}
     wanted |= {("errors", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("slope", a, o) for a in range(len(arch.axes))
                for o in range(len(arch.observables))}
