@@ -1336,7 +1336,42 @@ def check_residence_estimates(path):
           f"visited, left out)")
 
 
+def check_zero_noise(swept, plain):
+    """Noise of amplitude 0 adds exact zeros to every step (exact identity of the scheme), so
+    case 0 of SWEPT (noise.amplitude swept from 0) equals the run without noise (PLAIN), case
+    by case, bitwise, in every /member/ and /ensemble/ dataset with a case dimension. The
+    statistics then change smoothly with the amplitude: at the smallest non-zero amplitude
+    (case 1) every ensemble time mean lies within 3 combined standard errors of the noiseless
+    one, while the members' time means are no longer the noiseless ones (the noise acts)."""
+    with h5py.File(swept, "r") as a, h5py.File(plain, "r") as b:
+        if a["case/noise_amplitude"][0] != 0.0:
+            fail(f"{swept}: case 0 is not the amplitude 0")
+        compared = 0
+        for group in ("member", "ensemble"):
+            for name, d in b[group].items():
+                if d.ndim == 0 or d.shape[0] != 1 or name == "case":
+                    continue
+                if name not in a[group]:
+                    fail(f"{swept}: lacks /{group}/{name}")
+                got, want = np.asarray(a[group][name][0]), np.asarray(d[0])
+                same = (got.tobytes() == want.tobytes() if got.dtype == want.dtype else False)
+                if not same:
+                    fail(f"{swept}: /{group}/{name} of case 0 differs from the noiseless run")
+                compared += 1
+        m0, m1 = a["ensemble/time_mean"][0], a["ensemble/time_mean"][1]
+        s0, s1 = a["ensemble/time_mean_stderr"][0], a["ensemble/time_mean_stderr"][1]
+        z = np.abs(m1 - m0) / np.sqrt(s0 * s0 + s1 * s1)
+        if (z > 3).any():
+            fail(f"{swept}: the smallest amplitude moves the time means by {z.max():.1f} "
+                 f"standard errors")
+        if np.array_equal(a["member/time_mean"][1], a["member/time_mean"][0]):
+            fail(f"{swept}: the smallest amplitude leaves the members unchanged")
+    print(f"ok: {swept}: amplitude 0 equals {plain} bitwise ({compared} datasets); the smallest "
+          f"amplitude moves the time means by {z.max():.2f} standard errors at most")
+
+
 CHECKS = {
+    "zero-noise": check_zero_noise,
     "residence-estimates": check_residence_estimates,
     "gbm-lyapunov": check_gbm_lyapunov,
     "linear-lyapunov": check_linear_lyapunov,
