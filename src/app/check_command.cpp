@@ -328,6 +328,12 @@ int check_command(const CheckOptions& options) {
   std::printf("  cases          %.0f\n", cases);
   std::printf("  members        %lld per case, %.0f in all\n",
               static_cast<long long>(plan.members), members);
+  if (spec.ensemble.pair_with_case >= 0) {
+    std::printf("  pairing        member m of every case starts from member m of case %lld "
+                "(its state%s), so the cases differ only by their parameters\n",
+                static_cast<long long>(spec.ensemble.pair_with_case),
+                spec.noise.kind == spec::NoiseKind::none ? "" : " and its noise");
+  }
   std::printf("  steps          %lld spin-up + %lld accumulated per member (dt %g)\n",
               static_cast<long long>(plan.spinup_steps),
               static_cast<long long>(plan.accumulate_steps), spec.integration.dt);

@@ -270,6 +270,9 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   write_identity(root, spec, info);
   if (info.parts > 0) root.set_attribute("parts", static_cast<std::int64_t>(info.parts));
   root.set_attribute("members_per_case", plan.members);
+  if (spec.ensemble.pair_with_case >= 0) {
+    root.set_attribute("paired_with_case", spec.ensemble.pair_with_case);
+  }
   root.set_attribute("dt", spec.integration.dt);
   root.set_attribute("spinup", spec.integration.spinup);
   root.set_attribute("duration", spec.integration.duration);

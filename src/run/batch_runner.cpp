@@ -17,6 +17,7 @@
 // and all its statistics reported as NaN (transition count 0, no histogram counts).
 #include "run/batch_runner.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <memory>
 #include <string>
@@ -154,6 +155,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   }
   s.seed = spec.ensemble.seed;
   s.case_index = c.index;
+  s.key_case = spec::key_case(spec.ensemble, c.index);
   s.kernel = choose_kernel(s);
   s.twins.times = plan.twins;
   s.twins.scale = spec.statistics.twins.scale;
@@ -164,7 +166,7 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
 
 std::vector<double> member_initial_state(const spec::Spec& spec, const std::vector<double>& base,
                                          std::int64_t case_index, std::int64_t member) {
-  return perturbed_state(spec.ensemble, base, case_index, member);
+  return perturbed_state(spec.ensemble, base, spec::key_case(spec.ensemble, case_index), member);
 }
 
 struct CaseRunner::Impl {
@@ -180,7 +182,14 @@ std::vector<double> case_base_state(const spec::Spec& spec, const plan::Plan& pl
   const spec::InitialState& initial = spec.ensemble.initial;
   if (initial.kind != spec::InitialKind::attractor) return initial.state;
   if (plan.batch_size < 1) throw Error("the plan's batch size must be at least 1");
-  const std::unique_ptr<models::Model> model = plan.model->make(parameters_at_start(spec, c));
+  // Paired cases start around the reference case's attractor (a plan cut to cases without
+  // the reference, such as check's timing piece, falls back to the case's own).
+  const std::int64_t key = spec::key_case(spec.ensemble, c.index);
+  const auto reference = std::find_if(plan.cases.begin(), plan.cases.end(),
+                                      [&](const plan::Case& k) { return k.index == key; });
+  const plan::Case& source = reference != plan.cases.end() ? *reference : c;
+  const std::unique_ptr<models::Model> model =
+      plan.model->make(parameters_at_start(spec, source));
   return attractor_state(*model, plan.batch_size, plan.attractor_spinup_steps,
                          spec.integration.dt);
 }
@@ -228,7 +237,7 @@ std::unique_ptr<BatchProgress> CaseRunner::start(const plan::Batch& batch) const
   initial.reserve(static_cast<std::size_t>(batch.count) * p.setup.state_dim);
   for (int j = 0; j < batch.count; ++j) {
     const std::vector<double> x =
-        perturbed_state(p.ensemble, p.base, p.case_index, batch.first_member + j);
+        perturbed_state(p.ensemble, p.base, p.setup.key_case, batch.first_member + j);
     initial.insert(initial.end(), x.begin(), x.end());
   }
   return std::make_unique<BatchWork>(p.setup, *p.model, p.base, batch, std::move(initial));

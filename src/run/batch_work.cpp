@@ -49,7 +49,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
                          histogram_ ? &*histogram_ : nullptr, &extremes_},
                         {batch.first_member, batch.count});
   if (setup.twins.enabled()) {
-    twins_.emplace(setup.twins, setup.state_dim, w, batch.case_index, batch.first_member,
+    twins_.emplace(setup.twins, setup.state_dim, w, setup.key_case, batch.first_member,
                    batch.count,
                    make_kernel(setup, model, {&moments_, nullptr, nullptr},
                                {batch.first_member, batch.count}));

@@ -51,6 +51,7 @@ struct Setup {
   spec::Noise noise;           // form none: no noise
   std::uint64_t seed = 0;      // ensemble.seed, keys the noise
   std::int64_t case_index = 0;
+  std::int64_t key_case = 0;   // the case whose keys the members use (spec::key_case)
 };
 
 /// The case's Setup: the spec's choices resolved against the model (observable indices,

@@ -45,7 +45,7 @@ ForcingNoise::ForcingNoise(const Setup& s, int width, KernelMembers members)
       dw_(variables_.size() * static_cast<std::size_t>(width)) {
   for (int m = 0; m < columns_; ++m) {
     const std::int64_t member = s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
-    streams_.emplace_back(s.seed, s.case_index, member, kForcingStream);
+    streams_.emplace_back(s.seed, s.key_case, member, kForcingStream);
   }
   if (red_) {
     eta_.assign(dw_.size(), 0.0);

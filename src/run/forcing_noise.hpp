@@ -1,7 +1,8 @@
 // Internal to run/: the stochastic forcing of one batch of members, step by step: the
 // increments and amplitudes an integrators::SdeBatch step takes. Pure numerics.
 //
-// The Gaussian draw of noisy variable i at step n of member m is keyed by (seed, case, m, n, i)
+// The Gaussian draw of noisy variable i at step n of member m is keyed by (seed, case, m, n, i),
+// the case being the reference case when cases are paired (spec::key_case)
 // (run/member_noise.hpp, stream 2); with a shared realisation the member is left out (every
 // member draws member -1's stream). So the same member gets the same forcing in any batch, on
 // any rank, after any resume, in its twin's integration and in its Lyapunov integration.

@@ -292,7 +292,10 @@ void check_method_features(const Spec& spec) {
 }
 
 void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
-  const Map map(ensemble, {{"members", "initial_state", "perturbation", "seed"}, {}, "key", ""});
+  const Map map(ensemble, {{"members", "initial_state", "perturbation", "seed", "pair_with_case"},
+                           {},
+                           "key",
+                           ""});
   Ensemble& out = spec.ensemble;
   const Field members = map.required("members");
   out.members = members.integer_in(1, kMaxMembers);
@@ -303,6 +306,13 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
   }
   if (map.has("perturbation")) read_perturbation(map.get("perturbation"), out.perturbation);
   out.seed = map.required("seed").unsigned_integer();
+  if (map.has("pair_with_case")) {
+    std::int64_t cases = 1;
+    for (const auto& axis : spec.sweep) cases *= static_cast<std::int64_t>(axis.values.size());
+    const Field pair = map.get("pair_with_case");
+    if (cases < 2) pair.fail("pairs cases with a reference case, but the campaign has one case");
+    out.pair_with_case = pair.integer_in(0, cases - 1);
+  }
 }
 
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {

@@ -53,7 +53,17 @@ struct Ensemble {
   InitialState initial;
   Perturbation perturbation;
   std::uint64_t seed = 0;
+  /// Paired cases (`pair_with_case`): member m of every case starts from member m's state of
+  /// this reference case (its base state, its perturbation key) and draws its noise and twin
+  /// direction from the reference's keys, so cases differ only by their parameters. -1: none.
+  std::int64_t pair_with_case = -1;
 };
+
+/// The case whose keys (base state, perturbations, noise, twin directions) case `c` uses:
+/// the reference case when cases are paired, else c itself.
+inline std::int64_t key_case(const Ensemble& ensemble, std::int64_t c) {
+  return ensemble.pair_with_case >= 0 ? ensemble.pair_with_case : c;
+}
 
 struct Integration {
   /// rk4 (deterministic only), euler-maruyama (Ito) or heun (Stratonovich); the last two
