@@ -103,7 +103,8 @@ SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan) {
   for (const Estimated& e : estimated_quantities(plan)) p.columns += e.width;
   p.leads = plan.twins.every_steps > 0 ? static_cast<std::size_t>(plan.twins.leads) : 0;
   const std::size_t twin_triples = p.leads > 0 ? p.leads + 2 : 0;
-  const std::size_t triples = p.columns + twin_triples + times * n_obs;
+  const std::size_t paired = plan.outputs.paired ? times * n_obs : 0;  // after the snapshots
+  const std::size_t triples = p.columns + twin_triples + times * n_obs + paired;
   p.estimated = 0;
   p.twin_moments = kMomentWidth * p.columns;
   p.snapshots = p.twin_moments + kMomentWidth * twin_triples;
@@ -133,6 +134,7 @@ void Summariser::append(const run::BatchResult& b, std::vector<double>& summary,
   add_estimated(estimated_, b, summary);
   if (parts_.leads > 0) add_twins(lead_, threshold_, b, summary, sums);
   summary.insert(summary.end(), b.snapshot_moments.begin(), b.snapshot_moments.end());
+  summary.insert(summary.end(), b.paired_moments.begin(), b.paired_moments.end());
   add_errors(observables_, b, summary);
   summary.insert(summary.end(), sums.begin(), sums.end());
   std::int64_t non_finite = 0;

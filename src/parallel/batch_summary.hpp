@@ -30,7 +30,8 @@ std::vector<Estimated> estimated_quantities(const plan::Plan& plan);
 /// The layout of a campaign's batch summaries: every (n, mean, m2) triple first, then every
 /// sum, so that one merge tree merges them all. Offsets count doubles from the start.
 ///   summary: [estimated columns: moments | twins: [leads] log-separation moments, horizon and
-///            log threshold distance moments | snapshots: [time][observable] moments |
+///            log threshold distance moments | snapshots: [time][observable] moments, then
+///            with paired cases [time][observable] moments of the paired differences |
 ///            time-mean errors: [observable] the 4 sums of stats::MemberErrorSums |
 ///            twins: [leads] separations first seen at the lead, the pairs never separated]
 ///   counts:  [non-finite members | histogram bins | [time][regime] snapshot regime counts]

@@ -45,5 +45,9 @@ void reduce_twins(const spec::Spec& spec, const plan::Plan& plan, const MergedCa
 /// counts of every case. Nothing when there are none.
 void reduce_snapshots(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
                       EnsembleResults& r);
+/// The transient response against the paired reference case (snapshot_reduce.cpp), after
+/// reduce_snapshots. Nothing without paired cases and snapshots.
+void reduce_transient(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                      EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

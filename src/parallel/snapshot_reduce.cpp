@@ -54,4 +54,65 @@ void reduce_snapshots(const spec::Spec& spec, const plan::Plan& plan, const Merg
   }
 }
 
+// The transient response against the paired reference case. Per case, snapshot time and
+// observable the merged moments (n, mean, m2) of the members' differences from the reference's
+// same members give the response (mean) and its interval mean +- t(0.975, n-1) s / sqrt(n);
+// the time of emergence is the first snapshot time from which every interval excludes 0; the
+// variance reduction is var(differences) / (var(case) + var(reference)) averaged over the
+// snapshot times whose denominator is positive. After reduce_snapshots (it reads the case and
+// reference variances).
+void reduce_transient(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                      EnsembleResults& r) {
+  const std::size_t times = static_cast<std::size_t>(plan.snapshot_count);
+  if (times == 0 || !plan.outputs.paired) return;
+  const std::size_t n_obs = plan.observables.size(), n_cases = plan.cases.size();
+  const std::size_t ref = static_cast<std::size_t>(spec.ensemble.pair_with_case);
+  const std::size_t per_case = times * n_obs;
+  r.transient_response.assign(n_cases * per_case, NAN);
+  r.transient_response_ci95.assign(2 * n_cases * per_case, NAN);
+  r.transient_reference_std.assign(per_case, NAN);
+  r.transient_emergence_time.assign(n_cases * n_obs, NAN);
+  r.transient_variance_reduction.assign(n_cases * n_obs, NAN);
+  if (ref < n_cases) {
+    for (std::size_t i = 0; i < per_case; ++i) {
+      r.transient_reference_std[i] = std::sqrt(r.snapshot_variance[ref * per_case + i]);
+    }
+  }
+  for (std::size_t c = 0; c < n_cases; ++c) {
+    const double* p = merged.at(c, merged.parts.snapshots) + stats::Moments::kPacked * per_case;
+    std::vector<double> ratio_sum(n_obs, 0.0), ratio_count(n_obs, 0.0);
+    for (std::size_t k = 0; k < times; ++k) {
+      for (std::size_t o = 0; o < n_obs; ++o) {
+        const std::size_t i = k * n_obs + o, at = c * per_case + i;
+        const stats::Moments m = stats::Moments::unpack(p + stats::Moments::kPacked * i);
+        const stats::EnsembleEstimate e = stats::estimate(m);
+        r.transient_response[at] = e.mean;
+        r.transient_response_ci95[2 * at] = e.ci_low;
+        r.transient_response_ci95[2 * at + 1] = e.ci_high;
+        if (ref >= n_cases) continue;
+        const double denominator =
+            r.snapshot_variance[at] + r.snapshot_variance[ref * per_case + i];
+        if (denominator > 0.0 && std::isfinite(denominator) && m.n >= 2.0) {
+          ratio_sum[o] += m.variance() / denominator;
+          ratio_count[o] += 1.0;
+        }
+      }
+    }
+    for (std::size_t o = 0; o < n_obs; ++o) {
+      if (ratio_count[o] > 0.0) {
+        r.transient_variance_reduction[c * n_obs + o] = ratio_sum[o] / ratio_count[o];
+      }
+      // the earliest k from which every later interval excludes 0
+      std::size_t first = times;
+      for (std::size_t k = times; k-- > 0;) {
+        const std::size_t at = c * per_case + k * n_obs + o;
+        const double low = r.transient_response_ci95[2 * at], high = r.transient_response_ci95[2 * at + 1];
+        if (!(low > 0.0 || high < 0.0)) break;
+        first = k;
+      }
+      if (first < times) r.transient_emergence_time[c * n_obs + o] = r.snapshot_time[first];
+    }
+  }
+}
+
 }  // namespace chaosweep::parallel

@@ -136,6 +136,7 @@ Plan make_plan(const spec::Spec& spec) {
   out.histogram = spec.statistics.histogram.enabled;
   out.snapshots = plan.snapshot_count > 0;
   out.trajectories = plan.trajectory_members > 0;
+  out.paired = spec.ensemble.pair_with_case >= 0;
   return plan;
 }
 

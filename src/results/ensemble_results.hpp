@@ -65,6 +65,11 @@ struct EnsembleResults {
   std::vector<double> snapshot_mean;
   std::vector<double> snapshot_variance;
   std::vector<double> snapshot_regime_fraction;
+  std::vector<double> transient_response;            // [case][time][observable]
+  std::vector<double> transient_response_ci95;       // [case][time][observable][2]
+  std::vector<double> transient_reference_std;       // [time][observable]
+  std::vector<double> transient_emergence_time;      // [case][observable]
+  std::vector<double> transient_variance_reduction;  // [case][observable]
 
   /// Members that became non-finite, over the whole campaign (for the run log).
   std::int64_t non_finite_members = 0;

@@ -190,6 +190,10 @@ std::vector<Quantity> make_table() {
       batch("twin_moments", &B::twin_moments, "", {"lead", "moment"}, "1",
             "(n, mean, m2) of the log twin separation over the batch's valid pairs", S::twins,
             M::moments),
+      batch("paired_moments", &B::paired_moments, "", {"time", "observable", "moment"}, "1",
+            "(n, mean, m2) of the differences of the batch's members from the reference case's "
+            "same members, over the members valid in both",
+            S::paired_snapshots, M::moments),
       batch("snapshot_moments", &B::snapshot_moments, "", {"time", "observable", "moment"}, "1",
             "(n, mean, m2) of the observable across the batch's valid members", S::snapshots,
             M::moments),
@@ -405,6 +409,39 @@ std::vector<Quantity> make_table() {
                "share of the case's valid members in the regime at the snapshot time",
                S::snapshot_regimes,
                merged(M::sum, "the batches' snapshot_regimes summed per case, over the valid members")),
+      // transient response against the paired reference case
+      ensemble(&E::snapshot_time, "/transient/time", {"time"}, kTime,
+               "model time of each snapshot, from the start of the integration (as "
+               "/snapshot/time)",
+               S::paired_snapshots, derived("the plan's snapshot steps times dt")),
+      ensemble(&E::transient_response, "/transient/response", {"case", "time", "observable"},
+               "1",
+               "mean over the members of the difference of each member from the same member of "
+               "the reference case (ensemble.pair_with_case) at the snapshot time: the "
+               "transient response (exactly 0 for the reference itself)",
+               S::paired_snapshots,
+               merged(M::moments, "the batches' paired_moments merged along the batch merge tree")),
+      ensemble(&E::transient_response_ci95, "/transient/response_ci95",
+               {"case", "time", "observable", "bound"}, "1",
+               "95% confidence interval of the transient response, from the paired differences "
+               "(Student t)",
+               S::paired_snapshots,
+               derived("response +- t(0.975, n-1) s / sqrt(n), s the std of the paired differences")),
+      ensemble(&E::transient_reference_std, "/transient/reference_std", {"time", "observable"},
+               "1", "standard deviation across the reference case's members at the snapshot time",
+               S::paired_snapshots, derived("square root of the reference case's /snapshot/variance")),
+      ensemble(&E::transient_emergence_time, "/transient/emergence_time", {"case", "observable"},
+               kTime,
+               "time of emergence: the first snapshot time from which the response's 95% "
+               "interval excludes 0 at every later snapshot time (NaN if it never does)",
+               S::paired_snapshots, derived("from /transient/response_ci95")),
+      ensemble(&E::transient_variance_reduction, "/transient/variance_reduction",
+               {"case", "observable"}, "1",
+               "variance of the paired differences over the sum of the case's and the "
+               "reference's variances across members, averaged over the snapshot times (1: "
+               "pairing gains nothing, 0: the differences do not vary)",
+               S::paired_snapshots,
+               derived("mean over snapshot times with a positive denominator")),
       // trajectories
       coordinate("/trajectory/time", {"step"}, T::float64, kTime,
                  "model time of each stored sample", S::trajectories),
@@ -462,6 +499,7 @@ bool is_on(Switch s, const Options& o) {
     case Switch::snapshot_regimes: return o.snapshots && o.regimes;
     case Switch::sweep_regimes: return o.sweep && o.regimes;
     case Switch::trajectories: return o.trajectories;
+    case Switch::paired_snapshots: return o.paired && o.snapshots;
   }
   return false;
 }
@@ -478,6 +516,7 @@ std::string switch_text(Switch s) {
     case Switch::snapshot_regimes: return "statistics.snapshots and statistics.regimes";
     case Switch::sweep_regimes: return "sweep and statistics.regimes";
     case Switch::trajectories: return "output.trajectories";
+    case Switch::paired_snapshots: return "ensemble.pair_with_case and statistics.snapshots";
   }
   return "";
 }

@@ -56,12 +56,13 @@ enum class Estimate { none, mean, median, std, ci95, detail };
 
 /// The spec option that switches a quantity on.
 enum class Switch { always, sweep, regimes, lyapunov, twins, histogram, snapshots,
-                    snapshot_regimes, sweep_regimes, trajectories };
+                    snapshot_regimes, sweep_regimes, trajectories, paired_snapshots };
 
 /// Which switches a campaign turns on (plan::Plan::outputs).
 struct Options {
   bool sweep = false, regimes = false, lyapunov = false, twins = false, histogram = false,
        snapshots = false, trajectories = false;
+  bool paired = false;  // ensemble.pair_with_case
 };
 
 bool is_on(Switch s, const Options& options);

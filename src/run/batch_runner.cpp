@@ -194,6 +194,30 @@ std::vector<double> case_base_state(const spec::Spec& spec, const plan::Plan& pl
                          spec.integration.dt);
 }
 
+namespace {
+
+/// Paired cases with snapshots: the case reports paired differences; unless it is the
+/// reference itself, its batches integrate the reference case's members beside their own,
+/// from the same base state. A plan cut to cases without the reference (check's timing piece)
+/// gets no reference: its differences are then empty (n = 0).
+void attach_paired_reference(const spec::Spec& spec, const plan::Plan& plan,
+                             const plan::Case& c, const std::vector<double>& base, Setup& setup) {
+  const std::int64_t ref = spec.ensemble.pair_with_case;
+  if (ref < 0 || plan.snapshot_count == 0) return;
+  setup.paired_snapshots = true;
+  if (c.index == ref) return;
+  const auto found = std::find_if(plan.cases.begin(), plan.cases.end(),
+                                  [&](const plan::Case& k) { return k.index == ref; });
+  if (found == plan.cases.end()) return;
+  auto paired = std::make_shared<PairedReference>();
+  paired->model = plan.model->make(parameters_at_start(spec, *found));
+  paired->setup = make_setup(spec, plan, *found, *paired->model);
+  paired->base = base;
+  setup.paired = std::move(paired);
+}
+
+}  // namespace
+
 CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const plan::Case& c)
     : CaseRunner(spec, plan, c, case_base_state(spec, plan, c)) {}
 
@@ -205,6 +229,7 @@ CaseRunner::CaseRunner(const spec::Spec& spec, const plan::Plan& plan, const pla
   impl_->model = plan.model->make(parameters_at_start(spec, c));
   impl_->setup = make_setup(spec, plan, c, *impl_->model);
   impl_->base = std::move(base);
+  attach_paired_reference(spec, plan, c, impl_->base, impl_->setup);
   if (static_cast<int>(impl_->base.size()) != impl_->setup.state_dim) {
     throw Error("the initial state needs " + std::to_string(impl_->setup.state_dim) +
                 " components");

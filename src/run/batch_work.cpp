@@ -54,6 +54,14 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
                    make_kernel(setup, model, {&moments_, nullptr, nullptr},
                                {batch.first_member, batch.count}));
   }
+  if (setup.paired) {  // the reference's members: their own kernel, spin-only, and snapshots
+    const PairedReference& ref = *setup.paired;
+    Shadow& sh = shadow_.emplace();
+    sh.x.assign(x_.size(), 0.0);
+    sh.non_finite.assign(static_cast<std::size_t>(w), 0);
+    sh.kernel = make_kernel(ref.setup, *ref.model, {}, {batch.first_member, batch.count});
+    sh.snapshots.emplace(ref.setup, *ref.model, batch.count);
+  }
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;
   result_.first_member = batch.first_member;
@@ -72,6 +80,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
     : BatchWork(setup, model, base, batch) {
   result_.initial_state = std::move(initial);
   load_initial_states();
+  if (shadow_) shadow_->x = x_;  // paired: the reference's members start from the same states
   check_finite();
   sample_trajectory(0);
   if (twins_) twins_->after_step(0, x_.data(), base_, true);
@@ -104,6 +113,10 @@ void BatchWork::advance(std::int64_t max_steps) {
       kernel_->accumulate(x_.data(), steps);
     }
     if (twins_) twins_->advance(step_, end);
+    if (shadow_) {
+      shadow_->kernel->set_step(step_);
+      shadow_->kernel->spin(shadow_->x.data(), steps);
+    }
     step_ = end;
     after_step(end);
   }
@@ -145,7 +158,9 @@ void BatchWork::take_snapshot(std::int64_t step) {
   const Setup& s = setup_;
   if (!snapshots_ || step < s.spinup_steps) return;
   const std::int64_t since = step - s.spinup_steps;
-  if (since % s.snapshot_every == 0) snapshots_->record(since / s.snapshot_every, x_.data());
+  if (since % s.snapshot_every != 0) return;
+  snapshots_->record(since / s.snapshot_every, x_.data());
+  if (shadow_) shadow_->snapshots->record(since / s.snapshot_every, shadow_->x.data());
 }
 
 BatchResult BatchWork::finish() {
@@ -160,6 +175,19 @@ BatchResult BatchWork::finish() {
   collect_histogram();
   if (twins_) twins_->finish(non_finite_, setup_.dt, result_);
   if (snapshots_) snapshots_->collect(non_finite_, result_);
+  if (snapshots_ && setup_.paired_snapshots) {
+    if (shadow_) {
+      snapshots_->collect_paired(non_finite_, &*shadow_->snapshots, &shadow_->non_finite,
+                                 result_);
+    } else if (setup_.case_index == setup_.key_case) {  // the reference: differences of 0
+      snapshots_->collect_paired(non_finite_, nullptr, nullptr, result_);
+    } else {  // no reference in the plan (a timing piece): no differences (n = 0)
+      result_.paired_moments.clear();
+      const std::size_t n = static_cast<std::size_t>(setup_.snapshot_count) *
+                            setup_.observables.size();
+      for (std::size_t i = 0; i < n; ++i) stats::Moments().append_to(result_.paired_moments);
+    }
+  }
   return std::move(result_);
 }
 
@@ -178,6 +206,12 @@ BatchState BatchWork::save() const {
   if (histogram_) histogram_->save("histogram.", out);
   if (twins_) twins_->save(out);
   if (snapshots_) snapshots_->save("snapshots.", out);
+  if (shadow_) {
+    out.put("paired.state", shadow_->x);
+    out.put("paired.non_finite",
+            std::vector<std::int64_t>(shadow_->non_finite.begin(), shadow_->non_finite.end()));
+    shadow_->snapshots->save("paired.snapshots.", out);
+  }
   BatchState state;
   state.batch_index = result_.batch_index;
   state.step = step_;
@@ -210,6 +244,12 @@ void BatchWork::restore(const BatchState& state) {
   if (histogram_) histogram_->load("histogram.", in);
   if (twins_) twins_->load(in);
   if (snapshots_) snapshots_->load("snapshots.", in);
+  if (shadow_) {
+    shadow_->x = in.reals("paired.state", d * w);
+    const std::vector<std::int64_t>& paired_flags = in.integers("paired.non_finite", w);
+    for (std::size_t m = 0; m < w; ++m) shadow_->non_finite[m] = paired_flags[m] != 0;
+    shadow_->snapshots->load("paired.snapshots.", in);
+  }
   in.finish();
   step_ = state.step;
 }
@@ -229,6 +269,10 @@ void BatchWork::load_initial_states() {
 // Flags every column with a non-finite component and resets flagged columns to the base state.
 void BatchWork::check_finite() {
   flag_non_finite_columns(x_.data(), setup_.state_dim, setup_.width, base_, non_finite_);
+  if (shadow_) {
+    flag_non_finite_columns(shadow_->x.data(), setup_.state_dim, setup_.width, base_,
+                            shadow_->non_finite);
+  }
 }
 
 // trajectory[j][sample][i] = state of stored member j (NaN once the member is flagged).

@@ -22,6 +22,8 @@
 
 namespace chaosweep::run {
 
+struct PairedReference;
+
 /// What every batch of one case needs, resolved against the model once per case.
 struct Setup {
   std::string model;                   // registry name
@@ -52,6 +54,20 @@ struct Setup {
   std::uint64_t seed = 0;      // ensemble.seed, keys the noise
   std::int64_t case_index = 0;
   std::int64_t key_case = 0;   // the case whose keys the members use (spec::key_case)
+  /// Paired cases with snapshots: every batch reports the moments of its members' differences
+  /// from the reference case's same members at each snapshot time (BatchResult::paired_moments).
+  bool paired_snapshots = false;
+  /// The reference case, whose members a batch integrates beside its own to difference them
+  /// (null for the reference case itself, whose differences are exactly 0).
+  std::shared_ptr<const PairedReference> paired;
+};
+
+/// The reference case of paired cases: its Setup, its model and base state (the same base
+/// state as every paired case's).
+struct PairedReference {
+  Setup setup;
+  std::unique_ptr<models::Model> model;
+  std::vector<double> base;
 };
 
 /// The case's Setup: the spec's choices resolved against the model (observable indices,
@@ -108,6 +124,14 @@ class BatchWork final : public BatchProgress {
   std::optional<SnapshotRecorder> snapshots_;
   std::unique_ptr<Kernel> kernel_;
   std::optional<TwinPairs> twins_;
+  /// The reference case's members (Setup::paired), integrated beside the batch's own.
+  struct Shadow {
+    std::vector<double> x;                 // [state_dim][width]
+    std::vector<std::uint8_t> non_finite;  // [width]
+    std::unique_ptr<Kernel> kernel;
+    std::optional<SnapshotRecorder> snapshots;
+  };
+  std::optional<Shadow> shadow_;
   BatchResult result_;
   std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
   bool finished_ = false;

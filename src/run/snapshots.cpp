@@ -82,4 +82,28 @@ void SnapshotRecorder::collect(const std::vector<std::uint8_t>& non_finite,
   }
 }
 
+void SnapshotRecorder::collect_paired(const std::vector<std::uint8_t>& non_finite,
+                                      const SnapshotRecorder* reference,
+                                      const std::vector<std::uint8_t>* reference_non_finite,
+                                      BatchResult& out) const {
+  const std::size_t times = static_cast<std::size_t>(setup_.snapshot_count);
+  out.paired_moments.clear();
+  out.paired_moments.reserve(times * n_obs_ * stats::Moments::kPacked);
+  for (std::size_t k = 0; k < times; ++k) {
+    for (int o = 0; o < n_obs_; ++o) {
+      const std::size_t row = (k * n_obs_ + o) * count_;
+      stats::Moments m;
+      for (int j = 0; j < count_; ++j) {
+        if (non_finite[j]) continue;
+        if (reference == nullptr) {
+          m.add(0.0);
+        } else if (!(*reference_non_finite)[j]) {
+          m.add(values_[row + j] - reference->values_[row + j]);
+        }
+      }
+      m.append_to(out.paired_moments);
+    }
+  }
+}
+
 }  // namespace chaosweep::run

@@ -43,6 +43,15 @@ class SnapshotRecorder {
   /// the members whose flag in non_finite ([width]) is 0.
   void collect(const std::vector<std::uint8_t>& non_finite, BatchResult& out) const;
 
+  /// Fills out.paired_moments ([k][o][3]) with the moments of this batch's values less the
+  /// paired reference's (`reference`, the same members integrated with the reference case's
+  /// parameters; null: the batch is the reference, every difference exactly 0) over the
+  /// members valid in both.
+  void collect_paired(const std::vector<std::uint8_t>& non_finite,
+                      const SnapshotRecorder* reference,
+                      const std::vector<std::uint8_t>* reference_non_finite,
+                      BatchResult& out) const;
+
  private:
   const Setup& setup_;
   const models::Model& model_;

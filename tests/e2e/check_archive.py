@@ -1370,13 +1370,14 @@ def check_zero_noise(swept, plain):
           f"amplitude moves the time means by {z.max():.2f} standard errors at most")
 
 
-def check_paired_identical(paired, unpaired):
+def check_paired_identical(paired, unpaired=None):
     """Cases paired with one reference case start from the reference's member states and draw
     its noise and twin directions; when the swept parameter changes nothing (a zero forcing
     direction) every case is then the same campaign, so every /member/, /snapshot/ and /twins/
     dataset with a case dimension is bitwise the same in every case (the paired differences
-    are exactly zero). UNPAIRED, the same campaign without pairing, must differ between cases
-    (the check would otherwise not see the pairing)."""
+    are exactly zero, and so is the transient response with its intervals). UNPAIRED, the same
+    campaign without pairing (optional), must differ between cases (the check would otherwise
+    not see the pairing)."""
     compared = 0
     with h5py.File(paired, "r") as f:
         cases = len(f["case/case"][()])
@@ -1395,12 +1396,23 @@ def check_paired_identical(paired, unpaired):
                 compared += 1
     if compared < 10:
         fail(f"{paired}: only {compared} datasets compared")
-    with h5py.File(unpaired, "r") as f:
-        tm = f["member/time_mean"][()]
-        if all(np.array_equal(tm[c], tm[0]) for c in range(1, tm.shape[0])):
-            fail(f"{unpaired}: cases are identical without pairing")
-    print(f"ok: {paired}: {cases} paired cases identical bitwise in {compared} datasets; "
-          f"unpaired they differ")
+    with h5py.File(paired, "r") as f:
+        if "transient/response" in f:  # with snapshots: the paired differences are exactly 0
+            response, ci = f["transient/response"][()], f["transient/response_ci95"][()]
+            if np.any(response != 0.0) or np.any(ci != 0.0):
+                fail(f"{paired}: transient responses of identical cases are not exactly 0")
+            if not np.all(np.isnan(f["transient/emergence_time"][()])):
+                fail(f"{paired}: a response of exactly 0 emerged")
+            if np.any(f["transient/variance_reduction"][()] != 0.0):
+                fail(f"{paired}: identical cases do not have a variance reduction of 0")
+            compared += 1
+    if unpaired is not None:
+        with h5py.File(unpaired, "r") as f:
+            tm = f["member/time_mean"][()]
+            if all(np.array_equal(tm[c], tm[0]) for c in range(1, tm.shape[0])):
+                fail(f"{unpaired}: cases are identical without pairing")
+    print(f"ok: {paired}: {cases} paired cases identical bitwise in {compared} datasets"
+          + ("; unpaired they differ" if unpaired is not None else ""))
 
 
 def check_paired_linear(path, matrix, direction, spinup, duration):
@@ -1431,11 +1443,105 @@ def check_paired_linear(path, matrix, direction, spinup, duration):
     if spread > 1e-9 or worst > 1e-4:
         fail(f"{path}: paired differences {diff.mean(axis=0)} (spread {spread:.2g}) against the "
              f"noiseless response {want} ({worst:.2g} relative)")
+    # The transient response at the snapshot times is Delta(t) itself, with an interval of
+    # rounding width; it emerges at the first snapshot; pairing removes the variance.
+    with h5py.File(path, "r") as f:
+        t = f["transient/time"][()]
+        response = f["transient/response"][()]
+        ci = f["transient/response_ci95"][()]
+        emergence = f["transient/emergence_time"][()]
+        reduction = f["transient/variance_reduction"][()]
+    exact = np.array([Ainv @ (scipy.linalg.expm(A * time) - np.eye(len(A))) @ d for time in t])
+    transient = np.abs(response[1] - exact).max() / np.abs(exact).max()
+    if transient > 1e-4 or np.any(response[0] != 0.0):
+        fail(f"{path}: transient response {response[1]} is not Delta(t) = {exact} "
+             f"({transient:.2g} relative), or the reference's is not 0")
+    if np.abs(ci[1, :, :, 1] - ci[1, :, :, 0]).max() > 1e-9:
+        fail(f"{path}: transient intervals wider than rounding: {ci[1]}")
+    if not np.all(emergence[1] == t[0]) or not np.all(np.isnan(emergence[0])):
+        fail(f"{path}: emergence times {emergence}, expected {t[0]} and NaN for the reference")
+    if reduction[1].max() > 1e-20:
+        fail(f"{path}: variance reduction {reduction[1]}, expected 0 (the noise cancels)")
     print(f"ok: {path}: every member's paired difference is the noiseless response {want} "
-          f"within {worst:.1e} relative (spread across members {spread:.1e})")
+          f"within {worst:.1e} relative (spread across members {spread:.1e}); the transient "
+          f"response is Delta(t) within {transient:.1e}")
+
+
+def check_transient(path, reference):
+    """The transient response against the paired reference case, recomputed with numpy and
+    scipy from the members' stored trajectories (every member stored, sampled at the snapshot
+    times): per case, time and state variable, the mean of the members' differences from the
+    same member of REFERENCE, its interval mean +- t(0.975, n-1) s / sqrt(n) (scipy's Student
+    t), the std across the reference's members, the variance reduction
+    var(d) / (var(case) + var(reference)) averaged over the times with a positive denominator,
+    and the time of emergence (the first time from which every interval excludes 0). Means,
+    stds and ratios to 1e-9 relative (summation order), bounds to 1e-8 of the half-width (GSL's
+    t quantile against scipy's)."""
+    from scipy.stats import t as student
+    ref = int(reference)
+    with h5py.File(path, "r") as f:
+        times = f["transient/time"][()]
+        sample_time = f["trajectory/time"][()]
+        states = f["trajectory/state"][()]  # case, member, step, variable
+        response = f["transient/response"][()]
+        ci = f["transient/response_ci95"][()]
+        ref_std = f["transient/reference_std"][()]
+        emergence = f["transient/emergence_time"][()]
+        reduction = f["transient/variance_reduction"][()]
+        names = [n.decode() if isinstance(n, bytes) else n for n in f["observable"][()]]
+        if int(f.attrs["paired_with_case"]) != ref:
+            fail(f"{path}: not paired with case {ref}")
+        if states.shape[1] != int(f.attrs["members_per_case"]):
+            fail(f"{path}: the check needs every member's trajectory")
+    steps = [int(np.argmin(np.abs(sample_time - t))) for t in times]
+    if np.abs(sample_time[steps] - times).max() > 1e-9:
+        fail(f"{path}: trajectory samples do not fall on the snapshot times")
+    x = states[:, :, steps, :]  # case, member, time, variable (the observables x, y, z first)
+    dims = x.shape[3]
+    if names[:dims] != ["x", "y", "z"][:dims]:
+        fail(f"{path}: the check expects the state variables as the first observables")
+    n = x.shape[1]
+    tq = student.ppf(0.975, n - 1)
+    worst = 0.0
+    for c in range(x.shape[0]):
+        d = x[c] - x[ref]
+        m, s = d.mean(axis=0), d.std(axis=0, ddof=1)
+        half = tq * s / math.sqrt(n)
+        got = response[c, :, :dims]
+        if not np.allclose(got, m, rtol=1e-9, atol=1e-12):
+            fail(f"{path}: case {c} transient response differs from numpy's by "
+                 f"{np.abs(got - m).max():.2g}")
+        for b, want in ((0, m - half), (1, m + half)):
+            if np.any(np.abs(ci[c, :, :dims, b] - want) > 1e-8 * half + 1e-12):
+                fail(f"{path}: case {c} interval bound {b} differs from scipy's")
+        worst = max(worst, np.abs(got - m).max())
+        var_c, var_r = x[c].var(axis=0, ddof=1), x[ref].var(axis=0, ddof=1)
+        denominator = var_c + var_r
+        ok = denominator > 0
+        want_reduction = np.array([(s[:, v] ** 2 / denominator[:, v])[ok[:, v]].mean()
+                                   for v in range(dims)])
+        if not np.allclose(reduction[c, :dims], want_reduction, rtol=1e-9, atol=1e-15):
+            fail(f"{path}: case {c} variance reduction {reduction[c, :dims]} is not "
+                 f"{want_reduction}")
+        excludes = (m - half > 0) | (m + half < 0)
+        for v in range(dims):
+            want_time = math.nan
+            for k in range(len(times) - 1, -1, -1):
+                if not excludes[k, v]:
+                    break
+                want_time = times[k]
+            got_time = emergence[c, v]
+            if not ((math.isnan(want_time) and math.isnan(got_time)) or want_time == got_time):
+                fail(f"{path}: case {c} {names[v]} emerges at {got_time}, numpy says {want_time}")
+    if not np.allclose(ref_std[:, :dims], x[ref].std(axis=0, ddof=1), rtol=1e-9):
+        fail(f"{path}: reference std differs from numpy's")
+    print(f"ok: {path}: transient responses, intervals, emergence times and variance reductions "
+          f"of {x.shape[0]} cases match numpy/scipy from the trajectories (largest mean "
+          f"difference {worst:.1e}); emergence times {emergence[:, :dims].tolist()}")
 
 
 CHECKS = {
+    "transient": check_transient,
     "paired-identical": check_paired_identical,
     "paired-linear": check_paired_linear,
     "zero-noise": check_zero_noise,
