@@ -82,6 +82,12 @@ class Archive:
 
             # Datasets of optional features (the schema, `chaosweep schema`); None when absent.
             self.snap_time = _get(f, "snapshot/time")
+            self.transient = _get(f, "transient/response")          # case, time, observable
+            self.transient_ci = _get(f, "transient/response_ci95")  # case, time, observable, bound
+            self.transient_ref_std = _get(f, "transient/reference_std")   # time, observable
+            self.emergence = _get(f, "transient/emergence_time")    # case, observable
+            self.paired_with = (int(f.attrs["paired_with_case"])
+                                if "paired_with_case" in f.attrs else None)
             self.snap_mean = _get(f, "snapshot/mean")          # case, time, observable
             self.snap_variance = _get(f, "snapshot/variance")  # case, time, observable
             self.snap_regime = _get(f, "snapshot/regime_fraction")  # case, time, regime

@@ -577,6 +577,45 @@ def fig_snapshots(arch, outdir):
     return [_save(fig, outdir, "snapshots", title, caption)]
 
 
+def fig_transient(arch, outdir):
+    if arch.transient is None:
+        return [Skip("transient", "the archive has no transient response (/transient: paired "
+                                  "cases with snapshots)")]
+    t = arch.snap_time
+    ref = arch.paired_with
+    cases = [c for c in arch.few_cases(5) if c != ref][:4]
+    colors = _colors(len(cases))
+    names = arch.snap_observables[:PANELS_PER_PAGE]
+    fig, title = _new_figure(arch, f"transient response against case {ref}")
+    axes = fig.subplots(*_grid(len(names)), squeeze=False)
+    for ax, name in zip(axes.flat, names):
+        o = arch.snap_observables.index(name)
+        spread = arch.transient_ref_std[:, o]
+        ax.fill_between(t, -spread, spread, color="0.85", linewidth=0,
+                        label="reference spread (± one std)")
+        ax.axhline(0.0, color="0.4", linewidth=0.8)
+        for c, color in zip(cases, colors):
+            ci = arch.transient_ci[c, :, o]
+            ax.fill_between(t, ci[:, 0], ci[:, 1], color=color, alpha=0.3, linewidth=0)
+            ax.plot(t, arch.transient[c, :, o], color=color, linewidth=1.4,
+                    label=arch.case_label(c))
+            emerged = arch.emergence[c, o]
+            if np.isfinite(emerged):
+                ax.axvline(emerged, color=color, linestyle=":", linewidth=1.2)
+        ax.set_xlabel("model time (model time units)")
+        ax.set_ylabel(f"{name}: case less reference (model units)")
+        ax.set_title(f"response of {name}")
+        ax.grid(alpha=0.3)
+    _hide_unused(axes, len(names))
+    axes.flat[0].legend(loc="best")
+    caption = (f"Mean over the members of each member's difference from the same member of the "
+               f"reference case {ref} (paired: same start, same noise), with its 95% "
+               f"confidence interval; dotted lines mark the time of emergence (from then on "
+               f"every interval excludes 0). Grey: the spread across the reference's members, "
+               f"the scale of the internal variability.")
+    return [_save(fig, outdir, "transient", title, caption)]
+
+
 def fig_twins(arch, outdir):
     if arch.twin_lead is None or arch.twin_log_sep is None:
         return [Skip("twins", "the archive has no twin experiment (/twins)")]
@@ -719,6 +758,7 @@ def all_figures(arch, outdir, window):
     results += fig_histogram(arch, outdir)
     results += fig_trajectories(arch, outdir, window)
     results += fig_snapshots(arch, outdir)
+    results += fig_transient(arch, outdir)
     results += fig_twins(arch, outdir)
     results += fig_lyapunov(arch, outdir)
     results += fig_horizon(arch, outdir)

@@ -46,6 +46,7 @@ CAMPAIGNS = [
     ("configs/thermosyphon-lyapunov.yaml", 1),
     ("configs/thermosyphon-noisy-loop.yaml", 2),
     ("configs/thermosyphon-buffeted-loop.yaml", 2),
+    ("configs/thermosyphon-bias-switch.yaml", 2),
     ("configs/thermosyphon-ramp-predictability.yaml", 2),
     ("configs/thermosyphon-twins.yaml", 1),
     # regimes, histogram, Lyapunov exponents, trajectories; cases split mid-way across 3 ranks
