@@ -298,7 +298,12 @@ def _per_regime(arch, outdir, stem, values, ci, members, what, panel_title, ylab
                 logy=False):
     """A figure per swept axis of a per-regime ensemble estimate (values and ci [case][regime],
     members [case][member][regime]) against the axis: one panel with a line per regime, or with
-    more axes a panel per regime and a line per group of the other axes."""
+    more axes a panel per regime and a line per group of the other axes. Skipped without
+    regimes or without a sweep."""
+    if values is None:
+        return [Skip(stem, "the campaign defines no regimes (statistics.regimes)")]
+    if not arch.axes:
+        return [Skip(stem, "the campaign has no swept parameter")]
     out = []
     mask = arch.valid_mask
     for axis in arch.axes:
@@ -350,10 +355,6 @@ def _per_regime(arch, outdir, stem, values, ci, members, what, panel_title, ylab
 
 
 def fig_regimes(arch, outdir):
-    if arch.regime is None:
-        return [Skip("regimes", "the campaign defines no regimes (statistics.regimes)")]
-    if not arch.axes:
-        return [Skip("regimes", "the campaign has no swept parameter")]
     return _per_regime(
         arch, outdir, "regimes", arch.regime, arch.regime_ci, arch.member_regime,
         "regime fractions", "share of time in each regime",
@@ -364,10 +365,6 @@ def fig_regimes(arch, outdir):
 
 
 def fig_residence(arch, outdir):
-    if arch.residence is None:
-        return [Skip("residence", "the campaign defines no regimes (statistics.regimes)")]
-    if not arch.axes:
-        return [Skip("residence", "the campaign has no swept parameter")]
     return _per_regime(
         arch, outdir, "residence", arch.residence, arch.residence_ci, arch.member_residence,
         "mean residence time", "mean length of a stay in each regime",
