@@ -68,6 +68,7 @@ void reduce_transient(const spec::Spec& spec, const plan::Plan& plan, const Merg
   const std::size_t n_obs = plan.observables.size(), n_cases = plan.cases.size();
   const std::size_t ref = static_cast<std::size_t>(spec.ensemble.pair_with_case);
   const std::size_t per_case = times * n_obs;
+  r.transient_time = r.snapshot_time;
   r.transient_response.assign(n_cases * per_case, NAN);
   r.transient_response_ci95.assign(2 * n_cases * per_case, NAN);
   r.transient_reference_std.assign(per_case, NAN);

@@ -65,6 +65,7 @@ struct EnsembleResults {
   std::vector<double> snapshot_mean;
   std::vector<double> snapshot_variance;
   std::vector<double> snapshot_regime_fraction;
+  std::vector<double> transient_time;                // [time], as snapshot_time
   std::vector<double> transient_response;            // [case][time][observable]
   std::vector<double> transient_response_ci95;       // [case][time][observable][2]
   std::vector<double> transient_reference_std;       // [time][observable]

@@ -410,7 +410,7 @@ std::vector<Quantity> make_table() {
                S::snapshot_regimes,
                merged(M::sum, "the batches' snapshot_regimes summed per case, over the valid members")),
       // transient response against the paired reference case
-      ensemble(&E::snapshot_time, "/transient/time", {"time"}, kTime,
+      ensemble(&E::transient_time, "/transient/time", {"time"}, kTime,
                "model time of each snapshot, from the start of the integration (as "
                "/snapshot/time)",
                S::paired_snapshots, derived("the plan's snapshot steps times dt")),
