@@ -154,6 +154,10 @@ ModelInfo linear_info() {
     return std::make_unique<Linear>(v);
   };
   info.state_dim = [](const ParameterValues& v) { return matrix_side(v.at("matrix")); };
+  // forcing * forcing_direction is the only place `forcing` enters
+  info.additive_forcings = {{"forcing", [](const ParameterValues& v) {
+                               return v.at("forcing_direction");
+                             }}};
   return info;
 }
 

@@ -169,6 +169,10 @@ ModelInfo lorenz63_info() {
     return std::make_unique<Lorenz63>(v);
   };
   info.state_dim = [](const ParameterValues&) { return 3; };
+  // forcing * forcing_direction is the only place `forcing` enters
+  info.additive_forcings = {{"forcing", [](const ParameterValues& v) {
+                               return vector_parameter(v, "forcing_direction", 3);
+                             }}};
   info.fast_kernel = FastKernel::convection_loop;
   return info;
 }

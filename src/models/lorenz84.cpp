@@ -139,6 +139,13 @@ ModelInfo lorenz84_info() {
   info.make = [](const ParameterValues& v) -> std::unique_ptr<Model> {
     return std::make_unique<Lorenz84>(v);
   };
+  // a F in dx/dt and G in dy/dt
+  info.additive_forcings = {
+      {"F", [](const ParameterValues& v) {
+         return std::vector<double>{scalar_parameter(v, "a"), 0.0, 0.0};
+       }},
+      {"G", [](const ParameterValues&) { return std::vector<double>{0.0, 1.0, 0.0}; }},
+  };
   info.state_dim = [](const ParameterValues&) { return 3; };
   return info;
 }

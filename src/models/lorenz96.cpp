@@ -159,6 +159,11 @@ ModelInfo lorenz96_info() {
   info.state_dim = [](const ParameterValues& v) {
     return static_cast<int>(scalar_parameter(v, "n"));
   };
+  // + F on every site
+  info.additive_forcings = {{"F", [](const ParameterValues& v) {
+                               const auto n = static_cast<std::size_t>(scalar_parameter(v, "n"));
+                               return std::vector<double>(n, 1.0);
+                             }}};
   info.fast_kernel = FastKernel::ring;
   return info;
 }

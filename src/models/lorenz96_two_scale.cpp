@@ -19,6 +19,7 @@
 //   site_mean = (1/K) sum_k X_k
 //   energy    = sum_k X_k^2 / 2
 // Pure numerics: no allocation in rhs(), tangent() or derived(), no I/O.
+#include <algorithm>
 #include <cmath>
 #include <memory>
 #include <stdexcept>
@@ -243,6 +244,14 @@ ModelInfo lorenz96_two_scale_info() {
     const long J = static_cast<long>(scalar_parameter(v, "J"));
     return static_cast<int>(K + K * J);
   };
+  // + F on the slow variables (the first K), none on the fast ones
+  info.additive_forcings = {{"F", [](const ParameterValues& v) {
+                               const auto K = static_cast<std::size_t>(scalar_parameter(v, "K"));
+                               const auto J = static_cast<std::size_t>(scalar_parameter(v, "J"));
+                               std::vector<double> e(K + K * J, 0.0);
+                               std::fill(e.begin(), e.begin() + static_cast<long>(K), 1.0);
+                               return e;
+                             }}};
   return info;
 }
 

@@ -112,6 +112,15 @@ enum class FastKernel {
   ring,             // the ring of sites (run/ring_kernel.cpp)
 };
 
+/// A parameter that enters the equations as an additive forcing: rhs(x; p) = g(x) + p e, with
+/// e (the forcing direction) independent of the state and of p. The response of the statistics
+/// to p can then be predicted from the unforced fluctuations (statistics.response).
+struct AdditiveForcing {
+  std::string parameter;
+  /// e for complete parameter values (length: the state dimension for those values).
+  std::function<std::vector<double>(const ParameterValues& values)> direction;
+};
+
 /// Registry entry: a model's name, documentation, parameters and factory.
 struct ModelInfo {
   std::string name;
@@ -124,6 +133,8 @@ struct ModelInfo {
   /// State dimension for the given complete parameter values (without building the model).
   std::function<int(const ParameterValues& values)> state_dim;
   FastKernel fast_kernel = FastKernel::none;  // its fused kernel, if any
+  /// The parameters that enter as additive forcings, in the order the archive lists them.
+  std::vector<AdditiveForcing> additive_forcings;
 };
 
 /// All models compiled into the program. Models add themselves from their own file with a

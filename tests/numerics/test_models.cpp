@@ -145,6 +145,40 @@ Eigen::MatrixXd jacobian(const models::Model& model, const std::vector<double>& 
 // Exact (Lorenz 1963, J. Atmos. Sci. 20, 130): the origin and C+- = (+-sqrt(beta(rho-1)),
 // +-sqrt(beta(rho-1)), rho-1) are fixed points of the unforced equations. Only the rounding of
 // the square root remains: |x y - beta z| <= a few ulps of beta (rho-1).
+// Exact identity of the equations: a declared additive forcing p enters as rhs(x; p) = g(x) + p e,
+// so raising p by h changes rhs by h e at every state, e the declared direction. The other
+// parameters are moved off their defaults so that a direction that ignores them would fail.
+TEST_P(ModelConformance, DeclaredForcingsEnterAdditively) {
+  const models::ModelInfo& info = model_info(GetParam());
+  EXPECT_FALSE(info.additive_forcings.empty()) << "every model declares its additive forcings";
+  models::ParameterValues values = models::complete_parameters(info, {});
+  for (const models::ParameterInfo& p : info.parameters) {
+    if (p.structural || p.default_value.size() != 1) continue;
+    const double moved = p.default_value[0] * 0.7 + 0.3;
+    if (moved >= p.min && moved <= p.max) values[p.name] = {moved};
+  }
+  for (const models::AdditiveForcing& forcing : info.additive_forcings) {
+    SCOPED_TRACE(forcing.parameter);
+    ASSERT_EQ(values.count(forcing.parameter), 1u);
+    const double h = 1.5;
+    models::ParameterValues raised = values;
+    raised[forcing.parameter][0] += h;
+    const auto base = info.make(values);
+    const auto up = info.make(raised);
+    const std::vector<double> e = forcing.direction(values);
+    ASSERT_EQ(e.size(), static_cast<std::size_t>(base->state_dim()));
+    for (int trial = 0; trial < 3; ++trial) {
+      std::vector<double> x(e.size());
+      for (std::size_t i = 0; i < x.size(); ++i) x[i] = std::sin(1.7 * (i + 1) + trial) * 3.0;
+      const std::vector<double> f0 = rhs_of(*base, x), f1 = rhs_of(*up, x);
+      for (std::size_t i = 0; i < x.size(); ++i) {
+        const double scale = std::abs(f0[i]) + std::abs(f1[i]) + 1.0;
+        EXPECT_NEAR((f1[i] - f0[i]) / h, e[i], 8 * kEps * scale / h) << "component " << i;
+      }
+    }
+  }
+}
+
 TEST(Lorenz63, FixedPointsAreStationary) {
   for (const auto& [sigma, rho, beta] : {std::tuple{10.0, 28.0, 8.0 / 3.0},
                                          std::tuple{16.0, 45.92, 4.0}}) {
