@@ -281,6 +281,12 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
     root.set_attribute("scheduled_parameter", spec.schedule.parameter);
   }
   write_method_and_noise(root, spec);
+  const spec::Response& response = spec.statistics.response;
+  if (response.enabled) {
+    root.set_attribute("response_every", response.every);
+    root.set_attribute("response_max_lag", response.max_lag);
+    root.set_attribute("response_groups", static_cast<std::int64_t>(plan.response_groups));
+  }
 }
 
 /// Exponent indices 1..k (the coordinate of the `exponent` dimension).
@@ -344,6 +350,8 @@ void make_scale(GroupWriter& g, const std::string& group, const std::string& dim
     std::vector<std::string> axes;
     for (const spec::SweepAxis& a : in.spec.sweep) axes.push_back(a.parameter);
     g.labels(dim, axes, long_name);
+  } else if (dim == "forcing_parameter") {
+    g.labels(dim, plan.forcings, long_name);
   } else if (dim == "lead") {
     g.coordinate(dim, run::twin_leads(plan.twins, in.spec.integration.dt), own_name());
   } else if (dim == "time") {

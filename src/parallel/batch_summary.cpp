@@ -110,7 +110,11 @@ SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan) {
   p.snapshots = p.twin_moments + kMomentWidth * twin_triples;
   p.errors = kMomentWidth * triples;
   p.twin_sums = p.errors + stats::MemberErrorSums::kPacked * n_obs;
-  const std::size_t sums = stats::MemberErrorSums::kPacked * n_obs + (p.leads > 0 ? p.leads + 1 : 0);
+  p.response = p.twin_sums + (p.leads > 0 ? p.leads + 1 : 0);
+  p.response_width = static_cast<std::size_t>(plan.response_groups) * plan.extent("response_sum");
+  if (!plan.outputs.response) p.response_width = 0;
+  const std::size_t sums = stats::MemberErrorSums::kPacked * n_obs +
+                           (p.leads > 0 ? p.leads + 1 : 0) + p.response_width;
   p.layout = stats::SummaryLayout{triples, sums};
   const std::size_t bins =
       spec.statistics.histogram.enabled ? static_cast<std::size_t>(spec.statistics.histogram.bins) : 0;
@@ -137,6 +141,12 @@ void Summariser::append(const run::BatchResult& b, std::vector<double>& summary,
   summary.insert(summary.end(), b.paired_moments.begin(), b.paired_moments.end());
   add_errors(observables_, b, summary);
   summary.insert(summary.end(), sums.begin(), sums.end());
+  if (parts_.response_width > 0) {
+    if (b.response_sums.size() != parts_.response_width) {
+      throw Error("batch " + std::to_string(b.batch_index) + " has no response sums");
+    }
+    summary.insert(summary.end(), b.response_sums.begin(), b.response_sums.end());
+  }
   std::int64_t non_finite = 0;
   for (int i = 0; i < b.count; ++i) non_finite += b.status[i] != run::kValid ? 1 : 0;
   counts.push_back(non_finite);
@@ -209,7 +219,8 @@ void keep_archived_rows(const plan::Plan& plan, run::BatchResult& b) {
       values.resize(values.size() / static_cast<std::size_t>(b.count) * static_cast<std::size_t>(kept));
       values.shrink_to_fit();
     } else if (q.scope == results::Scope::batch &&
-               (q.merge == results::Merge::sum || q.merge == results::Merge::moments)) {
+               (q.merge == results::Merge::sum || q.merge == results::Merge::moments ||
+                q.merge == results::Merge::summed)) {
       values.clear();
       values.shrink_to_fit();
     }

@@ -222,6 +222,7 @@ EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const Mer
   reduce_twins(spec, plan, merged, r);
   reduce_snapshots(spec, plan, merged, r);
   reduce_transient(spec, plan, merged, r);
+  reduce_predicted_response(spec, plan, merged, r);
   check_cases(spec, plan, n_lyap, r);
   return r;
 }

@@ -49,5 +49,9 @@ void reduce_snapshots(const spec::Spec& spec, const plan::Plan& plan, const Merg
 /// reduce_snapshots. Nothing without paired cases and snapshots.
 void reduce_transient(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
                       EnsembleResults& r);
+/// The response predicted from fluctuations (response_reduce.cpp). Nothing without
+/// statistics.response.
+void reduce_predicted_response(const spec::Spec& spec, const plan::Plan& plan,
+                               const MergedCases& merged, EnsembleResults& r);
 
 }  // namespace chaosweep::parallel

@@ -1,6 +1,8 @@
 // Spec -> cases x members -> batches. Pure: no MPI, no HDF5, no YAML.
 #include "plan/plan.hpp"
 
+#include "stats/lagged_sums.hpp"
+
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -117,6 +119,16 @@ Plan make_plan(const spec::Spec& spec) {
     plan.twins.every_steps = std::max<std::int64_t>(1, whole_steps(twins.every, dt));
     plan.twins.leads = plan.accumulate_steps / plan.twins.every_steps + 1;
   }
+  const spec::Response& response = spec.statistics.response;
+  if (response.enabled) {
+    plan.response_every_steps = std::max<std::int64_t>(1, whole_steps(response.every, dt));
+    plan.response_samples = plan.accumulate_steps / plan.response_every_steps + 1;
+    plan.response_lags = static_cast<int>(std::llround(response.max_lag / response.every));
+    plan.response_groups = static_cast<int>(std::min<std::int64_t>(response.groups, plan.members));
+    for (const models::AdditiveForcing& f : plan.model->additive_forcings) {
+      plan.forcings.push_back(f.parameter);
+    }
+  }
   const spec::Lyapunov& lyapunov = spec.statistics.lyapunov;
   if (lyapunov.enabled) {
     plan.lyapunov_every_steps =
@@ -137,6 +149,7 @@ Plan make_plan(const spec::Spec& spec) {
   out.snapshots = plan.snapshot_count > 0;
   out.trajectories = plan.trajectory_members > 0;
   out.paired = spec.ensemble.pair_with_case >= 0;
+  out.response = response.enabled;
   return plan;
 }
 
@@ -180,6 +193,11 @@ std::uint64_t Plan::extent(const std::string& dim) const {
   if (dim == "time") return n(snapshot_count);
   if (dim == "sample") return n(trajectory_members);
   if (dim == "step") return n(trajectory_samples);
+  if (dim == "forcing_parameter") return n(forcings.size());
+  if (dim == "response_group") return n(response_groups);
+  if (dim == "response_sum") {
+    return n(stats::LagSumsLayout{observables.size(), static_cast<std::size_t>(state_dim)}.width());
+  }
   throw std::logic_error("no extent for dimension " + dim);
 }
 

@@ -61,6 +61,16 @@ struct Plan {
   std::int64_t snapshot_count = 0;           // snapshot times per case: at steps
                                              // spinup_steps + k * snapshot_every_steps
   TwinTimes twins;                           // leads 0 without twins
+  /// statistics.response: samples every response_every_steps from the end of the spin-up
+  /// (response_samples per member), response_lags lags, members in response_groups groups
+  /// (member m of a case in group m * groups / members); 0 without.
+  std::int64_t response_every_steps = 0, response_samples = 0;
+  int response_lags = 0, response_groups = 0;
+  std::vector<std::string> forcings;  // the model's additive forcings (with statistics.response)
+  /// The group of member m of a case (statistics.response).
+  int response_group(std::int64_t member) const {
+    return static_cast<int>(member * response_groups / members);
+  }
   std::int64_t lyapunov_every_steps = 0;     // re-orthonormalisation period, 0 without
   std::int64_t attractor_spinup_steps = 0;   // initial_state: {from: attractor}, 0 otherwise
   int lyapunov_exponents = 0;                // 0 without Lyapunov exponents

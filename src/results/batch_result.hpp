@@ -48,6 +48,7 @@ struct BatchResult {
   std::vector<double> snapshot_moments;        // [snapshots][observables][3]: n, mean, m2
   std::vector<std::int64_t> snapshot_regimes;  // [snapshots][regimes]
   std::vector<double> paired_moments;  // [snapshots][observables][3]: of the paired differences
+  std::vector<double> response_sums;   // [response groups][stats::LagSumsLayout width]
 
   // What the reduction takes of the batch (parallel/batch_summary.hpp), once summarised; then
   // the per-member rows may hold only the archived members, the first `rows` of the batch.

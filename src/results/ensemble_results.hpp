@@ -71,6 +71,8 @@ struct EnsembleResults {
   std::vector<double> transient_reference_std;       // [time][observable]
   std::vector<double> transient_emergence_time;      // [case][observable]
   std::vector<double> transient_variance_reduction;  // [case][observable]
+  std::vector<double> predicted_slope;         // [forcing][case][observable]
+  std::vector<double> predicted_slope_stderr;  // [forcing][case][observable]
 
   /// Members that became non-finite, over the whole campaign (for the run log).
   std::int64_t non_finite_members = 0;

@@ -194,6 +194,11 @@ std::vector<Quantity> make_table() {
             "(n, mean, m2) of the differences of the batch's members from the reference case's "
             "same members, over the members valid in both",
             S::paired_snapshots, M::moments),
+      batch("response_sums", &B::response_sums, "", {"response_group", "response_sum"}, "1",
+            "the sums behind the lagged covariances of the observables with the state "
+            "(stats::LagSumsLayout) of the batch's members in each group; all 0 when a member "
+            "of the batch became non-finite",
+            S::response, M::summed),
       batch("snapshot_moments", &B::snapshot_moments, "", {"time", "observable", "moment"}, "1",
             "(n, mean, m2) of the observable across the batch's valid members", S::snapshots,
             M::moments),
@@ -341,6 +346,22 @@ std::vector<Quantity> make_table() {
                "members))",
                S::sweep_regimes,
                derived("stats::gradient_along each axis of the cases' regime fractions")),
+      ensemble(&E::predicted_slope, "/response/predicted_slope", {"forcing_parameter", "case", "observable"},
+               "1",
+               "derivative of the observable's mean with respect to the additive forcing, "
+               "predicted from the case's own fluctuations: the lag integral (trapezoid rule, "
+               "lags 0 .. statistics.response.max_lag) of C_Ax(tau) C(0)^-1 applied to the "
+               "forcing's direction, C_Ax(tau) the covariance of the observable at t + tau with "
+               "the state at t and C(0) the state's covariance (quasi-Gaussian "
+               "fluctuation-dissipation relation; NaN if C(0) is singular)",
+               S::response,
+               derived("stats::predict_response of the cases' summed response_sums")),
+      ensemble(&E::predicted_slope_stderr, "/response/predicted_slope_stderr",
+               {"forcing_parameter", "case", "observable"}, "1",
+               "standard error of the predicted slope: delete-one-group jackknife over the "
+               "statistics.response.groups groups of members",
+               S::response,
+               derived("stats::predict_response of the cases' summed response_sums")),
       // twin experiment
       coordinate("/twins/lead", {"lead"}, T::float64, kTime,
                  "lead time since the end of the spin-up, in model time units", S::twins),
@@ -465,6 +486,9 @@ std::vector<Dimension> make_dimensions() {
        {"first", "last"}, "", true},
       {"exponent", "1", "exponent number (1 = leading)", {}, "1 .. exponents", true},
       {"axis", "1", "swept parameter", {}, "the swept parameters' names", true},
+      {"forcing_parameter", "1", "parameter that enters as an additive forcing", {},
+       "the model's additive forcings' names",
+       true},
       {"lead", kTime, "lead time since the end of the spin-up", {},
        "0, every, 2 every, ... (statistics.twins.every)"},
       {"edges", "1", "bin edge of the histogram", {}, "the bins' edges, low to high"},
@@ -476,6 +500,10 @@ std::vector<Dimension> make_dimensions() {
        "none (each sample's model time is /trajectory/time)"},
       {"variable", "1", "state variable", {}, "the model's state variable names", true},
       {"moment", "1", "(n, mean, m2) of a partial summary (checkpoints only)", {}, "0 .. 2"},
+      {"response_group", "1", "group of members of the response sums (checkpoints only)", {},
+       "0 .. groups - 1"},
+      {"response_sum", "1", "one of the response sums of a group (checkpoints only)", {},
+       "stats::LagSumsLayout"},
   };
 }
 
@@ -500,6 +528,7 @@ bool is_on(Switch s, const Options& o) {
     case Switch::sweep_regimes: return o.sweep && o.regimes;
     case Switch::trajectories: return o.trajectories;
     case Switch::paired_snapshots: return o.paired && o.snapshots;
+    case Switch::response: return o.response;
   }
   return false;
 }
@@ -517,6 +546,7 @@ std::string switch_text(Switch s) {
     case Switch::sweep_regimes: return "sweep and statistics.regimes";
     case Switch::trajectories: return "output.trajectories";
     case Switch::paired_snapshots: return "ensemble.pair_with_case and statistics.snapshots";
+    case Switch::response: return "statistics.response";
   }
   return "";
 }
@@ -536,6 +566,7 @@ std::string Quantity::merge_text() const {
     case Merge::sum: return "summed per case";
     case Merge::moments: return how.empty() ? "(n, mean, m2) merged per case along the batch merge tree" : how;
     case Merge::stored: return "as integrated, by the rank that ran the batch";
+    case Merge::summed: return "summed per case along the batch merge tree";
     case Merge::estimate: {
       const char* what = estimate == Estimate::mean ? "mean"
                          : estimate == Estimate::std ? "standard deviation"
@@ -625,7 +656,9 @@ std::string markdown_table() {
   }
   text += "\n| dimension | units | meaning | coordinate values |\n|---|---|---|---|\n";
   for (const Dimension& d : dimensions()) {
-    if (d.name == "moment") continue;  // checkpoints only
+    if (d.name == "moment" || d.name == "response_group" || d.name == "response_sum") {
+      continue;  // checkpoints only
+    }
     std::string values = d.coordinates;
     for (const std::string& label : d.labels) {
       values += (values.empty() ? "" : ", ") + ("`" + label + "`");

@@ -43,6 +43,7 @@ enum class Merge {
   sum,             // per-batch counts, summed per case (exact in any order)
   moments,         // per-batch (n, mean, m2), merged per case along the batch merge tree (parallel/)
   stored,          // per-batch data written as it is by the rank that holds the batch
+  summed,          // per-batch sums of doubles, added per case along the batch merge tree
   estimate,        // ensemble mean, std or 95% interval of a member_moments quantity
   derived,         // computed from merged partials (`how` names the computation)
 };
@@ -56,13 +57,15 @@ enum class Estimate { none, mean, median, std, ci95, detail };
 
 /// The spec option that switches a quantity on.
 enum class Switch { always, sweep, regimes, lyapunov, twins, histogram, snapshots,
-                    snapshot_regimes, sweep_regimes, trajectories, paired_snapshots };
+                    snapshot_regimes, sweep_regimes, trajectories, paired_snapshots,
+                    response };
 
 /// Which switches a campaign turns on (plan::Plan::outputs).
 struct Options {
   bool sweep = false, regimes = false, lyapunov = false, twins = false, histogram = false,
        snapshots = false, trajectories = false;
   bool paired = false;  // ensemble.pair_with_case
+  bool response = false;  // statistics.response
 };
 
 bool is_on(Switch s, const Options& options);

@@ -148,6 +148,11 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
   }
   s.snapshot_every = plan.snapshot_every_steps;
   s.snapshot_count = plan.snapshot_count;
+  s.response_every = plan.response_every_steps;
+  s.response_samples = plan.response_samples;
+  s.response_lags = plan.response_lags;
+  s.response_groups = plan.response_groups;
+  s.members = plan.members;
   s.method = spec.integration.method;
   s.noise = spec.noise;
   if (spec.noise.amplitude_swept) {

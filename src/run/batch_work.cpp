@@ -62,6 +62,24 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
     sh.kernel = make_kernel(ref.setup, *ref.model, {}, {batch.first_member, batch.count});
     sh.snapshots.emplace(ref.setup, *ref.model, batch.count);
   }
+  if (setup.response_every > 0) {
+    const auto group = [&](std::int64_t m) {
+      return static_cast<int>(m * setup.response_groups / setup.members);
+    };
+    response_first_group_ = group(batch.first_member);
+    std::vector<int> group_of(static_cast<std::size_t>(w), -1);
+    for (int j = 0; j < batch.count; ++j) {
+      group_of[static_cast<std::size_t>(j)] = group(batch.first_member + j) - response_first_group_;
+    }
+    const int groups = group(batch.first_member + batch.count - 1) - response_first_group_ + 1;
+    response_.emplace(stats::LagSumsLayout{setup.observables.size(),
+                                           static_cast<std::size_t>(setup.state_dim)},
+                      setup.response_lags, w, std::move(group_of), groups);
+    if (setup.needs_derived) {
+      response_derived_.assign(
+          static_cast<std::size_t>(setup.n_model_observables - setup.state_dim) * w, 0.0);
+    }
+  }
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;
   result_.first_member = batch.first_member;
@@ -85,6 +103,7 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
   sample_trajectory(0);
   if (twins_) twins_->after_step(0, x_.data(), base_, true);
   take_snapshot(0);
+  take_response_sample(0);
 }
 
 BatchWork::BatchWork(const Setup& setup, const models::Model& model,
@@ -131,9 +150,12 @@ std::int64_t BatchWork::segment_end(std::int64_t last) const {
   }
   if (twins_) end = std::min(end, twins_->next_event(step_));
   if (step_ < s.spinup_steps) return std::min(end, s.spinup_steps);
+  const std::int64_t since = step_ - s.spinup_steps;
   if (s.snapshot_every > 0) {
-    const std::int64_t since = step_ - s.spinup_steps;
     end = std::min(end, s.spinup_steps + (since / s.snapshot_every + 1) * s.snapshot_every);
+  }
+  if (s.response_every > 0) {
+    end = std::min(end, s.spinup_steps + (since / s.response_every + 1) * s.response_every);
   }
   end = std::min(end, step_ + kMaxSegment);
   return std::min(end, step_ + moments_.block_room());
@@ -150,6 +172,51 @@ void BatchWork::after_step(std::int64_t step) {
   }
   if (twins_) twins_->after_step(step, x_.data(), base_, check);
   take_snapshot(step);
+  take_response_sample(step);
+}
+
+// Response sample k at step spinup_steps + k * response_every (as the snapshots).
+void BatchWork::take_response_sample(std::int64_t step) {
+  const Setup& s = setup_;
+  if (!response_ || step < s.spinup_steps) return;
+  const std::int64_t since = step - s.spinup_steps;
+  if (since % s.response_every != 0 || since / s.response_every >= s.response_samples) return;
+  const int w = s.width;
+  if (s.needs_derived) model_.derived(x_.data(), response_derived_.data(), w);
+  std::vector<const double*> rows;
+  rows.reserve(s.observables.size());
+  for (int i : s.observables) {
+    rows.push_back(i < s.state_dim
+                       ? x_.data() + static_cast<std::size_t>(i) * w
+                       : response_derived_.data() + static_cast<std::size_t>(i - s.state_dim) * w);
+  }
+  response_->add(since / s.response_every, x_.data(), rows);
+}
+
+// The batch's response sums in the campaign's [group][sums] layout, with each group's member
+// count; all 0 when a member became non-finite (its earlier samples are in the sums).
+void BatchWork::collect_response() {
+  const Setup& s = setup_;
+  if (!response_) return;
+  const stats::LagSumsLayout& layout = response_->layout();
+  const std::size_t width = layout.width();
+  result_.response_sums.assign(static_cast<std::size_t>(s.response_groups) * width, 0.0);
+  for (int j = 0; j < count_; ++j) {
+    if (non_finite_[j]) return;
+  }
+  const std::vector<double>& blocks = response_->blocks();
+  const std::size_t local = blocks.size() / width;
+  for (std::size_t g = 0; g < local; ++g) {
+    std::copy(blocks.begin() + static_cast<std::ptrdiff_t>(g * width),
+              blocks.begin() + static_cast<std::ptrdiff_t>((g + 1) * width),
+              result_.response_sums.begin() +
+                  static_cast<std::ptrdiff_t>((response_first_group_ + g) * width));
+  }
+  for (int j = 0; j < count_; ++j) {
+    const std::int64_t m = result_.first_member + j;
+    const auto g = static_cast<std::size_t>(m * s.response_groups / s.members);
+    result_.response_sums[g * width + layout.members()] += 1.0;
+  }
 }
 
 // Snapshot k at step spinup_steps + k * snapshot_every (step 0 itself when there is no
@@ -175,6 +242,7 @@ BatchResult BatchWork::finish() {
   collect_histogram();
   if (twins_) twins_->finish(non_finite_, setup_.dt, result_);
   if (snapshots_) snapshots_->collect(non_finite_, result_);
+  collect_response();
   if (snapshots_ && setup_.paired_snapshots) {
     if (shadow_) {
       snapshots_->collect_paired(non_finite_, &*shadow_->snapshots, &shadow_->non_finite,
@@ -206,6 +274,7 @@ BatchState BatchWork::save() const {
   if (histogram_) histogram_->save("histogram.", out);
   if (twins_) twins_->save(out);
   if (snapshots_) snapshots_->save("snapshots.", out);
+  if (response_) response_->save("response.", out);
   if (shadow_) {
     out.put("paired.state", shadow_->x);
     out.put("paired.non_finite",
@@ -244,6 +313,7 @@ void BatchWork::restore(const BatchState& state) {
   if (histogram_) histogram_->load("histogram.", in);
   if (twins_) twins_->load(in);
   if (snapshots_) snapshots_->load("snapshots.", in);
+  if (response_) response_->load("response.", in);
   if (shadow_) {
     shadow_->x = in.reals("paired.state", d * w);
     const std::vector<std::int64_t>& paired_flags = in.integers("paired.non_finite", w);

@@ -17,6 +17,7 @@
 #include "spec/spec.hpp"
 #include "stats/extremes.hpp"
 #include "stats/histogram.hpp"
+#include "stats/lagged_sums.hpp"
 #include "stats/regimes.hpp"
 #include "stats/time_moments.hpp"
 
@@ -60,6 +61,12 @@ struct Setup {
   /// The reference case, whose members a batch integrates beside its own to difference them
   /// (null for the reference case itself, whose differences are exactly 0).
   std::shared_ptr<const PairedReference> paired;
+  /// statistics.response: sample k at step spinup_steps + k * response_every, k = 0 ..
+  /// response_samples - 1 (0: off); member m of the case (of `members`) in group
+  /// m * response_groups / members.
+  std::int64_t response_every = 0, response_samples = 0;
+  int response_lags = 0, response_groups = 0;
+  std::int64_t members = 0;
 };
 
 /// The reference case of paired cases: its Setup, its model and base state (the same base
@@ -105,6 +112,8 @@ class BatchWork final : public BatchProgress {
   void check_finite();
   void sample_trajectory(std::int64_t sample);
   void take_snapshot(std::int64_t step);
+  void take_response_sample(std::int64_t step);
+  void collect_response();
   void collect_moments();
   void collect_extremes();
   void collect_regimes();
@@ -132,6 +141,11 @@ class BatchWork final : public BatchProgress {
     std::optional<SnapshotRecorder> snapshots;
   };
   std::optional<Shadow> shadow_;
+  /// statistics.response: the sums of the groups the batch's members belong to (the first
+  /// being response_first_group_), and the derived observables' rows at a sample.
+  std::optional<stats::LaggedSums> response_;
+  int response_first_group_ = 0;
+  std::vector<double> response_derived_;
   BatchResult result_;
   std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
   bool finished_ = false;

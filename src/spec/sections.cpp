@@ -156,6 +156,50 @@ void read_twins(const Field& f, const Spec& spec, Twins& out) {
   out.threshold = map.required("threshold").number_above(0.0);
 }
 
+/// Lags of statistics.response (each costs a state's worth of history per member).
+constexpr double kMaxResponseLags = 10000.0;
+
+void read_response(const Field& f, const ModelFacts& facts, const Spec& spec, Response& out) {
+  const Map map(f, {{"max_lag", "every", "groups"}, {}, "key", ""});
+  if (facts.info->additive_forcings.empty()) {
+    f.fail("model `" + spec.model + "` declares no parameter that enters as an additive forcing, "
+           "so there is no response to predict");
+  }
+  if (spec.schedule.kind != ScheduleKind::none) {
+    f.fail("predicts the response of a statistically steady run, but `schedule` makes `" +
+           spec.schedule.parameter + "` change in time; remove one of them");
+  }
+  out.enabled = true;
+  const Field every = map.required("every");
+  out.every = every.number_above(0.0);
+  check_whole_steps(every, out.every, spec.integration.dt);
+  const Field max_lag = map.required("max_lag");
+  out.max_lag = max_lag.number_above(0.0);
+  const double lags = out.max_lag / out.every;
+  const double whole = std::round(lags);
+  if (whole < 1.0 || std::fabs(lags - whole) > 1e-9 * std::max(1.0, whole)) {
+    max_lag.fail("must be a whole multiple (>= 1) of statistics.response.every (" +
+                 format_number(out.every) + "), got " + format_number(out.max_lag));
+  }
+  if (whole > kMaxResponseLags) {
+    max_lag.fail("gives " + format_number(whole) + " lags, more than " +
+                 format_number(kMaxResponseLags) + "; take a larger every");
+  }
+  if (out.max_lag >= spec.integration.duration) {
+    max_lag.fail("must be shorter than integration.duration (" +
+                 format_number(spec.integration.duration) + "), got " +
+                 format_number(out.max_lag));
+  }
+  if (map.has("groups")) {
+    const Field groups = map.get("groups");
+    out.groups = static_cast<int>(groups.integer_in(2, 1000));
+    if (out.groups > spec.ensemble.members) {
+      groups.fail("must be at most ensemble.members (" + std::to_string(spec.ensemble.members) +
+                  "), got " + std::to_string(out.groups));
+    }
+  }
+}
+
 /// members * cases and state_dim * members * cases must fit in int64 (the sweep has already
 /// checked that the number of cases does).
 void check_sizes(const Field& members, const Spec& spec, const ModelFacts& facts) {
@@ -317,7 +361,7 @@ void read_ensemble(const Field& ensemble, const ModelFacts& facts, Spec& spec) {
 
 void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spec) {
   const Map map(statistics, {{"observables", "regimes", "histogram", "lyapunov", "twins",
-                              "snapshots"},
+                              "snapshots", "response"},
                              {}, "key", ""});
   Statistics& out = spec.statistics;
   if (map.has("observables")) out.observables = read_observable_names(map.get("observables"), facts);
@@ -326,6 +370,7 @@ void read_statistics(const Field& statistics, const ModelFacts& facts, Spec& spe
   if (map.has("lyapunov")) read_lyapunov(map.get("lyapunov"), facts, spec, out.lyapunov);
   if (map.has("twins")) read_twins(map.get("twins"), spec, out.twins);
   if (map.has("snapshots")) read_snapshots(map.get("snapshots"), spec, out.snapshots);
+  if (map.has("response")) read_response(map.get("response"), facts, spec, out.response);
 }
 
 /// output.members: `all`, `none` or {sample: N} with 1 <= N <= ensemble.members.

@@ -157,6 +157,18 @@ struct Snapshots {
   double every = 0.0;  // time units, a whole number of steps dt, at most integration.duration
 };
 
+/// The response predicted from fluctuations (statistics.response): every member is sampled
+/// every `every` time units over the accumulation window, and the lagged covariances of each
+/// selected observable with the state, at lags 0, every, ..., max_lag, give the predicted
+/// static response to each of the model's additive forcings (quasi-Gaussian
+/// fluctuation-dissipation relation); its error is a jackknife over `groups` groups of members.
+struct Response {
+  bool enabled = false;
+  double max_lag = 0.0;  // time units, a whole multiple of every, below integration.duration
+  double every = 0.0;    // time units, a whole number of steps dt
+  int groups = 8;        // used as min(groups, ensemble.members)
+};
+
 struct Statistics {
   std::vector<std::string> observables;  // default: every observable of the model
   Regimes regimes;
@@ -164,6 +176,7 @@ struct Statistics {
   Lyapunov lyapunov;
   Twins twins;
   Snapshots snapshots;
+  Response response;
 };
 
 /// Full state paths of the first `members` members of every case, sampled every `every` time
