@@ -57,6 +57,16 @@ double snapshot_doubles_per_rank(const plan::Plan& plan, double batches) {
   return times * (n_obs * plan.batch_size + batches * (3 * n_obs + n_reg));
 }
 
+/// statistics.response in a batch in progress: the last max_lag / every + 1 states and their
+/// running sum per member, and the sums of the groups of its members.
+double response_doubles(const plan::Plan& plan) {
+  if (plan.response_every_steps == 0) return 0.0;
+  const double d = plan.state_dim, n_obs = static_cast<double>(plan.observables.size());
+  const double block = 1.0 + n_obs + d + d * (d + 1.0) / 2.0 + n_obs * d;
+  const double groups = std::min<double>(plan.response_groups, 2.0 + plan.batch_size);
+  return (plan.response_lags + 2.0) * d * plan.batch_size + groups * block;
+}
+
 double trajectory_doubles(const plan::Plan& plan) {
   return static_cast<double>(plan.cases.size()) * plan.trajectory_members *
          plan.trajectory_samples * plan.state_dim;
@@ -105,6 +115,9 @@ plan::Plan calibration_plan(const plan::Plan& plan, std::int64_t steps) {
   }
   if (p.trajectory_every_steps > 0) {
     p.trajectory_samples = p.total_steps() / p.trajectory_every_steps + 1;
+  }
+  if (p.response_every_steps > 0) {
+    p.response_samples = p.accumulate_steps / p.response_every_steps + 1;
   }
   p.cases = {plan.cases.front()};
   p.members = plan.batch(0).count;
@@ -159,6 +172,7 @@ std::string calibrated_statistics(const spec::Spec& spec) {
   }
   if (st.twins.enabled) parts.push_back("twins");
   if (st.snapshots.enabled) parts.push_back("snapshots");
+  if (st.response.enabled) parts.push_back("response sums");
   if (spec.output.trajectories.members > 0) parts.push_back("trajectories");
   if (spec.schedule.kind != spec::ScheduleKind::none) parts.push_back("schedule");
   std::string text;
@@ -354,7 +368,7 @@ int check_command(const CheckOptions& options) {
   const double per_rank_bytes =
       8.0 * (kept_rows * per_member_doubles(plan) + trajectory_doubles(plan) / options.ranks +
              8.0 * plan.batch_size * plan.state_dim + twin_doubles(plan, 0.0, false) +
-             snapshot_doubles_per_rank(plan, 0.0)) +
+             snapshot_doubles_per_rank(plan, 0.0) + response_doubles(plan)) +
       3.0 * tree_bytes;
   const double archive_bytes =
       plan::member_bytes(plan, plan.archived_members) +
@@ -371,6 +385,16 @@ int check_command(const CheckOptions& options) {
     std::printf("  snapshots      %lld times per case, every %g from t = %g\n",
                 static_cast<long long>(plan.snapshot_count), spec.statistics.snapshots.every,
                 static_cast<double>(plan.spinup_steps) * spec.integration.dt);
+  }
+  if (plan.response_every_steps > 0) {
+    std::string forcings;
+    for (const std::string& f : plan.forcings) forcings += (forcings.empty() ? "" : ", ") + f;
+    std::printf("  response       predicted from fluctuations for %s: %lld samples per member "
+                "every %g, lags to %g, error over %d groups of members; %.3g MiB of sums in "
+                "every batch summary\n",
+                forcings.c_str(), static_cast<long long>(plan.response_samples),
+                spec.statistics.response.every, spec.statistics.response.max_lag,
+                plan.response_groups, 8.0 * static_cast<double>(parts.response_width) / 1048576.0);
   }
   if (plan.archived_members == plan.members) {
     std::printf("  member output  every member's own results (output.members: all)\n");

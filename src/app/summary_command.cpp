@@ -300,6 +300,26 @@ void print_json(const ArchiveSummary& s) {
     }
   }
   doc["response"] = response;
+  if (!s.forcings.empty()) {
+    Json predicted = Json::array();
+    const std::size_t cases = static_cast<std::size_t>(s.cases);
+    for (std::size_t p = 0; p < s.forcings.size(); ++p) {
+      for (std::size_t o = 0; o < n_obs; ++o) {
+        Json value = Json::array(), se = Json::array();
+        for (std::size_t c = 0; c < cases; ++c) {
+          value.push_back(s.predicted_slope[(p * cases + c) * n_obs + o]);
+          se.push_back(s.predicted_slope_stderr[(p * cases + c) * n_obs + o]);
+        }
+        predicted.push_back(Json{{"forcing", s.forcings[p]}, {"observable", s.observables[o]},
+                                 {"predicted_slope", value}, {"stderr", se}});
+      }
+    }
+    doc["predicted_response"] = predicted;
+    doc["predicted_slope"] = "per case (in case order): the derivative of the observable's mean "
+                             "with respect to the additive forcing predicted from the case's own "
+                             "fluctuations (quasi-Gaussian relation), and its jackknife standard "
+                             "error over groups of members";
+  }
   if (!s.axes.empty()) {
     doc["linear_fit"] = "chi2 of the best weighted linear fit of the cases' time means on the "
                         "parameters (weights 1/stderr^2), its degrees of freedom and p-value: a "
@@ -682,6 +702,44 @@ void print_response(const ArchiveSummary& s) {
   print_aligned(local);
 }
 
+/// The response predicted from each case's fluctuations, beside the direct local slope where
+/// the forcing is also swept.
+void print_predicted(const ArchiveSummary& s) {
+  const std::size_t n_obs = s.observables.size(), cases = static_cast<std::size_t>(s.cases);
+  if (s.forcings.empty() || s.predicted_slope.size() != s.forcings.size() * cases * n_obs) return;
+  std::printf("\nresponse of the ensemble time mean predicted from each case's own fluctuations "
+              "(quasi-Gaussian fluctuation-dissipation relation): slope +- jackknife std "
+              "error%s\n",
+              s.local_slope.empty() ? "" : "; [direct] the local slope where the forcing is swept");
+  std::vector<std::vector<std::string>> rows{{"case"}};
+  for (const std::string& a : s.axes) rows[0].push_back(a);
+  for (const std::string& p : s.forcings) {
+    for (const std::string& o : s.observables) rows[0].push_back("d" + o + "/d" + p);
+  }
+  for (std::size_t c = 0; c < cases; ++c) {
+    std::vector<std::string> row{std::to_string(c)};
+    for (std::size_t a = 0; a < s.axes.size(); ++a) {
+      row.push_back(number_text("%.4g", s.axis_values[a][c]));
+    }
+    for (std::size_t p = 0; p < s.forcings.size(); ++p) {
+      const auto axis = std::find(s.axes.begin(), s.axes.end(), s.forcings[p]);
+      const bool direct = axis != s.axes.end() && s.local_slope.size() == s.axes.size() * cases * n_obs;
+      for (std::size_t o = 0; o < n_obs; ++o) {
+        const std::size_t i = (p * cases + c) * n_obs + o;
+        std::string text = number_text("%.4g", s.predicted_slope[i]) + " +- " +
+                           number_text("%.2g", s.predicted_slope_stderr[i]);
+        if (direct) {
+          const std::size_t a = static_cast<std::size_t>(axis - s.axes.begin());
+          text += " [" + number_text("%.4g", s.local_slope[(a * cases + c) * n_obs + o]) + "]";
+        }
+        row.push_back(text);
+      }
+    }
+    rows.push_back(row);
+  }
+  print_aligned(rows);
+}
+
 void print_table(const ArchiveSummary& s) {
   std::int64_t valid = 0;
   for (std::int64_t v : s.valid_members) valid += v;
@@ -714,6 +772,7 @@ void print_table(const ArchiveSummary& s) {
   if (!s.axes.empty()) {
     print_response(s);
   }
+  print_predicted(s);
   std::printf("\nunits: nondimensional model units; time in model time units. Intervals: "
               "mean +- t(0.975, n-1) se, n = valid members; se is the standard error below for "
               "time means, s / sqrt(n) (s the std across members) otherwise.\n");

@@ -81,10 +81,11 @@ void read_content(const h5::Group& root, ArchiveSummary& s) {
     s.exponents = static_cast<int>(read_all<std::int64_t>(root, "ensemble/exponent").size());
   }
   s.twins = root.has_group("twins");
-  if (root.has_group("response")) {
+  if (root.has_dataset("response/axis")) {
     s.axes = read_all<std::string>(root, "response/axis");
     for (const std::string& axis : s.axes) s.axis_values.push_back(read_all<double>(root, "case/" + axis));
   }
+  s.forcings = read_optional<std::string>(root, "response/forcing_parameter");
 }
 
 /// Shapes must agree with each other, or the file is not one this tool wrote.

@@ -27,6 +27,7 @@ struct ArchiveSummary : results::EnsembleResults {
   std::int64_t members = 0;                      // per case
   std::vector<std::string> axes;                 // swept parameters
   std::vector<std::vector<double>> axis_values;  // [axis][case]
+  std::vector<std::string> forcings;  // additive forcings of /response/predicted_slope
   std::vector<std::string> observables;
   std::vector<std::string> regimes;
   int exponents = 0;                             // Lyapunov exponents per member (0: none)
