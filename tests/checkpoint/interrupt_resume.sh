@@ -182,8 +182,9 @@ run 1 kill2.h5 --resume --restart-from-scratch
 expect_status 0 $? "resume after SIGKILL during a checkpoint write" kill2.h5.log
 $check bitwise reference.h5 kill2.h5 || fail "archive after SIGKILL in a checkpoint write differs"
 
-# 5. Twin experiments: the twins' state, their log-separation series and the spread
-#    accumulator are part of each batch's state; SIGTERM, then resume on another rank count.
+# 5. Twin experiments and response sums: the twins' state, their log-separation series, the spread
+#    accumulator and the response sums with their window of past states are part of each
+#    batch's state; SIGTERM, then resume on another rank count.
 #    Skipped when the campaign under test has twins itself (sections 1-4 covered them).
 if grep -q '^ *twins:' "$spec"; then
   echo "twins: covered by $(basename "$spec")"
