@@ -57,6 +57,10 @@ class Archive:
             self.slope_dof = _get(f, "response/slope_dof")                    # observable
             self.local_slope = _get(f, "response/local_slope")  # axis, case, observable
             self.local_slope_stderr = _get(f, "response/local_slope_stderr")  # axis, case, observable
+            self.predicted = _get(f, "response/predicted_slope")  # forcing_parameter, case, observable
+            self.predicted_stderr = _get(f, "response/predicted_slope_stderr")
+            self.forcings = (_names(f["response/forcing_parameter"])
+                             if "response/forcing_parameter" in f else [])
 
             self.regimes = _names(f["ensemble/regime"]) if "ensemble/regime" in f else []
             self.regime = _get(f, "ensemble/regime_fraction")

@@ -292,6 +292,60 @@ def fig_local_slope(arch, outdir):
     return out
 
 
+def fig_predicted(arch, outdir):
+    """For each additive forcing that is also swept: the response of each time mean predicted
+    from every case's own fluctuations against the forcing, beside the direct local slope."""
+    if arch.predicted is None:
+        return [Skip("predicted", "the archive has no predicted response (statistics.response)")]
+    swept = [p for p in arch.forcings if p in arch.axes]
+    if not swept or arch.local_slope is None:
+        return [Skip("predicted", "no additive forcing of the model is swept, so there is no "
+                     "direct slope to set the prediction beside (the summary lists it)")]
+    out = []
+    obs_pages = _pages(list(range(len(arch.observables))))
+    for forcing in swept:
+        p, a = arch.forcings.index(forcing), arch.axes.index(forcing)
+        groups, total = _groups(arch, forcing)
+        x = arch.axis_values[forcing]
+        for page, obs in enumerate(obs_pages):
+            fig, title = _new_figure(arch, f"response to {forcing}: predicted and direct")
+            axes = fig.subplots(*_grid(len(obs)), squeeze=False)
+            for ax, o in zip(axes.flat, obs):
+                name = arch.observables[o]
+                for g, (label, cases) in enumerate(groups):
+                    suffix = f" ({label})" if len(groups) > 1 else ""
+                    ax.errorbar(x[cases], arch.local_slope[a, cases, o],
+                                yerr=1.96 * arch.local_slope_stderr[a, cases, o],
+                                color="tab:blue", marker="o", capsize=3,
+                                alpha=1.0 if g == 0 else 0.5,
+                                label="direct (local slope)" + suffix if g == 0 else None)
+                    ax.errorbar(x[cases], arch.predicted[p, cases, o],
+                                yerr=1.96 * arch.predicted_stderr[p, cases, o],
+                                color="tab:red", marker="s", capsize=3, linestyle="--",
+                                alpha=1.0 if g == 0 else 0.5,
+                                label="predicted from fluctuations" + suffix if g == 0 else None)
+                ax.axhline(0.0, color="black", linewidth=0.6)
+                ax.set_title(f"d<{name}>/d{forcing}")
+                ax.set_xlabel(f"{arch.axis_name(forcing)} (model units)")
+                ax.set_ylabel(f"slope of <{name}> (per unit {forcing})")
+                ax.grid(alpha=0.3)
+            _hide_unused(axes, len(obs))
+            axes.flat[0].legend(loc="best")
+            more = f" Lines for {len(groups)} of {total} values of the other axes." \
+                if total > len(groups) else ""
+            caption = (f"Blue: the derivative of each ensemble time mean along {forcing} from "
+                       f"neighbouring cases (central differences), with 95% intervals. Red: the "
+                       f"same derivative predicted from each case's own fluctuations by the "
+                       f"quasi-Gaussian fluctuation-dissipation relation (lagged covariances "
+                       f"of the observable with the state, times the inverse state covariance, "
+                       f"integrated over lag), with 95% intervals from a jackknife over groups "
+                       f"of members. Where they part, the model's statistics are too far from "
+                       f"Gaussian for the relation.{more}")
+            out.append(_save(fig, outdir, _page_name(f"predicted-{forcing}", page,
+                                                      len(obs_pages)), title, caption))
+    return out
+
+
 # --- regime fractions -----------------------------------------------------------------------
 
 def _per_regime(arch, outdir, stem, values, ci, members, what, panel_title, ylabel, caption,
@@ -749,6 +803,7 @@ def all_figures(arch, outdir, window):
     results = []
     results += fig_response(arch, outdir)
     results += fig_local_slope(arch, outdir)
+    results += fig_predicted(arch, outdir)
     results += fig_regimes(arch, outdir)
     results += fig_residence(arch, outdir)
     results += fig_heatmap(arch, outdir)

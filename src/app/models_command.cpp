@@ -135,6 +135,12 @@ std::string model_section(const models::ModelInfo& info) {
   text += "\nDerived observables:\n\n" + observable_list({first_derived, observables.end()});
   text += std::string("\nTangent-linear product (Lyapunov exponents): ") +
           (model->has_tangent() ? "yes" : "no") + ".\n";
+  std::string forcings;
+  for (const models::AdditiveForcing& f : info.additive_forcings) {
+    forcings += (forcings.empty() ? "" : ", ") + ("`" + f.parameter + "`");
+  }
+  text += "\nAdditive forcings (statistics.response predicts the response to them): " +
+          (forcings.empty() ? std::string("none") : forcings) + ".\n";
   return text;
 }
 

@@ -50,7 +50,12 @@ class ArchiveData:
             self.spec_yaml = text(f.attrs["spec_yaml"])
             self.members = int(f.attrs["members_per_case"])
             self.observables = [text(v) for v in f["observable"][()]]
-            self.axes = [text(v) for v in f["response/axis"][()]] if "response" in f else []
+            self.axes = [text(v) for v in f["response/axis"][()]] if "response/axis" in f else []
+            predicted = "response/predicted_slope" in f
+            self.forcings = ([text(v) for v in f["response/forcing_parameter"][()]]
+                             if predicted else [])
+            self.predicted = f["response/predicted_slope"][()] if predicted else None
+            self.predicted_stderr = f["response/predicted_slope_stderr"][()] if predicted else None
             self.axis_values = {a: f["case/" + a][()] for a in self.axes}
             self.status = f["member/status"][()]
             self.valid = f["ensemble/valid_members"][()]
@@ -460,6 +465,15 @@ def check_summary_json(archive, program):
         if not (same(row["slope"], arch.slope[a, o])
                 and same(row["stderr"], arch.slope_stderr[a, o])):
             fail(f"response {row} differs from the archive")
+    rows = doc.get("predicted_response", [])
+    if len(rows) != len(arch.forcings) * len(arch.observables):
+        fail("summary json: wrong number of predicted_response rows")
+    for row in rows:
+        p, o = arch.forcings.index(row["forcing"]), arch.observables.index(row["observable"])
+        if not (all(same(x, y) for x, y in zip(row["predicted_slope"], arch.predicted[p, :, o]))
+                and all(same(x, y) for x, y in zip(row["stderr"], arch.predicted_stderr[p, :, o]))
+                and len(row["predicted_slope"]) == arch.cases):
+            fail(f"predicted response {row} differs from the archive")
     print(f"ok: summary json round-trips through json.tool and equals the archive "
           f"({arch.cases} cases)")
 
@@ -551,6 +565,8 @@ def check_summary_table(archive, program):
             block = "slope"
         elif line.startswith("local slope"):
             block = "local"
+        elif line.startswith("response of the ensemble time mean predicted"):
+            block = "predicted"
         elif line.startswith("beside each time mean"):
             block = "errors"
         elif line.startswith("snapshots of"):
@@ -635,6 +651,22 @@ def check_summary_table(archive, program):
                         and printed_sig_close(err, arch.local_slope_stderr[a, c, o], 2)):
                     fail(f"table local slope case {c} {columns[lead + k]}: {cell} differs")
                 seen.add(("local", a, c, o))
+        elif block == "predicted" and columns and cells[0].isdigit():
+            c, lead = int(cells[0]), 1 + len(arch.axes)
+            for k, cell in enumerate(cells[lead:]):
+                p, o = divmod(k, len(arch.observables))
+                if columns[lead + k] != f"d{arch.observables[o]}/d{arch.forcings[p]}":
+                    fail(f"table predicted column {columns[lead + k]}")
+                value, rest = cell.split(" +- ")
+                err, _, direct = rest.partition(" [")
+                if not (printed_sig_close(value, arch.predicted[p, c, o], 4)
+                        and printed_sig_close(err, arch.predicted_stderr[p, c, o], 2)):
+                    fail(f"table predicted slope case {c} {columns[lead + k]}: {cell} differs")
+                if arch.forcings[p] in arch.axes:  # the direct local slope beside it
+                    a = arch.axes.index(arch.forcings[p])
+                    if not printed_sig_close(direct.rstrip("]"), arch.local_slope[a, c, o], 4):
+                        fail(f"table predicted case {c}: direct slope {cell} differs")
+                seen.add(("predicted", p, c, o))
     wanted = {("time", c, n) for c in range(arch.cases) for n in arch.observables}
     wanted |= {("regime", c, n) for c in range(arch.cases) for n in arch.regimes}
     wanted |= {("residence", c, n) for c in range(arch.cases) for n in arch.regimes}
@@ -646,6 +678,9 @@ def check_summary_table(archive, program):
     if arch.local_slope is not None:
         wanted |= {("local", a, c, o) for a in range(len(arch.axes)) for c in range(arch.cases)
                    for o in range(len(arch.observables))}
+    if arch.predicted is not None:
+        wanted |= {("predicted", p, c, o) for p in range(len(arch.forcings))
+                   for c in range(arch.cases) for o in range(len(arch.observables))}
     if seen != wanted:
         fail(f"table lacks {sorted(wanted - seen)[:5]}")
     print(f"ok: summary table aligned and equal to the archive ({len(seen)} entries)")
