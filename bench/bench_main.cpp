@@ -91,6 +91,29 @@ Row measure_twins(const Options& o, const std::string& model, int every_steps) {
   return row;
 }
 
+/// The production kernel (moments+regimes) with the response sums (statistics.response) sampled
+/// every 0.05 time units with lags to 4, or without (`on` false): their ratio is the cost.
+Row measure_response(const Options& o, const std::string& model, bool on) {
+  spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
+  if (on) s.statistics.response = {true, 4.0, 0.05, 8};
+  Row row{model, on ? "response every 0.05, lags to 4" : "no response", o.width, 0.0, {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  return row;
+}
+
+void print_response(const std::vector<Row>& rows) {
+  if (rows.empty()) return;
+  std::printf("\nresponse sums (production kernel, moments+regimes, every observable, width %d): "
+              "members' steps per CPU second\n", rows.front().width);
+  double base = 0.0;
+  for (const Row& r : rows) {
+    if (r.statistics == "no response") base = r.production.median;
+    std::printf("%-9s %-30s %9.3g (%8.3g-%8.3g)  rate %4.2f of without\n", r.model.c_str(),
+                r.statistics.c_str(), r.production.median, r.production.min, r.production.max,
+                r.production.median / base);
+  }
+}
+
 void print_twins(const std::vector<Row>& twins) {
   if (twins.empty()) return;
   std::printf("\ntwin experiments (production kernel, moments+regimes, width %d): members' "
@@ -144,7 +167,8 @@ nlohmann::ordered_json json_summary(const Summary& s) {
 }
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
-                const std::vector<Row>& twins, const Summary& peak) {
+                const std::vector<Row>& twins, const std::vector<Row>& response,
+                const Summary& peak) {
   using Json = nlohmann::ordered_json;
   Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
            {"load_average", first_line_of("/proc/loadavg", "")},
@@ -173,6 +197,12 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
   doc["results"] = results;
   doc["widths"] = by_width;
   doc["twins"] = twin_rows;
+  Json response_rows = Json::array();
+  for (const Row& r : response) {
+    response_rows.push_back(Json{{"model", r.model}, {"statistics", r.statistics},
+                                 {"width", r.width}, {"production", json_summary(r.production)}});
+  }
+  doc["response"] = response_rows;
   std::cout << doc.dump(2) << "\n";
 }
 
@@ -180,7 +210,7 @@ int run(const Options& o) {
   std::vector<std::string> models = {"lorenz63", "lorenz96"};
   if (o.model != "all") models = {o.model};
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths, twins;
+  std::vector<Row> main, widths, twins, response;
   for (const std::string& m : models) {
     for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
   }
@@ -190,11 +220,15 @@ int run(const Options& o) {
   for (const std::string& m : models) {
     for (int every : {0, 10, 64}) twins.push_back(measure_twins(o, m, every));
   }
+  for (const std::string& m : models) {
+    for (bool on : {false, true}) response.push_back(measure_response(o, m, on));
+  }
   if (o.json) {
-    print_json(o, main, widths, twins, peak);
+    print_json(o, main, widths, twins, response, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
+    print_response(response);
   }
   return 0;
 }

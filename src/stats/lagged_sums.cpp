@@ -1,6 +1,8 @@
 // Lagged-covariance sums and the response predicted from them (declared in lagged_sums.hpp).
 #include "stats/lagged_sums.hpp"
 
+#include "integrators/lanes.hpp"
+
 #include <Eigen/Dense>
 
 #include <cmath>
@@ -12,8 +14,6 @@ namespace chaosweep::stats {
 namespace {
 
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
-/// Columns whose products are added while a sum stays in a register.
-constexpr int kColumnBlock = 4;
 
 /// Columns [first, last) of group g: the groups' columns are contiguous and in group order.
 struct Run {
@@ -34,6 +34,117 @@ std::vector<Run> runs_of(const std::vector<int>& group_of) {
   return runs;
 }
 
+
+using integrators::kLanes;
+using integrators::Lanes;
+
+/// out[r][c] += sum over j = 0 .. k-1, in that order, of a[j][r] b[j][c] for the R rows from
+/// `out` and the V x kLanes columns from there (a and b row-major with leading dimensions lda,
+/// ldb; out with ld). Each sum is kept in a register across j: every element takes exactly the
+/// multiply-adds of a plain loop over j, so the tiling changes no bit.
+template <int R, int V>
+void product_tile(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+                  std::size_t ldb, int k) {
+  Lanes acc[R][V];
+  for (int r = 0; r < R; ++r) {
+    for (int v = 0; v < V; ++v) acc[r][v] = integrators::load_lanes(out + r * ld + v * kLanes);
+  }
+  for (int j = 0; j < k; ++j) {
+    const double* bj = b + static_cast<std::size_t>(j) * ldb;
+    const double* aj = a + static_cast<std::size_t>(j) * lda;
+    Lanes bv[V];
+    for (int v = 0; v < V; ++v) bv[v] = integrators::load_lanes(bj + v * kLanes);
+    for (int r = 0; r < R; ++r) {
+      for (int v = 0; v < V; ++v) acc[r][v] += aj[r] * bv[v];  // aj[r] broadcast
+    }
+  }
+  for (int r = 0; r < R; ++r) {
+    for (int v = 0; v < V; ++v) integrators::store_lanes(out + r * ld + v * kLanes, acc[r][v]);
+  }
+}
+
+/// The 4 x 2-vector tile with every sum in a named register (GCC keeps an array of vectors in
+/// memory); the same operations as product_tile<4, 2>.
+template <>
+void product_tile<4, 2>(double* out, std::size_t ld, const double* a, std::size_t lda,
+                        const double* b, std::size_t ldb, int k) {
+  using integrators::load_lanes;
+  using integrators::store_lanes;
+  Lanes c00 = load_lanes(out), c01 = load_lanes(out + kLanes);
+  Lanes c10 = load_lanes(out + ld), c11 = load_lanes(out + ld + kLanes);
+  Lanes c20 = load_lanes(out + 2 * ld), c21 = load_lanes(out + 2 * ld + kLanes);
+  Lanes c30 = load_lanes(out + 3 * ld), c31 = load_lanes(out + 3 * ld + kLanes);
+  for (int j = 0; j < k; ++j) {
+    const double* bj = b + static_cast<std::size_t>(j) * ldb;
+    const double* aj = a + static_cast<std::size_t>(j) * lda;
+    const Lanes b0 = load_lanes(bj), b1 = load_lanes(bj + kLanes);
+    const double a0 = aj[0], a1 = aj[1], a2 = aj[2], a3 = aj[3];
+    c00 += a0 * b0;
+    c01 += a0 * b1;
+    c10 += a1 * b0;
+    c11 += a1 * b1;
+    c20 += a2 * b0;
+    c21 += a2 * b1;
+    c30 += a3 * b0;
+    c31 += a3 * b1;
+  }
+  store_lanes(out, c00);
+  store_lanes(out + kLanes, c01);
+  store_lanes(out + ld, c10);
+  store_lanes(out + ld + kLanes, c11);
+  store_lanes(out + 2 * ld, c20);
+  store_lanes(out + 2 * ld + kLanes, c21);
+  store_lanes(out + 3 * ld, c30);
+  store_lanes(out + 3 * ld + kLanes, c31);
+}
+
+/// The same for R rows and `cols` (< kLanes) columns, one double at a time.
+template <int R>
+void product_tail(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+                  std::size_t ldb, int k, std::size_t cols) {
+  for (int r = 0; r < R; ++r) {
+    for (std::size_t c = 0; c < cols; ++c) {
+      double v = out[r * ld + c];
+      for (int j = 0; j < k; ++j) {  // a fused multiply-add, as the vector tiles contract it
+        v = std::fma(a[static_cast<std::size_t>(j) * lda + r], b[static_cast<std::size_t>(j) * ldb + c], v);
+      }
+      out[r * ld + c] = v;
+    }
+  }
+}
+
+/// Rows [r, r + R) of the product, columns from `c0` to `cols`.
+template <int R>
+void product_rows(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+                  std::size_t ldb, int k, std::size_t c0, std::size_t cols) {
+  std::size_t c = c0;
+  for (; c + 2 * kLanes <= cols; c += 2 * kLanes) product_tile<R, 2>(out + c, ld, a, lda, b + c, ldb, k);
+  for (; c + kLanes <= cols; c += kLanes) product_tile<R, 1>(out + c, ld, a, lda, b + c, ldb, k);
+  if (c < cols) product_tail<R>(out + c, ld, a, lda, b + c, ldb, k, cols - c);
+}
+
+}  // namespace
+
+// out ([rows][cols], leading dimension cols) += a^T b over k columns of the batch, a [k][lda]
+// and b [k][ldb]; with `upper`, only the tiles that reach the diagonal or above it (rows equal
+// to cols), whatever lies below the diagonal in them included.
+void LaggedSums::add_products(double* out, std::size_t rows, std::size_t cols, const double* a,
+                              std::size_t lda, const double* b, std::size_t ldb, int k,
+                              bool upper) {
+  constexpr std::size_t kRows = 4;
+  std::size_t r = 0;
+  const auto first_column = [&](std::size_t row) {
+    return upper ? row / kLanes * kLanes : std::size_t{0};
+  };
+  for (; r + kRows <= rows; r += kRows) {
+    product_rows<kRows>(out + r * cols, cols, a + r, lda, b, ldb, k, first_column(r), cols);
+  }
+  for (; r < rows; ++r) {
+    product_rows<1>(out + r * cols, cols, a + r, lda, b, ldb, k, first_column(r), cols);
+  }
+}
+
+namespace {
 }  // namespace
 
 LaggedSums::LaggedSums(LagSumsLayout layout, int lags, int width, std::vector<int> group_of,
@@ -46,6 +157,7 @@ LaggedSums::LaggedSums(LagSumsLayout layout, int lags, int width, std::vector<in
       history_(static_cast<std::size_t>(lags + 1) * layout.dim * static_cast<std::size_t>(width)),
       window_(layout.dim * static_cast<std::size_t>(width), 0.0),
       blocks_(static_cast<std::size_t>(groups) * layout.width(), 0.0),
+      square_(static_cast<std::size_t>(groups) * layout.dim * layout.dim, 0.0),
       xt_(layout.dim * static_cast<std::size_t>(width)),
       yt_(layout.dim * static_cast<std::size_t>(width)),
       at_(layout.observables * static_cast<std::size_t>(width)) {
@@ -61,98 +173,73 @@ void LaggedSums::add(std::int64_t k, const double* x, const std::vector<const do
   const std::size_t d = layout_.dim, n_obs = layout_.observables;
   const std::size_t w = static_cast<std::size_t>(width_);
   const std::size_t slots = static_cast<std::size_t>(lags_) + 1;
-  double* slot = history_.data() + static_cast<std::size_t>(k % static_cast<std::int64_t>(slots)) * d * w;
-  // the window drops the sample lags + 1 back (in this slot) and takes sample k
-  const bool full = k >= static_cast<std::int64_t>(slots);
-  for (std::size_t i = 0; i < d * w; ++i) {
-    window_[i] = (full ? window_[i] - slot[i] : window_[i]) + x[i];
-    slot[i] = x[i];
-  }
-  const bool lagged = k >= lags_;
-  const double* oldest = history_.data() +
-                         static_cast<std::size_t>((k + 1) % static_cast<std::int64_t>(slots)) * d * w;
-  // column-major copies: x, y = window - (x(k) + x(k - L)) / 2, and the observables
+  // the state column by column ([width][dim], as the history and the window hold it)
   for (std::size_t i = 0; i < d; ++i) {
-    for (std::size_t j = 0; j < w; ++j) {
-      const std::size_t at = i * w + j;
-      xt_[j * d + i] = x[at];
-      if (lagged) yt_[j * d + i] = window_[at] - 0.5 * (x[at] + oldest[at]);
-    }
+    for (std::size_t j = 0; j < w; ++j) xt_[j * d + i] = x[i * w + j];
   }
   for (std::size_t o = 0; o < n_obs; ++o) {
     for (std::size_t j = 0; j < w; ++j) at_[j * n_obs + o] = rows[o][j];
   }
+  double* slot = history_.data() + static_cast<std::size_t>(k % static_cast<std::int64_t>(slots)) * d * w;
+  // the window drops the sample lags + 1 back (in this slot) and takes sample k
+  const bool full = k >= static_cast<std::int64_t>(slots);
+  for (std::size_t i = 0; i < d * w; ++i) {
+    window_[i] = (full ? window_[i] - slot[i] : window_[i]) + xt_[i];
+    slot[i] = xt_[i];
+  }
+  // y = window - (x(k) + x(k - L)) / 2
+  const bool lagged = k >= lags_;
+  if (lagged) {
+    const double* oldest =
+        history_.data() + static_cast<std::size_t>((k + 1) % static_cast<std::int64_t>(slots)) * d * w;
+    for (std::size_t i = 0; i < d * w; ++i) yt_[i] = window_[i] - 0.5 * (xt_[i] + oldest[i]);
+  }
   for (const Run& run : runs_of(group_of_)) {
     double* block = blocks_.data() + static_cast<std::size_t>(run.group) * layout_.width();
-    int j = run.first;
-    for (; j + kColumnBlock <= run.last; j += kColumnBlock) {
-      add_columns<kColumnBlock>(j, lagged, block);
+    const auto first = static_cast<std::size_t>(run.first);
+    const int k = run.last - run.first;
+    double* sum_a = block + layout_.sum_a();
+    double* sum_x = block + layout_.sum_x();
+    for (int j = run.first; j < run.last; ++j) {
+      const double* xj = xt_.data() + static_cast<std::size_t>(j) * d;
+      const double* aj = at_.data() + static_cast<std::size_t>(j) * n_obs;
+      for (std::size_t o = 0; o < n_obs; ++o) sum_a[o] += aj[o];
+      for (std::size_t i = 0; i < d; ++i) sum_x[i] += xj[i];
     }
-    for (; j < run.last; ++j) add_columns<1>(j, lagged, block);
+    double* square = square_.data() + static_cast<std::size_t>(run.group) * d * d;
+    add_products(square, d, d, xt_.data() + first * d, d, xt_.data() + first * d, d, k, true);
+    if (lagged) {
+      add_products(block + layout_.lagged(), n_obs, d, at_.data() + first * n_obs, n_obs,
+                   yt_.data() + first * d, d, k, false);
+    }
   }
 }
 
-// Columns j .. j+B-1 into `block`. Every sum takes the columns one after another in column
-// order, exactly as B = 1 column at a time would: the blocking only keeps a sum in a register
-// across the B columns, so results do not depend on B.
-template <int B>
-void LaggedSums::add_columns(int j, bool lagged, double* block) {
-  const std::size_t d = layout_.dim, n_obs = layout_.observables;
-  const double* xs[B];
-  const double* ys[B];
-  const double* as[B];
-  for (int b = 0; b < B; ++b) {
-    xs[b] = xt_.data() + static_cast<std::size_t>(j + b) * d;
-    ys[b] = yt_.data() + static_cast<std::size_t>(j + b) * d;
-    as[b] = at_.data() + static_cast<std::size_t>(j + b) * n_obs;
-  }
-  double* sum_a = block + layout_.sum_a();
-  double* sum_x = block + layout_.sum_x();
-  for (std::size_t o = 0; o < n_obs; ++o) {
-    double v = sum_a[o];
-    for (int b = 0; b < B; ++b) v += as[b][o];
-    sum_a[o] = v;
-  }
-  for (std::size_t i = 0; i < d; ++i) {
-    double v = sum_x[i];
-    for (int b = 0; b < B; ++b) v += xs[b][i];
-    sum_x[i] = v;
-  }
-  double* row = block + layout_.sum_xx();
-  for (std::size_t i = 0; i < d; ++i) {
-    double xi[B];
-    for (int b = 0; b < B; ++b) xi[b] = xs[b][i];
-    for (std::size_t m = i; m < d; ++m) {
-      double v = row[m - i];
-      for (int b = 0; b < B; ++b) v += xi[b] * xs[b][m];
-      row[m - i] = v;
-    }
-    row += d - i;
-  }
-  if (!lagged) return;
-  double* lag = block + layout_.lagged();
-  for (std::size_t o = 0; o < n_obs; ++o) {
-    double a[B];
-    for (int b = 0; b < B; ++b) a[b] = as[b][o];
-    double* out = lag + o * d;
+std::vector<double> LaggedSums::blocks() const {
+  const std::size_t d = layout_.dim, width = layout_.width();
+  std::vector<double> out = blocks_;
+  for (int g = 0; g < groups_; ++g) {
+    const double* square = square_.data() + static_cast<std::size_t>(g) * d * d;
+    double* packed = out.data() + static_cast<std::size_t>(g) * width + layout_.sum_xx();
     for (std::size_t i = 0; i < d; ++i) {
-      double v = out[i];
-      for (int b = 0; b < B; ++b) v += a[b] * ys[b][i];
-      out[i] = v;
+      for (std::size_t m = i; m < d; ++m) *packed++ = square[i * d + m];
     }
   }
+  return out;
 }
 
 void LaggedSums::save(const std::string& prefix, SavedState& out) const {
   out.put(prefix + "history", history_);
   out.put(prefix + "window", window_);
   out.put(prefix + "blocks", blocks_);
+  out.put(prefix + "square", square_);
 }
 
 void LaggedSums::load(const std::string& prefix, SavedStateReader& in) {
   history_ = in.reals(prefix + "history", history_.size());
   window_ = in.reals(prefix + "window", window_.size());
   blocks_ = in.reals(prefix + "blocks", blocks_.size());
+  square_ = in.reals(prefix + "square", square_.size());
 }
 
 namespace {

@@ -54,22 +54,23 @@ class LaggedSums {
   void add(std::int64_t k, const double* x, const std::vector<const double*>& rows);
 
   /// The blocks, [groups][layout.width()], without the member counts (set by the caller).
-  const std::vector<double>& blocks() const { return blocks_; }
+  std::vector<double> blocks() const;
   const LagSumsLayout& layout() const { return layout_; }
 
   void save(const std::string& prefix, SavedState& out) const;
   void load(const std::string& prefix, SavedStateReader& in);
 
  private:
-  template <int B>
-  void add_columns(int j, bool lagged, double* block);
+  static void add_products(double* out, std::size_t rows, std::size_t cols, const double* a,
+                           std::size_t lda, const double* b, std::size_t ldb, int k, bool upper);
 
   LagSumsLayout layout_;
   int lags_, width_, groups_;
   std::vector<int> group_of_;
-  std::vector<double> history_;  // [lags + 1][dim][width], sample k in slot k % (lags + 1)
-  std::vector<double> window_;   // [dim][width], sum of the last lags + 1 samples
-  std::vector<double> blocks_;   // [groups][width of a block]
+  std::vector<double> history_;  // [lags + 1][width][dim], sample k in slot k % (lags + 1)
+  std::vector<double> window_;   // [width][dim], sum of the last lags + 1 samples
+  std::vector<double> blocks_;   // [groups][width of a block], sum_xx filled by blocks()
+  std::vector<double> square_;   // [groups][dim][dim], the sums of x_i x_j (i <= j used)
   std::vector<double> xt_, yt_, at_;  // scratch, column-major: [width][dim], [width][observables]
 };
 

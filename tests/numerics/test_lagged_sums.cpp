@@ -41,8 +41,9 @@ TEST(LaggedSums, EqualTheirDefinitionLagByLag) {
   stats::LaggedSums sums(kLayout, kLags, kWidth, kGroups, 2);
   feed(sums, 0, kSamples);
   const double w[kLags + 1] = {0.5, 1, 1, 1, 1, 0.5};  // trapezoid weights
+  const std::vector<double> blocks = sums.blocks();
   for (int g = 0; g < 2; ++g) {
-    const double* block = sums.blocks().data() + g * kLayout.width();
+    const double* block = blocks.data() + g * kLayout.width();
     std::vector<double> want(kLayout.width(), 0.0);
     for (int j = 0; j < kWidth; ++j) {
       if (kGroups[j] != g) continue;
@@ -81,10 +82,9 @@ TEST(LaggedSums, ResumedFromASavedStateAreBitwiseTheUninterruptedOnes) {
   resumed.load("response.", in);
   in.finish();
   feed(resumed, 23, kSamples);
-  ASSERT_EQ(resumed.blocks().size(), whole.blocks().size());
-  for (std::size_t s = 0; s < whole.blocks().size(); ++s) {
-    EXPECT_EQ(resumed.blocks()[s], whole.blocks()[s]) << "sum " << s;
-  }
+  const std::vector<double> got = resumed.blocks(), want = whole.blocks();
+  ASSERT_EQ(got.size(), want.size());
+  for (std::size_t s = 0; s < want.size(); ++s) EXPECT_EQ(got[s], want[s]) << "sum " << s;
 }
 
 // The lag integral of an exponentially decaying covariance, from sums built to hold it exactly:
