@@ -79,6 +79,11 @@ BatchWork::BatchWork(const Setup& setup, const models::Model& model,
       response_derived_.assign(
           static_cast<std::size_t>(setup.n_model_observables - setup.state_dim) * w, 0.0);
     }
+    tap_response_ = kernel_->taps();
+    if (tap_response_) {
+      tap_after_.assign(static_cast<std::size_t>(kMaxSegment), 0);
+      tap_states_.assign(static_cast<std::size_t>(kMaxSegment) * x_.size(), 0.0);
+    }
   }
   result_.batch_index = batch.index;
   result_.case_index = batch.case_index;
@@ -129,7 +134,12 @@ void BatchWork::advance(std::int64_t max_steps) {
     if (step_ < setup_.spinup_steps) {
       kernel_->spin(x_.data(), steps);
     } else {
+      const int tapped = tap_response_samples(end);
       kernel_->accumulate(x_.data(), steps);
+      for (int i = 0; i < tapped; ++i) {
+        add_response_sample(step_ + tap_after_[static_cast<std::size_t>(i)],
+                            tap_states_.data() + static_cast<std::size_t>(i) * x_.size());
+      }
     }
     if (twins_) twins_->advance(step_, end);
     if (shadow_) {
@@ -154,7 +164,7 @@ std::int64_t BatchWork::segment_end(std::int64_t last) const {
   if (s.snapshot_every > 0) {
     end = std::min(end, s.spinup_steps + (since / s.snapshot_every + 1) * s.snapshot_every);
   }
-  if (s.response_every > 0) {
+  if (s.response_every > 0 && !tap_response_) {
     end = std::min(end, s.spinup_steps + (since / s.response_every + 1) * s.response_every);
   }
   end = std::min(end, step_ + kMaxSegment);
@@ -175,22 +185,46 @@ void BatchWork::after_step(std::int64_t step) {
   take_response_sample(step);
 }
 
+// Whether step `step` (of the accumulation) takes a response sample.
+bool BatchWork::response_sample_at(std::int64_t step) const {
+  const Setup& s = setup_;
+  if (!response_ || step < s.spinup_steps) return false;
+  const std::int64_t since = step - s.spinup_steps;
+  return since % s.response_every == 0 && since / s.response_every < s.response_samples;
+}
+
+// With a kernel that records states inside its run of steps: the response samples strictly
+// inside (step_, end), handed to the kernel; returns how many (the one at `end` is after_step's).
+int BatchWork::tap_response_samples(std::int64_t end) {
+  if (!tap_response_) return 0;
+  const std::int64_t every = setup_.response_every;
+  const std::int64_t since = step_ - setup_.spinup_steps;
+  int count = 0;
+  for (std::int64_t s = setup_.spinup_steps + (since / every + 1) * every; s < end; s += every) {
+    if (!response_sample_at(s)) break;
+    tap_after_[static_cast<std::size_t>(count++)] = static_cast<int>(s - step_);
+  }
+  kernel_->tap(tap_after_.data(), count, tap_states_.data());
+  return count;
+}
+
 // Response sample k at step spinup_steps + k * response_every (as the snapshots).
 void BatchWork::take_response_sample(std::int64_t step) {
+  if (response_sample_at(step)) add_response_sample(step, x_.data());
+}
+
+void BatchWork::add_response_sample(std::int64_t step, const double* x) {
   const Setup& s = setup_;
-  if (!response_ || step < s.spinup_steps) return;
-  const std::int64_t since = step - s.spinup_steps;
-  if (since % s.response_every != 0 || since / s.response_every >= s.response_samples) return;
   const int w = s.width;
-  if (s.needs_derived) model_.derived(x_.data(), response_derived_.data(), w);
+  if (s.needs_derived) model_.derived(x, response_derived_.data(), w);
   std::vector<const double*> rows;
   rows.reserve(s.observables.size());
   for (int i : s.observables) {
     rows.push_back(i < s.state_dim
-                       ? x_.data() + static_cast<std::size_t>(i) * w
+                       ? x + static_cast<std::size_t>(i) * w
                        : response_derived_.data() + static_cast<std::size_t>(i - s.state_dim) * w);
   }
-  response_->add(since / s.response_every, x_.data(), rows);
+  response_->add((step - s.spinup_steps) / s.response_every, x, rows);
 }
 
 // The batch's response sums in the campaign's [group][sums] layout, with each group's member

@@ -112,7 +112,10 @@ class BatchWork final : public BatchProgress {
   void check_finite();
   void sample_trajectory(std::int64_t sample);
   void take_snapshot(std::int64_t step);
+  bool response_sample_at(std::int64_t step) const;
+  int tap_response_samples(std::int64_t end);
   void take_response_sample(std::int64_t step);
+  void add_response_sample(std::int64_t step, const double* x);
   void collect_response();
   void collect_moments();
   void collect_extremes();
@@ -146,6 +149,10 @@ class BatchWork final : public BatchProgress {
   std::optional<stats::LaggedSums> response_;
   int response_first_group_ = 0;
   std::vector<double> response_derived_;
+  /// The kernel records the response samples inside its runs of steps (Kernel::taps()).
+  bool tap_response_ = false;
+  std::vector<int> tap_after_;       // [kMaxSegment]
+  std::vector<double> tap_states_;   // [kMaxSegment][state_dim][width]
   BatchResult result_;
   std::int64_t step_ = 0;  // steps taken, 0 .. total_steps
   bool finished_ = false;

@@ -60,6 +60,14 @@ class Kernel {
   /// `steps` RK4 steps, feeding the accumulators after each. steps <= kMaxSegment and the
   /// run must not cross a moments block (steps <= moments->block_room()).
   virtual void accumulate(double* x, int steps) = 0;
+  /// Whether accumulate() can record the batch state after chosen steps (tap()); a kernel that
+  /// cannot has its runs of steps ended wherever a state is needed.
+  virtual bool taps() const { return false; }
+  /// For the next accumulate() only: after its steps after[0] < after[1] < ... (counted from 1),
+  /// the batch state goes to states + i * state_dim * width ([state_dim][width], as x).
+  virtual void tap(const int* after, int count, double* states) {
+    (void)after; (void)count; (void)states;
+  }
 };
 
 /// Longest run of steps one accumulate() call takes.

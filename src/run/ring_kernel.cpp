@@ -71,6 +71,13 @@ class RingKernel final : public Kernel {
     }
   }
 
+  bool taps() const override { return true; }
+  void tap(const int* after, int count, double* states) override {
+    tap_after_ = after;
+    tap_count_ = count;
+    tap_states_ = states;
+  }
+
   void accumulate(double* x, int steps) override {
     const bool opens_block = acc_.moments->block_starts();
     const bool first = acc_.moments->count() == 0;
@@ -81,6 +88,7 @@ class RingKernel final : public Kernel {
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
+    tap_count_ = 0;
   }
 
  private:
@@ -108,6 +116,10 @@ class RingKernel final : public Kernel {
   std::vector<Lanes> shift_, sum1_, sum2_;     // [series]: their moment rows
   std::vector<Lanes> samples_;                 // [kMaxSegment][series]: the series per step
   std::vector<double> values_;  // [kMaxSegment][width]: the histogram observable per step
+  // tap(): the states to record during the next accumulate()
+  const int* tap_after_ = nullptr;
+  int tap_count_ = 0;
+  double* tap_states_ = nullptr;
 };
 
 void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_block, bool first) {
@@ -135,6 +147,7 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
     regime.begin(r, lane);
   }
   double* local = copy_in(x, lane);
+  int tapped = 0;
   for (int t = 0; t < steps; ++t) {
     const bool opens = t == 0 && opens_block;
     // one sample of series s (TimeMoments::add semantics)
@@ -164,6 +177,11 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
     }
     if (regime_observable >= 0) regime.add(regime_value);
     if (histogram_observable >= 0) store_lanes(values_.data() + t * w + lane, histogram_value);
+    if (tapped < tap_count_ && tap_after_[tapped] == t + 1) {
+      double* out = tap_states_ + static_cast<long>(tapped) * n * w + lane;
+      for (int k = 0; k < n; ++k) store_lanes(out + k * w, load_lanes(local + k * L));
+      ++tapped;
+    }
   }
   copy_out(x, lane);
   for (int s = 0; s < series; ++s) {

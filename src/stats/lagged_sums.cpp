@@ -38,12 +38,13 @@ std::vector<Run> runs_of(const std::vector<int>& group_of) {
 using integrators::kLanes;
 using integrators::Lanes;
 
-/// out[r][c] += sum over j = 0 .. k-1, in that order, of a[j][r] b[j][c] for the R rows from
-/// `out` and the V x kLanes columns from there (a and b row-major with leading dimensions lda,
-/// ldb; out with ld). Each sum is kept in a register across j: every element takes exactly the
+/// out[r][c] += sum over j = 0 .. k-1, in that order, of a[r][j] b[j][c] for the R rows from
+/// `out` and the V x kLanes columns from there (a by its rows, b column by column with leading
+/// dimension ldb; out with ld). Each sum is kept in a register across j: every element takes
+/// exactly the
 /// multiply-adds of a plain loop over j, so the tiling changes no bit.
 template <int R, int V>
-void product_tile(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+void product_tile(double* out, std::size_t ld, const double* const* a, const double* b,
                   std::size_t ldb, int k) {
   Lanes acc[R][V];
   for (int r = 0; r < R; ++r) {
@@ -51,11 +52,10 @@ void product_tile(double* out, std::size_t ld, const double* a, std::size_t lda,
   }
   for (int j = 0; j < k; ++j) {
     const double* bj = b + static_cast<std::size_t>(j) * ldb;
-    const double* aj = a + static_cast<std::size_t>(j) * lda;
     Lanes bv[V];
     for (int v = 0; v < V; ++v) bv[v] = integrators::load_lanes(bj + v * kLanes);
     for (int r = 0; r < R; ++r) {
-      for (int v = 0; v < V; ++v) acc[r][v] += aj[r] * bv[v];  // aj[r] broadcast
+      for (int v = 0; v < V; ++v) acc[r][v] += a[r][j] * bv[v];  // a[r][j] broadcast
     }
   }
   for (int r = 0; r < R; ++r) {
@@ -66,7 +66,7 @@ void product_tile(double* out, std::size_t ld, const double* a, std::size_t lda,
 /// The 4 x 2-vector tile with every sum in a named register (GCC keeps an array of vectors in
 /// memory); the same operations as product_tile<4, 2>.
 template <>
-void product_tile<4, 2>(double* out, std::size_t ld, const double* a, std::size_t lda,
+void product_tile<4, 2>(double* out, std::size_t ld, const double* const* a,
                         const double* b, std::size_t ldb, int k) {
   using integrators::load_lanes;
   using integrators::store_lanes;
@@ -76,9 +76,8 @@ void product_tile<4, 2>(double* out, std::size_t ld, const double* a, std::size_
   Lanes c30 = load_lanes(out + 3 * ld), c31 = load_lanes(out + 3 * ld + kLanes);
   for (int j = 0; j < k; ++j) {
     const double* bj = b + static_cast<std::size_t>(j) * ldb;
-    const double* aj = a + static_cast<std::size_t>(j) * lda;
     const Lanes b0 = load_lanes(bj), b1 = load_lanes(bj + kLanes);
-    const double a0 = aj[0], a1 = aj[1], a2 = aj[2], a3 = aj[3];
+    const double a0 = a[0][j], a1 = a[1][j], a2 = a[2][j], a3 = a[3][j];
     c00 += a0 * b0;
     c01 += a0 * b1;
     c10 += a1 * b0;
@@ -100,13 +99,13 @@ void product_tile<4, 2>(double* out, std::size_t ld, const double* a, std::size_
 
 /// The same for R rows and `cols` (< kLanes) columns, one double at a time.
 template <int R>
-void product_tail(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+void product_tail(double* out, std::size_t ld, const double* const* a, const double* b,
                   std::size_t ldb, int k, std::size_t cols) {
   for (int r = 0; r < R; ++r) {
     for (std::size_t c = 0; c < cols; ++c) {
       double v = out[r * ld + c];
       for (int j = 0; j < k; ++j) {  // a fused multiply-add, as the vector tiles contract it
-        v = std::fma(a[static_cast<std::size_t>(j) * lda + r], b[static_cast<std::size_t>(j) * ldb + c], v);
+        v = std::fma(a[r][j], b[static_cast<std::size_t>(j) * ldb + c], v);
       }
       out[r * ld + c] = v;
     }
@@ -115,21 +114,22 @@ void product_tail(double* out, std::size_t ld, const double* a, std::size_t lda,
 
 /// Rows [r, r + R) of the product, columns from `c0` to `cols`.
 template <int R>
-void product_rows(double* out, std::size_t ld, const double* a, std::size_t lda, const double* b,
+void product_rows(double* out, std::size_t ld, const double* const* a, const double* b,
                   std::size_t ldb, int k, std::size_t c0, std::size_t cols) {
   std::size_t c = c0;
-  for (; c + 2 * kLanes <= cols; c += 2 * kLanes) product_tile<R, 2>(out + c, ld, a, lda, b + c, ldb, k);
-  for (; c + kLanes <= cols; c += kLanes) product_tile<R, 1>(out + c, ld, a, lda, b + c, ldb, k);
-  if (c < cols) product_tail<R>(out + c, ld, a, lda, b + c, ldb, k, cols - c);
+  for (; c + 2 * kLanes <= cols; c += 2 * kLanes) product_tile<R, 2>(out + c, ld, a, b + c, ldb, k);
+  for (; c + kLanes <= cols; c += kLanes) product_tile<R, 1>(out + c, ld, a, b + c, ldb, k);
+  if (c < cols) product_tail<R>(out + c, ld, a, b + c, ldb, k, cols - c);
 }
 
 }  // namespace
 
-// out ([rows][cols], leading dimension cols) += a^T b over k columns of the batch, a [k][lda]
-// and b [k][ldb]; with `upper`, only the tiles that reach the diagonal or above it (rows equal
-// to cols), whatever lies below the diagonal in them included.
-void LaggedSums::add_products(double* out, std::size_t rows, std::size_t cols, const double* a,
-                              std::size_t lda, const double* b, std::size_t ldb, int k,
+// out ([rows][cols], leading dimension cols) += a b^T over k columns of the batch, a given by
+// its rows (a[r][j], j < k) and b column by column ([k][ldb]); with `upper`, only the tiles that
+// reach the diagonal or above it (rows equal to cols), whatever lies below the diagonal in them
+// included.
+void LaggedSums::add_products(double* out, std::size_t rows, std::size_t cols,
+                              const double* const* a, const double* b, std::size_t ldb, int k,
                               bool upper) {
   constexpr std::size_t kRows = 4;
   std::size_t r = 0;
@@ -137,10 +137,10 @@ void LaggedSums::add_products(double* out, std::size_t rows, std::size_t cols, c
     return upper ? row / kLanes * kLanes : std::size_t{0};
   };
   for (; r + kRows <= rows; r += kRows) {
-    product_rows<kRows>(out + r * cols, cols, a + r, lda, b, ldb, k, first_column(r), cols);
+    product_rows<kRows>(out + r * cols, cols, a + r, b, ldb, k, first_column(r), cols);
   }
   for (; r < rows; ++r) {
-    product_rows<1>(out + r * cols, cols, a + r, lda, b, ldb, k, first_column(r), cols);
+    product_rows<1>(out + r * cols, cols, a + r, b, ldb, k, first_column(r), cols);
   }
 }
 
@@ -160,7 +160,8 @@ LaggedSums::LaggedSums(LagSumsLayout layout, int lags, int width, std::vector<in
       square_(static_cast<std::size_t>(groups) * layout.dim * layout.dim, 0.0),
       xt_(layout.dim * static_cast<std::size_t>(width)),
       yt_(layout.dim * static_cast<std::size_t>(width)),
-      at_(layout.observables * static_cast<std::size_t>(width)) {
+      x_rows_(layout.dim),
+      a_rows_(layout.observables) {
   if (lags < 1 || static_cast<int>(group_of_.size()) != width) {
     throw std::invalid_argument("LaggedSums needs at least one lag and a group per column");
   }
@@ -176,9 +177,6 @@ void LaggedSums::add(std::int64_t k, const double* x, const std::vector<const do
   // the state column by column ([width][dim], as the history and the window hold it)
   for (std::size_t i = 0; i < d; ++i) {
     for (std::size_t j = 0; j < w; ++j) xt_[j * d + i] = x[i * w + j];
-  }
-  for (std::size_t o = 0; o < n_obs; ++o) {
-    for (std::size_t j = 0; j < w; ++j) at_[j * n_obs + o] = rows[o][j];
   }
   double* slot = history_.data() + static_cast<std::size_t>(k % static_cast<std::int64_t>(slots)) * d * w;
   // the window drops the sample lags + 1 back (in this slot) and takes sample k
@@ -200,18 +198,37 @@ void LaggedSums::add(std::int64_t k, const double* x, const std::vector<const do
     const int k = run.last - run.first;
     double* sum_a = block + layout_.sum_a();
     double* sum_x = block + layout_.sum_x();
-    for (int j = run.first; j < run.last; ++j) {
-      const double* xj = xt_.data() + static_cast<std::size_t>(j) * d;
-      const double* aj = at_.data() + static_cast<std::size_t>(j) * n_obs;
-      for (std::size_t o = 0; o < n_obs; ++o) sum_a[o] += aj[o];
-      for (std::size_t i = 0; i < d; ++i) sum_x[i] += xj[i];
-    }
+    // the factors' rows from the run's first column: the state's and the observables'
+    for (std::size_t i = 0; i < d; ++i) x_rows_[i] = x + i * w + first;
+    for (std::size_t o = 0; o < n_obs; ++o) a_rows_[o] = rows[o] + first;
+    add_row_sums(sum_a, a_rows_.data(), n_obs, k);
+    add_row_sums(sum_x, x_rows_.data(), d, k);
     double* square = square_.data() + static_cast<std::size_t>(run.group) * d * d;
-    add_products(square, d, d, xt_.data() + first * d, d, xt_.data() + first * d, d, k, true);
+    add_products(square, d, d, x_rows_.data(), xt_.data() + first * d, d, k, true);
     if (lagged) {
-      add_products(block + layout_.lagged(), n_obs, d, at_.data() + first * n_obs, n_obs,
-                   yt_.data() + first * d, d, k, false);
+      add_products(block + layout_.lagged(), n_obs, d, a_rows_.data(), yt_.data() + first * d, d,
+                   k, false);
     }
+  }
+}
+
+// sums[r] += rows[r][0] + ... + rows[r][k-1], added in that order; several rows at a time so
+// that their chains of additions overlap.
+void LaggedSums::add_row_sums(double* sums, const double* const* rows, std::size_t n, int k) {
+  constexpr std::size_t kChains = 8;
+  std::size_t r = 0;
+  for (; r + kChains <= n; r += kChains) {
+    double acc[kChains];
+    for (std::size_t q = 0; q < kChains; ++q) acc[q] = sums[r + q];
+    for (int j = 0; j < k; ++j) {
+      for (std::size_t q = 0; q < kChains; ++q) acc[q] += rows[r + q][j];
+    }
+    for (std::size_t q = 0; q < kChains; ++q) sums[r + q] = acc[q];
+  }
+  for (; r < n; ++r) {
+    double acc = sums[r];
+    for (int j = 0; j < k; ++j) acc += rows[r][j];
+    sums[r] = acc;
   }
 }
 

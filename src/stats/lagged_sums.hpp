@@ -61,8 +61,10 @@ class LaggedSums {
   void load(const std::string& prefix, SavedStateReader& in);
 
  private:
-  static void add_products(double* out, std::size_t rows, std::size_t cols, const double* a,
-                           std::size_t lda, const double* b, std::size_t ldb, int k, bool upper);
+  static void add_row_sums(double* sums, const double* const* rows, std::size_t n, int k);
+  static void add_products(double* out, std::size_t rows, std::size_t cols,
+                           const double* const* a, const double* b, std::size_t ldb, int k,
+                           bool upper);
 
   LagSumsLayout layout_;
   int lags_, width_, groups_;
@@ -71,7 +73,8 @@ class LaggedSums {
   std::vector<double> window_;   // [width][dim], sum of the last lags + 1 samples
   std::vector<double> blocks_;   // [groups][width of a block], sum_xx filled by blocks()
   std::vector<double> square_;   // [groups][dim][dim], the sums of x_i x_j (i <= j used)
-  std::vector<double> xt_, yt_, at_;  // scratch, column-major: [width][dim], [width][observables]
+  std::vector<double> xt_, yt_;  // scratch, column-major: [width][dim]
+  std::vector<const double*> x_rows_, a_rows_;  // scratch: rows of the factors
 };
 
 /// The static response of every observable's mean to additive forcings, predicted from the

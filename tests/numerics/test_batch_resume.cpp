@@ -129,11 +129,31 @@ void expect_same_result(const run::BatchResult& a, const run::BatchResult& b) {
   expect_same(a.horizon, b.horizon, "horizon");
   expect_same(a.snapshot_moments, b.snapshot_moments, "snapshot_moments");
   expect_same(a.snapshot_regimes, b.snapshot_regimes, "snapshot_regimes");
+  expect_same(a.response_sums, b.response_sums, "response_sums");
+}
+
+/// The response sums every 3 steps with lags to 12 steps (the ring kernel records them inside
+/// its runs of steps; the chunks end anywhere between them).
+spec::Spec with_response(spec::Spec s) {
+  s.statistics.response = {true, 12 * s.integration.dt, 3 * s.integration.dt, 4};
+  return s;
+}
+
+/// Lorenz-96 (n 12) with sign regimes on x0: the ring kernel.
+spec::Spec ring_spec() {
+  spec::Spec s = l96_spec();
+  s.statistics.regimes = spec::Regimes{};
+  s.statistics.regimes.kind = spec::RegimeKind::sign;
+  s.statistics.regimes.observable = "x0";
+  s.statistics.regimes.labels = {"positive", "negative"};
+  return s;
 }
 
 std::vector<spec::Spec> all_specs() {
   return {l63_spec(), blow_up_spec(), l96_spec(), with_twins(l63_spec()),
-          with_twins(blow_up_spec()), with_twins(l96_spec()), scheduled_spec()};
+          with_twins(blow_up_spec()), with_twins(l96_spec()), scheduled_spec(),
+          with_response(l63_spec()), with_response(ring_spec()),
+          with_response(blow_up_spec())};
 }
 
 // Exact by design (batch_runner.hpp: chunking cannot change anything, since every periodic

@@ -180,6 +180,43 @@ TEST(Kernels, RingLorenz96EqualsGenericBitwise) {
   }
 }
 
+/// The response sums of every group summed over the batches (each group of one member lies in
+/// one batch; the others add zeros).
+std::vector<double> response_sums(const Campaign& r) {
+  std::vector<double> total(r.batches.front().response_sums.size(), 0.0);
+  for (const run::BatchResult& b : r.batches) {
+    for (std::size_t i = 0; i < total.size(); ++i) total[i] += b.response_sums[i];
+  }
+  return total;
+}
+
+/// Response sums every 3 steps with lags to 15 steps, one group per member, so that a group's
+/// sums come from one member whatever batch it sits in.
+spec::Spec with_response(spec::Spec s) {
+  s.statistics.response = {true, 15 * s.integration.dt, 3 * s.integration.dt,
+                           static_cast<int>(s.ensemble.members)};
+  return s;
+}
+
+// Exact by design: the ring kernel records the states of the response samples inside its runs
+// of steps (Kernel::tap), the generic path ends its runs there, the fused Lorenz-63 kernel too;
+// every member's sums are bitwise the same (widths 8 and 40 against 21).
+TEST(Kernels, ResponseSumsEqualTheGenericPathBitwise) {
+  for (const spec::Spec& s : {with_response(l96_spec()), with_response(l63_spec())}) {
+    SCOPED_TRACE(s.model);
+    const Campaign generic = run_at_width(s, 21);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    const std::vector<double> want = response_sums(generic);
+    ASSERT_FALSE(want.empty());
+    for (int width : {8, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign fast = run_at_width(s, width);
+      ASSERT_NE(fast.kernel, run::KernelKind::generic);
+      EXPECT_TRUE(bitwise_equal(response_sums(fast), want));
+    }
+  }
+}
+
 // Exact by design: trajectory samples of the fused and ring kernels equal the scalar reference
 // integrator (one member, plain arrays) stepped from the member's initial state.
 TEST(Kernels, TrajectoriesEqualTheScalarReference) {
