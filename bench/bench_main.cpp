@@ -101,6 +101,36 @@ Row measure_response(const Options& o, const std::string& model, bool on) {
   return row;
 }
 
+/// The production kernel (moments+regimes) with the model's forcing on a ramp (schedule), or
+/// constant (`on` false): their ratio is the cost of the time-dependent forcing.
+Row measure_schedule(const Options& o, const std::string& model, bool on) {
+  spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
+  if (on) {
+    s.schedule.kind = spec::ScheduleKind::ramp;
+    s.schedule.parameter = model == "lorenz63" ? "forcing" : "F";
+    s.schedule.from = model == "lorenz63" ? 2.0 : 8.0;
+    s.schedule.to = s.schedule.from + 2.0;
+    s.schedule.start = 0.0;
+    s.schedule.end = static_cast<double>(o.steps) * s.integration.dt;
+  }
+  Row row{model, on ? "ramp schedule" : "constant forcing", o.width, 0.0, {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  return row;
+}
+
+void print_schedule(const std::vector<Row>& rows) {
+  if (rows.empty()) return;
+  std::printf("\nschedules (production kernel, moments+regimes, width %d): members' steps per CPU "
+              "second\n", rows.front().width);
+  double base = 0.0;
+  for (const Row& r : rows) {
+    if (r.statistics == "constant forcing") base = r.production.median;
+    std::printf("%-9s %-30s %9.3g (%8.3g-%8.3g)  rate %4.2f of constant\n", r.model.c_str(),
+                r.statistics.c_str(), r.production.median, r.production.min, r.production.max,
+                r.production.median / base);
+  }
+}
+
 void print_response(const std::vector<Row>& rows) {
   if (rows.empty()) return;
   std::printf("\nresponse sums (production kernel, moments+regimes, every observable, width %d): "
@@ -168,7 +198,7 @@ nlohmann::ordered_json json_summary(const Summary& s) {
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const std::vector<Row>& twins, const std::vector<Row>& response,
-                const Summary& peak) {
+                const std::vector<Row>& schedule, const Summary& peak) {
   using Json = nlohmann::ordered_json;
   Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
            {"load_average", first_line_of("/proc/loadavg", "")},
@@ -203,6 +233,12 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
                                  {"width", r.width}, {"production", json_summary(r.production)}});
   }
   doc["response"] = response_rows;
+  Json schedule_rows = Json::array();
+  for (const Row& r : schedule) {
+    schedule_rows.push_back(Json{{"model", r.model}, {"statistics", r.statistics},
+                                 {"width", r.width}, {"production", json_summary(r.production)}});
+  }
+  doc["schedule"] = schedule_rows;
   std::cout << doc.dump(2) << "\n";
 }
 
@@ -210,7 +246,7 @@ int run(const Options& o) {
   std::vector<std::string> models = {"lorenz63", "lorenz96"};
   if (o.model != "all") models = {o.model};
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths, twins, response;
+  std::vector<Row> main, widths, twins, response, schedule;
   for (const std::string& m : models) {
     for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
   }
@@ -223,12 +259,16 @@ int run(const Options& o) {
   for (const std::string& m : models) {
     for (bool on : {false, true}) response.push_back(measure_response(o, m, on));
   }
+  for (const std::string& m : models) {
+    for (bool on : {false, true}) schedule.push_back(measure_schedule(o, m, on));
+  }
   if (o.json) {
-    print_json(o, main, widths, twins, response, peak);
+    print_json(o, main, widths, twins, response, schedule, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
     print_response(response);
+    print_schedule(schedule);
   }
   return 0;
 }

@@ -216,12 +216,16 @@ bool is_state(const Setup& s, int observable) { return observable < s.state_dim;
 }  // namespace
 
 KernelKind choose_kernel(const Setup& s) {
-  if (s.schedule || s.method != "rk4") return KernelKind::generic;
+  if (s.method != "rk4") return KernelKind::generic;
   if (s.width % integrators::kLanes != 0) return KernelKind::generic;
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
   const models::FastKernel fast = s.model_info ? s.model_info->fast_kernel : models::FastKernel::none;
-  if (fast == models::FastKernel::ring) return sign_or_none ? KernelKind::ring : KernelKind::generic;
+  if (fast == models::FastKernel::ring) {  // the ring kernel evaluates a scheduled F per stage
+    const bool scheduled_f = !s.schedule || s.schedule->parameter == "F";
+    return sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
+  }
+  if (s.schedule) return KernelKind::generic;
   if (fast != models::FastKernel::convection_loop) return KernelKind::generic;
   const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
                                        [&](int i) { return is_state(s, i); });

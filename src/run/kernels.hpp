@@ -9,9 +9,10 @@
 //             the state and the running sums held in registers for a whole segment. Moments
 //             are kept for every state variable.
 //  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes, the
-//             accumulators fed as each site's new value comes out of the last sweep.
+//             accumulators fed as each site's new value comes out of the last sweep; a
+//             scheduled F evaluated per stage time for the whole batch.
 //  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
-//             The only kernel for a scheduled (time-dependent) parameter: it integrates the
+//             The kernel for the other scheduled (time-dependent) parameters: it integrates the
 //             batch's own copy of the model and sets the parameter at every RK4 stage time.
 // The fused and ring kernels need a batch width that is a multiple of kLanes (every width the
 // spec allows, a multiple of 8, is). Every member of a batch sees the same operations whatever
@@ -34,8 +35,8 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: generic with a schedule; otherwise fused or ring when the model has
-/// one, the width is a multiple of kLanes and (fused) every observable, the regime coordinate and the histogram observable are state
+/// The kernel for a case: generic with a schedule (the ring's kernel takes a scheduled F);
+/// otherwise fused or ring when the model has one, the width is a multiple of kLanes and (fused) every observable, the regime coordinate and the histogram observable are state
 /// variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);
 

@@ -13,10 +13,13 @@
 //   extremes:               every selected observable stored to a [steps][series] buffer of
 //                           Lanes, folded after the segment by Extremes::add_run (add_sample
 //                           on each sample in order).
+// A scheduled F (spec `schedule`) is evaluated once per step for the whole batch at the stage
+// times t0, t0 + dt/2 and t1, the values the generic path sets before its stages.
 // The same operations per member as the generic path, which the tests check bit for bit.
 #include "run/ring_kernel.hpp"
 
 #include <cstdint>
+#include <optional>
 #include <vector>
 
 #include "integrators/lanes.hpp"
@@ -24,6 +27,7 @@
 #include "models/lorenz96_equations.hpp"
 #include "run/batch_work.hpp"
 #include "run/lane_regimes.hpp"
+#include "run/schedule.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -51,7 +55,10 @@ class RingKernel final : public Kernel {
         shift_(s.observables.size()),
         sum1_(s.observables.size()),
         sum2_(s.observables.size()),
-        samples_(static_cast<std::size_t>(kMaxSegment) * s.observables.size()) {
+        samples_(static_cast<std::size_t>(kMaxSegment) * s.observables.size()),
+        dt_(s.dt),
+        stages_(static_cast<std::size_t>(kMaxSegment)) {
+    if (s.schedule) schedule_.emplace(*s.schedule, s.schedule_offset);
     for (std::size_t o = 0; o < s.observables.size(); ++o) {
       const int i = s.observables[o];
       if (i < n_) site_series_[i] = static_cast<int>(o);
@@ -61,14 +68,19 @@ class RingKernel final : public Kernel {
     if (acc.histogram) values_.resize(static_cast<std::size_t>(kMaxSegment) * s.width);
   }
 
+  void set_step(std::int64_t step) override { step_ = step; }
+
   void spin(double* x, int steps) override {
+    stage_equations(steps);
     for (int lane = 0; lane < width_; lane += L) {
       double* local = copy_in(x, lane);
       for (int t = 0; t < steps; ++t) {
-        integrators::ring_rk4_step(eq_, h_, n_, local, L, scratch_.data());
+        integrators::ring_rk4_step(stages_[t], h_, n_, local, L, scratch_.data(),
+                                   [](int, Lanes) {});
       }
       copy_out(x, lane);
     }
+    step_ += steps;
   }
 
   bool taps() const override { return true; }
@@ -79,6 +91,7 @@ class RingKernel final : public Kernel {
   }
 
   void accumulate(double* x, int steps) override {
+    stage_equations(steps);
     const bool opens_block = acc_.moments->block_starts();
     const bool first = acc_.moments->count() == 0;
     for (int lane = 0; lane < width_; lane += L) {
@@ -89,9 +102,26 @@ class RingKernel final : public Kernel {
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_.data(), steps);
     tap_count_ = 0;
+    step_ += steps;
   }
 
  private:
+  /// The equations of every stage of the next `steps` steps (step_ onwards): a scheduled F
+  /// evaluated at t0, t0 + dt/2 and t1 of each step (step_times, Rk4Batch::stage_time), the
+  /// values the generic path's ScheduledParameter sets; the case's constant F otherwise.
+  void stage_equations(int steps) {
+    if (static_cast<std::size_t>(steps) > stages_.size()) stages_.resize(static_cast<std::size_t>(steps));
+    for (int t = 0; t < steps; ++t) {
+      integrators::StageEquations<models::Lorenz96Equations>& e = stages_[t];
+      e = {eq_, eq_, eq_};
+      if (!schedule_) continue;
+      const StepTimes times = step_times(step_ + t, dt_);
+      e.start.F = schedule_->at(integrators::Rk4Batch::stage_time(1, times.t0, times.t1, dt_));
+      e.middle.F = schedule_->at(integrators::Rk4Batch::stage_time(2, times.t0, times.t1, dt_));
+      e.end.F = schedule_->at(integrators::Rk4Batch::stage_time(4, times.t0, times.t1, dt_));
+    }
+  }
+
   /// The Lanes' state rows [n][kLanes] in state_; returns it.
   double* copy_in(const double* x, int lane) {
     for (int k = 0; k < n_; ++k) state_[k] = load_lanes(x + static_cast<long>(k) * width_ + lane);
@@ -116,6 +146,10 @@ class RingKernel final : public Kernel {
   std::vector<Lanes> shift_, sum1_, sum2_;     // [series]: their moment rows
   std::vector<Lanes> samples_;                 // [kMaxSegment][series]: the series per step
   std::vector<double> values_;  // [kMaxSegment][width]: the histogram observable per step
+  std::optional<ParameterSchedule> schedule_;  // a scheduled F (the setup's schedule)
+  double dt_;
+  std::int64_t step_ = 0;  // the next step's index (set_step)
+  std::vector<integrators::StageEquations<models::Lorenz96Equations>> stages_;  // [kMaxSegment]
   // tap(): the states to record during the next accumulate()
   const int* tap_after_ = nullptr;
   int tap_count_ = 0;
@@ -160,7 +194,7 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
       samples[t * series + s] = v;
     };
     Lanes sum = {}, squares = {}, regime_value = {}, histogram_value = {};
-    integrators::ring_rk4_step(eq, h_, n, local, L, scratch_.data(), [&](int k, Lanes v) {
+    integrators::ring_rk4_step(stages_[t], h_, n, local, L, scratch_.data(), [&](int k, Lanes v) {
       if (needs_derived) models::Lorenz96Equations::add_site(v, sum, squares);
       if (site_series[k] >= 0) feed(site_series[k], v);
       if (k == regime_observable) regime_value = v;

@@ -89,6 +89,7 @@ Campaign run_at_width(spec::Spec s, int width) {
     if (name == s.statistics.histogram.observable) setup.histogram_observable = static_cast<int>(i);
   }
   setup.histogram = s.statistics.histogram;
+  if (s.schedule.kind != spec::ScheduleKind::none) setup.schedule = s.schedule;
   r.kernel = run::choose_kernel(setup);
   return r;
 }
@@ -177,6 +178,37 @@ TEST(Kernels, RingLorenz96EqualsGenericBitwise) {
     const Campaign ring = run_at_width(l96_spec(), width);
     ASSERT_EQ(ring.kernel, run::KernelKind::ring);
     expect_same_members(ring, generic, 40);
+  }
+}
+
+// Exact by design: the ring kernel sets a scheduled F per stage time exactly as the generic
+// path's ScheduledParameter does (a periodic forcing and a ramp offset by 0.5).
+TEST(Kernels, ScheduledRingEqualsGenericBitwise) {
+  spec::Spec periodic = l96_spec();
+  periodic.schedule.kind = spec::ScheduleKind::periodic;
+  periodic.schedule.parameter = "F";
+  periodic.schedule.mean = 8.0;
+  periodic.schedule.amplitude = 3.0;
+  periodic.schedule.period = 0.7;
+  periodic.schedule.phase = 0.3;
+  spec::Spec ramp = l96_spec();
+  ramp.schedule.kind = spec::ScheduleKind::ramp;
+  ramp.schedule.parameter = "F";
+  ramp.schedule.from = 6.0;
+  ramp.schedule.to = 10.0;
+  ramp.schedule.start = 0.5;
+  ramp.schedule.end = 4.0;
+  ramp.sweep = {spec::SweepAxis{"F", {0.5}}};
+  ramp.schedule.offset_by_sweep = true;
+  for (const spec::Spec& s : {periodic, ramp}) {
+    const Campaign generic = run_at_width(s, 21);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    for (int width : {8, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign ring = run_at_width(s, width);
+      ASSERT_EQ(ring.kernel, run::KernelKind::ring);
+      expect_same_members(ring, generic, 40);
+    }
   }
 }
 
