@@ -243,7 +243,7 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
 }
 
 int run(const Options& o) {
-  std::vector<std::string> models = {"lorenz63", "lorenz96"};
+  std::vector<std::string> models = {"lorenz63", "lorenz84", "lorenz96"};
   if (o.model != "all") models = {o.model};
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
   std::vector<Row> main, widths, twins, response, schedule;
@@ -279,8 +279,8 @@ int run(const Options& o) {
 int main(int argc, char** argv) {
   chaosweep::bench::Options o;
   CLI::App app{"Throughput of the production batch kernel against the scalar reference"};
-  app.add_option("--model", o.model, "lorenz63, lorenz96 or all")
-      ->check(CLI::IsMember({"lorenz63", "lorenz96", "all"}));
+  app.add_option("--model", o.model, "lorenz63, lorenz84, lorenz96 or all")
+      ->check(CLI::IsMember({"lorenz63", "lorenz84", "lorenz96", "all"}));
   app.add_option("--members", o.members, "members per measurement")->check(CLI::PositiveNumber);
   app.add_option("--steps", o.steps, "accumulated steps per member")->check(CLI::PositiveNumber);
   app.add_option("--width", o.width, "batch width of the main table (a multiple of 8)");

@@ -23,6 +23,7 @@
 #include <memory>
 #include <vector>
 
+#include "models/lorenz84_equations.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
 
@@ -50,18 +51,29 @@ class Lorenz84 final : public Model {
     return obs;
   }
 
-  // x, dxdt: [3][width]; rows x, y, z.
-  void rhs(const double* s, double* ds, int width) const override {
-    const double a = a_, b = b_, aF = a_ * F_, G = G_;
-    const double* x = s;
-    const double* y = s + width;
-    const double* z = s + 2 * width;
+  // x, dxdt: [3][width]; rows x, y, z. The arithmetic is Lorenz84Equations::rhs, shared with
+  // the fused batch kernel.
+  void rhs(const double* x, double* dxdt, int width) const override {
+    const Lorenz84Equations e = equations();
 #pragma GCC ivdep
     for (int m = 0; m < width; ++m) {
-      ds[m] = -y[m] * y[m] - z[m] * z[m] - a * x[m] + aF;
-      ds[width + m] = x[m] * y[m] - b * x[m] * z[m] - y[m] + G;
-      ds[2 * width + m] = b * x[m] * y[m] + x[m] * z[m] - z[m];
+      const double s[3] = {x[m], x[width + m], x[2 * width + m]};
+      double ds[3];
+      e.rhs(s, ds);
+      dxdt[m] = ds[0];
+      dxdt[width + m] = ds[1];
+      dxdt[2 * width + m] = ds[2];
     }
+  }
+
+  /// The equations at the current parameters (a scheduled one included).
+  Lorenz84Equations equations() const {
+    Lorenz84Equations e;
+    e.a = a_;
+    e.b = b_;
+    e.aF = a_ * F_;
+    e.G = G_;
+    return e;
   }
 
   bool has_tangent() const override { return true; }
@@ -147,6 +159,7 @@ ModelInfo lorenz84_info() {
       {"G", [](const ParameterValues&) { return std::vector<double>{0.0, 1.0, 0.0}; }},
   };
   info.state_dim = [](const ParameterValues&) { return 3; };
+  info.fast_kernel = FastKernel::circulation;
   return info;
 }
 

@@ -109,6 +109,7 @@ class Model {
 enum class FastKernel {
   none,
   convection_loop,  // the three-variable loop with constant forcing (run/fused_kernel.cpp)
+  circulation,      // the three-variable circulation model (the same fused kernel)
   ring,             // the ring of sites (run/ring_kernel.cpp)
 };
 

@@ -22,6 +22,7 @@
 #include "integrators/lanes.hpp"
 #include "integrators/rk4_step.hpp"
 #include "models/lorenz63_equations.hpp"
+#include "models/lorenz84_equations.hpp"
 #include "run/batch_work.hpp"
 #include "run/lane_regimes.hpp"
 
@@ -251,7 +252,11 @@ void FusedKernel<Equations>::fold_extremes(int lane, int steps) const {
 
 }  // namespace
 
-std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc) {
+std::unique_ptr<Kernel> make_fused_kernel(const Setup& setup, const Accumulators& acc) {
+  if (setup.model_info && setup.model_info->fast_kernel == models::FastKernel::circulation) {
+    return std::make_unique<FusedKernel<models::Lorenz84Equations>>(
+        models::Lorenz84Equations::from(setup.parameters), setup, acc);
+  }
   return std::make_unique<FusedKernel<models::Lorenz63Equations>>(
       models::Lorenz63Equations::from(setup.parameters), setup, acc);
 }

@@ -8,8 +8,9 @@
 
 namespace chaosweep::run {
 
-/// The fused kernel for lorenz63 (Setup::kernel == fused, width a multiple of kLanes). The moments
-/// accumulator must hold one series per state variable, in state order.
-std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc);
+/// The fused kernel for the model's equations (lorenz63 or lorenz84: Setup::kernel == fused,
+/// width a multiple of kLanes). The moments accumulator must hold one series per state
+/// variable, in state order.
+std::unique_ptr<Kernel> make_fused_kernel(const Setup& setup, const Accumulators& acc);
 
 }  // namespace chaosweep::run

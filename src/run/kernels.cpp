@@ -226,7 +226,9 @@ KernelKind choose_kernel(const Setup& s) {
     return sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
   }
   if (s.schedule) return KernelKind::generic;
-  if (fast != models::FastKernel::convection_loop) return KernelKind::generic;
+  if (fast != models::FastKernel::convection_loop && fast != models::FastKernel::circulation) {
+    return KernelKind::generic;
+  }
   const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
                                        [&](int i) { return is_state(s, i); });
   const bool regimes = s.regime_kind == spec::RegimeKind::none ||
@@ -252,7 +254,7 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
                                     const Accumulators& acc, KernelMembers members) {
   switch (s.kernel) {
     case KernelKind::fused:
-      return make_fused_lorenz63_kernel(s, acc);
+      return make_fused_kernel(s, acc);
     case KernelKind::ring:
       return make_ring_kernel(s, acc);
     case KernelKind::generic:

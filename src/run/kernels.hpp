@@ -3,7 +3,7 @@
 // Pure numerics: no MPI, no HDF5, no YAML, no logging.
 //
 // Three kernels, chosen once per case (choose_kernel) and giving bitwise the same numbers:
-//  - fused:   models with a small fixed state (lorenz63). RK4 and every accumulator update run
+//  - fused:   models with a small fixed state (lorenz63, lorenz84). RK4 and every accumulator update run
 //             member-parallel on Lanes (one SIMD register of members, 8 with AVX-512:
 //             integrators/lanes.hpp), a few Lanes interleaved so the FMA pipelines stay busy,
 //             the state and the running sums held in registers for a whole segment. Moments

@@ -60,6 +60,20 @@ spec::Spec l96_spec() {
   return s;
 }
 
+/// The three-variable circulation model (defaults: its chaotic case) with sign regimes on y,
+/// a histogram of x and every state variable, dt 0.01.
+spec::Spec l84_spec() {
+  spec::Spec s = l63_spec();
+  s.model = "lorenz84";
+  s.parameters = models::complete_parameters(model_info("lorenz84"), {});
+  s.ensemble.perturbation = {spec::Distribution::gaussian, 1e-2};
+  s.integration.dt = 0.01;
+  s.statistics.observables = {"x", "y", "z"};
+  s.statistics.regimes.observable = "y";
+  s.statistics.histogram = {true, "x", 30, -1.0, 3.0};
+  return s;
+}
+
 struct Campaign {
   plan::Plan plan;
   run::KernelKind kernel;
@@ -165,6 +179,19 @@ TEST(Kernels, FusedLorenz63EqualsGenericBitwise) {
       ASSERT_EQ(fused.kernel, run::KernelKind::fused);
       expect_same_members(fused, generic, 40);
     }
+  }
+}
+
+// Exact by design (lorenz84_equations.hpp): the fused kernel runs the model's own equations on
+// Lanes, as for Lorenz-63; width 21 (odd) takes the generic path.
+TEST(Kernels, FusedLorenz84EqualsGenericBitwise) {
+  const Campaign generic = run_at_width(l84_spec(), 21);
+  ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+  for (int width : {8, 24, 40}) {
+    SCOPED_TRACE("width " + std::to_string(width));
+    const Campaign fused = run_at_width(l84_spec(), width);
+    ASSERT_EQ(fused.kernel, run::KernelKind::fused);
+    expect_same_members(fused, generic, 40);
   }
 }
 
