@@ -16,18 +16,27 @@ struct Rk4Steps {
   explicit Rk4Steps(double step) : dt(step), half(0.5 * step), sixth(step / 6.0) {}
 };
 
-/// One RK4 step of x[D] in place for equations with `void rhs(const T (&)[D], T (&)[D])`.
+/// One RK4 step of x[D] in place for equations with `void rhs(const T (&)[D], T (&)[D])`:
+/// stage 1 with e1, stages 2 and 3 with e23, stage 4 with e4 (a parameter that changes in
+/// time, evaluated at the stage times).
+template <int D, typename Equations, typename T>
+inline void rk4_step(const Equations& e1, const Equations& e23, const Equations& e4,
+                     const Rk4Steps& h, T (&x)[D]) {
+  T k1[D], k2[D], k3[D], k4[D], s[D];
+  e1.rhs(x, k1);
+  for (int i = 0; i < D; ++i) s[i] = x[i] + h.half * k1[i];
+  e23.rhs(s, k2);
+  for (int i = 0; i < D; ++i) s[i] = x[i] + h.half * k2[i];
+  e23.rhs(s, k3);
+  for (int i = 0; i < D; ++i) s[i] = x[i] + h.dt * k3[i];
+  e4.rhs(s, k4);
+  for (int i = 0; i < D; ++i) x[i] += h.sixth * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+}
+
+/// The same with constant equations.
 template <int D, typename Equations, typename T>
 inline void rk4_step(const Equations& eq, const Rk4Steps& h, T (&x)[D]) {
-  T k1[D], k2[D], k3[D], k4[D], s[D];
-  eq.rhs(x, k1);
-  for (int i = 0; i < D; ++i) s[i] = x[i] + h.half * k1[i];
-  eq.rhs(s, k2);
-  for (int i = 0; i < D; ++i) s[i] = x[i] + h.half * k2[i];
-  eq.rhs(s, k3);
-  for (int i = 0; i < D; ++i) s[i] = x[i] + h.dt * k3[i];
-  eq.rhs(s, k4);
-  for (int i = 0; i < D; ++i) x[i] += h.sixth * (k1[i] + 2.0 * k2[i] + 2.0 * k3[i] + k4[i]);
+  rk4_step<D>(eq, eq, eq, h, x);
 }
 
 }  // namespace chaosweep::integrators

@@ -123,27 +123,18 @@ class Lorenz63 final : public Model {
 
   std::vector<double> default_initial_state() const override { return {1.0, 1.0, 1.0}; }
 
-  // Slots 0..3: sigma, rho, beta, forcing (forcing_direction is a vector: no slot). Each
-  // setter updates the copy in Lorenz63Equations the way from() computes it.
+  // Slots 0..3: sigma, rho, beta, forcing (forcing_direction is a vector: no slot), as
+  // Lorenz63Equations numbers them; its set() updates the equations the way from() computes
+  // them (the fused kernel sets a scheduled parameter through the same code).
   int parameter_slot(const std::string& name) const override {
-    static const char* const names[] = {"sigma", "rho", "beta", "forcing"};
-    for (int i = 0; i < 4; ++i) {
-      if (name == names[i]) return i;
-    }
-    return -1;
+    return Lorenz63Equations::slot(name);
   }
 
   void set_parameter(int slot, double value) override {
-    switch (slot) {
-      case 0: sigma_ = equations_.sigma = value; return;
-      case 1: rho_ = equations_.rho = value; return;
-      case 2: beta_ = equations_.beta = value; return;
-      case 3:
-        forcing_ = value;
-        for (int i = 0; i < 3; ++i) equations_.tendency[i] = value * direction_[i];
-        return;
-      default: Model::set_parameter(slot, value);
-    }
+    double* const fields[] = {&sigma_, &rho_, &beta_, &forcing_};
+    if (slot < 0 || slot > 3) Model::set_parameter(slot, value);
+    *fields[slot] = value;
+    equations_.set(slot, value);
   }
 
  private:

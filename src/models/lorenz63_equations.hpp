@@ -10,6 +10,8 @@
 // lorenz63.cpp.
 #pragma once
 
+#include <string>
+
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
 
@@ -19,6 +21,7 @@ struct Lorenz63Equations {
   static constexpr int kDim = 3;
   double sigma = 10.0, rho = 28.0, beta = 8.0 / 3.0;
   double tendency[3] = {0.0, 0.0, 0.0};  // forcing * forcing_direction
+  double direction[3] = {1.0, 0.0, 0.0};  // forcing_direction (for set())
 
   /// From complete parameter values (sigma, rho, beta, forcing, forcing_direction).
   static Lorenz63Equations from(const ParameterValues& v) {
@@ -28,8 +31,32 @@ struct Lorenz63Equations {
     e.beta = scalar_parameter(v, "beta");
     const double f = scalar_parameter(v, "forcing");
     const std::vector<double>& d = vector_parameter(v, "forcing_direction", 3);
-    for (int i = 0; i < 3; ++i) e.tendency[i] = f * d[i];
+    for (int i = 0; i < 3; ++i) {
+      e.direction[i] = d[i];
+      e.tendency[i] = f * d[i];
+    }
     return e;
+  }
+
+  /// The slot of a scalar parameter that can change in time (sigma, rho, beta, forcing), -1
+  /// for the others; set(slot, v) then updates the equations as from() computes them.
+  static int slot(const std::string& name) {
+    static const char* const names[] = {"sigma", "rho", "beta", "forcing"};
+    for (int i = 0; i < 4; ++i) {
+      if (name == names[i]) return i;
+    }
+    return -1;
+  }
+  void set(int slot, double value) {
+    switch (slot) {
+      case 0: sigma = value; return;
+      case 1: rho = value; return;
+      case 2: beta = value; return;
+      case 3:
+        for (int i = 0; i < 3; ++i) tendency[i] = value * direction[i];
+        return;
+      default: return;
+    }
   }
 
   /// dx/dt at state s = (x, y, z); T is double (one member) or a vector of members' values

@@ -71,6 +71,7 @@ class Lorenz84 final : public Model {
     Lorenz84Equations e;
     e.a = a_;
     e.b = b_;
+    e.F = F_;
     e.aF = a_ * F_;
     e.G = G_;
     return e;
@@ -118,13 +119,10 @@ class Lorenz84 final : public Model {
 
   std::vector<double> default_initial_state() const override { return {1.0, 0.0, 0.0}; }
 
-  // Slots 0..3: a, b, F, G (rhs() reads the members directly).
+  // Slots 0..3: a, b, F, G, as Lorenz84Equations numbers them (rhs() builds its equations
+  // from the members).
   int parameter_slot(const std::string& name) const override {
-    static const char* const names[] = {"a", "b", "F", "G"};
-    for (int i = 0; i < 4; ++i) {
-      if (name == names[i]) return i;
-    }
-    return -1;
+    return Lorenz84Equations::slot(name);
   }
 
   void set_parameter(int slot, double value) override {

@@ -9,6 +9,8 @@
 // E. N. Lorenz (1984), Tellus 36A, 98; the model is described in lorenz84.cpp.
 #pragma once
 
+#include <string>
+
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
 
@@ -17,15 +19,37 @@ namespace chaosweep::models {
 struct Lorenz84Equations {
   static constexpr int kDim = 3;
   double a = 0.25, b = 4.0, aF = 2.0, G = 1.0;  // aF = a * F
+  double F = 8.0;
 
   /// From complete parameter values (a, b, F, G).
   static Lorenz84Equations from(const ParameterValues& v) {
     Lorenz84Equations e;
     e.a = scalar_parameter(v, "a");
     e.b = scalar_parameter(v, "b");
-    e.aF = e.a * scalar_parameter(v, "F");
+    e.F = scalar_parameter(v, "F");
+    e.aF = e.a * e.F;
     e.G = scalar_parameter(v, "G");
     return e;
+  }
+
+  /// The slot of a scalar parameter (a, b, F, G), -1 for none; set(slot, v) then updates the
+  /// equations as from() computes them.
+  static int slot(const std::string& name) {
+    static const char* const names[] = {"a", "b", "F", "G"};
+    for (int i = 0; i < 4; ++i) {
+      if (name == names[i]) return i;
+    }
+    return -1;
+  }
+  void set(int slot, double value) {
+    switch (slot) {
+      case 0: a = value; break;
+      case 1: b = value; break;
+      case 2: F = value; break;
+      case 3: G = value; break;
+      default: return;
+    }
+    aF = a * F;
   }
 
   /// dx/dt at state s = (x, y, z); T is double (one member) or a vector of members' values

@@ -17,7 +17,10 @@
 #include "run/fused_kernel.hpp"
 
 #include <cstdint>
+#include <optional>
 #include <vector>
+
+#include "core/error.hpp"
 
 #include "integrators/lanes.hpp"
 #include "integrators/rk4_step.hpp"
@@ -25,6 +28,7 @@
 #include "models/lorenz84_equations.hpp"
 #include "run/batch_work.hpp"
 #include "run/lane_regimes.hpp"
+#include "run/schedule.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -81,39 +85,101 @@ class FusedKernel final : public Kernel {
   FusedKernel(const Equations& eq, const Setup& s, const Accumulators& acc)
       : eq_(eq), h_(s.dt), width_(s.width), acc_(acc),
         regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
-        histogram_row_(acc.histogram ? s.histogram_observable : -1) {
+        histogram_row_(acc.histogram ? s.histogram_observable : -1),
+        dt_(s.dt) {
     if (acc.histogram) values_ = value_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
     samples_ = sample_scratch(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
+    if (s.schedule) {
+      slot_ = Equations::slot(s.schedule->parameter);
+      if (slot_ < 0) throw Error("the fused kernel cannot schedule " + s.schedule->parameter);
+      schedule_.emplace(*s.schedule, s.schedule_offset);
+    }
   }
 
+  void set_step(std::int64_t step) override { step_ = step; }
+
   void spin(double* x, int steps) override {
-    int lane = 0;
-    for (; lane + kSpinGroup * L <= width_; lane += kSpinGroup * L) {
-      spin_group<kSpinGroup>(x, lane, steps);
+    if (schedule_) {
+      stage_equations(steps);
+      spin_groups<true>(x, steps);
+    } else {
+      spin_groups<false>(x, steps);
     }
-    for (; lane + 2 * L <= width_; lane += 2 * L) spin_group<2>(x, lane, steps);
-    for (; lane < width_; lane += L) spin_group<1>(x, lane, steps);
+    step_ += steps;
   }
 
   void accumulate(double* x, int steps) override {
+    if (schedule_) {
+      stage_equations(steps);
+      accumulate_groups<true>(x, steps);
+    } else {
+      accumulate_groups<false>(x, steps);
+    }
+    step_ += steps;
+  }
+
+ private:
+  template <bool Scheduled>
+  void spin_groups(double* x, int steps) {
+    int lane = 0;
+    for (; lane + kSpinGroup * L <= width_; lane += kSpinGroup * L) {
+      spin_group<kSpinGroup, Scheduled>(x, lane, steps);
+    }
+    for (; lane + 2 * L <= width_; lane += 2 * L) spin_group<2, Scheduled>(x, lane, steps);
+    for (; lane < width_; lane += L) spin_group<1, Scheduled>(x, lane, steps);
+  }
+
+  template <bool Scheduled>
+  void accumulate_groups(double* x, int steps) {
     stats::TimeMoments& moments = *acc_.moments;
     const bool opens_block = moments.block_starts();
     const bool first = moments.count() == 0;
     int lane = 0;
     for (; lane + kAccumulateGroup * L <= width_; lane += kAccumulateGroup * L) {
-      accumulate_group<kAccumulateGroup>(x, lane, steps, opens_block, first);
+      accumulate_group<kAccumulateGroup, Scheduled>(x, lane, steps, opens_block, first);
     }
     for (; lane + 2 * L <= width_; lane += 2 * L) {
-      accumulate_group<2>(x, lane, steps, opens_block, first);
+      accumulate_group<2, Scheduled>(x, lane, steps, opens_block, first);
     }
-    for (; lane < width_; lane += L) accumulate_group<1>(x, lane, steps, opens_block, first);
+    for (; lane < width_; lane += L) {
+      accumulate_group<1, Scheduled>(x, lane, steps, opens_block, first);
+    }
     moments.added(steps);
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_, steps);
   }
 
- private:
+  /// The equations of every stage of the next `steps` steps (step_ onwards) under the schedule:
+  /// the parameter at t0, t0 + dt/2 and t1 of each step (step_times, Rk4Batch::stage_time), set
+  /// by Equations::set as the generic path's ScheduledParameter sets it in the model.
+  void stage_equations(int steps) {
+    if (static_cast<std::size_t>(steps) > stages_.size()) stages_.resize(static_cast<std::size_t>(steps));
+    for (int t = 0; t < steps; ++t) {
+      const StepTimes times = step_times(step_ + t, dt_);
+      Stages& e = stages_[static_cast<std::size_t>(t)];
+      e = {eq_, eq_, eq_};
+      e.start.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(1, times.t0, times.t1, dt_)));
+      e.middle.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(2, times.t0, times.t1, dt_)));
+      e.end.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(4, times.t0, times.t1, dt_)));
+    }
+  }
+
+  /// Step t of the G members' states of a group: the constant equations, or step t's stages.
+  template <int G, bool Scheduled>
+  void step_group(const Equations& eq, const integrators::Rk4Steps& h, int t,
+                  Lanes (&s)[G][D]) const {
+    for (int g = 0; g < G; ++g) {
+      if constexpr (Scheduled) {
+        const Stages& e = stages_[static_cast<std::size_t>(t)];
+        integrators::rk4_step<D>(e.start, e.middle, e.end, h, s[g]);
+      } else {
+        (void)t;
+        integrators::rk4_step<D>(eq, h, s[g]);
+      }
+    }
+  }
+
   long row(int i) const { return static_cast<long>(i) * width_; }  // offset of state row i
   template <int G>
   void load_state(const double* x, int lane, Lanes (&s)[G][D]) const {
@@ -128,19 +194,19 @@ class FusedKernel final : public Kernel {
     }
   }
 
-  template <int G>
+  template <int G, bool Scheduled>
   void spin_group(double* x, int lane, int steps) const {
     const Equations eq = eq_;
     const integrators::Rk4Steps h = h_;
     Lanes s[G][D];
     load_state(x, lane, s);
     for (int t = 0; t < steps; ++t) {
-      for (int g = 0; g < G; ++g) integrators::rk4_step<D>(eq, h, s[g]);
+      step_group<G, Scheduled>(eq, h, t, s);
     }
     store_state(x, lane, s);
   }
 
-  template <int G>
+  template <int G, bool Scheduled>
   void accumulate_group(double* x, int lane, int steps, bool opens_block, bool first);
   template <int G>
   void fold_extremes(int lane, int steps) const;
@@ -152,10 +218,19 @@ class FusedKernel final : public Kernel {
   int regime_row_, histogram_row_;  // state rows, -1 when not used
   double* values_ = nullptr;  // [kMaxSegment][width]: the histogram observable per step
   Lanes* samples_ = nullptr;  // [kMaxSegment][G][D]: the group's state per step (scratch rows)
+  // a scheduled parameter (Setup::schedule): its slot in Equations, its values, the step count
+  struct Stages {
+    Equations start, middle, end;
+  };
+  std::optional<ParameterSchedule> schedule_;
+  int slot_ = -1;
+  double dt_;
+  std::int64_t step_ = 0;
+  std::vector<Stages> stages_;  // [steps of the current run]
 };
 
 template <typename Equations>
-template <int G>
+template <int G, bool Scheduled>
 void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bool opens_block,
                                               bool first) {
   // locals, so that stores through the row pointers cannot be taken to change them
@@ -181,7 +256,7 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
     if (regime_row >= 0) regime[g].begin(r, lane + g * L);
   }
   for (int t = 0; t < steps; ++t) {
-    for (int g = 0; g < G; ++g) integrators::rk4_step<D>(eq, h, s[g]);
+    step_group<G, Scheduled>(eq, h, t, s);
     if (t == 0 && opens_block) {
       for (int g = 0; g < G; ++g) {
         for (int i = 0; i < D; ++i) {

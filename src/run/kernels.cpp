@@ -225,10 +225,9 @@ KernelKind choose_kernel(const Setup& s) {
     const bool scheduled_f = !s.schedule || s.schedule->parameter == "F";
     return sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
   }
-  if (s.schedule) return KernelKind::generic;
   if (fast != models::FastKernel::convection_loop && fast != models::FastKernel::circulation) {
     return KernelKind::generic;
-  }
+  }  // the fused kernel evaluates a scheduled parameter per stage time
   const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
                                        [&](int i) { return is_state(s, i); });
   const bool regimes = s.regime_kind == spec::RegimeKind::none ||

@@ -381,9 +381,9 @@ TEST(ExtremesOfABatch, Lorenz96RingEqualsScalarReintegration) {
   expect_extremes_of_reintegration(s, run::KernelKind::ring);
 }
 
-// Outside check as above: Lorenz-84 on the generic path (no fused kernel), without and with a
-// periodic schedule of F (set at every RK4 stage time), spin-up 1.0 and 6.0 accumulated.
-TEST(ExtremesOfABatch, Lorenz84GenericAndScheduledEqualScalarReintegration) {
+// Outside check as above: Lorenz-84 on its fused kernel, without and with a periodic schedule
+// of F (set at every RK4 stage time), spin-up 1.0 and 6.0 accumulated.
+TEST(ExtremesOfABatch, Lorenz84AndScheduledEqualScalarReintegration) {
   spec::Spec s = small_lorenz63_spec("extremes-l84");
   s.model = "lorenz84";
   s.parameters = models::complete_parameters(model_info("lorenz84"), {});
@@ -394,14 +394,14 @@ TEST(ExtremesOfABatch, Lorenz84GenericAndScheduledEqualScalarReintegration) {
   s.statistics.observables = {};
   s.statistics.regimes.observable = "y";
   s.statistics.histogram = {true, "x", 10, -2.0, 3.0};
-  expect_extremes_of_reintegration(s, run::KernelKind::generic);
+  expect_extremes_of_reintegration(s, run::KernelKind::fused);
   s.schedule.kind = spec::ScheduleKind::periodic;
   s.schedule.parameter = "F";
   s.schedule.mean = 8.0;
   s.schedule.amplitude = 1.5;
   s.schedule.period = 2.3;
   s.schedule.phase = 0.3;
-  expect_extremes_of_reintegration(s, run::KernelKind::generic);
+  expect_extremes_of_reintegration(s, run::KernelKind::fused);
 }
 
 // Exact by design (batch_runner.hpp): a member flagged non-finite reports NaN for its

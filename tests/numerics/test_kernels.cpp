@@ -239,6 +239,47 @@ TEST(Kernels, ScheduledRingEqualsGenericBitwise) {
   }
 }
 
+// Exact by design: the fused kernel sets a scheduled parameter per stage time through
+// Equations::set, as the generic path's ScheduledParameter sets it in the model: the convection
+// loop's forcing on a periodic schedule and its rho on a ramp offset by a sweep, the
+// circulation model's F on a ramp.
+TEST(Kernels, ScheduledFusedEqualsGenericBitwise) {
+  spec::Spec forcing = l63_spec();
+  forcing.schedule.kind = spec::ScheduleKind::periodic;
+  forcing.schedule.parameter = "forcing";
+  forcing.schedule.mean = 2.0;
+  forcing.schedule.amplitude = 3.0;
+  forcing.schedule.period = 0.9;
+  forcing.schedule.phase = 0.1;
+  spec::Spec rho = l63_spec();
+  rho.schedule.kind = spec::ScheduleKind::ramp;
+  rho.schedule.parameter = "rho";
+  rho.schedule.from = 24.0;
+  rho.schedule.to = 32.0;
+  rho.schedule.start = 0.3;
+  rho.schedule.end = 5.0;
+  rho.sweep = {spec::SweepAxis{"rho", {1.5}}};
+  rho.schedule.offset_by_sweep = true;
+  spec::Spec circulation = l84_spec();
+  circulation.schedule.kind = spec::ScheduleKind::ramp;
+  circulation.schedule.parameter = "F";
+  circulation.schedule.from = 6.0;
+  circulation.schedule.to = 9.0;
+  circulation.schedule.start = 0.0;
+  circulation.schedule.end = 5.0;
+  for (const spec::Spec& s : {forcing, rho, circulation}) {
+    SCOPED_TRACE(s.model + " " + s.schedule.parameter);
+    const Campaign generic = run_at_width(s, 21);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    for (int width : {8, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign fused = run_at_width(s, width);
+      ASSERT_EQ(fused.kernel, run::KernelKind::fused);
+      expect_same_members(fused, generic, 40);
+    }
+  }
+}
+
 /// The response sums of every group summed over the batches (each group of one member lies in
 /// one batch; the others add zeros).
 std::vector<double> response_sums(const Campaign& r) {
