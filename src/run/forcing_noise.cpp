@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "run/batch_work.hpp"
+#include "run/gaussian_lanes.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -45,7 +46,7 @@ ForcingNoise::ForcingNoise(const Setup& s, int width, KernelMembers members)
       dw_(variables_.size() * static_cast<std::size_t>(width)) {
   for (int m = 0; m < columns_; ++m) {
     const std::int64_t member = s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
-    streams_.emplace_back(s.seed, s.key_case, member, kForcingStream);
+    keys_.push_back(MemberNoise(s.seed, s.key_case, member, kForcingStream).key());
   }
   if (red_) {
     eta_.assign(dw_.size(), 0.0);
@@ -76,11 +77,22 @@ integrators::StepNoise ForcingNoise::at(std::int64_t step) {
 }
 
 /// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
-/// columns_ columns).
+/// columns_ columns): wiener_increments' values, a Box-Muller pair at a time for every column
+/// (run/gaussian_lanes.hpp), both branches taken when two noisy variables share the pair.
 void ForcingNoise::draw(std::int64_t step, double scale, double* out) const {
   const std::size_t stride = static_cast<std::size_t>(width_);
-  for (int m = 0; m < columns_; ++m) {
-    wiener_increments(streams_[m], step, state_dim_, variables_, scale, out + m, stride);
+  const std::size_t rows = variables_.size();
+  for (std::size_t r = 0; r < rows; ++r) {
+    const int v = variables_[r];
+    const std::uint64_t pair = wiener_pair(step, state_dim_, v);
+    double* row = out + r * stride;
+    if (v % 2 == 0 && r + 1 < rows && variables_[r + 1] == v + 1) {
+      gaussian_row(keys_.data(), columns_, pair, scale, row, row + stride);
+      ++r;
+    } else {
+      gaussian_row(keys_.data(), columns_, pair, scale, v % 2 == 0 ? row : nullptr,
+                   v % 2 == 0 ? nullptr : row);
+    }
   }
 }
 

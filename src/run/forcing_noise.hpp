@@ -57,7 +57,7 @@ class ForcingNoise {
   bool red_;
   double decay_, innovation_;  // red: a = exp(-dt / T), sqrt(1 - a^2)
   int columns_;                // streams: 1 (shared realisation) or width
-  std::vector<MemberNoise> streams_;
+  std::vector<std::uint64_t> keys_;  // [columns_]: each column's stream key (MemberNoise::key)
   std::optional<ParameterSchedule> amplitude_schedule_;
   std::vector<double> dw_;                 // [variables][width]: the step's dw0
   std::vector<double> eta_, draws_, dw1_;  // red: [variables][width]

@@ -3,6 +3,8 @@
 
 #include <cmath>
 
+#include "run/gaussian_lanes.hpp"
+
 namespace chaosweep::run {
 namespace {
 
@@ -45,28 +47,15 @@ double MemberNoise::gaussian(std::uint64_t i) const {
   return std::sqrt(-2.0 * std::log(u1)) * std::cos(kTwoPi * u2);
 }
 
-void MemberNoise::gaussian_pair(std::uint64_t j, double& c, double& s) const {
-  const double u1 = 1.0 - unit(bits(2 * j));
-  const double u2 = unit(bits(2 * j + 1));
-  const double r = std::sqrt(-2.0 * std::log(u1));
-  const double phase = kTwoPi * u2;
-  c = r * std::cos(phase);
-  s = r * std::sin(phase);
-}
-
-namespace {
-
-std::uint64_t pair_of(std::int64_t step, int variables, int v) {
+std::uint64_t wiener_pair(std::int64_t step, int variables, int v) {
   const auto per_step = static_cast<std::uint64_t>((variables + 1) / 2);
   return static_cast<std::uint64_t>(step) * per_step + static_cast<std::uint64_t>(v / 2);
 }
 
-}  // namespace
-
 double wiener_increment(const MemberNoise& stream, std::int64_t step, int variables, int v,
                         double sqrt_dt) {
   double c = 0.0, s = 0.0;
-  stream.gaussian_pair(pair_of(step, variables, v), c, s);
+  gaussian_pair(stream.key(), wiener_pair(step, variables, v), c, s);
   return sqrt_dt * (v % 2 == 0 ? c : s);
 }
 
@@ -76,9 +65,9 @@ void wiener_increments(const MemberNoise& stream, std::int64_t step, int variabl
   std::uint64_t have = ~std::uint64_t{0};
   double c = 0.0, s = 0.0;
   for (std::size_t r = 0; r < noisy.size(); ++r) {
-    const std::uint64_t pair = pair_of(step, variables, noisy[r]);
+    const std::uint64_t pair = wiener_pair(step, variables, noisy[r]);
     if (pair != have) {
-      stream.gaussian_pair(pair, c, s);
+      gaussian_pair(stream.key(), pair, c, s);
       have = pair;
     }
     out[r * stride] = sqrt_dt * (noisy[r] % 2 == 0 ? c : s);
