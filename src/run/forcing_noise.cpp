@@ -78,21 +78,32 @@ integrators::StepNoise ForcingNoise::at(std::int64_t step) {
 
 /// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
 /// columns_ columns): wiener_increments' values, a Box-Muller pair at a time for every column
-/// (run/gaussian_lanes.hpp), both branches taken when two noisy variables share the pair.
-void ForcingNoise::draw(std::int64_t step, double scale, double* out) const {
+/// (run/gaussian_lanes.hpp). A pair shared with the next step (an odd number of noisy
+/// variables) keeps its sine branch for it, so steps drawn in order compute each pair once.
+void ForcingNoise::draw(std::int64_t step, double scale, double* out) {
+  const int rows = static_cast<int>(variables_.size());
+  if (rows == 0) return;
   const std::size_t stride = static_cast<std::size_t>(width_);
-  const std::size_t rows = variables_.size();
-  for (std::size_t r = 0; r < rows; ++r) {
-    const int v = variables_[r];
-    const std::uint64_t pair = wiener_pair(step, state_dim_, v);
-    double* row = out + r * stride;
-    if (v % 2 == 0 && r + 1 < rows && variables_[r + 1] == v + 1) {
-      gaussian_row(keys_.data(), columns_, pair, scale, row, row + stride);
-      ++r;
+  const auto row = [&](int r) { return out + static_cast<std::size_t>(r) * stride; };
+  if (carried_.empty()) carried_.assign(static_cast<std::size_t>(columns_), 0.0);
+  int r = 0;
+  if (wiener_draw(step, rows, 0).sine) {  // row 0 is the sine branch of the previous step's pair
+    const std::uint64_t pair = wiener_draw(step, rows, 0).pair;
+    if (pair == carried_pair_ && carried_scale_ == scale) {
+      std::copy(carried_.begin(), carried_.end(), row(0));
     } else {
-      gaussian_row(keys_.data(), columns_, pair, scale, v % 2 == 0 ? row : nullptr,
-                   v % 2 == 0 ? nullptr : row);
+      gaussian_row(keys_.data(), columns_, pair, scale, nullptr, row(0));
     }
+    r = 1;
+  }
+  for (; r + 1 < rows; r += 2) {
+    gaussian_row(keys_.data(), columns_, wiener_draw(step, rows, r).pair, scale, row(r),
+                 row(r + 1));
+  }
+  if (r < rows) {  // the cosine branch here, the sine branch for the next step
+    carried_pair_ = wiener_draw(step, rows, r).pair;
+    carried_scale_ = scale;
+    gaussian_row(keys_.data(), columns_, carried_pair_, scale, row(r), carried_.data());
   }
 }
 

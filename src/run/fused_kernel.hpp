@@ -8,8 +8,11 @@
 
 namespace chaosweep::run {
 
-/// The fused kernel for lorenz63 (Setup::kernel == fused, width a multiple of kLanes). The moments
-/// accumulator must hold one series per state variable, in state order.
-std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc);
+/// The fused kernel for lorenz63 (Setup::kernel == fused, width a multiple of kLanes): RK4, or
+/// under integration.method euler-maruyama or heun the stochastic step with the noise of
+/// `members` (run/forcing_noise.hpp). The moments accumulator must hold one series per state
+/// variable, in state order.
+std::unique_ptr<Kernel> make_fused_lorenz63_kernel(const Setup& setup, const Accumulators& acc,
+                                                   KernelMembers members);
 
 }  // namespace chaosweep::run

@@ -3,17 +3,19 @@
 // Pure numerics: no MPI, no HDF5, no YAML, no logging.
 //
 // Three kernels, chosen once per case (choose_kernel) and giving bitwise the same numbers:
-//  - fused:   models with a small fixed state (lorenz63). RK4 and every accumulator update run
-//             member-parallel on Lanes (one SIMD register of members, 8 with AVX-512:
-//             integrators/lanes.hpp), a few Lanes interleaved so the FMA pipelines stay busy,
-//             the state and the running sums held in registers for a whole segment. Moments
-//             are kept for every state variable.
-//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes, the
+//  - fused:   models with a small fixed state (lorenz63). RK4 (or Euler-Maruyama or Heun on the
+//             increments of the batch's ForcingNoise, run/forcing_noise.hpp) and every
+//             accumulator update run member-parallel on Lanes (one SIMD register of members, 8
+//             with AVX-512: integrators/lanes.hpp), a few Lanes interleaved so the FMA
+//             pipelines stay busy, the state and the running sums held in registers for a whole
+//             segment. Moments are kept for every state variable.
+//  - ring:    lorenz96 with RK4. RK4 stages fused into sweeps around the ring on Lanes, the
 //             accumulators fed as each site's new value comes out of the last sweep; a
 //             scheduled F evaluated per stage time for the whole batch.
-//  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
-//             The kernel for the other scheduled (time-dependent) parameters: it integrates the
-//             batch's own copy of the model and sets the parameter at every RK4 stage time.
+//  - generic: any model. Rk4Batch or SdeBatch (the model's batched rhs) and the generic
+//             per-step feed. The kernel for the other scheduled (time-dependent) model
+//             parameters, noisy Lorenz-63's included: it integrates the batch's own copy of the
+//             model and sets the parameter at every stage time of the scheme.
 // The fused and ring kernels need a batch width that is a multiple of kLanes (every width the
 // spec allows, a multiple of 8, is). Every member of a batch sees the same operations whatever
 // its column, so results never depend on it.
@@ -35,9 +37,10 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: generic with a schedule (the ring's kernel takes a scheduled F);
-/// otherwise fused or ring when the model has one, the width is a multiple of kLanes and (fused) every observable, the regime coordinate and the histogram observable are state
-/// variables with sign or no regimes; generic otherwise.
+/// The kernel for a case: generic with a schedule of a model parameter (the ring's kernel takes
+/// a scheduled F); otherwise fused or (RK4 only) ring when the model has one, the width is a
+/// multiple of kLanes and (fused) every observable, the regime coordinate and the histogram
+/// observable are state variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);
 
 /// The accumulators a kernel feeds (owned by the batch). Moments and extremes hold one series
