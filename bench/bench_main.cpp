@@ -5,13 +5,14 @@
 // throughput for scale.
 //
 //   chaosweep-bench [--model lorenz63|lorenz96|all] [--members N] [--steps S]
-//                   [--widths 16,32,64,...] [--repeats R] [--json]
+//                   [--widths 16,32,64,...] [--repeats R] [--sections main,noise,...] [--json]
 //
 // Every rate is the median of R repetitions (minimum and maximum shown) of CPU time of the
 // benchmark's thread, so other processes on a busy machine do not count against it.
 #include <CLI/CLI.hpp>
 #include <nlohmann/json.hpp>
 
+#include <algorithm>
 #include <cstdio>
 #include <fstream>
 #include <iostream>
@@ -22,6 +23,7 @@
 #include "campaigns.hpp"
 #include "core/error.hpp"
 #include "measure.hpp"
+#include "models/model.hpp"
 #include "peak.hpp"
 
 namespace chaosweep::bench {
@@ -35,7 +37,11 @@ struct Options {
   int width = 64;
   int repeats = 5;
   long scalar_members = 64;
+  std::vector<std::string> sections = {"main", "widths", "twins", "response", "schedule", "noise"};
   bool json = false;
+  bool runs(const std::string& section) const {
+    return std::find(sections.begin(), sections.end(), section) != sections.end();
+  }
 };
 
 /// One line of results.
@@ -118,6 +124,50 @@ Row measure_schedule(const Options& o, const std::string& model, bool on) {
   return row;
 }
 
+/// The production kernel (moments+regimes) under stochastic forcing (noise on every state
+/// variable, with `first_only` on the first one alone; integration.method `method`, `kind`
+/// additive, multiplicative or red with correlation time 0.1, one realisation per member or
+/// shared), or the deterministic RK4 run (`method` "rk4", kind none) that the noisy rates are
+/// compared with.
+Row measure_noise(const Options& o, const std::string& model, const std::string& method,
+                  spec::NoiseKind kind, bool shared, bool first_only = false) {
+  spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
+  s.integration.method = method;
+  std::string label = method;
+  if (kind != spec::NoiseKind::none) {
+    const bool l63 = model == "lorenz63";
+    s.noise.kind = kind;
+    s.noise.amplitude = kind == spec::NoiseKind::multiplicative ? 0.1 : (l63 ? 1.0 : 0.5);
+    if (kind == spec::NoiseKind::red) s.noise.correlation_time = 0.1;
+    s.noise.shared = shared;
+    const auto info = models::Registry::instance().find(model);
+    const auto names = info->make(s.parameters)->observables();
+    const int dim = first_only ? 1 : info->make(s.parameters)->state_dim();
+    for (int i = 0; i < dim; ++i) {
+      s.noise.variables.push_back(i);
+      s.noise.variable_names.push_back(names[static_cast<std::size_t>(i)].name);
+    }
+    label += std::string(" ") + spec::noise_kind_name(kind) + (shared ? " shared" : " per-member");
+    if (first_only) label += " (" + s.noise.variable_names.front() + " only)";
+  }
+  Row row{model, label, o.width, 0.0, {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  return row;
+}
+
+void print_noise(const std::vector<Row>& rows) {
+  if (rows.empty()) return;
+  std::printf("\nstochastic forcing (production kernel, moments+regimes, noise on every state "
+              "variable unless marked, width %d): members' steps per CPU second\n", rows.front().width);
+  double base = 0.0;
+  for (const Row& r : rows) {
+    if (r.statistics == "rk4") base = r.production.median;
+    std::printf("%-9s %-44s %9.3g (%8.3g-%8.3g)  rate %4.2f of rk4\n", r.model.c_str(),
+                r.statistics.c_str(), r.production.median, r.production.min, r.production.max,
+                r.production.median / base);
+  }
+}
+
 void print_schedule(const std::vector<Row>& rows) {
   if (rows.empty()) return;
   std::printf("\nschedules (production kernel, moments+regimes, width %d): members' steps per CPU "
@@ -198,7 +248,8 @@ nlohmann::ordered_json json_summary(const Summary& s) {
 
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const std::vector<Row>& twins, const std::vector<Row>& response,
-                const std::vector<Row>& schedule, const Summary& peak) {
+                const std::vector<Row>& schedule, const std::vector<Row>& noise,
+                const Summary& peak) {
   using Json = nlohmann::ordered_json;
   Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
            {"load_average", first_line_of("/proc/loadavg", "")},
@@ -239,6 +290,12 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
                                  {"width", r.width}, {"production", json_summary(r.production)}});
   }
   doc["schedule"] = schedule_rows;
+  Json noise_rows = Json::array();
+  for (const Row& r : noise) {
+    noise_rows.push_back(Json{{"model", r.model}, {"statistics", r.statistics},
+                              {"width", r.width}, {"production", json_summary(r.production)}});
+  }
+  doc["noise"] = noise_rows;
   std::cout << doc.dump(2) << "\n";
 }
 
@@ -246,29 +303,48 @@ int run(const Options& o) {
   std::vector<std::string> models = {"lorenz63", "lorenz84", "lorenz96"};
   if (o.model != "all") models = {o.model};
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths, twins, response, schedule;
+  std::vector<Row> main, widths, twins, response, schedule, noise;
   for (const std::string& m : models) {
-    for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
+    if (o.runs("main")) {
+      for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
+    }
   }
   for (const std::string& m : models) {
+    if (!o.runs("widths")) break;
     for (int w : o.widths) widths.push_back(measure(o, m, true, w, false));
   }
   for (const std::string& m : models) {
+    if (!o.runs("twins")) break;
     for (int every : {0, 10, 64}) twins.push_back(measure_twins(o, m, every));
   }
   for (const std::string& m : models) {
+    if (!o.runs("response")) break;
     for (bool on : {false, true}) response.push_back(measure_response(o, m, on));
   }
   for (const std::string& m : models) {
+    if (!o.runs("schedule")) break;
     for (bool on : {false, true}) schedule.push_back(measure_schedule(o, m, on));
   }
+  for (const std::string& m : models) {
+    if (!o.runs("noise")) break;
+    noise.push_back(measure_noise(o, m, "rk4", spec::NoiseKind::none, false));
+    for (const char* method : {"euler-maruyama", "heun"}) {
+      noise.push_back(measure_noise(o, m, method, spec::NoiseKind::none, false));
+      for (spec::NoiseKind kind : {spec::NoiseKind::additive, spec::NoiseKind::multiplicative,
+                                   spec::NoiseKind::red}) {
+        for (bool shared : {false, true}) noise.push_back(measure_noise(o, m, method, kind, shared));
+      }
+      noise.push_back(measure_noise(o, m, method, spec::NoiseKind::additive, false, true));
+    }
+  }
   if (o.json) {
-    print_json(o, main, widths, twins, response, schedule, peak);
+    print_json(o, main, widths, twins, response, schedule, noise, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
     print_response(response);
     print_schedule(schedule);
+    print_noise(noise);
   }
   return 0;
 }
@@ -289,6 +365,10 @@ int main(int argc, char** argv) {
       ->check(CLI::PositiveNumber);
   app.add_option("--scalar-members", o.scalar_members, "members run by the scalar reference")
       ->check(CLI::PositiveNumber);
+  app.add_option("--sections", o.sections,
+                 "parts to measure: main, widths, twins, response, schedule, noise")
+      ->delimiter(',')
+      ->check(CLI::IsMember({"main", "widths", "twins", "response", "schedule", "noise"}));
   app.add_flag("--json", o.json, "print JSON instead of a table");
   CLI11_PARSE(app, argc, argv);
   try {

@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "run/batch_work.hpp"
+#include "run/gaussian_lanes.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -45,7 +46,7 @@ ForcingNoise::ForcingNoise(const Setup& s, int width, KernelMembers members)
       dw_(variables_.size() * static_cast<std::size_t>(width)) {
   for (int m = 0; m < columns_; ++m) {
     const std::int64_t member = s.noise.shared ? -1 : members.first + (m < members.count ? m : 0);
-    streams_.emplace_back(s.seed, s.key_case, member, kForcingStream);
+    keys_.push_back(MemberNoise(s.seed, s.key_case, member, kForcingStream).key());
   }
   if (red_) {
     eta_.assign(dw_.size(), 0.0);
@@ -76,11 +77,33 @@ integrators::StepNoise ForcingNoise::at(std::int64_t step) {
 }
 
 /// Draw `step` of every stream, times `scale`, into out ([variables][width], the first
-/// columns_ columns).
-void ForcingNoise::draw(std::int64_t step, double scale, double* out) const {
+/// columns_ columns): wiener_increments' values, a Box-Muller pair at a time for every column
+/// (run/gaussian_lanes.hpp). A pair shared with the next step (an odd number of noisy
+/// variables) keeps its sine branch for it, so steps drawn in order compute each pair once.
+void ForcingNoise::draw(std::int64_t step, double scale, double* out) {
+  const int rows = static_cast<int>(variables_.size());
+  if (rows == 0) return;
   const std::size_t stride = static_cast<std::size_t>(width_);
-  for (int m = 0; m < columns_; ++m) {
-    wiener_increments(streams_[m], step, state_dim_, variables_, scale, out + m, stride);
+  const auto row = [&](int r) { return out + static_cast<std::size_t>(r) * stride; };
+  if (carried_.empty()) carried_.assign(static_cast<std::size_t>(columns_), 0.0);
+  int r = 0;
+  if (wiener_draw(step, rows, 0).sine) {  // row 0 is the sine branch of the previous step's pair
+    const std::uint64_t pair = wiener_draw(step, rows, 0).pair;
+    if (pair == carried_pair_ && carried_scale_ == scale) {
+      std::copy(carried_.begin(), carried_.end(), row(0));
+    } else {
+      gaussian_row(keys_.data(), columns_, pair, scale, nullptr, row(0));
+    }
+    r = 1;
+  }
+  for (; r + 1 < rows; r += 2) {
+    gaussian_row(keys_.data(), columns_, wiener_draw(step, rows, r).pair, scale, row(r),
+                 row(r + 1));
+  }
+  if (r < rows) {  // the cosine branch here, the sine branch for the next step
+    carried_pair_ = wiener_draw(step, rows, r).pair;
+    carried_scale_ = scale;
+    gaussian_row(keys_.data(), columns_, carried_pair_, scale, row(r), carried_.data());
   }
 }
 

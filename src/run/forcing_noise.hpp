@@ -1,7 +1,8 @@
 // Internal to run/: the stochastic forcing of one batch of members, step by step: the
 // increments and amplitudes an integrators::SdeBatch step takes. Pure numerics.
 //
-// The Gaussian draw of noisy variable i at step n of member m is keyed by (seed, case, m, n, i),
+// The Gaussian draw of noisy variable i at step n of member m is keyed by (seed, case, m, n, i)
+// (run/member_noise.hpp, wiener_draw: the variable's position among the noisy ones),
 // the case being the reference case when cases are paired (spec::key_case)
 // (run/member_noise.hpp, stream 2); with a shared realisation the member is left out (every
 // member draws member -1's stream). So the same member gets the same forcing in any batch, on
@@ -46,7 +47,7 @@ class ForcingNoise {
   const std::vector<int>& variables() const { return variables_; }
 
  private:
-  void draw(std::int64_t step, double scale, double* out) const;
+  void draw(std::int64_t step, double scale, double* out);
   void broadcast(std::vector<double>& rows) const;
   void next_eta(std::int64_t step);
   void red_increments(std::int64_t step);
@@ -57,7 +58,13 @@ class ForcingNoise {
   bool red_;
   double decay_, innovation_;  // red: a = exp(-dt / T), sqrt(1 - a^2)
   int columns_;                // streams: 1 (shared realisation) or width
-  std::vector<MemberNoise> streams_;
+  std::vector<std::uint64_t> keys_;  // [columns_]: each column's stream key (MemberNoise::key)
+  /// The sine branch of the last pair drawn, times its scale, when it belongs to the next step
+  /// (an odd number of noisy variables): [columns_], pair carried_pair_ (none: ~0) at
+  /// carried_scale_.
+  std::vector<double> carried_;
+  std::uint64_t carried_pair_ = ~std::uint64_t{0};
+  double carried_scale_ = 0.0;
   std::optional<ParameterSchedule> amplitude_schedule_;
   std::vector<double> dw_;                 // [variables][width]: the step's dw0
   std::vector<double> eta_, draws_, dw1_;  // red: [variables][width]

@@ -1,8 +1,16 @@
-// The fused kernel: RK4 and every per-step accumulator update on Lanes (kLanes members, one
-// SIMD register: integrators/lanes.hpp), with G Lanes interleaved so that independent dependency chains keep the FMA pipelines busy, and the
-// state and running sums held in local variables (registers) for a whole segment of steps.
+// The fused kernel: the step (RK4, or Euler-Maruyama or Heun under stochastic forcing) and
+// every per-step accumulator update on Lanes (kLanes members, one SIMD register:
+// integrators/lanes.hpp), with G Lanes interleaved so that independent dependency chains keep
+// the FMA pipelines busy, and the state and running sums held in local variables (registers)
+// for a whole segment of steps.
 //
-// Per step and Lane, after the RK4 step (integrators/rk4_step.hpp, the model's equations):
+// The step: RK4 (integrators/rk4_step.hpp, the model's equations), or SdeStep below, which
+// performs integrators::SdeBatch::step's operations per member on the increments and
+// amplitudes of the batch's ForcingNoise (run/forcing_noise.hpp, the one source of the forcing,
+// keyed draws and red noise's Ornstein-Uhlenbeck state included), taken for the whole segment
+// before its steps.
+//
+// Per step and Lane, after the step:
 //   moments, every state variable i:  TimeMoments::add_sample(x_i, shift_i, s1_i, s2_i)
 //     (at the first sample of a block shift_i = x_i, at the very first also origin_i = x_i)
 //   sign regimes of state variable r:  regime = 0 if x_r >= 0 else 1 (NaN -> 1), then the
@@ -16,17 +24,20 @@
 // exactly the operations of the generic path, so both give the same bits.
 #include "run/fused_kernel.hpp"
 
+#include <algorithm>
 #include <cstdint>
+#include <cstring>
 #include <optional>
 #include <vector>
 
 #include "core/error.hpp"
-
 #include "integrators/lanes.hpp"
 #include "integrators/rk4_step.hpp"
+#include "integrators/sde.hpp"
 #include "models/lorenz63_equations.hpp"
 #include "models/lorenz84_equations.hpp"
 #include "run/batch_work.hpp"
+#include "run/forcing_noise.hpp"
 #include "run/lane_regimes.hpp"
 #include "run/schedule.hpp"
 
@@ -77,110 +88,249 @@ double* value_scratch(std::size_t n) {
   return rows.data();
 }
 
+/// One RK4 step of one Lanes (the segment's step t and the column are not needed).
 template <typename Equations>
+struct Rk4Step {
+  static constexpr bool kNoisy = false, kScheduled = false;
+  Equations eq;
+  integrators::Rk4Steps h;
+  void operator()(int, long, Lanes (&x)[Equations::kDim]) const {
+    integrators::rk4_step<Equations::kDim>(eq, h, x);
+  }
+};
+
+/// The equations of the RK4 stages of one step under a scheduled parameter: at the step's
+/// start (stage 1), middle (stages 2 and 3) and end (stage 4).
+template <typename Equations>
+struct StageEquations {
+  Equations start, middle, end;
+};
+
+/// One RK4 step of one Lanes with a scheduled parameter: the segment's step t takes the stage
+/// equations the kernel computed for it (stages[t], ScheduledStages).
+template <typename Equations>
+struct ScheduledRk4Step {
+  static constexpr bool kNoisy = false, kScheduled = true;
+  integrators::Rk4Steps h;
+  const StageEquations<Equations>* stages;
+  void operator()(int t, long, Lanes (&x)[Equations::kDim]) const {
+    const StageEquations<Equations>& e = stages[t];
+    integrators::rk4_step<Equations::kDim>(e.start, e.middle, e.end, h, x);
+  }
+};
+
+/// A scheduled parameter's stage equations for the segment's steps: the parameter at t0,
+/// t0 + dt/2 and t1 of each step (step_times, Rk4Batch::stage_time), set by Equations::set as
+/// the generic path's ScheduledParameter sets it in the model.
+template <typename Equations>
+class ScheduledStages {
+ public:
+  ScheduledStages(const Setup& s, const Equations& eq)
+      : eq_(eq), schedule_(*s.schedule, s.schedule_offset), slot_(Equations::slot(s.schedule->parameter)),
+        dt_(s.dt), stages_(kMaxSegment) {
+    if (slot_ < 0) throw Error("the fused kernel cannot schedule " + s.schedule->parameter);
+  }
+  /// The stage equations of steps first .. first + steps - 1 (steps <= kMaxSegment).
+  void take(std::int64_t first, int steps) {
+    for (int t = 0; t < steps; ++t) {
+      const StepTimes times = step_times(first + t, dt_);
+      StageEquations<Equations>& e = stages_[static_cast<std::size_t>(t)];
+      e = {eq_, eq_, eq_};
+      e.start.set(slot_, schedule_.at(integrators::Rk4Batch::stage_time(1, times.t0, times.t1, dt_)));
+      e.middle.set(slot_, schedule_.at(integrators::Rk4Batch::stage_time(2, times.t0, times.t1, dt_)));
+      e.end.set(slot_, schedule_.at(integrators::Rk4Batch::stage_time(4, times.t0, times.t1, dt_)));
+    }
+  }
+  const StageEquations<Equations>* data() const { return stages_.data(); }
+
+ private:
+  Equations eq_;
+  ParameterSchedule schedule_;
+  int slot_;
+  double dt_;
+  std::vector<StageEquations<Equations>> stages_;  // [kMaxSegment]
+};
+
+/// One Euler-Maruyama (Heun false) or Heun step of one Lanes with additive or multiplicative
+/// (Multiplicative) noise, SdeBatch::advance's operations per member (integrators/sde.cpp):
+///   p = x + dt f(x);  p_i += a0 dw0_i   (multiplicative: a0 x_i dw0_i)  [Euler-Maruyama: x = p]
+///   g = (dt/2) (f(x) + f(p));  g_i += (a0/2) dw0_i, then g_i += (a1/2) dw1_i
+///     (multiplicative: (a0/2) x_i dw0_i, (a1/2) p_i dw1_i);  x += g
+/// with the noise of the segment's step t: dw0/dw1 [steps][rows][width], a0/a1 [steps], and
+/// noisy state variable i on row row_of[i] (-1: none).
+template <typename Equations, bool Heun, bool Multiplicative>
+struct SdeStep {
+  static constexpr bool kNoisy = true, kScheduled = false;
+  static constexpr int D = Equations::kDim;
+  Equations eq;
+  double dt, half;
+  long width;
+  int rows;
+  int row_of[D];
+  const double* dw0;
+  const double* dw1;
+  const double* a0;
+  const double* a1;
+
+  static Lanes term(double a, Lanes x, Lanes d) {
+    if constexpr (Multiplicative) {
+      return a * x * d;
+    } else {
+      (void)x;
+      return a * d;
+    }
+  }
+
+  [[gnu::always_inline]] void operator()(int t, long column, Lanes (&x)[D]) const {
+    const long at = static_cast<long>(t) * rows * width + column;
+    Lanes f0[D], p[D];
+    eq.rhs(x, f0);
+    for (int i = 0; i < D; ++i) p[i] = x[i] + dt * f0[i];
+    const double amp0 = 1.0 * a0[t];
+    for (int i = 0; i < D; ++i) {
+      if (row_of[i] >= 0) p[i] += term(amp0, x[i], load_lanes(dw0 + at + row_of[i] * width));
+    }
+    if constexpr (!Heun) {
+      for (int i = 0; i < D; ++i) x[i] = p[i];
+    } else {
+      Lanes f1[D];
+      eq.rhs(p, f1);
+      for (int i = 0; i < D; ++i) f1[i] = half * (f0[i] + f1[i]);
+      const double h0 = 0.5 * a0[t], h1 = 0.5 * a1[t];
+      for (int i = 0; i < D; ++i) {
+        if (row_of[i] < 0) continue;
+        const long r = at + row_of[i] * width;
+        f1[i] += term(h0, x[i], load_lanes(dw0 + r));
+        f1[i] += term(h1, p[i], load_lanes(dw1 + r));
+      }
+      for (int i = 0; i < D; ++i) x[i] += f1[i];
+    }
+  }
+};
+
+/// The segment's stochastic forcing for SdeStep, taken from the batch's ForcingNoise step by
+/// step (so every path draws the same increments): [steps][rows][width] increments, the
+/// amplitudes per step.
+class SegmentNoise {
+ public:
+  SegmentNoise(const Setup& s, KernelMembers members)
+      : noise_(s, s.width, members),
+        width_(s.width),
+        rows_(static_cast<int>(noise_.variables().size())),
+        separate_dw1_(s.noise.kind == spec::NoiseKind::red && sde_method(s) ==
+                                                                   integrators::SdeMethod::heun),
+        dw0_(static_cast<std::size_t>(kMaxSegment) * rows_ * s.width),
+        dw1_(separate_dw1_ ? dw0_.size() : 0),
+        a0_(kMaxSegment),
+        a1_(kMaxSegment) {}
+
+  /// The noise of steps first .. first + steps - 1 (steps <= kMaxSegment).
+  void take(std::int64_t first, int steps) {
+    const std::size_t n = static_cast<std::size_t>(rows_) * width_;
+    for (int t = 0; t < steps; ++t) {
+      const integrators::StepNoise step = noise_.at(first + t);
+      a0_[t] = step.a0;
+      a1_[t] = step.a1;
+      if (n == 0) continue;
+      std::memcpy(dw0_.data() + t * n, step.dw0, n * sizeof(double));
+      if (separate_dw1_) std::memcpy(dw1_.data() + t * n, step.dw1, n * sizeof(double));
+    }
+  }
+
+  /// The step for these buffers.
+  template <typename Step>
+  void bind(Step& step, const std::vector<int>& variables) const {
+    step.width = width_;
+    step.rows = rows_;
+    std::fill(std::begin(step.row_of), std::end(step.row_of), -1);
+    for (int r = 0; r < rows_; ++r) step.row_of[variables[r]] = r;
+    step.dw0 = dw0_.data();
+    step.dw1 = separate_dw1_ ? dw1_.data() : dw0_.data();
+    step.a0 = a0_.data();
+    step.a1 = a1_.data();
+  }
+  const std::vector<int>& variables() const { return noise_.variables(); }
+
+ private:
+  ForcingNoise noise_;
+  int width_, rows_;
+  bool separate_dw1_;
+  std::vector<double> dw0_, dw1_;  // [kMaxSegment][rows][width]
+  std::vector<double> a0_, a1_;    // [kMaxSegment]
+};
+
+template <typename Equations, typename Step>
 class FusedKernel final : public Kernel {
   static constexpr int D = Equations::kDim;
 
  public:
-  FusedKernel(const Equations& eq, const Setup& s, const Accumulators& acc)
-      : eq_(eq), h_(s.dt), width_(s.width), acc_(acc),
+  /// With noise (Step::kNoisy) the kernel draws the noise of `members` (KernelMembers).
+  /// With a schedule (Step::kScheduled) it evaluates the parameter from `eq` at every stage.
+  FusedKernel(const Step& step, const Setup& s, const Accumulators& acc, KernelMembers members,
+              const Equations& eq)
+      : step_(step), width_(s.width), acc_(acc),
         regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
-        histogram_row_(acc.histogram ? s.histogram_observable : -1),
-        dt_(s.dt) {
+        histogram_row_(acc.histogram ? s.histogram_observable : -1) {
     if (acc.histogram) values_ = value_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
     samples_ = sample_scratch(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
-    if (s.schedule) {
-      slot_ = Equations::slot(s.schedule->parameter);
-      if (slot_ < 0) throw Error("the fused kernel cannot schedule " + s.schedule->parameter);
-      schedule_.emplace(*s.schedule, s.schedule_offset);
+    if constexpr (Step::kNoisy) {
+      noise_.emplace(s, members);
+      noise_->bind(step_, noise_->variables());
+    } else {
+      (void)members;
+    }
+    if constexpr (Step::kScheduled) {
+      stages_.emplace(s, eq);
+      step_.stages = stages_->data();
     }
   }
 
-  void set_step(std::int64_t step) override { step_ = step; }
+  void set_step(std::int64_t step) override { step_index_ = step; }
 
   void spin(double* x, int steps) override {
-    if (schedule_) {
-      stage_equations(steps);
-      spin_groups<true>(x, steps);
-    } else {
-      spin_groups<false>(x, steps);
+    for (int done = 0; done < steps;) {  // with noise: runs of at most kMaxSegment steps
+      const bool chunks = Step::kNoisy || Step::kScheduled;  // buffers of kMaxSegment steps
+      const int run = chunks ? std::min(kMaxSegment, steps - done) : steps;
+      take_noise(run);
+      int lane = 0;
+      for (; lane + kSpinGroup * L <= width_; lane += kSpinGroup * L) {
+        spin_group<kSpinGroup>(x, lane, run);
+      }
+      for (; lane + 2 * L <= width_; lane += 2 * L) spin_group<2>(x, lane, run);
+      for (; lane < width_; lane += L) spin_group<1>(x, lane, run);
+      done += run;
     }
-    step_ += steps;
   }
 
   void accumulate(double* x, int steps) override {
-    if (schedule_) {
-      stage_equations(steps);
-      accumulate_groups<true>(x, steps);
-    } else {
-      accumulate_groups<false>(x, steps);
-    }
-    step_ += steps;
-  }
-
- private:
-  template <bool Scheduled>
-  void spin_groups(double* x, int steps) {
-    int lane = 0;
-    for (; lane + kSpinGroup * L <= width_; lane += kSpinGroup * L) {
-      spin_group<kSpinGroup, Scheduled>(x, lane, steps);
-    }
-    for (; lane + 2 * L <= width_; lane += 2 * L) spin_group<2, Scheduled>(x, lane, steps);
-    for (; lane < width_; lane += L) spin_group<1, Scheduled>(x, lane, steps);
-  }
-
-  template <bool Scheduled>
-  void accumulate_groups(double* x, int steps) {
+    take_noise(steps);
     stats::TimeMoments& moments = *acc_.moments;
     const bool opens_block = moments.block_starts();
     const bool first = moments.count() == 0;
     int lane = 0;
     for (; lane + kAccumulateGroup * L <= width_; lane += kAccumulateGroup * L) {
-      accumulate_group<kAccumulateGroup, Scheduled>(x, lane, steps, opens_block, first);
+      accumulate_group<kAccumulateGroup>(x, lane, steps, opens_block, first);
     }
     for (; lane + 2 * L <= width_; lane += 2 * L) {
-      accumulate_group<2, Scheduled>(x, lane, steps, opens_block, first);
+      accumulate_group<2>(x, lane, steps, opens_block, first);
     }
-    for (; lane < width_; lane += L) {
-      accumulate_group<1, Scheduled>(x, lane, steps, opens_block, first);
-    }
+    for (; lane < width_; lane += L) accumulate_group<1>(x, lane, steps, opens_block, first);
     moments.added(steps);
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
     if (acc_.histogram) acc_.histogram->add_steps(values_, steps);
   }
 
-  /// The equations of every stage of the next `steps` steps (step_ onwards) under the schedule:
-  /// the parameter at t0, t0 + dt/2 and t1 of each step (step_times, Rk4Batch::stage_time), set
-  /// by Equations::set as the generic path's ScheduledParameter sets it in the model.
-  void stage_equations(int steps) {
-    if (static_cast<std::size_t>(steps) > stages_.size()) stages_.resize(static_cast<std::size_t>(steps));
-    for (int t = 0; t < steps; ++t) {
-      const StepTimes times = step_times(step_ + t, dt_);
-      Stages& e = stages_[static_cast<std::size_t>(t)];
-      e = {eq_, eq_, eq_};
-      e.start.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(1, times.t0, times.t1, dt_)));
-      e.middle.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(2, times.t0, times.t1, dt_)));
-      e.end.set(slot_, schedule_->at(integrators::Rk4Batch::stage_time(4, times.t0, times.t1, dt_)));
-    }
-  }
-
-  /// Step t of the G members' states of a group: the constant equations, or step t's stages.
-  template <int G, bool Scheduled>
-  void step_group(const Equations& eq, const integrators::Rk4Steps& h, int t,
-                  Lanes (&s)[G][D]) const {
-    for (int g = 0; g < G; ++g) {
-      if constexpr (Scheduled) {
-        const Stages& e = stages_[static_cast<std::size_t>(t)];
-        integrators::rk4_step<D>(e.start, e.middle, e.end, h, s[g]);
-      } else {
-        (void)t;
-        integrators::rk4_step<D>(eq, h, s[g]);
-      }
-    }
-  }
-
+ private:
   long row(int i) const { return static_cast<long>(i) * width_; }  // offset of state row i
+
+  /// With noise or a schedule: the noise or the stage equations of the next `steps` steps
+  /// into the step's buffers.
+  void take_noise(int steps) {
+    if constexpr (Step::kNoisy) noise_->take(step_index_, steps);
+    if constexpr (Step::kScheduled) stages_->take(step_index_, steps);
+    step_index_ += steps;
+  }
   template <int G>
   void load_state(const double* x, int lane, Lanes (&s)[G][D]) const {
     for (int g = 0; g < G; ++g) {
@@ -194,48 +344,39 @@ class FusedKernel final : public Kernel {
     }
   }
 
-  template <int G, bool Scheduled>
+  template <int G>
   void spin_group(double* x, int lane, int steps) const {
-    const Equations eq = eq_;
-    const integrators::Rk4Steps h = h_;
+    const Step step = step_;
     Lanes s[G][D];
     load_state(x, lane, s);
     for (int t = 0; t < steps; ++t) {
-      step_group<G, Scheduled>(eq, h, t, s);
+      for (int g = 0; g < G; ++g) step(t, lane + g * L, s[g]);
     }
     store_state(x, lane, s);
   }
 
-  template <int G, bool Scheduled>
+  template <int G>
   void accumulate_group(double* x, int lane, int steps, bool opens_block, bool first);
   template <int G>
   void fold_extremes(int lane, int steps) const;
 
-  Equations eq_;
-  integrators::Rk4Steps h_;
+  Step step_;
+  std::optional<SegmentNoise> noise_;  // with noise: the step's increments (bound to step_)
+  std::optional<ScheduledStages<Equations>> stages_;  // with a schedule (bound to step_)
+  std::int64_t step_index_ = 0;        // the next step's index
   int width_;
   Accumulators acc_;
   int regime_row_, histogram_row_;  // state rows, -1 when not used
   double* values_ = nullptr;  // [kMaxSegment][width]: the histogram observable per step
   Lanes* samples_ = nullptr;  // [kMaxSegment][G][D]: the group's state per step (scratch rows)
-  // a scheduled parameter (Setup::schedule): its slot in Equations, its values, the step count
-  struct Stages {
-    Equations start, middle, end;
-  };
-  std::optional<ParameterSchedule> schedule_;
-  int slot_ = -1;
-  double dt_;
-  std::int64_t step_ = 0;
-  std::vector<Stages> stages_;  // [steps of the current run]
 };
 
-template <typename Equations>
-template <int G, bool Scheduled>
-void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bool opens_block,
-                                              bool first) {
+template <typename Equations, typename Step>
+template <int G>
+void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int steps,
+                                                    bool opens_block, bool first) {
   // locals, so that stores through the row pointers cannot be taken to change them
-  const Equations eq = eq_;
-  const integrators::Rk4Steps h = h_;
+  const Step step = step_;
   const int regime_row = regime_row_, histogram_row = histogram_row_;
   double* const values = values_;
   const long w = width_;
@@ -256,7 +397,7 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
     if (regime_row >= 0) regime[g].begin(r, lane + g * L);
   }
   for (int t = 0; t < steps; ++t) {
-    step_group<G, Scheduled>(eq, h, t, s);
+    for (int g = 0; g < G; ++g) step(t, lane + g * L, s[g]);
     if (t == 0 && opens_block) {
       for (int g = 0; g < G; ++g) {
         for (int i = 0; i < D; ++i) {
@@ -289,9 +430,9 @@ void FusedKernel<Equations>::accumulate_group(double* x, int lane, int steps, bo
 
 // The segment's samples (samples_, [steps][G][D]) into the running extremes of the group:
 // the runs' extremes of every series side by side (independent chains), then merged.
-template <typename Equations>
+template <typename Equations, typename Step>
 template <int G>
-void FusedKernel<Equations>::fold_extremes(int lane, int steps) const {
+void FusedKernel<Equations, Step>::fold_extremes(int lane, int steps) const {
   const stats::Extremes::Rows e = acc_.extremes->rows();
   const std::int64_t first = acc_.extremes->count();
   const Lanes* const samples = samples_;
@@ -327,13 +468,52 @@ void FusedKernel<Equations>::fold_extremes(int lane, int steps) const {
 
 }  // namespace
 
-std::unique_ptr<Kernel> make_fused_kernel(const Setup& setup, const Accumulators& acc) {
-  if (setup.model_info && setup.model_info->fast_kernel == models::FastKernel::circulation) {
-    return std::make_unique<FusedKernel<models::Lorenz84Equations>>(
-        models::Lorenz84Equations::from(setup.parameters), setup, acc);
+namespace {
+
+template <bool Heun, bool Multiplicative>
+std::unique_ptr<Kernel> make_sde(const models::Lorenz63Equations& eq, const Setup& s,
+                                 const Accumulators& acc, KernelMembers members) {
+  using Step = SdeStep<models::Lorenz63Equations, Heun, Multiplicative>;
+  Step step{};
+  step.eq = eq;
+  step.dt = s.dt;
+  step.half = 0.5 * s.dt;
+  return std::make_unique<FusedKernel<models::Lorenz63Equations, Step>>(step, s, acc, members,
+                                                                          eq);
+}
+
+/// RK4 for the model's equations, with a scheduled parameter or without.
+template <typename Eq>
+std::unique_ptr<Kernel> make_rk4(const Setup& setup, const Accumulators& acc,
+                                 KernelMembers members) {
+  const Eq eq = Eq::from(setup.parameters);
+  const integrators::Rk4Steps h(setup.dt);
+  if (setup.schedule) {
+    return std::make_unique<FusedKernel<Eq, ScheduledRk4Step<Eq>>>(
+        ScheduledRk4Step<Eq>{h, nullptr}, setup, acc, members, eq);
   }
-  return std::make_unique<FusedKernel<models::Lorenz63Equations>>(
-      models::Lorenz63Equations::from(setup.parameters), setup, acc);
+  return std::make_unique<FusedKernel<Eq, Rk4Step<Eq>>>(Rk4Step<Eq>{eq, h}, setup, acc, members,
+                                                        eq);
+}
+
+}  // namespace
+
+std::unique_ptr<Kernel> make_fused_kernel(const Setup& setup, const Accumulators& acc,
+                                          KernelMembers members) {
+  if (setup.model_info && setup.model_info->fast_kernel == models::FastKernel::circulation) {
+    return make_rk4<models::Lorenz84Equations>(setup, acc, members);  // RK4 only (choose_kernel)
+  }
+  using Eq = models::Lorenz63Equations;
+  const Eq eq = Eq::from(setup.parameters);
+  if (setup.method == "rk4") return make_rk4<Eq>(setup, acc, members);
+  const bool heun = sde_method(setup) == integrators::SdeMethod::heun;
+  const bool multiplicative = sde_noise_form(setup) == integrators::NoiseForm::multiplicative;
+  if (heun) {
+    return multiplicative ? make_sde<true, true>(eq, setup, acc, members)
+                          : make_sde<true, false>(eq, setup, acc, members);
+  }
+  return multiplicative ? make_sde<false, true>(eq, setup, acc, members)
+                        : make_sde<false, false>(eq, setup, acc, members);
 }
 
 }  // namespace chaosweep::run

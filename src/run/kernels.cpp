@@ -216,18 +216,26 @@ bool is_state(const Setup& s, int observable) { return observable < s.state_dim;
 }  // namespace
 
 KernelKind choose_kernel(const Setup& s) {
-  if (s.method != "rk4") return KernelKind::generic;
   if (s.width % integrators::kLanes != 0) return KernelKind::generic;
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
   const models::FastKernel fast = s.model_info ? s.model_info->fast_kernel : models::FastKernel::none;
   if (fast == models::FastKernel::ring) {  // the ring kernel evaluates a scheduled F per stage
     const bool scheduled_f = !s.schedule || s.schedule->parameter == "F";
-    return sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
+    const bool rk4 = s.method == "rk4";  // its stochastic steps are the generic path's
+    return rk4 && sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
   }
   if (fast != models::FastKernel::convection_loop && fast != models::FastKernel::circulation) {
     return KernelKind::generic;
-  }  // the fused kernel evaluates a scheduled parameter per stage time
+  }
+  // The fused kernel evaluates a scheduled model parameter at the RK4 stage times; under the
+  // stochastic schemes (the convection loop only) it takes a scheduled noise amplitude
+  // (ForcingNoise gives each step's amplitudes) but no schedule of a model parameter, which
+  // stays on the generic path (StochasticStepper: the parameter set at the scheme's times).
+  if (s.method != "rk4" &&
+      (schedules_model(s) || fast != models::FastKernel::convection_loop)) {
+    return KernelKind::generic;
+  }
   const bool observables = std::all_of(s.observables.begin(), s.observables.end(),
                                        [&](int i) { return is_state(s, i); });
   const bool regimes = s.regime_kind == spec::RegimeKind::none ||
@@ -253,7 +261,7 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
                                     const Accumulators& acc, KernelMembers members) {
   switch (s.kernel) {
     case KernelKind::fused:
-      return make_fused_kernel(s, acc);
+      return make_fused_kernel(s, acc, members);
     case KernelKind::ring:
       return make_ring_kernel(s, acc);
     case KernelKind::generic:

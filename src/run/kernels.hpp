@@ -3,17 +3,20 @@
 // Pure numerics: no MPI, no HDF5, no YAML, no logging.
 //
 // Three kernels, chosen once per case (choose_kernel) and giving bitwise the same numbers:
-//  - fused:   models with a small fixed state (lorenz63, lorenz84). RK4 and every
-//             accumulator update run member-parallel on Lanes (one SIMD register of members, 8
-//             with AVX-512: integrators/lanes.hpp), a few Lanes interleaved so the FMA
-//             pipelines stay busy, the state and the running sums held in registers for a
-//             whole segment. Moments are kept for every state variable.
-//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes, the
+//  - fused:   models with a small fixed state (lorenz63, lorenz84). RK4 (or, lorenz63 only,
+//             Euler-Maruyama or Heun on the increments of the batch's ForcingNoise,
+//             run/forcing_noise.hpp) and every accumulator update run member-parallel on Lanes
+//             (one SIMD register of members, 8 with AVX-512: integrators/lanes.hpp), a few
+//             Lanes interleaved so the FMA pipelines stay busy, the state and the running sums
+//             held in registers for a whole segment. Moments are kept for every state variable.
+//  - ring:    lorenz96 with RK4. RK4 stages fused into sweeps around the ring on Lanes, the
 //             accumulators fed as each site's new value comes out of the last sweep.
-//  - generic: any model. Rk4Batch (the model's batched rhs) and the generic per-step feed.
-// A scheduled (time-dependent) parameter is set at every RK4 stage time: the fused and ring
-// kernels evaluate it once per step for the whole batch and step with per-stage equations; the
-// generic kernel integrates the batch's own copy of the model and sets the parameter in it.
+//  - generic: any model. Rk4Batch or SdeBatch (the model's batched rhs) and the generic
+//             per-step feed.
+// A scheduled (time-dependent) model parameter is set at every stage time: under RK4 the fused
+// and ring kernels evaluate it once per step for the whole batch and step with per-stage
+// equations; under the stochastic schemes the generic kernel integrates the batch's own copy
+// of the model and sets the parameter in it.
 // The fused and ring kernels need a batch width that is a multiple of kLanes (every width the
 // spec allows, a multiple of 8, is). Every member of a batch sees the same operations whatever
 // its column, so results never depend on it.
@@ -35,8 +38,10 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: fused or ring when the model has one, the width is a multiple of kLanes and (fused) every observable, the regime coordinate and the histogram observable are state
-/// variables with sign or no regimes; generic otherwise.
+/// The kernel for a case: fused or ring (RK4 only) when the model has one, the width is a
+/// multiple of kLanes and (fused) every observable, the regime coordinate and the histogram
+/// observable are state variables with sign or no regimes, and no model parameter is scheduled
+/// under a stochastic scheme; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);
 
 /// The accumulators a kernel feeds (owned by the batch). Moments and extremes hold one series

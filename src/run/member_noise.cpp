@@ -3,6 +3,8 @@
 
 #include <cmath>
 
+#include "run/gaussian_lanes.hpp"
+
 namespace chaosweep::run {
 namespace {
 
@@ -45,43 +47,31 @@ double MemberNoise::gaussian(std::uint64_t i) const {
   return std::sqrt(-2.0 * std::log(u1)) * std::cos(kTwoPi * u2);
 }
 
-void MemberNoise::gaussian_pair(std::uint64_t j, double& c, double& s) const {
-  const double u1 = 1.0 - unit(bits(2 * j));
-  const double u2 = unit(bits(2 * j + 1));
-  const double r = std::sqrt(-2.0 * std::log(u1));
-  const double phase = kTwoPi * u2;
-  c = r * std::cos(phase);
-  s = r * std::sin(phase);
+WienerDraw wiener_draw(std::int64_t step, int noisy, int r) {
+  const std::uint64_t i = static_cast<std::uint64_t>(step) * static_cast<std::uint64_t>(noisy) +
+                          static_cast<std::uint64_t>(r);
+  return {i / 2, i % 2 == 1};
 }
 
-namespace {
-
-std::uint64_t pair_of(std::int64_t step, int variables, int v) {
-  const auto per_step = static_cast<std::uint64_t>((variables + 1) / 2);
-  return static_cast<std::uint64_t>(step) * per_step + static_cast<std::uint64_t>(v / 2);
-}
-
-}  // namespace
-
-double wiener_increment(const MemberNoise& stream, std::int64_t step, int variables, int v,
+double wiener_increment(const MemberNoise& stream, std::int64_t step, int noisy, int r,
                         double sqrt_dt) {
+  const WienerDraw d = wiener_draw(step, noisy, r);
   double c = 0.0, s = 0.0;
-  stream.gaussian_pair(pair_of(step, variables, v), c, s);
-  return sqrt_dt * (v % 2 == 0 ? c : s);
+  gaussian_pair(stream.key(), d.pair, c, s);
+  return sqrt_dt * (d.sine ? s : c);
 }
 
-void wiener_increments(const MemberNoise& stream, std::int64_t step, int variables,
-                       const std::vector<int>& noisy, double sqrt_dt, double* out,
-                       std::size_t stride) {
+void wiener_increments(const MemberNoise& stream, std::int64_t step, int noisy, double sqrt_dt,
+                       double* out, std::size_t stride) {
   std::uint64_t have = ~std::uint64_t{0};
   double c = 0.0, s = 0.0;
-  for (std::size_t r = 0; r < noisy.size(); ++r) {
-    const std::uint64_t pair = pair_of(step, variables, noisy[r]);
-    if (pair != have) {
-      stream.gaussian_pair(pair, c, s);
-      have = pair;
+  for (int r = 0; r < noisy; ++r) {
+    const WienerDraw d = wiener_draw(step, noisy, r);
+    if (d.pair != have) {
+      gaussian_pair(stream.key(), d.pair, c, s);
+      have = d.pair;
     }
-    out[r * stride] = sqrt_dt * (noisy[r] % 2 == 0 ? c : s);
+    out[static_cast<std::size_t>(r) * stride] = sqrt_dt * (d.sine ? s : c);
   }
 }
 

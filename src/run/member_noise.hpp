@@ -6,7 +6,6 @@
 
 #include <cstddef>
 #include <cstdint>
-#include <vector>
 
 namespace chaosweep::run {
 
@@ -33,26 +32,34 @@ class MemberNoise {
   /// Noise for state component i, standard normal (Box-Muller from draws 2i and 2i + 1).
   double gaussian(std::uint64_t i) const;
 
-  /// Two independent standard normals from draws 2j and 2j + 1: the cosine (c) and the sine
-  /// (s) branch of one Box-Muller pair (c is gaussian(j) up to the rounding of a joint sincos).
-  void gaussian_pair(std::uint64_t j, double& c, double& s) const;
+  /// The stream's key (the SplitMix64 start): the Wiener increments' draws are computed from
+  /// it kLanes streams at a time (run/gaussian_lanes.hpp).
+  std::uint64_t key() const { return key_; }
 
  private:
   std::uint64_t key_;
 };
 
-/// The Wiener increment, N(0, dt), of state variable v (of a state of `variables`) at step k
-/// of the stream: sqrt_dt times the cosine (v even) or sine (v odd) branch of the stream's
-/// Gaussian pair k * ceil(variables / 2) + v / 2, so that variables 2i and 2i + 1 share one
-/// pair. Keyed by the stream's (seed, case, member) and by (k, v) alone, so it is the same on
-/// any rank, in any batch and after any resume.
-double wiener_increment(const MemberNoise& stream, std::int64_t step, int variables, int v,
+/// Where the Wiener increment of noisy variable r (of `noisy` noisy variables, in the noise's
+/// order) at step k is drawn: draw index i = k * noisy + r of the stream, the cosine branch
+/// (i even) or the sine branch (i odd) of its Gaussian pair i / 2 (run/gaussian_lanes.hpp:
+/// Box-Muller from uniforms 2 pair and 2 pair + 1). Every value of every pair is used, also
+/// across steps when `noisy` is odd.
+struct WienerDraw {
+  std::uint64_t pair;
+  bool sine;
+};
+WienerDraw wiener_draw(std::int64_t step, int noisy, int r);
+
+/// The Wiener increment, N(0, dt), of noisy variable r at step k: sqrt_dt times its branch
+/// (wiener_draw). Keyed by the stream's (seed, case, member) and by (k, r) alone, so it is the
+/// same on any rank, in any batch and after any resume.
+double wiener_increment(const MemberNoise& stream, std::int64_t step, int noisy, int r,
                         double sqrt_dt);
 
-/// wiener_increment of every variable in `noisy` (ascending) at step k, out[r * stride] for
-/// noisy[r]; bitwise the same values, each Box-Muller pair computed once.
-void wiener_increments(const MemberNoise& stream, std::int64_t step, int variables,
-                       const std::vector<int>& noisy, double sqrt_dt, double* out,
-                       std::size_t stride);
+/// wiener_increment of every noisy variable r = 0 .. noisy - 1 at step k, out[r * stride];
+/// bitwise the same values, each Box-Muller pair computed once.
+void wiener_increments(const MemberNoise& stream, std::int64_t step, int noisy, double sqrt_dt,
+                       double* out, std::size_t stride);
 
 }  // namespace chaosweep::run

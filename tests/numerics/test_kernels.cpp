@@ -104,6 +104,8 @@ Campaign run_at_width(spec::Spec s, int width) {
   }
   setup.histogram = s.statistics.histogram;
   if (s.schedule.kind != spec::ScheduleKind::none) setup.schedule = s.schedule;
+  setup.method = s.integration.method;
+  setup.noise = s.noise;
   r.kernel = run::choose_kernel(setup);
   return r;
 }
@@ -120,6 +122,7 @@ struct Member {
   std::int64_t transitions;
   std::vector<double> stderr_, tau;
   std::vector<double> min, max, min_time, max_time;
+  std::vector<double> spread, horizon;  // twins (empty without)
 };
 Member member(const Campaign& r, int m) {
   const run::BatchResult& b = r.batches[m / r.plan.batch_size];
@@ -130,7 +133,11 @@ Member member(const Campaign& r, int m) {
           slice(b.trajectory, j, static_cast<std::size_t>(r.plan.trajectory_samples) * d),
           b.status[j], b.regime_transitions[j], slice(b.time_mean_stderr, j, o),
           slice(b.time_mean_tau, j, o), slice(b.extreme_min, j, o), slice(b.extreme_max, j, o),
-          slice(b.extreme_min_time, j, o), slice(b.extreme_max_time, j, o)};
+          slice(b.extreme_min_time, j, o), slice(b.extreme_max_time, j, o),
+          b.spread.empty() ? std::vector<double>{}
+                           : slice(b.spread, j, b.spread.size() / b.count),
+          b.horizon.empty() ? std::vector<double>{}
+                            : slice(b.horizon, j, b.horizon.size() / b.count)};
 }
 
 /// The histogram summed over every batch.
@@ -160,6 +167,8 @@ void expect_same_members(const Campaign& a, const Campaign& b, int members) {
     EXPECT_TRUE(bitwise_equal(x.max, y.max));
     EXPECT_TRUE(bitwise_equal(x.min_time, y.min_time));
     EXPECT_TRUE(bitwise_equal(x.max_time, y.max_time));
+    EXPECT_TRUE(bitwise_equal(x.spread, y.spread));
+    EXPECT_TRUE(bitwise_equal(x.horizon, y.horizon));
   }
   EXPECT_EQ(histogram(a), histogram(b));
 }
@@ -193,6 +202,85 @@ TEST(Kernels, FusedLorenz84EqualsGenericBitwise) {
     ASSERT_EQ(fused.kernel, run::KernelKind::fused);
     expect_same_members(fused, generic, 40);
   }
+}
+
+/// l63_spec under stochastic forcing: `method` with `kind` noise (amplitude 2, multiplicative
+/// 0.2; red with correlation time 0.05) on `variables`, per member or shared.
+spec::Spec noisy(spec::Spec s, const std::string& method, spec::NoiseKind kind,
+                 std::vector<int> variables, bool shared) {
+  s.integration.method = method;
+  s.noise.kind = kind;
+  s.noise.amplitude = kind == spec::NoiseKind::multiplicative ? 0.2 : 2.0;
+  if (kind == spec::NoiseKind::red) s.noise.correlation_time = 0.05;
+  const char* names[] = {"x", "y", "z"};
+  for (int v : variables) s.noise.variable_names.push_back(names[v]);
+  s.noise.variables = std::move(variables);
+  s.noise.shared = shared;
+  return s;
+}
+
+/// The noisy campaigns the fused kernel is checked on.
+std::vector<spec::Spec> noisy_specs() {
+  using K = spec::NoiseKind;
+  std::vector<spec::Spec> specs = {
+      noisy(l63_spec(), "heun", K::additive, {0, 1, 2}, false),
+      noisy(l63_spec(), "heun", K::additive, {2}, true),
+      noisy(l63_spec(), "euler-maruyama", K::additive, {0, 2}, false),
+      noisy(l63_spec(), "heun", K::multiplicative, {1, 2}, false),
+      noisy(l63_spec(), "euler-maruyama", K::multiplicative, {0, 1, 2}, true),
+      noisy(l63_spec(), "heun", K::red, {0, 1, 2}, false),
+      noisy(l63_spec(), "euler-maruyama", K::red, {1}, true),
+      noisy(l63_spec(), "heun", K::none, {}, false),
+      noisy(blow_up_spec(), "euler-maruyama", K::additive, {0, 1, 2}, false),
+  };
+  // twins (each twin draws its member's noise), and a scheduled noise amplitude
+  spec::Spec twins = noisy(l63_spec(), "heun", K::additive, {0, 1, 2}, false);
+  twins.statistics.twins = {true, 1e-6, 0.25, 0.5};
+  specs.push_back(twins);
+  spec::Spec scheduled = noisy(l63_spec(), "heun", K::red, {0, 2}, false);
+  scheduled.schedule.kind = spec::ScheduleKind::ramp;
+  scheduled.schedule.parameter = spec::kNoiseAmplitudeAxis;
+  scheduled.schedule.from = 0.5;
+  scheduled.schedule.to = 4.0;
+  scheduled.schedule.start = 1.0;
+  scheduled.schedule.end = 5.0;
+  specs.push_back(scheduled);
+  return specs;
+}
+
+// Exact by design (fused_kernel.cpp, SdeStep): under stochastic forcing the fused kernel
+// performs SdeBatch::step's operations per member on ForcingNoise's increments, so Euler-Maruyama
+// and Heun with additive, multiplicative and red noise, per member or shared, on some or all
+// variables, without noise, with blown-up members, with twins and with a scheduled noise
+// amplitude give every member's numbers bitwise as the generic path does (width 21, odd) at
+// widths 8, 24 and 40 (every group of interleaved Lanes; 24 ends in a padded batch).
+TEST(Kernels, NoisyFusedLorenz63EqualsGenericBitwise) {
+  for (const spec::Spec& s : noisy_specs()) {
+    SCOPED_TRACE(s.integration.method + " " + spec::noise_kind_name(s.noise.kind) +
+                 (s.noise.shared ? " shared" : "") + (s.statistics.twins.enabled ? " twins" : "") +
+                 (s.schedule.kind != spec::ScheduleKind::none ? " scheduled" : ""));
+    const Campaign generic = run_at_width(s, 21);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    for (int width : {8, 24, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign fused = run_at_width(s, width);
+      ASSERT_EQ(fused.kernel, run::KernelKind::fused);
+      expect_same_members(fused, generic, 40);
+    }
+  }
+}
+
+// A schedule on a model parameter keeps noisy Lorenz-63 on the generic path (its value is set
+// at the scheme's stage times there); the noisy ring stays generic for now.
+TEST(Kernels, NoisyScheduledModelParameterTakesTheGenericPath) {
+  spec::Spec s = noisy(l63_spec(), "heun", spec::NoiseKind::additive, {0, 1, 2}, false);
+  s.schedule.kind = spec::ScheduleKind::ramp;
+  s.schedule.parameter = "forcing";
+  s.schedule.from = 1.0;
+  s.schedule.to = 3.0;
+  s.schedule.start = 0.0;
+  s.schedule.end = 5.0;
+  EXPECT_EQ(run_at_width(s, 8).kernel, run::KernelKind::generic);
 }
 
 // Exact by design (rk4_ring.hpp): the ring kernel performs Rk4Batch's operations per member;

@@ -9,10 +9,14 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <cstdint>
 #include <vector>
 
 #include "integrators/sde.hpp"
 #include "numerics_fixtures.hpp"
+#include "run/batch_work.hpp"
+#include "run/forcing_noise.hpp"
+#include "run/gaussian_lanes.hpp"
 #include "run/member_noise.hpp"
 
 namespace chaosweep::testing {
@@ -222,16 +226,19 @@ TEST(Sde, WienerIncrementsAreGaussianAndKeyed) {
             run::wiener_increment(stream, 5, 2, 0, 0.1));
 }
 
-// The batched draw gives the single draws bitwise; the two branches of a pair (variables 0 and
-// 1) are uncorrelated: their sample correlation within four standard errors of 0 (1/sqrt(n)).
+// The batched draw gives the single draws bitwise (4 noisy variables, and 3: a pair shared by
+// consecutive steps); the two branches of a pair (variables 0 and 1) are uncorrelated: their
+// sample correlation within four standard errors of 0 (1/sqrt(n)).
 TEST(Sde, BatchedIncrementsEqualSingleOnesAndPairBranchesAreUncorrelated) {
   const run::MemberNoise stream(5, 1, 2, 2);
-  const std::vector<int> noisy = {0, 1, 2, 4};
-  std::vector<double> out(noisy.size() * 3);
-  for (std::int64_t k = 0; k < 50; ++k) {
-    run::wiener_increments(stream, k, 5, noisy, 0.1, out.data() + 1, 3);
-    for (std::size_t r = 0; r < noisy.size(); ++r) {
-      EXPECT_EQ(out[1 + r * 3], run::wiener_increment(stream, k, 5, noisy[r], 0.1));
+  for (int noisy : {4, 3}) {
+    std::vector<double> out(static_cast<std::size_t>(noisy) * 3);
+    for (std::int64_t k = 0; k < 50; ++k) {
+      run::wiener_increments(stream, k, noisy, 0.1, out.data() + 1, 3);
+      for (int r = 0; r < noisy; ++r) {
+        EXPECT_EQ(out[1 + static_cast<std::size_t>(r) * 3],
+                  run::wiener_increment(stream, k, noisy, r, 0.1));
+      }
     }
   }
   const int n = 200000;
@@ -240,6 +247,87 @@ TEST(Sde, BatchedIncrementsEqualSingleOnesAndPairBranchesAreUncorrelated) {
     sxy += run::wiener_increment(stream, k, 2, 0, 1.0) * run::wiener_increment(stream, k, 2, 1, 1.0);
   }
   EXPECT_NEAR(sxy / n, 0.0, 4.0 / std::sqrt(static_cast<double>(n)));
+}
+
+// Exact by design: a batch's forcing (ForcingNoise, which draws whole rows of members and
+// carries a pair's second branch to the next step) gives every column the keyed increment
+// wiener_increment(stream (seed, key case, member, 2), step, noisy, r) bitwise, whether the
+// steps come in order or jump (a resume, a twin's run); padding columns draw the first
+// member's noise, a shared realisation member -1's. Three noisy variables of five (odd: pairs
+// straddle steps), width 12 (not a multiple of a register).
+TEST(Sde, ForcingNoiseGivesTheKeyedIncrementsInAnyOrder) {
+  for (bool shared : {false, true}) {
+    run::Setup s;
+    s.method = "heun";
+    s.state_dim = 5;
+    s.width = 12;
+    s.dt = 0.01;
+    s.seed = 9;
+    s.key_case = 4;
+    s.noise.kind = spec::NoiseKind::additive;
+    s.noise.amplitude = 1.5;
+    s.noise.variables = {0, 2, 3};
+    s.noise.shared = shared;
+    run::ForcingNoise forcing(s, s.width, {100, 10});
+    for (std::int64_t step : {0, 1, 2, 3, 7, 8, 3, 4, 0, 5}) {
+      const integrators::StepNoise noise = forcing.at(step);
+      EXPECT_EQ(noise.a0, 1.5);
+      for (int m = 0; m < s.width; ++m) {
+        const std::int64_t member = shared ? -1 : 100 + (m < 10 ? m : 0);
+        const run::MemberNoise stream(9, 4, member, 2);
+        for (int r = 0; r < 3; ++r) {
+          EXPECT_EQ(noise.dw0[r * s.width + m], run::wiener_increment(stream, step, 3, r, std::sqrt(s.dt)))
+              << "step " << step << " column " << m << " row " << r;
+        }
+      }
+    }
+  }
+}
+
+// The vectorised Box-Muller pair (run/gaussian_lanes.hpp) against the same formula evaluated
+// in long double (x87, 64-bit significand) with the C library's logl, cosl and sinl on the same
+// uniforms, u1 = 1 - (bits(2j) >> 11) 2^-53 and u2 = (bits(2j + 1) >> 11) 2^-53 (Box and
+// Muller 1958): the reference is exact to about 2^-63 relative, so the difference is the
+// vectorised pair's own error. Tolerance: a few ulp (2^-52 = 2.2e-16) of r (up to 8.6) for the
+// log's and square root's rounding, plus a few ulp of 1 for the sine and cosine.
+TEST(Sde, BoxMullerPairsAgreeWithTheCLibrary) {
+  for (std::uint64_t k = 0; k < 4000; ++k) {
+    const run::MemberNoise stream(11, static_cast<std::int64_t>(k % 7), static_cast<std::int64_t>(k), 2);
+    for (std::uint64_t j = 0; j < 25; ++j) {
+      const double u1 = 1.0 - static_cast<double>(stream.bits(2 * j) >> 11) / 9007199254740992.0;
+      const double u2 = static_cast<double>(stream.bits(2 * j + 1) >> 11) / 9007199254740992.0;
+      const long double r_ref = std::sqrt(-2.0L * std::log(static_cast<long double>(u1)));
+      const long double phase = 6.283185307179586476925286766559L * static_cast<long double>(u2);
+      const double c_ref = static_cast<double>(r_ref * std::cos(phase));
+      const double s_ref = static_cast<double>(r_ref * std::sin(phase));
+      const double r = static_cast<double>(r_ref);
+      double c = 0.0, s = 0.0;
+      run::gaussian_pair(stream.key(), j, c, s);
+      const double tol = 6.7e-16 * (r + 1.0);  // 3 ulp
+      ASSERT_NEAR(c, c_ref, tol) << "key " << k << " pair " << j;
+      ASSERT_NEAR(s, s_ref, tol) << "key " << k << " pair " << j;
+    }
+  }
+}
+
+// Each lane's pair depends only on its own key and counter (element-wise by design): rows of
+// every length 1 .. 3 kLanes + 1, at any offset, equal the one-lane draws bitwise, and a scale
+// multiplies each value once.
+TEST(Sde, GaussianRowsEqualSingleDrawsBitwise) {
+  std::vector<std::uint64_t> keys;
+  for (int m = 0; m < 40; ++m) keys.push_back(run::MemberNoise(3, 1, m, 2).key());
+  for (int n = 1; n <= 3 * integrators::kLanes + 1; ++n) {
+    for (int first : {0, 1, 5}) {
+      std::vector<double> c(static_cast<std::size_t>(n)), s(static_cast<std::size_t>(n));
+      run::gaussian_row(keys.data() + first, n, 17, 0.25, c.data(), s.data());
+      for (int m = 0; m < n; ++m) {
+        double c1 = 0.0, s1 = 0.0;
+        run::gaussian_pair(keys[static_cast<std::size_t>(first + m)], 17, c1, s1);
+        EXPECT_EQ(c[static_cast<std::size_t>(m)], 0.25 * c1);
+        EXPECT_EQ(s[static_cast<std::size_t>(m)], 0.25 * s1);
+      }
+    }
+  }
 }
 
 }  // namespace
