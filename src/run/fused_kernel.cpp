@@ -85,13 +85,14 @@ double* value_scratch(std::size_t n) {
   return rows.data();
 }
 
-/// One RK4 step of one Lanes (the segment's step t and the column are not needed).
+/// One RK4 step of one Lanes (the segment's step t and the column are not needed). The steps
+/// are inlined into the group loops (left to the compiler, RK4 ran at 0.75 of its rate).
 template <typename Equations>
 struct Rk4Step {
   static constexpr bool kNoisy = false;
   Equations eq;
   integrators::Rk4Steps h;
-  void operator()(int, long, Lanes (&x)[Equations::kDim]) const {
+  [[gnu::always_inline]] void operator()(int, long, Lanes (&x)[Equations::kDim]) const {
     integrators::rk4_step<Equations::kDim>(eq, h, x);
   }
 };
