@@ -62,11 +62,12 @@ inline Keys<G> mix64(Keys<G> z) {
 }
 
 /// The top 53 bits of draw j of each lane's stream, mix64(key + (j + 1) golden) >> 11: the
-/// uniform (bits) 2^-53 in [0, 1).
+/// uniform (bits) 2^-53 in [0, 1). The counter j is the same for every lane.
 template <int G>
-inline Ints<G> top_bits(const Keys<G>& key, KeyLanes j) {
+inline Ints<G> top_bits(const Keys<G>& key, std::uint64_t j) {
+  const std::uint64_t offset = (j + 1) * kGolden;
   Keys<G> bits;
-  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + (j + 1) * kGolden;
+  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + offset;
   bits = mix64(bits);
   Ints<G> k;
   for (int g = 0; g < G; ++g) k.v[g] = __builtin_convertvector(bits.v[g] >> 11, LaneInts);
@@ -173,9 +174,9 @@ inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
 
 /// The pairs of G registers of streams: c and s the two branches, scale r cos and scale r sin.
 template <int G>
-inline void pairs(const Keys<G>& key, KeyLanes pair, double scale, Doubles<G>& c,
+inline void pairs(const Keys<G>& key, std::uint64_t pair, double scale, Doubles<G>& c,
                   Doubles<G>& s) {
-  const KeyLanes j = 2 * pair;
+  const std::uint64_t j = 2 * pair;
   const Doubles<G> r = box_muller_radius(top_bits(key, j), scale);
   Doubles<G> cos_u, sin_u;
   sincos_turn(top_bits(key, j + 1), cos_u, sin_u);
@@ -196,7 +197,7 @@ inline void row_block(const std::uint64_t* keys, int lanes, std::uint64_t pair, 
     std::memcpy(&key.v[g], keys + g * L, static_cast<std::size_t>(n) * sizeof(std::uint64_t));
   }
   Doubles<G> cl, sl;
-  pairs<G>(key, KeyLanes{} + pair, scale, cl, sl);
+  pairs<G>(key, pair, scale, cl, sl);
   for (int g = 0; g < G; ++g) {
     const int n = lanes - g * L < L ? lanes - g * L : L;
     if (c) std::memcpy(c + g * L, &cl.v[g], static_cast<std::size_t>(n) * sizeof(double));
@@ -219,18 +220,11 @@ void row(const std::uint64_t* keys, int n, std::uint64_t pair, double scale, dou
 
 }  // namespace
 
-void gaussian_pairs(KeyLanes key, KeyLanes pair, double scale, Lanes& c, Lanes& s) {
-  Doubles<1> cl, sl;
-  pairs<1>(Keys<1>{{key}}, pair, scale, cl, sl);
-  c = cl.v[0];
-  s = sl.v[0];
-}
-
 void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& c, double& s) {
-  Lanes cl, sl;
-  gaussian_pairs(KeyLanes{} + key, KeyLanes{} + pair, scale, cl, sl);
-  c = cl[0];
-  s = sl[0];
+  Doubles<1> cl, sl;
+  pairs<1>(Keys<1>{{KeyLanes{} + key}}, pair, scale, cl, sl);
+  c = cl.v[0][0];
+  s = sl.v[0][0];
 }
 
 void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s) {

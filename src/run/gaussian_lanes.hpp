@@ -24,13 +24,9 @@ namespace chaosweep::run {
 using KeyLanes =
     std::uint64_t __attribute__((vector_size(integrators::kLanes * sizeof(std::uint64_t))));
 
-/// The Box-Muller pair `pair` of each lane's stream `key` times `scale`: the cosine branch
+/// The Box-Muller pair `pair` of the stream `key` times `scale`: the cosine branch
 /// (scale r) cos(2 pi u2) in c, the sine branch (scale r) sin(2 pi u2) in s, each a normal of
-/// standard deviation scale, the two independent.
-void gaussian_pairs(KeyLanes key, KeyLanes pair, double scale, integrators::Lanes& c,
-                    integrators::Lanes& s);
-
-/// One lane's worth: gaussian_pairs for a single (key, pair), bitwise any lane's result.
+/// standard deviation scale, the two independent; bitwise what any lane of gaussian_row gives.
 void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& c, double& s);
 
 /// The pair from the uniforms' 53-bit integers directly (u1 = 1 - k1 2^-53, u2 = k2 2^-53,
@@ -39,7 +35,7 @@ void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& 
 void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s);
 
 /// The pair `pair` of n streams (keys[0 .. n-1]) times `scale` into c[m] and s[m] (either
-/// output may be null: not wanted). Bitwise gaussian_pairs' lanes.
+/// output may be null: not wanted), kLanes streams at a time.
 void gaussian_row(const std::uint64_t* keys, int n, std::uint64_t pair, double scale, double* c,
                   double* s);
 
