@@ -80,11 +80,25 @@ integrators::StepNoise ForcingNoise::at(std::int64_t step, double* dw0, double* 
 /// columns_ columns): wiener_increments' values, a Box-Muller pair at a time for every column
 /// (run/gaussian_lanes.hpp). A pair shared with the next step (an odd number of noisy
 /// variables) keeps its sine branch for it, so steps drawn in order compute each pair once.
+/// A shared realisation (one stream) computes the step's pairs side by side instead.
 void ForcingNoise::draw(std::int64_t step, double scale, double* out) {
   const int rows = static_cast<int>(variables_.size());
   if (rows == 0) return;
   const std::size_t stride = static_cast<std::size_t>(width_);
   const auto row = [&](int r) { return out + static_cast<std::size_t>(r) * stride; };
+  if (columns_ == 1) {  // a shared realisation: the step's pairs of the one stream side by side
+    const std::uint64_t first = wiener_draw(step, rows, 0).pair;
+    const int count = static_cast<int>(wiener_draw(step, rows, rows - 1).pair - first) + 1;
+    stream_c_.resize(static_cast<std::size_t>(count));
+    stream_s_.resize(static_cast<std::size_t>(count));
+    gaussian_stream(keys_[0], first, count, scale, stream_c_.data(), stream_s_.data());
+    for (int v = 0; v < rows; ++v) {
+      const WienerDraw d = wiener_draw(step, rows, v);
+      const std::size_t i = static_cast<std::size_t>(d.pair - first);
+      row(v)[0] = d.sine ? stream_s_[i] : stream_c_[i];
+    }
+    return;
+  }
   if (carried_.empty()) carried_.assign(static_cast<std::size_t>(columns_), 0.0);
   int r = 0;
   if (wiener_draw(step, rows, 0).sine) {  // row 0 is the sine branch of the previous step's pair

@@ -69,6 +69,7 @@ class ForcingNoise {
   std::vector<double> carried_;
   std::uint64_t carried_pair_ = ~std::uint64_t{0};
   double carried_scale_ = 0.0;
+  std::vector<double> stream_c_, stream_s_;  // a shared realisation: the step's pairs' branches
   std::optional<ParameterSchedule> amplitude_schedule_;
   std::vector<double> dw_;                 // [variables][width]: the step's dw0
   std::vector<double> eta_, draws_, dw1_;  // red: [variables][width]

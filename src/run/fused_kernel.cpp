@@ -36,6 +36,7 @@
 #include "run/batch_work.hpp"
 #include "run/forcing_noise.hpp"
 #include "run/lane_regimes.hpp"
+#include "run/segment_noise.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -157,55 +158,6 @@ struct SdeStep {
   }
 };
 
-/// The segment's stochastic forcing for SdeStep, written by the batch's ForcingNoise step by
-/// step (so every path draws the same increments) straight into [steps][rows][width] rows,
-/// the amplitudes per step.
-class SegmentNoise {
- public:
-  SegmentNoise(const Setup& s, KernelMembers members)
-      : noise_(s, s.width, members),
-        width_(s.width),
-        rows_(static_cast<int>(noise_.variables().size())),
-        red_(s.noise.kind == spec::NoiseKind::red),
-        dw0_(static_cast<std::size_t>(kMaxSegment) * rows_ * s.width),
-        dw1_(red_ ? dw0_.size() : 0),
-        a0_(kMaxSegment),
-        a1_(kMaxSegment) {}
-
-  /// The noise of steps first .. first + steps - 1 (steps <= kMaxSegment).
-  void take(std::int64_t first, int steps) {
-    const std::size_t n = static_cast<std::size_t>(rows_) * width_;
-    for (int t = 0; t < steps; ++t) {
-      const std::size_t at = static_cast<std::size_t>(t) * n;
-      const integrators::StepNoise step =
-          noise_.at(first + t, dw0_.data() + at, red_ ? dw1_.data() + at : nullptr);
-      a0_[t] = step.a0;
-      a1_[t] = step.a1;
-    }
-  }
-
-  /// The step for these buffers.
-  template <typename Step>
-  void bind(Step& step, const std::vector<int>& variables) const {
-    step.width = width_;
-    step.rows = rows_;
-    std::fill(std::begin(step.row_of), std::end(step.row_of), -1);
-    for (int r = 0; r < rows_; ++r) step.row_of[variables[r]] = r;
-    step.dw0 = dw0_.data();
-    step.dw1 = red_ ? dw1_.data() : dw0_.data();  // white noise: dw1 = dw0
-    step.a0 = a0_.data();
-    step.a1 = a1_.data();
-  }
-  const std::vector<int>& variables() const { return noise_.variables(); }
-
- private:
-  ForcingNoise noise_;
-  int width_, rows_;
-  bool red_;
-  std::vector<double> dw0_, dw1_;  // [kMaxSegment][rows][width] (dw1: red noise only)
-  std::vector<double> a0_, a1_;    // [kMaxSegment]
-};
-
 template <typename Equations, typename Step>
 class FusedKernel final : public Kernel {
   static constexpr int D = Equations::kDim;
@@ -219,8 +171,15 @@ class FusedKernel final : public Kernel {
     if (acc.histogram) values_ = value_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
     samples_ = sample_scratch(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
     if constexpr (Step::kNoisy) {
-      noise_.emplace(s, members);
-      noise_->bind(step_, noise_->variables());
+      const SegmentNoise& noise = noise_.emplace(s, members);
+      step_.width = s.width;
+      step_.rows = noise.rows();
+      std::fill(std::begin(step_.row_of), std::end(step_.row_of), -1);
+      for (int r = 0; r < noise.rows(); ++r) step_.row_of[noise.variables()[r]] = r;
+      step_.dw0 = noise.dw0();
+      step_.dw1 = noise.dw1();
+      step_.a0 = noise.a0();
+      step_.a1 = noise.a1();
     } else {
       (void)members;
     }

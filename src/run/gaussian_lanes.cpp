@@ -61,13 +61,18 @@ inline Keys<G> mix64(Keys<G> z) {
   return z;
 }
 
-/// The top 53 bits of draw j of each lane's stream, mix64(key + (j + 1) golden) >> 11: the
-/// uniform (bits) 2^-53 in [0, 1). The counter j is the same for every lane.
+/// The counter offset (j + 1) golden of register g: one for every lane (a scalar counter) or
+/// one per lane (a register of counters per g).
+inline std::uint64_t offset(std::uint64_t j, int) { return (j + 1) * kGolden; }
 template <int G>
-inline Ints<G> top_bits(const Keys<G>& key, std::uint64_t j) {
-  const std::uint64_t offset = (j + 1) * kGolden;
+inline KeyLanes offset(const Keys<G>& j, int g) { return (j.v[g] + 1) * kGolden; }
+
+/// The top 53 bits of draw j of each lane's stream, mix64(key + (j + 1) golden) >> 11: the
+/// uniform (bits) 2^-53 in [0, 1). J: one counter for every lane, or Keys<G> of counters.
+template <int G, typename J>
+inline Ints<G> top_bits(const Keys<G>& key, const J& j) {
   Keys<G> bits;
-  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + offset;
+  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + offset(j, g);
   bits = mix64(bits);
   Ints<G> k;
   for (int g = 0; g < G; ++g) k.v[g] = __builtin_convertvector(bits.v[g] >> 11, LaneInts);
@@ -173,13 +178,27 @@ inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
 }
 
 /// The pairs of G registers of streams: c and s the two branches, scale r cos and scale r sin.
+/// P: one pair index for every lane, or Keys<G> of pair indices.
+inline std::uint64_t first_draw(std::uint64_t pair) { return 2 * pair; }
 template <int G>
-inline void pairs(const Keys<G>& key, std::uint64_t pair, double scale, Doubles<G>& c,
+inline Keys<G> first_draw(Keys<G> pair) {
+  for (int g = 0; g < G; ++g) pair.v[g] = 2 * pair.v[g];
+  return pair;
+}
+inline std::uint64_t second_draw(std::uint64_t j) { return j + 1; }
+template <int G>
+inline Keys<G> second_draw(Keys<G> j) {
+  for (int g = 0; g < G; ++g) j.v[g] = j.v[g] + 1;
+  return j;
+}
+
+template <int G, typename P>
+inline void pairs(const Keys<G>& key, const P& pair, double scale, Doubles<G>& c,
                   Doubles<G>& s) {
-  const std::uint64_t j = 2 * pair;
+  const P j = first_draw(pair);
   const Doubles<G> r = box_muller_radius(top_bits(key, j), scale);
   Doubles<G> cos_u, sin_u;
-  sincos_turn(top_bits(key, j + 1), cos_u, sin_u);
+  sincos_turn(top_bits(key, second_draw(j)), cos_u, sin_u);
   for (int g = 0; g < G; ++g) {
     c.v[g] = r.v[g] * cos_u.v[g];
     s.v[g] = r.v[g] * sin_u.v[g];
@@ -225,6 +244,20 @@ void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& 
   pairs<1>(Keys<1>{{KeyLanes{} + key}}, pair, scale, cl, sl);
   c = cl.v[0][0];
   s = sl.v[0][0];
+}
+
+void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, double scale,
+                     double* c, double* s) {
+  const Keys<1> k{{KeyLanes{} + key}};
+  for (int i = 0; i < count; i += L) {
+    Keys<1> pair;
+    for (int l = 0; l < L; ++l) pair.v[0][l] = first_pair + static_cast<std::uint64_t>(i + l);
+    Doubles<1> cl, sl;
+    pairs<1>(k, pair, scale, cl, sl);
+    const int n = count - i < L ? count - i : L;
+    std::memcpy(c + i, &cl.v[0], static_cast<std::size_t>(n) * sizeof(double));
+    std::memcpy(s + i, &sl.v[0], static_cast<std::size_t>(n) * sizeof(double));
+  }
 }
 
 void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s) {

@@ -29,6 +29,12 @@ using KeyLanes =
 /// standard deviation scale, the two independent; bitwise what any lane of gaussian_row gives.
 void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& c, double& s);
 
+/// The pairs first_pair .. first_pair + count - 1 of the one stream `key` times `scale` into
+/// c[i] and s[i] (a shared realisation's draws of a step), kLanes pairs at a time: bitwise
+/// gaussian_pair's values.
+void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, double scale,
+                     double* c, double* s);
+
 /// The pair from the uniforms' 53-bit integers directly (u1 = 1 - k1 2^-53, u2 = k2 2^-53,
 /// 0 <= k < 2^53), as every lane computes it after the stream's bits: for checks at chosen
 /// uniforms (the ends of the ranges, the quadrant boundaries).

@@ -9,9 +9,10 @@
 //             with AVX-512: integrators/lanes.hpp), a few Lanes interleaved so the FMA
 //             pipelines stay busy, the state and the running sums held in registers for a whole
 //             segment. Moments are kept for every state variable.
-//  - ring:    lorenz96 with RK4. RK4 stages fused into sweeps around the ring on Lanes, the
-//             accumulators fed as each site's new value comes out of the last sweep; a
-//             scheduled F evaluated per stage time for the whole batch.
+//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes (or Euler-Maruyama
+//             or Heun site by site on ForcingNoise's increments), the accumulators fed as each
+//             site's new value comes out of the last sweep; a scheduled F (RK4) evaluated per
+//             stage time for the whole batch.
 //  - generic: any model. Rk4Batch or SdeBatch (the model's batched rhs) and the generic
 //             per-step feed. The kernel for the other scheduled (time-dependent) model
 //             parameters, noisy Lorenz-63's included: it integrates the batch's own copy of the
@@ -38,7 +39,7 @@ struct Setup;
 enum class KernelKind { generic, fused, ring };
 
 /// The kernel for a case: generic with a schedule of a model parameter (the ring's kernel takes
-/// a scheduled F); otherwise fused or (RK4 only) ring when the model has one, the width is a
+/// a scheduled F under RK4); otherwise fused or ring when the model has one, the width is a
 /// multiple of kLanes and (fused) every observable, the regime coordinate and the histogram
 /// observable are state variables with sign or no regimes; generic otherwise.
 KernelKind choose_kernel(const Setup& setup);

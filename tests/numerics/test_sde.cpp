@@ -334,8 +334,8 @@ TEST(Sde, BoxMullerPairsAtTheEndsOfTheUniformRanges) {
 }
 
 // Each lane's pair depends only on its own key and counter (element-wise by design): rows of
-// every length 1 .. 3 kLanes + 1, at any offset, equal the one-lane draws bitwise, and a scale
-// multiplies each value once.
+// every length 1 .. 3 kLanes + 1, at any offset, equal the one-lane draws bitwise, and so do
+// runs of consecutive pairs of one stream (gaussian_stream, a shared realisation's draws).
 TEST(Sde, GaussianRowsEqualSingleDrawsBitwise) {
   std::vector<std::uint64_t> keys;
   for (int m = 0; m < 40; ++m) keys.push_back(run::MemberNoise(3, 1, m, 2).key());
@@ -348,6 +348,14 @@ TEST(Sde, GaussianRowsEqualSingleDrawsBitwise) {
         run::gaussian_pair(keys[static_cast<std::size_t>(first + m)], 17, 0.25, c1, s1);
         EXPECT_EQ(c[static_cast<std::size_t>(m)], c1);
         EXPECT_EQ(s[static_cast<std::size_t>(m)], s1);
+      }
+      run::gaussian_stream(keys[static_cast<std::size_t>(first)], 40 + first, n, 0.5, c.data(),
+                           s.data());
+      for (int i = 0; i < n; ++i) {
+        double c1 = 0.0, s1 = 0.0;
+        run::gaussian_pair(keys[static_cast<std::size_t>(first)], 40 + first + i, 0.5, c1, s1);
+        EXPECT_EQ(c[static_cast<std::size_t>(i)], c1);
+        EXPECT_EQ(s[static_cast<std::size_t>(i)], s1);
       }
     }
   }
