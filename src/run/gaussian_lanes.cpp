@@ -1,7 +1,8 @@
 // Box-Muller pairs on Lanes; see gaussian_lanes.hpp. Compiled with -ffp-contract=off and
-// -fno-math-errno (src/run/CMakeLists.txt): every a * b + c here is rounded twice, whatever the
-// compiler would fuse, so the bits do not depend on how a caller's loop is vectorised or
-// inlined.
+// -fno-math-errno (src/run/CMakeLists.txt): a multiply-add is fused only where fmadd() says so
+// and every other a * b + c is rounded twice, whatever the compiler would fuse, so the bits do
+// not depend on how a caller's loop is vectorised or inlined. fmadd() is one fused operation
+// with AVX2 + FMA and with AVX-512 alike, so those builds draw the same bits.
 #include "run/gaussian_lanes.hpp"
 
 #include <cstring>
