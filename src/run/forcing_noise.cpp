@@ -56,22 +56,22 @@ ForcingNoise::ForcingNoise(const Setup& s, int width, KernelMembers members)
   if (s.schedule && !schedules_model(s)) amplitude_schedule_.emplace(*s.schedule, s.schedule_offset);
 }
 
-integrators::StepNoise ForcingNoise::at(std::int64_t step) {
-  integrators::StepNoise noise{amplitude_, amplitude_, dw_.data(), dw_.data()};
+integrators::StepNoise ForcingNoise::at(std::int64_t step, double* dw0, double* dw1) {
+  integrators::StepNoise noise{amplitude_, amplitude_, dw0, dw0};
   if (amplitude_schedule_) {
     const StepTimes t = step_times(step, dt_);
     noise.a0 = amplitude_schedule_->at(t.t0);
     noise.a1 = amplitude_schedule_->at(t.t1);
   }
   if (red_) {
-    red_increments(step);
-    noise.dw1 = dw1_.data();
+    red_increments(step, dw0, dw1);
+    noise.dw1 = dw1;
   } else {
-    draw(step, sqrt_dt_, dw_.data());
+    draw(step, sqrt_dt_, dw0);
   }
   if (columns_ == 1) {  // a shared realisation: column 0's noise for every member
-    broadcast(dw_);
-    if (red_) broadcast(dw1_);
+    broadcast(dw0);
+    if (red_) broadcast(dw1);
   }
   return noise;
 }
@@ -80,11 +80,25 @@ integrators::StepNoise ForcingNoise::at(std::int64_t step) {
 /// columns_ columns): wiener_increments' values, a Box-Muller pair at a time for every column
 /// (run/gaussian_lanes.hpp). A pair shared with the next step (an odd number of noisy
 /// variables) keeps its sine branch for it, so steps drawn in order compute each pair once.
+/// A shared realisation (one stream) computes the step's pairs side by side instead.
 void ForcingNoise::draw(std::int64_t step, double scale, double* out) {
   const int rows = static_cast<int>(variables_.size());
   if (rows == 0) return;
   const std::size_t stride = static_cast<std::size_t>(width_);
   const auto row = [&](int r) { return out + static_cast<std::size_t>(r) * stride; };
+  if (columns_ == 1) {  // a shared realisation: the step's pairs of the one stream side by side
+    const std::uint64_t first = wiener_draw(step, rows, 0).pair;
+    const int count = static_cast<int>(wiener_draw(step, rows, rows - 1).pair - first) + 1;
+    stream_c_.resize(static_cast<std::size_t>(count));
+    stream_s_.resize(static_cast<std::size_t>(count));
+    gaussian_stream(keys_[0], first, count, scale, stream_c_.data(), stream_s_.data());
+    for (int v = 0; v < rows; ++v) {
+      const WienerDraw d = wiener_draw(step, rows, v);
+      const std::size_t i = static_cast<std::size_t>(d.pair - first);
+      row(v)[0] = d.sine ? stream_s_[i] : stream_c_[i];
+    }
+    return;
+  }
   if (carried_.empty()) carried_.assign(static_cast<std::size_t>(columns_), 0.0);
   int r = 0;
   if (wiener_draw(step, rows, 0).sine) {  // row 0 is the sine branch of the previous step's pair
@@ -108,10 +122,10 @@ void ForcingNoise::draw(std::int64_t step, double scale, double* out) {
 }
 
 /// Column 0 of every row copied to the others.
-void ForcingNoise::broadcast(std::vector<double>& rows) const {
+void ForcingNoise::broadcast(double* rows) const {
   const std::size_t stride = static_cast<std::size_t>(width_);
   for (std::size_t r = 0; r < variables_.size(); ++r) {
-    double* row = rows.data() + r * stride;
+    double* row = rows + r * stride;
     std::fill(row + 1, row + width_, row[0]);
   }
 }
@@ -128,18 +142,18 @@ void ForcingNoise::next_eta(std::int64_t step) {
   }
 }
 
-/// dw_ <- eta(step) dt, dw1_ <- eta(step + 1) dt; eta_ left at step + 1. Replays the draws
+/// dw0 <- eta(step) dt, dw1 <- eta(step + 1) dt; eta_ left at step + 1. Replays the draws
 /// from step 0 when eta_ is not at `step` (a new source, or a resume).
-void ForcingNoise::red_increments(std::int64_t step) {
+void ForcingNoise::red_increments(std::int64_t step, double* dw0, double* dw1) {
   if (eta_step_ < 0 || eta_step_ > step) {
     draw(0, 1.0, eta_.data());
     eta_step_ = 0;
   }
   while (eta_step_ < step) next_eta(++eta_step_);
   const std::size_t n = dw_.size();
-  for (std::size_t i = 0; i < n; ++i) dw_[i] = eta_[i] * dt_;
+  for (std::size_t i = 0; i < n; ++i) dw0[i] = eta_[i] * dt_;
   next_eta(++eta_step_);
-  for (std::size_t i = 0; i < n; ++i) dw1_[i] = eta_[i] * dt_;
+  for (std::size_t i = 0; i < n; ++i) dw1[i] = eta_[i] * dt_;
 }
 
 }  // namespace chaosweep::run

@@ -41,16 +41,20 @@ class ForcingNoise {
   ForcingNoise(const Setup& setup, int width, KernelMembers members);
 
   /// The noise of step n ([noisy variables][width] increments, valid until the next call).
-  integrators::StepNoise at(std::int64_t step);
+  integrators::StepNoise at(std::int64_t step) { return at(step, dw_.data(), dw1_.data()); }
+
+  /// The noise of step n written to dw0 and, for red noise, dw1 (each [noisy variables][width]),
+  /// which the result points to: the same values as at(step).
+  integrators::StepNoise at(std::int64_t step, double* dw0, double* dw1);
 
   /// The state indices of the noisy variables (empty without noise).
   const std::vector<int>& variables() const { return variables_; }
 
  private:
   void draw(std::int64_t step, double scale, double* out);
-  void broadcast(std::vector<double>& rows) const;
+  void broadcast(double* rows) const;
   void next_eta(std::int64_t step);
-  void red_increments(std::int64_t step);
+  void red_increments(std::int64_t step, double* dw0, double* dw1);
 
   std::vector<int> variables_;
   int state_dim_, width_;
@@ -65,6 +69,7 @@ class ForcingNoise {
   std::vector<double> carried_;
   std::uint64_t carried_pair_ = ~std::uint64_t{0};
   double carried_scale_ = 0.0;
+  std::vector<double> stream_c_, stream_s_;  // a shared realisation: the step's pairs' branches
   std::optional<ParameterSchedule> amplitude_schedule_;
   std::vector<double> dw_;                 // [variables][width]: the step's dw0
   std::vector<double> eta_, draws_, dw1_;  // red: [variables][width]

@@ -1,7 +1,8 @@
 // Box-Muller pairs on Lanes; see gaussian_lanes.hpp. Compiled with -ffp-contract=off and
-// -fno-math-errno (src/run/CMakeLists.txt): every a * b + c here is rounded twice, whatever the
-// compiler would fuse, so the bits do not depend on how a caller's loop is vectorised or
-// inlined.
+// -fno-math-errno (src/run/CMakeLists.txt): a multiply-add is fused only where fmadd() says so
+// and every other a * b + c is rounded twice, whatever the compiler would fuse, so the bits do
+// not depend on how a caller's loop is vectorised or inlined. fmadd() is one fused operation
+// with AVX2 + FMA and with AVX-512 alike, so those builds draw the same bits.
 #include "run/gaussian_lanes.hpp"
 
 #include <cstring>
@@ -61,19 +62,22 @@ inline Keys<G> mix64(Keys<G> z) {
   return z;
 }
 
-/// Draw j of each lane's stream as a double in [0, 1): the top 53 bits of
-/// mix64(key + (j + 1) golden) times 2^-53 (an exact conversion: < 2^53).
+/// The counter offset (j + 1) golden of register g: one for every lane (a scalar counter) or
+/// one per lane (a register of counters per g).
+inline std::uint64_t offset(std::uint64_t j, int) { return (j + 1) * kGolden; }
 template <int G>
-inline Doubles<G> unit(const Keys<G>& key, KeyLanes j) {
+inline KeyLanes offset(const Keys<G>& j, int g) { return (j.v[g] + 1) * kGolden; }
+
+/// The top 53 bits of draw j of each lane's stream, mix64(key + (j + 1) golden) >> 11: the
+/// uniform (bits) 2^-53 in [0, 1). J: one counter for every lane, or Keys<G> of counters.
+template <int G, typename J>
+inline Ints<G> top_bits(const Keys<G>& key, const J& j) {
   Keys<G> bits;
-  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + (j + 1) * kGolden;
+  for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + offset(j, g);
   bits = mix64(bits);
-  Doubles<G> u;
-  for (int g = 0; g < G; ++g) {
-    u.v[g] = __builtin_convertvector(__builtin_convertvector(bits.v[g] >> 11, LaneInts), Lanes) *
-             0x1p-53;
-  }
-  return u;
+  Ints<G> k;
+  for (int g = 0; g < G; ++g) k.v[g] = __builtin_convertvector(bits.v[g] >> 11, LaneInts);
+  return k;
 }
 
 /// Correctly rounded square root of every lane (the IEEE-754 operation; the translation unit
@@ -84,19 +88,22 @@ inline Lanes sqrt_lanes(Lanes v) {
   return r;
 }
 
-/// sqrt(-2 ln u) for u in [2^-53, 1] (normal numbers). u = 2^e m with m in [sqrt(1/2),
-/// sqrt(2)), f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s = 2 (s + s^3/3 + ...):
-/// |s| <= 3 - 2 sqrt(2) < 0.1716, so s^2 <= 0.0295 and the series stops after s^21/21, where
-/// the next term is below 2^-56 of the first. ln u = e ln2_hi + (e ln2_lo + ln m), with ln 2
-/// split so that e ln2_hi is exact for |e| < 2^11 (ln2_hi has 32 significant bits).
+/// scale sqrt(-2 ln u) for u = 1 - k 2^-53 in [2^-53, 1] (k < 2^53; exact). u = 2^e m with m
+/// in [sqrt(1/2), sqrt(2)), f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s
+/// = 2 s + 2 s z p(z) with z = s^2 <= (3 - 2 sqrt(2))^2 < 0.0295 and p the degree-6 Chebyshev
+/// interpolant of (atanh(s)/s - 1)/z on [0, 0.0295] (coefficients computed for this file in
+/// 40-digit arithmetic; interpolation error 1.6e-16 of p, so ln m is within about an ulp).
+/// -2 ln u = e (-2 ln2_hi) + (e (-2 ln2_lo) + (-2) ln m), with ln 2 split so that the first
+/// product is exact for |e| < 2^11 (ln2_hi has 32 significant bits; times -2 stays exact).
 template <int G>
-inline Doubles<G> box_muller_radius(const Doubles<G>& u) {
+inline Doubles<G> box_muller_radius(const Ints<G>& k, double scale) {
   constexpr double kLn2Hi = 6.93147180369123816490e-01;
   constexpr double kLn2Lo = 1.90821492927058770002e-10;
   constexpr double kSqrt2 = 1.41421356237309504880;
   Doubles<G> s, z, ed;
   for (int g = 0; g < G; ++g) {
-    const KeyLanes b = reinterpret_cast<KeyLanes>(u.v[g]);
+    const Lanes u = 1.0 - __builtin_convertvector(k.v[g], Lanes) * 0x1p-53;
+    const KeyLanes b = reinterpret_cast<KeyLanes>(u);
     LaneInts e = __builtin_convertvector(b >> 52, LaneInts) - 1023;
     Lanes m = reinterpret_cast<Lanes>((b & 0x000fffffffffffffULL) | 0x3ff0000000000000ULL);
     const LaneInts big = m > kSqrt2;  // -1 where m is in [sqrt 2, 2): halve it
@@ -108,62 +115,58 @@ inline Doubles<G> box_muller_radius(const Doubles<G>& u) {
     ed.v[g] = __builtin_convertvector(e, Lanes);
   }
   Doubles<G> p;
-  for (int g = 0; g < G; ++g) p.v[g] = Lanes{} + 1.0 / 21.0;
-  horner(p, z, 1.0 / 19.0);
-  horner(p, z, 1.0 / 17.0);
-  horner(p, z, 1.0 / 15.0);
-  horner(p, z, 1.0 / 13.0);
-  horner(p, z, 1.0 / 11.0);
-  horner(p, z, 1.0 / 9.0);
-  horner(p, z, 1.0 / 7.0);
-  horner(p, z, 1.0 / 5.0);
-  horner(p, z, 1.0 / 3.0);
+  for (int g = 0; g < G; ++g) p.v[g] = Lanes{} + 0.07308224842521703;
+  horner(p, z, 0.07665860800278021);
+  horner(p, z, 0.09091444562630861);
+  horner(p, z, 0.1111110556739754);
+  horner(p, z, 0.14285714312987743);
+  horner(p, z, 0.19999999999949752);
+  horner(p, z, 0.3333333333333335);
   Doubles<G> r;
   for (int g = 0; g < G; ++g) {
-    const Lanes two_s = 2.0 * s.v[g];
-    const Lanes ln_m = fmadd(two_s, z.v[g] * p.v[g], two_s);
-    const Lanes ln_u = fmadd(ed.v[g], Lanes{} + kLn2Hi, fmadd(ed.v[g], Lanes{} + kLn2Lo, ln_m));
-    r.v[g] = sqrt_lanes(-2.0 * ln_u);
+    const Lanes minus_four_s = -4.0 * s.v[g];
+    const Lanes ln_m = fmadd(minus_four_s, z.v[g] * p.v[g], minus_four_s);  // -2 ln m
+    const Lanes minus_two_ln_u = fmadd(ed.v[g], Lanes{} - 2.0 * kLn2Hi,
+                                       fmadd(ed.v[g], Lanes{} - 2.0 * kLn2Lo, ln_m));
+    r.v[g] = scale * sqrt_lanes(minus_two_ln_u);
   }
   return r;
 }
 
-/// cos(2 pi u) and sin(2 pi u) for u in [0, 1). q = round(4u), y = u - q/4 in
-/// [-1/8, 1/8] (both exact), theta = 2 pi y in [-pi/4, pi/4], where the Taylor series of sin
-/// to theta^17 and of cos to theta^18 leave terms below 2^-53 of the result; then the quadrant
-/// q mod 4 swaps and negates them (cos(q pi/2 + theta), sin(q pi/2 + theta)).
+/// cos(2 pi u) and sin(2 pi u) for u = k 2^-53 in [0, 1) (k < 2^53). q = round(4u)
+/// = (k + 2^50) >> 51 and y = u - q/4 = (k - q 2^51) 2^-53 in [-1/8, 1/8] (both exact),
+/// theta = 2 pi y in [-pi/4, pi/4] (2 pi 2^-53 times an integer: one rounding); there
+/// sin theta = theta + theta z q_s(z) and cos theta = 1 + z q_c(z), z = theta^2, with q_s and
+/// q_c the degree-5 and degree-6 Chebyshev interpolants of (sin(t)/t - 1)/z and
+/// (cos(t) - 1)/z on [0, (pi/4)^2] (computed for this file in 40-digit arithmetic;
+/// interpolation errors 2e-17 and 2e-19); then the quadrant q mod 4 swaps and negates them
+/// (cos(q pi/2 + theta), sin(q pi/2 + theta)).
 template <int G>
-inline void sincos_turn(const Doubles<G>& u, Doubles<G>& c, Doubles<G>& s) {
-  constexpr double kTwoPi = 6.283185307179586476925286766559;
+inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
+  constexpr double kTwoPiUlp = 6.283185307179586476925286766559 * 0x1p-53;  // exact scaling
   Doubles<G> t, z;
   Ints<G> quadrant;
   for (int g = 0; g < G; ++g) {
-    const LaneInts q = __builtin_convertvector(u.v[g] * 4.0 + 0.5, LaneInts);  // truncation: >= 0
-    const Lanes y = u.v[g] - __builtin_convertvector(q, Lanes) * 0.25;
-    t.v[g] = y * kTwoPi;
+    const LaneInts q = (k.v[g] + (std::int64_t{1} << 50)) >> 51;
+    t.v[g] = __builtin_convertvector(k.v[g] - (q << 51), Lanes) * kTwoPiUlp;
     z.v[g] = t.v[g] * t.v[g];
     quadrant.v[g] = q & 3;
   }
-  // cos t = 1 + z (-1/2! + z (1/4! - ...)), sin t = t + t z (-1/3! + z (1/5! - ...))
   Doubles<G> pc, ps;
-  for (int g = 0; g < G; ++g) pc.v[g] = Lanes{} - 1.0 / 6402373705728000.0;  // 1/18!
-  horner(pc, z, 1.0 / 20922789888000.0);                                    // 1/16!
-  horner(pc, z, -1.0 / 87178291200.0);                                      // 1/14!
-  horner(pc, z, 1.0 / 479001600.0);                                         // 1/12!
-  horner(pc, z, -1.0 / 3628800.0);                                          // 1/10!
-  horner(pc, z, 1.0 / 40320.0);                                             // 1/8!
-  horner(pc, z, -1.0 / 720.0);                                              // 1/6!
-  horner(pc, z, 1.0 / 24.0);                                                // 1/4!
-  horner(pc, z, -0.5);                                                      // 1/2!
+  for (int g = 0; g < G; ++g) pc.v[g] = Lanes{} - 1.1367998654022494e-11;
+  horner(pc, z, 2.0875886738047052e-09);
+  horner(pc, z, -2.7557315566341895e-07);
+  horner(pc, z, 2.480158729369346e-05);
+  horner(pc, z, -0.0013888888888880775);
+  horner(pc, z, 0.04166666666666664);
+  horner(pc, z, -0.5);
   horner(pc, z, 1.0);
-  for (int g = 0; g < G; ++g) ps.v[g] = Lanes{} + 1.0 / 355687428096000.0;  // 1/17!
-  horner(ps, z, -1.0 / 1307674368000.0);                                    // 1/15!
-  horner(ps, z, 1.0 / 6227020800.0);                                        // 1/13!
-  horner(ps, z, -1.0 / 39916800.0);                                         // 1/11!
-  horner(ps, z, 1.0 / 362880.0);                                            // 1/9!
-  horner(ps, z, -1.0 / 5040.0);                                             // 1/7!
-  horner(ps, z, 1.0 / 120.0);                                               // 1/5!
-  horner(ps, z, -1.0 / 6.0);                                                // 1/3!
+  for (int g = 0; g < G; ++g) ps.v[g] = Lanes{} + 1.5918129294866608e-10;
+  horner(ps, z, -2.5051131845003624e-08);
+  horner(ps, z, 2.755731610255244e-06);
+  horner(ps, z, -0.00019841269836758574);
+  horner(ps, z, 0.008333333333330948);
+  horner(ps, z, -0.16666666666666666);
   for (int g = 0; g < G; ++g) ps.v[g] = fmadd(t.v[g], z.v[g] * ps.v[g], t.v[g]);
   for (int g = 0; g < G; ++g) {
     const LaneInts swap = (quadrant.v[g] & 1) != 0;
@@ -175,20 +178,31 @@ inline void sincos_turn(const Doubles<G>& u, Doubles<G>& c, Doubles<G>& s) {
   }
 }
 
-/// The pairs of G registers of streams: c and s the two branches times `scale`.
+/// The pairs of G registers of streams: c and s the two branches, scale r cos and scale r sin.
+/// P: one pair index for every lane, or Keys<G> of pair indices.
+inline std::uint64_t first_draw(std::uint64_t pair) { return 2 * pair; }
 template <int G>
-inline void pairs(const Keys<G>& key, KeyLanes pair, double scale, Doubles<G>& c,
+inline Keys<G> first_draw(Keys<G> pair) {
+  for (int g = 0; g < G; ++g) pair.v[g] = 2 * pair.v[g];
+  return pair;
+}
+inline std::uint64_t second_draw(std::uint64_t j) { return j + 1; }
+template <int G>
+inline Keys<G> second_draw(Keys<G> j) {
+  for (int g = 0; g < G; ++g) j.v[g] = j.v[g] + 1;
+  return j;
+}
+
+template <int G, typename P>
+inline void pairs(const Keys<G>& key, const P& pair, double scale, Doubles<G>& c,
                   Doubles<G>& s) {
-  const KeyLanes j = 2 * pair;
-  Doubles<G> u1 = unit(key, j);
-  for (int g = 0; g < G; ++g) u1.v[g] = 1.0 - u1.v[g];
-  const Doubles<G> u2 = unit(key, j + 1);
-  const Doubles<G> r = box_muller_radius(u1);
+  const P j = first_draw(pair);
+  const Doubles<G> r = box_muller_radius(top_bits(key, j), scale);
   Doubles<G> cos_u, sin_u;
-  sincos_turn<G>(u2, cos_u, sin_u);
+  sincos_turn(top_bits(key, second_draw(j)), cos_u, sin_u);
   for (int g = 0; g < G; ++g) {
-    c.v[g] = scale * (r.v[g] * cos_u.v[g]);
-    s.v[g] = scale * (r.v[g] * sin_u.v[g]);
+    c.v[g] = r.v[g] * cos_u.v[g];
+    s.v[g] = r.v[g] * sin_u.v[g];
   }
 }
 
@@ -203,7 +217,7 @@ inline void row_block(const std::uint64_t* keys, int lanes, std::uint64_t pair, 
     std::memcpy(&key.v[g], keys + g * L, static_cast<std::size_t>(n) * sizeof(std::uint64_t));
   }
   Doubles<G> cl, sl;
-  pairs<G>(key, KeyLanes{} + pair, scale, cl, sl);
+  pairs<G>(key, pair, scale, cl, sl);
   for (int g = 0; g < G; ++g) {
     const int n = lanes - g * L < L ? lanes - g * L : L;
     if (c) std::memcpy(c + g * L, &cl.v[g], static_cast<std::size_t>(n) * sizeof(double));
@@ -226,18 +240,33 @@ void row(const std::uint64_t* keys, int n, std::uint64_t pair, double scale, dou
 
 }  // namespace
 
-void gaussian_pairs(KeyLanes key, KeyLanes pair, Lanes& c, Lanes& s) {
+void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& c, double& s) {
   Doubles<1> cl, sl;
-  pairs<1>(Keys<1>{{key}}, pair, 1.0, cl, sl);
-  c = cl.v[0];
-  s = sl.v[0];
+  pairs<1>(Keys<1>{{KeyLanes{} + key}}, pair, scale, cl, sl);
+  c = cl.v[0][0];
+  s = sl.v[0][0];
 }
 
-void gaussian_pair(std::uint64_t key, std::uint64_t pair, double& c, double& s) {
-  Lanes cl, sl;
-  gaussian_pairs(KeyLanes{} + key, KeyLanes{} + pair, cl, sl);
-  c = cl[0];
-  s = sl[0];
+void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, double scale,
+                     double* c, double* s) {
+  const Keys<1> k{{KeyLanes{} + key}};
+  for (int i = 0; i < count; i += L) {
+    Keys<1> pair;
+    for (int l = 0; l < L; ++l) pair.v[0][l] = first_pair + static_cast<std::uint64_t>(i + l);
+    Doubles<1> cl, sl;
+    pairs<1>(k, pair, scale, cl, sl);
+    const int n = count - i < L ? count - i : L;
+    std::memcpy(c + i, &cl.v[0], static_cast<std::size_t>(n) * sizeof(double));
+    std::memcpy(s + i, &sl.v[0], static_cast<std::size_t>(n) * sizeof(double));
+  }
+}
+
+void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s) {
+  const Doubles<1> r = box_muller_radius(Ints<1>{{LaneInts{} + k1}}, 1.0);
+  Doubles<1> cos_u, sin_u;
+  sincos_turn(Ints<1>{{LaneInts{} + k2}}, cos_u, sin_u);
+  c = (r.v[0] * cos_u.v[0])[0];
+  s = (r.v[0] * sin_u.v[0])[0];
 }
 
 void gaussian_row(const std::uint64_t* keys, int n, std::uint64_t pair, double scale, double* c,

@@ -8,9 +8,10 @@
 //   r = sqrt(-2 ln u1),   c = r cos(2 pi u2),   s = r sin(2 pi u2)
 // (G. E. P. Box and M. E. Muller (1958), Ann. Math. Statist. 29, 610). The logarithm, sine
 // and cosine are the project's own polynomial evaluations (gaussian_lanes.cpp), with every
-// operation element-wise and the translation unit compiled without floating-point
-// contraction, so a lane's result depends only on its own key and pair: bitwise the same in
-// any lane, at any batch width, in the fused kernels and in the generic path, on every rank.
+// operation element-wise, fused multiply-adds written out and the translation unit compiled
+// without floating-point contraction, so a lane's result depends only on its own key and pair:
+// bitwise the same in any lane, at any batch width, in the fused kernels and in the generic
+// path, on every rank.
 #pragma once
 
 #include <cstdint>
@@ -23,15 +24,24 @@ namespace chaosweep::run {
 using KeyLanes =
     std::uint64_t __attribute__((vector_size(integrators::kLanes * sizeof(std::uint64_t))));
 
-/// The Box-Muller pair `pair` of each lane's stream `key`: the cosine branch in c, the sine
-/// branch in s, each a standard normal, the two independent.
-void gaussian_pairs(KeyLanes key, KeyLanes pair, integrators::Lanes& c, integrators::Lanes& s);
+/// The Box-Muller pair `pair` of the stream `key` times `scale`: the cosine branch
+/// (scale r) cos(2 pi u2) in c, the sine branch (scale r) sin(2 pi u2) in s, each a normal of
+/// standard deviation scale, the two independent; bitwise what any lane of gaussian_row gives.
+void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& c, double& s);
 
-/// One lane's worth: gaussian_pairs for a single (key, pair), bitwise any lane's result.
-void gaussian_pair(std::uint64_t key, std::uint64_t pair, double& c, double& s);
+/// The pairs first_pair .. first_pair + count - 1 of the one stream `key` times `scale` into
+/// c[i] and s[i] (a shared realisation's draws of a step), kLanes pairs at a time: bitwise
+/// gaussian_pair's values.
+void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, double scale,
+                     double* c, double* s);
 
-/// The pair `pair` of n streams (keys[0 .. n-1]) times `scale`: c[m] = scale c_m and
-/// s[m] = scale s_m (either output may be null: not wanted). Bitwise gaussian_pairs' lanes.
+/// The pair from the uniforms' 53-bit integers directly (u1 = 1 - k1 2^-53, u2 = k2 2^-53,
+/// 0 <= k < 2^53), as every lane computes it after the stream's bits: for checks at chosen
+/// uniforms (the ends of the ranges, the quadrant boundaries).
+void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s);
+
+/// The pair `pair` of n streams (keys[0 .. n-1]) times `scale` into c[m] and s[m] (either
+/// output may be null: not wanted), kLanes streams at a time.
 void gaussian_row(const std::uint64_t* keys, int n, std::uint64_t pair, double scale, double* c,
                   double* s);
 

@@ -220,10 +220,12 @@ KernelKind choose_kernel(const Setup& s) {
   const bool sign_or_none = s.regime_kind == spec::RegimeKind::none ||
                             (s.regime_kind == spec::RegimeKind::sign && s.n_regimes == 2);
   const models::FastKernel fast = s.model_info ? s.model_info->fast_kernel : models::FastKernel::none;
-  if (fast == models::FastKernel::ring) {  // the ring kernel evaluates a scheduled F per stage
-    const bool scheduled_f = !s.schedule || s.schedule->parameter == "F";
-    const bool rk4 = s.method == "rk4";  // its stochastic steps are the generic path's
-    return rk4 && sign_or_none && scheduled_f ? KernelKind::ring : KernelKind::generic;
+  if (fast == models::FastKernel::ring) {
+    // RK4: the ring kernel evaluates a scheduled F per stage. The stochastic steps take a
+    // scheduled noise amplitude (ForcingNoise) but no schedule of F (generic path).
+    const bool scheduled_ok = s.method == "rk4" ? !s.schedule || s.schedule->parameter == "F"
+                                                : !schedules_model(s);
+    return sign_or_none && scheduled_ok ? KernelKind::ring : KernelKind::generic;
   }
   if (fast != models::FastKernel::convection_loop && fast != models::FastKernel::circulation) {
     return KernelKind::generic;
@@ -263,7 +265,7 @@ std::unique_ptr<Kernel> make_kernel(const Setup& s, const models::Model& model,
     case KernelKind::fused:
       return make_fused_kernel(s, acc, members);
     case KernelKind::ring:
-      return make_ring_kernel(s, acc);
+      return make_ring_kernel(s, acc, members);
     case KernelKind::generic:
       break;
   }

@@ -9,8 +9,9 @@
 //             (one SIMD register of members, 8 with AVX-512: integrators/lanes.hpp), a few
 //             Lanes interleaved so the FMA pipelines stay busy, the state and the running sums
 //             held in registers for a whole segment. Moments are kept for every state variable.
-//  - ring:    lorenz96 with RK4. RK4 stages fused into sweeps around the ring on Lanes, the
-//             accumulators fed as each site's new value comes out of the last sweep.
+//  - ring:    lorenz96. RK4 stages fused into sweeps around the ring on Lanes (or Euler-Maruyama
+//             or Heun site by site on ForcingNoise's increments), the accumulators fed as each
+//             site's new value comes out of the last sweep.
 //  - generic: any model. Rk4Batch or SdeBatch (the model's batched rhs) and the generic
 //             per-step feed.
 // A scheduled (time-dependent) model parameter is set at every stage time: under RK4 the fused
@@ -38,7 +39,7 @@ struct Setup;
 
 enum class KernelKind { generic, fused, ring };
 
-/// The kernel for a case: fused or ring (RK4 only) when the model has one, the width is a
+/// The kernel for a case: fused or ring when the model has one, the width is a
 /// multiple of kLanes and (fused) every observable, the regime coordinate and the histogram
 /// observable are state variables with sign or no regimes, and no model parameter is scheduled
 /// under a stochastic scheme; generic otherwise.

@@ -57,8 +57,8 @@ double wiener_increment(const MemberNoise& stream, std::int64_t step, int noisy,
                         double sqrt_dt) {
   const WienerDraw d = wiener_draw(step, noisy, r);
   double c = 0.0, s = 0.0;
-  gaussian_pair(stream.key(), d.pair, c, s);
-  return sqrt_dt * (d.sine ? s : c);
+  gaussian_pair(stream.key(), d.pair, sqrt_dt, c, s);
+  return d.sine ? s : c;
 }
 
 void wiener_increments(const MemberNoise& stream, std::int64_t step, int noisy, double sqrt_dt,
@@ -68,10 +68,10 @@ void wiener_increments(const MemberNoise& stream, std::int64_t step, int noisy, 
   for (int r = 0; r < noisy; ++r) {
     const WienerDraw d = wiener_draw(step, noisy, r);
     if (d.pair != have) {
-      gaussian_pair(stream.key(), d.pair, c, s);
+      gaussian_pair(stream.key(), d.pair, sqrt_dt, c, s);
       have = d.pair;
     }
-    out[static_cast<std::size_t>(r) * stride] = sqrt_dt * (d.sine ? s : c);
+    out[static_cast<std::size_t>(r) * stride] = d.sine ? s : c;
   }
 }
 

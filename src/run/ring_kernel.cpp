@@ -15,9 +15,13 @@
 //                           on each sample in order).
 // A scheduled F (spec `schedule`) is evaluated once per step for the whole batch at the stage
 // times t0, t0 + dt/2 and t1, the values the generic path sets before its stages.
+// Under stochastic forcing (integration.method euler-maruyama or heun) the step is sde_step():
+// integrators::SdeBatch::step's operations per member, site by site, on the increments of the
+// batch's own ForcingNoise (run/segment_noise.hpp), and the accumulators are fed as above.
 // The same operations per member as the generic path, which the tests check bit for bit.
 #include "run/ring_kernel.hpp"
 
+#include <algorithm>
 #include <cstdint>
 #include <optional>
 #include <vector>
@@ -26,8 +30,10 @@
 #include "integrators/rk4_ring.hpp"
 #include "models/lorenz96_equations.hpp"
 #include "run/batch_work.hpp"
+#include "run/forcing_noise.hpp"
 #include "run/lane_regimes.hpp"
 #include "run/schedule.hpp"
+#include "run/segment_noise.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -40,7 +46,7 @@ constexpr int L = integrators::kLanes;
 
 class RingKernel final : public Kernel {
  public:
-  RingKernel(const Setup& s, const Accumulators& acc)
+  RingKernel(const Setup& s, const Accumulators& acc, KernelMembers members)
       : eq_(models::Lorenz96Equations::from(s.parameters)),
         h_(s.dt),
         n_(eq_.n),
@@ -58,7 +64,15 @@ class RingKernel final : public Kernel {
         samples_(static_cast<std::size_t>(kMaxSegment) * s.observables.size()),
         dt_(s.dt),
         stages_(static_cast<std::size_t>(kMaxSegment)) {
-    if (s.schedule) schedule_.emplace(*s.schedule, s.schedule_offset);
+    if (schedules_model(s)) schedule_.emplace(*s.schedule, s.schedule_offset);
+    if (s.method != "rk4") {
+      const SegmentNoise& noise = noise_.emplace(s, members);
+      heun_ = sde_method(s) == integrators::SdeMethod::heun;
+      multiplicative_ = sde_noise_form(s) == integrators::NoiseForm::multiplicative;
+      sde_f_.resize(static_cast<std::size_t>(n_));
+      sde_p_.resize(static_cast<std::size_t>(n_));
+      (void)noise;
+    }
     for (std::size_t o = 0; o < s.observables.size(); ++o) {
       const int i = s.observables[o];
       if (i < n_) site_series_[i] = static_cast<int>(o);
@@ -71,16 +85,17 @@ class RingKernel final : public Kernel {
   void set_step(std::int64_t step) override { step_ = step; }
 
   void spin(double* x, int steps) override {
-    stage_equations(steps);
-    for (int lane = 0; lane < width_; lane += L) {
-      double* local = copy_in(x, lane);
-      for (int t = 0; t < steps; ++t) {
-        integrators::ring_rk4_step(stages_[t], h_, n_, local, L, scratch_.data(),
-                                   [](int, Lanes) {});
+    for (int done = 0; done < steps;) {  // with noise: runs of at most kMaxSegment steps
+      const int run = noise_ ? std::min(kMaxSegment, steps - done) : steps;
+      prepare(run);
+      for (int lane = 0; lane < width_; lane += L) {
+        double* local = copy_in(x, lane);
+        for (int t = 0; t < run; ++t) advance(t, lane, local, [](int, Lanes) {});
+        copy_out(x, lane);
       }
-      copy_out(x, lane);
+      step_ += run;
+      done += run;
     }
-    step_ += steps;
   }
 
   bool taps() const override { return true; }
@@ -91,7 +106,7 @@ class RingKernel final : public Kernel {
   }
 
   void accumulate(double* x, int steps) override {
-    stage_equations(steps);
+    prepare(steps);
     const bool opens_block = acc_.moments->block_starts();
     const bool first = acc_.moments->count() == 0;
     for (int lane = 0; lane < width_; lane += L) {
@@ -119,6 +134,84 @@ class RingKernel final : public Kernel {
       e.start.F = schedule_->at(integrators::Rk4Batch::stage_time(1, times.t0, times.t1, dt_));
       e.middle.F = schedule_->at(integrators::Rk4Batch::stage_time(2, times.t0, times.t1, dt_));
       e.end.F = schedule_->at(integrators::Rk4Batch::stage_time(4, times.t0, times.t1, dt_));
+    }
+  }
+
+  /// The next `steps` steps' equations (RK4) or noise (stochastic steps).
+  void prepare(int steps) {
+    if (noise_) {
+      noise_->take(step_, steps);
+    } else {
+      stage_equations(steps);
+    }
+  }
+
+  /// Step t of the run for the Lanes at `lane` whose state is `local` (state_): RK4 or the
+  /// stochastic step; on_site(k, v) gets each site's new value in site order.
+  template <typename OnSite>
+  void advance(int t, int lane, double* local, OnSite on_site) {
+    if (noise_) {
+      sde_step(t, lane, state_.data(), on_site);
+    } else {
+      integrators::ring_rk4_step(stages_[t], h_, n_, local, L, scratch_.data(), on_site);
+    }
+  }
+
+  /// One Euler-Maruyama or Heun step of the Lanes' sites x[0 .. n-1] in place, the operations
+  /// of SdeBatch::advance (integrators/sde.cpp) per member, with the noise of the run's step t:
+  ///   f_k = f(x)_k, p_k = x_k + dt f_k;  p_i += a0 dw0_i (multiplicative a0 x_i dw0_i)
+  ///   Euler-Maruyama: x = p.  Heun: g_k = (dt/2) (f_k + f(p)_k);  g_i += (a0/2) dw0_i, then
+  ///   g_i += (a1/2) dw1_i (multiplicative (a0/2) x_i dw0_i, (a1/2) p_i dw1_i);  x += g.
+  template <typename OnSite>
+  void sde_step(int t, int lane, Lanes* x, OnSite on_site) {
+    const models::Lorenz96Equations eq = eq_;
+    const int n = n_;
+    const double dt = h_.dt, half = h_.half;
+    const bool multiplicative = multiplicative_;
+    Lanes* const f = sde_f_.data();
+    Lanes* const p = sde_p_.data();
+    const SegmentNoise& noise = *noise_;
+    const int rows = noise.rows();
+    const int* const noisy = noise.variables().data();
+    const long w = width_;
+    const double* const dw0 = noise.dw0() + static_cast<long>(t) * rows * w + lane;
+    const double* const dw1 = noise.dw1() + static_cast<long>(t) * rows * w + lane;
+    const auto wrap = [n](int k) { return k < 0 ? k + n : (k >= n ? k - n : k); };
+    const auto term = [multiplicative](double a, Lanes v, Lanes d) {
+      return multiplicative ? a * v * d : a * d;
+    };
+    for (int k = 0; k < n; ++k) {
+      f[k] = eq.site(x[wrap(k - 2)], x[wrap(k - 1)], x[k], x[wrap(k + 1)]);
+      p[k] = x[k] + dt * f[k];
+    }
+    const double amp0 = 1.0 * noise.a0()[t];
+    for (int r = 0; r < rows; ++r) {
+      const int k = noisy[r];
+      p[k] += term(amp0, x[k], load_lanes(dw0 + r * w));
+    }
+    if (!heun_) {
+      for (int k = 0; k < n; ++k) {
+        x[k] = p[k];
+        on_site(k, x[k]);
+      }
+      return;
+    }
+    for (int k = 0; k < n; ++k) {
+      const Lanes f1 = eq.site(p[wrap(k - 2)], p[wrap(k - 1)], p[k], p[wrap(k + 1)]);
+      f[k] = half * (f[k] + f1);
+    }
+    const double h0 = 0.5 * noise.a0()[t], h1 = 0.5 * noise.a1()[t];
+    for (int r = 0; r < rows; ++r) {
+      const int k = noisy[r];
+      f[k] += term(h0, x[k], load_lanes(dw0 + r * w));
+    }
+    for (int r = 0; r < rows; ++r) {
+      const int k = noisy[r];
+      f[k] += term(h1, p[k], load_lanes(dw1 + r * w));
+    }
+    for (int k = 0; k < n; ++k) {
+      x[k] += f[k];
+      on_site(k, x[k]);
     }
   }
 
@@ -150,6 +243,10 @@ class RingKernel final : public Kernel {
   double dt_;
   std::int64_t step_ = 0;  // the next step's index (set_step)
   std::vector<integrators::StageEquations<models::Lorenz96Equations>> stages_;  // [kMaxSegment]
+  // stochastic steps: the run's noise, the scheme, and f, p per site ([n])
+  std::optional<SegmentNoise> noise_;
+  bool heun_ = false, multiplicative_ = false;
+  std::vector<Lanes> sde_f_, sde_p_;
   // tap(): the states to record during the next accumulate()
   const int* tap_after_ = nullptr;
   int tap_count_ = 0;
@@ -194,7 +291,7 @@ void RingKernel::accumulate_lanes(double* x, int lane, int steps, bool opens_blo
       samples[t * series + s] = v;
     };
     Lanes sum = {}, squares = {}, regime_value = {}, histogram_value = {};
-    integrators::ring_rk4_step(stages_[t], h_, n, local, L, scratch_.data(), [&](int k, Lanes v) {
+    advance(t, lane, local, [&](int k, Lanes v) {
       if (needs_derived) models::Lorenz96Equations::add_site(v, sum, squares);
       if (site_series[k] >= 0) feed(site_series[k], v);
       if (k == regime_observable) regime_value = v;
@@ -249,8 +346,9 @@ void RingKernel::fold_extremes(int lane, int steps) const {
 
 }  // namespace
 
-std::unique_ptr<Kernel> make_ring_kernel(const Setup& setup, const Accumulators& acc) {
-  return std::make_unique<RingKernel>(setup, acc);
+std::unique_ptr<Kernel> make_ring_kernel(const Setup& setup, const Accumulators& acc,
+                                         KernelMembers members) {
+  return std::make_unique<RingKernel>(setup, acc, members);
 }
 
 }  // namespace chaosweep::run

@@ -213,9 +213,13 @@ spec::Spec noisy(spec::Spec s, const std::string& method, spec::NoiseKind kind,
   s.noise.amplitude = kind == spec::NoiseKind::multiplicative ? 0.2 : 2.0;
   if (kind == spec::NoiseKind::red) s.noise.correlation_time = 0.05;
   const char* names[] = {"x", "y", "z"};
-  for (int v : variables) s.noise.variable_names.push_back(names[v]);
+  for (int v : variables) s.noise.variable_names.push_back(v < 3 ? names[v] : "");
   s.noise.variables = std::move(variables);
   s.noise.shared = shared;
+  if (s.model == "lorenz96") {  // sites x0 .. x39
+    s.noise.variable_names.clear();
+    for (int v : s.noise.variables) s.noise.variable_names.push_back("x" + std::to_string(v));
+  }
   return s;
 }
 
@@ -270,8 +274,8 @@ TEST(Kernels, NoisyFusedLorenz63EqualsGenericBitwise) {
   }
 }
 
-// A schedule on a model parameter keeps noisy Lorenz-63 on the generic path (its value is set
-// at the scheme's stage times there); the noisy ring stays generic for now.
+// A schedule on a model parameter keeps noisy Lorenz-63 and the noisy ring on the generic path
+// (its value is set at the scheme's stage times there).
 TEST(Kernels, NoisyScheduledModelParameterTakesTheGenericPath) {
   spec::Spec s = noisy(l63_spec(), "heun", spec::NoiseKind::additive, {0, 1, 2}, false);
   s.schedule.kind = spec::ScheduleKind::ramp;
@@ -281,6 +285,53 @@ TEST(Kernels, NoisyScheduledModelParameterTakesTheGenericPath) {
   s.schedule.start = 0.0;
   s.schedule.end = 5.0;
   EXPECT_EQ(run_at_width(s, 8).kernel, run::KernelKind::generic);
+  spec::Spec ring = noisy(l96_spec(), "heun", spec::NoiseKind::additive, {0, 1}, false);
+  ring.schedule = s.schedule;
+  ring.schedule.parameter = "F";
+  ring.schedule.from = 7.0;
+  ring.schedule.to = 9.0;
+  EXPECT_EQ(run_at_width(ring, 8).kernel, run::KernelKind::generic);
+}
+
+// Exact by design (ring_kernel.cpp, sde_step): under stochastic forcing the ring kernel performs
+// SdeBatch::step's operations per member, site by site, on ForcingNoise's increments: both
+// schemes, the three kinds, per member and shared, all sites or some, no noise, twins and a
+// scheduled noise amplitude give every member's numbers bitwise as the generic path (width 21)
+// at widths 8 and 40.
+TEST(Kernels, NoisyRingEqualsGenericBitwise) {
+  using K = spec::NoiseKind;
+  std::vector<int> every(40);
+  for (int k = 0; k < 40; ++k) every[static_cast<std::size_t>(k)] = k;
+  std::vector<spec::Spec> specs = {
+      noisy(l96_spec(), "heun", K::additive, every, false),
+      noisy(l96_spec(), "euler-maruyama", K::multiplicative, {0, 5, 17, 39}, true),
+      noisy(l96_spec(), "heun", K::red, {1, 2, 3}, false),
+      noisy(l96_spec(), "euler-maruyama", K::none, {}, false),
+  };
+  spec::Spec twins = noisy(l96_spec(), "heun", K::additive, {0, 3, 20}, false);
+  twins.statistics.twins = {true, 1e-6, 0.25, 0.5};
+  specs.push_back(twins);
+  spec::Spec scheduled = noisy(l96_spec(), "euler-maruyama", K::red, every, true);
+  scheduled.schedule.kind = spec::ScheduleKind::ramp;
+  scheduled.schedule.parameter = spec::kNoiseAmplitudeAxis;
+  scheduled.schedule.from = 0.1;
+  scheduled.schedule.to = 1.0;
+  scheduled.schedule.start = 1.0;
+  scheduled.schedule.end = 5.0;
+  specs.push_back(scheduled);
+  for (const spec::Spec& s : specs) {
+    SCOPED_TRACE(s.integration.method + " " + spec::noise_kind_name(s.noise.kind) +
+                 (s.noise.shared ? " shared" : "") + (s.statistics.twins.enabled ? " twins" : "") +
+                 (s.schedule.kind != spec::ScheduleKind::none ? " scheduled" : ""));
+    const Campaign generic = run_at_width(s, 21);
+    ASSERT_EQ(generic.kernel, run::KernelKind::generic);
+    for (int width : {8, 40}) {
+      SCOPED_TRACE("width " + std::to_string(width));
+      const Campaign ring = run_at_width(s, width);
+      ASSERT_EQ(ring.kernel, run::KernelKind::ring);
+      expect_same_members(ring, generic, 40);
+    }
+  }
 }
 
 // Exact by design (rk4_ring.hpp): the ring kernel performs Rk4Batch's operations per member;

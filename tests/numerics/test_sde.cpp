@@ -302,7 +302,7 @@ TEST(Sde, BoxMullerPairsAgreeWithTheCLibrary) {
       const double s_ref = static_cast<double>(r_ref * std::sin(phase));
       const double r = static_cast<double>(r_ref);
       double c = 0.0, s = 0.0;
-      run::gaussian_pair(stream.key(), j, c, s);
+      run::gaussian_pair(stream.key(), j, 1.0, c, s);
       const double tol = 6.7e-16 * (r + 1.0);  // 3 ulp
       ASSERT_NEAR(c, c_ref, tol) << "key " << k << " pair " << j;
       ASSERT_NEAR(s, s_ref, tol) << "key " << k << " pair " << j;
@@ -310,9 +310,32 @@ TEST(Sde, BoxMullerPairsAgreeWithTheCLibrary) {
   }
 }
 
+// The same comparison at chosen uniforms: u1 at both ends of (0, 1] (2^-53: the largest
+// radius, 8.57; 1: radius 0) and near 1/2, u2 at and beside every quadrant boundary and at
+// the ends of [0, 1) (against long double logl/cosl/sinl; 3 ulp of r + 1 as above).
+TEST(Sde, BoxMullerPairsAtTheEndsOfTheUniformRanges) {
+  const std::int64_t top = (std::int64_t{1} << 53) - 1;
+  const std::int64_t quarter = std::int64_t{1} << 51;
+  for (std::int64_t k1 : {std::int64_t{0}, std::int64_t{1}, std::int64_t{1} << 52, top - 1, top}) {
+    for (std::int64_t k2 : {std::int64_t{0}, std::int64_t{1}, quarter / 2, quarter / 2 + 1,
+                            quarter - 1, quarter, quarter + 1, 2 * quarter - 1, 2 * quarter,
+                            3 * quarter, 3 * quarter + 1, 4 * quarter - 1}) {
+      const long double u1 = 1.0L - static_cast<long double>(k1) / 9007199254740992.0L;
+      const long double u2 = static_cast<long double>(k2) / 9007199254740992.0L;
+      const long double r = std::sqrt(-2.0L * std::log(u1));
+      const long double phase = 6.283185307179586476925286766559L * u2;
+      double c = 0.0, s = 0.0;
+      run::gaussian_from_bits(k1, k2, c, s);
+      const double tol = 6.7e-16 * (static_cast<double>(r) + 1.0);
+      EXPECT_NEAR(c, static_cast<double>(r * std::cos(phase)), tol) << k1 << " " << k2;
+      EXPECT_NEAR(s, static_cast<double>(r * std::sin(phase)), tol) << k1 << " " << k2;
+    }
+  }
+}
+
 // Each lane's pair depends only on its own key and counter (element-wise by design): rows of
-// every length 1 .. 3 kLanes + 1, at any offset, equal the one-lane draws bitwise, and a scale
-// multiplies each value once.
+// every length 1 .. 3 kLanes + 1, at any offset, equal the one-lane draws bitwise, and so do
+// runs of consecutive pairs of one stream (gaussian_stream, a shared realisation's draws).
 TEST(Sde, GaussianRowsEqualSingleDrawsBitwise) {
   std::vector<std::uint64_t> keys;
   for (int m = 0; m < 40; ++m) keys.push_back(run::MemberNoise(3, 1, m, 2).key());
@@ -322,9 +345,17 @@ TEST(Sde, GaussianRowsEqualSingleDrawsBitwise) {
       run::gaussian_row(keys.data() + first, n, 17, 0.25, c.data(), s.data());
       for (int m = 0; m < n; ++m) {
         double c1 = 0.0, s1 = 0.0;
-        run::gaussian_pair(keys[static_cast<std::size_t>(first + m)], 17, c1, s1);
-        EXPECT_EQ(c[static_cast<std::size_t>(m)], 0.25 * c1);
-        EXPECT_EQ(s[static_cast<std::size_t>(m)], 0.25 * s1);
+        run::gaussian_pair(keys[static_cast<std::size_t>(first + m)], 17, 0.25, c1, s1);
+        EXPECT_EQ(c[static_cast<std::size_t>(m)], c1);
+        EXPECT_EQ(s[static_cast<std::size_t>(m)], s1);
+      }
+      run::gaussian_stream(keys[static_cast<std::size_t>(first)], 40 + first, n, 0.5, c.data(),
+                           s.data());
+      for (int i = 0; i < n; ++i) {
+        double c1 = 0.0, s1 = 0.0;
+        run::gaussian_pair(keys[static_cast<std::size_t>(first)], 40 + first + i, 0.5, c1, s1);
+        EXPECT_EQ(c[static_cast<std::size_t>(i)], c1);
+        EXPECT_EQ(s[static_cast<std::size_t>(i)], s1);
       }
     }
   }
