@@ -161,8 +161,14 @@ kill_job_when() {  # kill_job_when ARCHIVE CONDITION NP: start a run, SIGKILL it
   local pid=$! waited=0
   # up to 300 s: a sanitizer build integrates several times slower than a normal one
   until eval "$condition" || [ $waited -ge 3000 ]; do sleep 0.1; waited=$((waited + 1)); done
-  kill -KILL -- -"$pid" 2>/dev/null
+  # mpiexec puts every rank in a process group of its own, inside the session setsid opened:
+  # kill the whole session and wait until none of it is left, so that no rank of the killed
+  # job still commits a checkpoint generation while the resume runs
+  pkill -KILL -s "$pid" 2>/dev/null
   wait "$pid" 2>/dev/null
+  local gone=0
+  while pgrep -s "$pid" >/dev/null && [ $gone -lt 300 ]; do sleep 0.1; gone=$((gone + 1)); done
+  pgrep -s "$pid" >/dev/null && fail "$archive: processes of the killed job still run"
   [ $waited -lt 3000 ] || fail "$archive: condition never held: $condition"
 }
 unset CHAOSWEEP_TEST_STOP
