@@ -89,7 +89,7 @@ inline Lanes sqrt_lanes(Lanes v) {
 }
 
 /// scale sqrt(-2 ln u) for u = 1 - k 2^-53 in [2^-53, 1] (k < 2^53; exact). u = 2^e m with m
-/// in [sqrt(1/2), sqrt(2)), f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s
+/// in (sqrt(1/2), sqrt(2)], f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s
 /// = 2 s + 2 s z p(z) with z = s^2 <= (3 - 2 sqrt(2))^2 < 0.0295 and p the degree-6 Chebyshev
 /// interpolant of (atanh(s)/s - 1)/z on [0, 0.0295] (coefficients computed for this file in
 /// 40-digit arithmetic; interpolation error 1.6e-16 of p, so ln m is within about an ulp).
@@ -99,16 +99,15 @@ template <int G>
 inline Doubles<G> box_muller_radius(const Ints<G>& k, double scale) {
   constexpr double kLn2Hi = 6.93147180369123816490e-01;
   constexpr double kLn2Lo = 1.90821492927058770002e-10;
-  constexpr double kSqrt2 = 1.41421356237309504880;
+  constexpr std::int64_t kAboveHalfSqrt2 = 0x3fe6a09e667f3bce;  // bits of the double after sqrt(1/2)
   Doubles<G> s, z, ed;
   for (int g = 0; g < G; ++g) {
     const Lanes u = 1.0 - __builtin_convertvector(k.v[g], Lanes) * 0x1p-53;
-    const KeyLanes b = reinterpret_cast<KeyLanes>(u);
-    LaneInts e = __builtin_convertvector(b >> 52, LaneInts) - 1023;
-    Lanes m = reinterpret_cast<Lanes>((b & 0x000fffffffffffffULL) | 0x3ff0000000000000ULL);
-    const LaneInts big = m > kSqrt2;  // -1 where m is in [sqrt 2, 2): halve it
-    m = big ? m * 0.5 : m;
-    e -= big;
+    // the exponent e counted from the double just above sqrt(1/2): m = u 2^-e lands in
+    // (sqrt(1/2), sqrt(2)] (bounds the nearest doubles) by integer operations alone
+    const LaneInts b = reinterpret_cast<LaneInts>(u);
+    const LaneInts e = (b - kAboveHalfSqrt2) >> 52;
+    const Lanes m = reinterpret_cast<Lanes>(b - (e << 52));
     const Lanes f = m - 1.0;
     s.v[g] = f / (2.0 + f);
     z.v[g] = s.v[g] * s.v[g];
@@ -168,13 +167,13 @@ inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
   horner(ps, z, 0.008333333333330948);
   horner(ps, z, -0.16666666666666666);
   for (int g = 0; g < G; ++g) ps.v[g] = fmadd(t.v[g], z.v[g] * ps.v[g], t.v[g]);
-  for (int g = 0; g < G; ++g) {
+  for (int g = 0; g < G; ++g) {  // signs flipped by xor: cosine negative in quadrants 1 and 2
+    const KeyLanes q = reinterpret_cast<KeyLanes>(quadrant.v[g]);
+    const KeyLanes c_sign = (q ^ (q >> 1)) << 63, s_sign = (q >> 1) << 63;
     const LaneInts swap = (quadrant.v[g] & 1) != 0;
-    const LaneInts c_neg = (quadrant.v[g] == 1) | (quadrant.v[g] == 2);
-    const LaneInts s_neg = quadrant.v[g] >= 2;
     const Lanes cs = swap ? ps.v[g] : pc.v[g], sn = swap ? pc.v[g] : ps.v[g];
-    c.v[g] = c_neg ? -cs : cs;
-    s.v[g] = s_neg ? -sn : sn;
+    c.v[g] = reinterpret_cast<Lanes>(reinterpret_cast<KeyLanes>(cs) ^ c_sign);
+    s.v[g] = reinterpret_cast<Lanes>(reinterpret_cast<KeyLanes>(sn) ^ s_sign);
   }
 }
 
