@@ -4,7 +4,7 @@
 // the rate at several batch widths, the cost of twin experiments, and the core's FMA
 // throughput for scale.
 //
-//   chaosweep-bench [--model lorenz63|lorenz96|all] [--members N] [--steps S]
+//   chaosweep-bench [--model lorenz63|lorenz84|lorenz96|lorenz96-two-scale|all] [--members N] [--steps S]
 //                   [--widths 16,32,64,...] [--repeats R] [--sections main,noise,...] [--json]
 //
 // Every rate is the median of R repetitions (minimum and maximum shown) of CPU time of the
@@ -70,8 +70,14 @@ Summary repeat(int n, const std::function<double()>& f) {
   return summarise(v);
 }
 
+/// Members of a measurement of `model`: o.members, an eighth for the two-scale ring (396
+/// variables, on the generic path: about as long as the others), at least one batch.
+long members_of(const Options& o, const std::string& model) {
+  return model == kTwoScale ? std::max<long>(o.members / 8, o.width) : o.members;
+}
+
 Row measure(const Options& o, const std::string& model, bool histogram, int width, bool scalar) {
-  const spec::Spec s = bench_campaign(model, o.members, width, 0, o.steps, histogram);
+  const spec::Spec s = bench_campaign(model, members_of(o, model), width, 0, o.steps, histogram);
   Row row{model, histogram ? "moments+regimes+histogram" : "moments+regimes", width,
           flops_per_member_step(s), {}, {}};
   row.production = repeat(o.repeats, [&] { return production_rate(s); });
@@ -216,14 +222,14 @@ void print_text(const Options& o, const std::vector<Row>& main, const std::vecto
   std::printf("  compiler      %s\n", __VERSION__);
   std::printf("  FMA loop      %.1f GFLOP/s per core (median of %d; %.1f-%.1f)\n", peak.median,
               o.repeats, peak.min, peak.max);
-  std::printf("  campaign      %ld members, %ld accumulated steps, median of %d runs "
-              "(min-max), member-steps per CPU second\n\n",
-              o.members, o.steps, o.repeats);
-  std::printf("%-9s %-26s %5s  %-27s %-27s %6s  %s\n", "model", "statistics", "width",
+  std::printf("  campaign      %ld members (the two-scale ring %ld), %ld accumulated steps, "
+              "median of %d runs (min-max), member-steps per CPU second\n\n",
+              o.members, members_of(o, kTwoScale), o.steps, o.repeats);
+  std::printf("%-18s %-26s %5s  %-27s %-27s %6s  %s\n", "model", "statistics", "width",
               "production kernel", "scalar reference", "ratio", "GFLOP/s (of FMA loop)");
   for (const Row& r : main) {
     const double gflops = r.production.median * r.flops / 1e9;
-    std::printf("%-9s %-26s %5d  %9.3g (%8.3g-%8.3g)  %9.3g (%8.3g-%8.3g)  %5.1fx  %5.1f "
+    std::printf("%-18s %-26s %5d  %9.3g (%8.3g-%8.3g)  %9.3g (%8.3g-%8.3g)  %5.1fx  %5.1f "
                 "(%2.0f%%)\n",
                 r.model.c_str(), r.statistics.c_str(), r.width, r.production.median,
                 r.production.min, r.production.max, r.scalar.median, r.scalar.min, r.scalar.max,
@@ -234,6 +240,22 @@ void print_text(const Options& o, const std::vector<Row>& main, const std::vecto
     std::printf(" %s %s %.0f;", r.model.c_str(), r.statistics.c_str(), r.flops);
   }
   std::printf(")\n");
+  // per site-step: the two rings side by side (variables per member: n, or K + K J)
+  double ring = 0.0, two_scale = 0.0;
+  for (const Row& r : main) {
+    if (r.statistics != "moments+regimes") continue;
+    const spec::Spec s = bench_campaign(r.model, o.width, o.width, 0, 1, false);
+    const double sites = r.model == "lorenz96"   ? s.parameters.at("n")[0]
+                         : r.model == kTwoScale ? s.parameters.at("K")[0] *
+                                                       (1.0 + s.parameters.at("J")[0])
+                                                 : 0.0;
+    if (r.model == "lorenz96") ring = r.production.median * sites;
+    if (r.model == kTwoScale) two_scale = r.production.median * sites;
+  }
+  if (ring > 0.0 && two_scale > 0.0) {
+    std::printf("site-steps per CPU second (moments+regimes): ring %.3g, two-scale ring %.3g "
+                "(%.2f of the ring's)\n", ring, two_scale, two_scale / ring);
+  }
   if (widths.empty()) return;
   std::printf("\nbatch width (production kernel, moments+regimes+histogram)\n");
   for (const Row& r : widths) {
@@ -300,11 +322,14 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
 }
 
 int run(const Options& o) {
+  // the models with fused kernels take every section; the two-scale ring the main table only
   std::vector<std::string> models = {"lorenz63", "lorenz84", "lorenz96"};
-  if (o.model != "all") models = {o.model};
+  std::vector<std::string> main_models = {"lorenz63", "lorenz84", "lorenz96", kTwoScale};
+  if (o.model != "all") models = main_models = {o.model};
+  if (o.model == kTwoScale) models.clear();
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
   std::vector<Row> main, widths, twins, response, schedule, noise;
-  for (const std::string& m : models) {
+  for (const std::string& m : main_models) {
     if (o.runs("main")) {
       for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
     }
@@ -355,8 +380,9 @@ int run(const Options& o) {
 int main(int argc, char** argv) {
   chaosweep::bench::Options o;
   CLI::App app{"Throughput of the production batch kernel against the scalar reference"};
-  app.add_option("--model", o.model, "lorenz63, lorenz84, lorenz96 or all")
-      ->check(CLI::IsMember({"lorenz63", "lorenz84", "lorenz96", "all"}));
+  app.add_option("--model", o.model,
+                 "lorenz63, lorenz84, lorenz96, lorenz96-two-scale (main table only) or all")
+      ->check(CLI::IsMember({"lorenz63", "lorenz84", "lorenz96", "lorenz96-two-scale", "all"}));
   app.add_option("--members", o.members, "members per measurement")->check(CLI::PositiveNumber);
   app.add_option("--steps", o.steps, "accumulated steps per member")->check(CLI::PositiveNumber);
   app.add_option("--width", o.width, "batch width of the main table (a multiple of 8)");
