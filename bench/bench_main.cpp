@@ -71,7 +71,7 @@ Summary repeat(int n, const std::function<double()>& f) {
 }
 
 /// Members of a measurement of `model`: o.members, an eighth for the two-scale ring (396
-/// variables, on the generic path: about as long as the others), at least one batch.
+/// variables: about as long as the others), at least one batch.
 long members_of(const Options& o, const std::string& model) {
   return model == kTwoScale ? std::max<long>(o.members / 8, o.width) : o.members;
 }

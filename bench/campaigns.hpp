@@ -9,7 +9,7 @@
 
 namespace chaosweep::bench {
 
-/// The two-scale ring's registry name (its main rows only; it has no fused kernel yet).
+/// The two-scale ring's registry name (its rows are in the main table only).
 inline constexpr const char* kTwoScale = "lorenz96-two-scale";
 
 /// A one-case campaign of `model` ("lorenz63", "lorenz84", "lorenz96" or kTwoScale) with

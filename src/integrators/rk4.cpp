@@ -19,6 +19,7 @@ Rk4Batch::Rk4Batch(const models::Model& model, int width)
     : model_(model), width_(width), size_(static_cast<long>(model.state_dim()) * width) {
   if (width < 1) throw std::invalid_argument("RK4 batch width must be at least 1.");
   for (auto* buffer : {&k1_, &k2_, &k3_, &k4_, &stage_}) buffer->assign(size_, 0.0);
+  fused_.assign(model.fused_rk4_scratch(width), 0.0);
 }
 
 template <class Before>
@@ -46,6 +47,7 @@ void Rk4Batch::advance(double* x, double dt, Before before) {
 }
 
 void Rk4Batch::step(double* x, double dt) {
+  if (!fused_.empty() && model_.fused_rk4_step(x, dt, width_, fused_.data())) return;
   advance(x, dt, [](int) {});
 }
 

@@ -14,7 +14,8 @@ class Rk4Batch {
  public:
   Rk4Batch(const models::Model& model, int width);
 
-  /// Advances x ([state_dim][width]) by one step dt in place.
+  /// Advances x ([state_dim][width]) by one step dt in place (by the model's fused step when
+  /// it has one for this width: the same operations per member, Model::fused_rk4_step).
   void step(double* x, double dt);
 
   /// Told each stage's time before the stage's right-hand side is evaluated, so that a
@@ -49,6 +50,7 @@ class Rk4Batch {
   int width_;
   long size_;  // state_dim * width
   std::vector<double> k1_, k2_, k3_, k4_, stage_;  // each [state_dim][width]
+  std::vector<double> fused_;  // the model's fused step's scratch (empty: it has none)
 };
 
 }  // namespace chaosweep::integrators

@@ -58,6 +58,22 @@ class Model {
   /// No allocation, no I/O, deterministic; dxdt must not alias x.
   virtual void rhs(const double* x, double* dxdt, int width) const = 0;
 
+  /// Doubles of scratch space fused_rk4_step() needs for a batch of `width`, or 0 when the
+  /// model has no fused step (the default).
+  virtual std::size_t fused_rk4_scratch(int width) const {
+    (void)width;
+    return 0;
+  }
+
+  /// One classical RK4 step of the batch x ([state_dim][width]) in place, with the operations
+  /// per member of integrators::Rk4Batch::step over rhs() (so bitwise its result), taken in
+  /// an order that suits the model's structure; false (x untouched) when it does not apply to
+  /// this width, and Rk4Batch steps as usual. `scratch` holds fused_rk4_scratch(width) doubles.
+  virtual bool fused_rk4_step(double* x, double dt, int width, double* scratch) const {
+    (void)x; (void)dt; (void)width; (void)scratch;
+    return false;
+  }
+
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
   /// They depend on the state and structural parameters only (snapshots of a run with a
   /// time-dependent parameter evaluate them with the parameter's value at t = 0).
