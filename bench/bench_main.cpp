@@ -37,7 +37,8 @@ struct Options {
   int width = 64;
   int repeats = 5;
   long scalar_members = 64;
-  std::vector<std::string> sections = {"main", "widths", "twins", "response", "schedule", "noise"};
+  std::vector<std::string> sections = {"main",     "widths", "twins",   "response",
+                                       "schedule", "noise",  "lyapunov"};
   bool json = false;
   bool runs(const std::string& section) const {
     return std::find(sections.begin(), sections.end(), section) != sections.end();
@@ -99,6 +100,18 @@ Row measure_twins(const Options& o, const std::string& model, int every_steps) {
   Row row{model, every_steps > 0 ? "twins every " + std::to_string(every_steps) + " steps"
                                  : "no twins",
           o.width, 0.0, {}, {}};
+  row.production = repeat(o.repeats, [&] { return production_rate(s); });
+  return row;
+}
+
+/// The production path (moments+regimes) with the first k Lyapunov exponents (statistics.lyapunov,
+/// renormalised every 0.5 time units), or without (k 0): the ratio of the rates is the cost,
+/// and rate x k the tangent-vector steps per second.
+Row measure_lyapunov(const Options& o, const std::string& model, int k) {
+  spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
+  if (k > 0) s.statistics.lyapunov = {true, k, 0.5};
+  Row row{model, k > 0 ? "lyapunov " + std::to_string(k) + " exponents" : "no lyapunov", o.width,
+          0.0, {}, {}};
   row.production = repeat(o.repeats, [&] { return production_rate(s); });
   return row;
 }
@@ -200,6 +213,21 @@ void print_response(const std::vector<Row>& rows) {
   }
 }
 
+void print_lyapunov(const std::vector<Row>& rows) {
+  if (rows.empty()) return;
+  std::printf("\nLyapunov exponents (production path, moments+regimes, renormalised every 0.5, "
+              "width %d): members' steps per CPU second, and tangent-vector steps (rate x k)\n",
+              rows.front().width);
+  double base = 0.0;
+  for (const Row& r : rows) {
+    if (r.statistics == "no lyapunov") base = r.production.median;
+    const int k = r.statistics == "no lyapunov" ? 0 : std::stoi(r.statistics.substr(9));
+    std::printf("%-9s %-22s %9.3g (%8.3g-%8.3g)  rate %4.2f of without  %9.3g tangent steps/s\n",
+                r.model.c_str(), r.statistics.c_str(), r.production.median, r.production.min,
+                r.production.max, r.production.median / base, r.production.median * k);
+  }
+}
+
 void print_twins(const std::vector<Row>& twins) {
   if (twins.empty()) return;
   std::printf("\ntwin experiments (production kernel, moments+regimes, width %d): members' "
@@ -271,7 +299,7 @@ nlohmann::ordered_json json_summary(const Summary& s) {
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const std::vector<Row>& twins, const std::vector<Row>& response,
                 const std::vector<Row>& schedule, const std::vector<Row>& noise,
-                const Summary& peak) {
+                const std::vector<Row>& lyapunov, const Summary& peak) {
   using Json = nlohmann::ordered_json;
   Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
            {"load_average", first_line_of("/proc/loadavg", "")},
@@ -318,6 +346,12 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
                               {"width", r.width}, {"production", json_summary(r.production)}});
   }
   doc["noise"] = noise_rows;
+  Json lyapunov_rows = Json::array();
+  for (const Row& r : lyapunov) {
+    lyapunov_rows.push_back(Json{{"model", r.model}, {"statistics", r.statistics},
+                                 {"width", r.width}, {"production", json_summary(r.production)}});
+  }
+  doc["lyapunov"] = lyapunov_rows;
   std::cout << doc.dump(2) << "\n";
 }
 
@@ -328,7 +362,7 @@ int run(const Options& o) {
   if (o.model != "all") models = main_models = {o.model};
   if (o.model == kTwoScale) models.clear();
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths, twins, response, schedule, noise;
+  std::vector<Row> main, widths, twins, response, schedule, noise, lyapunov;
   for (const std::string& m : main_models) {
     if (o.runs("main")) {
       for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
@@ -362,14 +396,26 @@ int run(const Options& o) {
       noise.push_back(measure_noise(o, m, method, spec::NoiseKind::additive, false, true));
     }
   }
+  for (const std::string& m : models) {
+    if (!o.runs("lyapunov")) break;
+    const int d = models::Registry::instance()
+                      .find(m)
+                      ->make(bench_campaign(m, o.width, o.width, 0, 1, false).parameters)
+                      ->state_dim();
+    for (int k : {0, 1, std::min(d, 3)}) {
+      if (k == 1 && d == 1) continue;
+      lyapunov.push_back(measure_lyapunov(o, m, k));
+    }
+  }
   if (o.json) {
-    print_json(o, main, widths, twins, response, schedule, noise, peak);
+    print_json(o, main, widths, twins, response, schedule, noise, lyapunov, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
     print_response(response);
     print_schedule(schedule);
     print_noise(noise);
+    print_lyapunov(lyapunov);
   }
   return 0;
 }
@@ -392,9 +438,10 @@ int main(int argc, char** argv) {
   app.add_option("--scalar-members", o.scalar_members, "members run by the scalar reference")
       ->check(CLI::PositiveNumber);
   app.add_option("--sections", o.sections,
-                 "parts to measure: main, widths, twins, response, schedule, noise")
+                 "parts to measure: main, widths, twins, response, schedule, noise, lyapunov")
       ->delimiter(',')
-      ->check(CLI::IsMember({"main", "widths", "twins", "response", "schedule", "noise"}));
+      ->check(CLI::IsMember(
+          {"main", "widths", "twins", "response", "schedule", "noise", "lyapunov"}));
   app.add_flag("--json", o.json, "print JSON instead of a table");
   CLI11_PARSE(app, argc, argv);
   try {

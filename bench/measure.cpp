@@ -11,6 +11,7 @@
 #include "models/model.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
+#include "run/lyapunov.hpp"
 #include "stats/ensemble.hpp"
 #include "stats/histogram.hpp"
 
@@ -63,7 +64,12 @@ double production_rate(const spec::Spec& spec) {
     const double start = thread_cpu_seconds();
     progress->advance(progress->total_steps());
     seconds += thread_cpu_seconds() - start;
-    const run::BatchResult result = progress->finish();
+    run::BatchResult result = progress->finish();
+    if (spec.statistics.lyapunov.enabled) {  // the second integration, with tangent vectors
+      const double lyapunov_start = thread_cpu_seconds();
+      run::add_lyapunov(spec, plan, result);
+      seconds += thread_cpu_seconds() - lyapunov_start;
+    }
     member_steps += static_cast<std::int64_t>(result.count) * plan.total_steps();
   }
   return static_cast<double>(member_steps) / seconds;

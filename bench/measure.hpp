@@ -20,7 +20,8 @@ struct Summary {
 Summary summarise(std::vector<double> values);
 
 /// Member-steps per CPU second of the production path over every batch of case 0 of `spec`:
-/// CaseRunner::start, then BatchProgress::advance (timed), then finish. The per-batch set-up
+/// CaseRunner::start, then BatchProgress::advance (timed), then finish, and with
+/// statistics.lyapunov its second integration (run::add_lyapunov, timed). The per-batch set-up
 /// and collection (initial states, results), which a real campaign spreads over 1e5 steps and
 /// more, and the case's attractor spin-up are not timed.
 double production_rate(const spec::Spec& spec);
