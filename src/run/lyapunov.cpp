@@ -19,41 +19,47 @@
 namespace chaosweep::run {
 namespace {
 
-/// Members per batch. Every batch has exactly this width (the last one padded with copies of
-/// a real member), so each member takes the same vectorised code path wherever it sits.
-constexpr int kWidth = 8;
+/// Members per batch: the members to integrate rounded up to a multiple of 8, at most 64
+/// (the last batch padded with copies of a real member). A member's operations do not depend
+/// on its column or the batch width (as for Rk4Batch), so its exponents are the same bits at
+/// any width; wider batches spread the loops' overhead (Lorenz-63 with one exponent ran at 0.63
+/// of its present rate in batches of 8).
+int batch_width(int count) {
+  constexpr int kMost = 64, kStep = 8;
+  return std::max(kStep, std::min(kMost, (count + kStep - 1) / kStep * kStep));
+}
 
-/// One batch of kWidth members: state and k tangent vectors, SoA [state_dim][kWidth]; tangent
-/// vector j of the batch at tangents[j * n * kWidth]. The tangent RK4 stepper
+/// One batch of `width` members: state and k tangent vectors, SoA [state_dim][width]; tangent
+/// vector j of the batch at tangents[j * n * width]. The tangent RK4 stepper
 /// (integrators/tangent_rk4.hpp) advances both.
 class Batch {
  public:
   /// RK4, or with `stochastic` (a case's Setup with a stochastic method) its scheme, whose
   /// forcing begin() keys by the batch's members.
-  Batch(const models::Model& model, int k, double dt, const Setup* stochastic)
-      : n_(model.state_dim()), k_(k), size_(static_cast<long>(n_) * kWidth), dt_(dt),
+  Batch(const models::Model& model, int width, int k, double dt, const Setup* stochastic)
+      : n_(model.state_dim()), k_(k), width_(width), size_(static_cast<long>(n_) * width), dt_(dt),
         x_(size_), tangents_(static_cast<long>(k) * size_), column_(static_cast<long>(n_) * k),
-        logs_(k), dead_(kWidth, false), stochastic_(stochastic) {
+        logs_(k), dead_(static_cast<std::size_t>(width), false), stochastic_(stochastic) {
     if (stochastic) {
-      sde_.emplace(model, kWidth, sde_method(*stochastic), sde_noise_form(*stochastic),
-                   ForcingNoise(*stochastic, kWidth, {}).variables());
+      sde_.emplace(model, width, sde_method(*stochastic), sde_noise_form(*stochastic),
+                   ForcingNoise(*stochastic, width, {}).variables());
     } else {
-      rk4_.emplace(model, kWidth, k);
+      rk4_.emplace(model, width, k);
     }
   }
 
   /// A new batch of members (first .. first + count - 1; the padding columns draw the first
   /// member's forcing).
   void begin(std::int64_t first, int count) {
-    if (stochastic_) noise_.emplace(*stochastic_, kWidth, KernelMembers{first, count});
+    if (stochastic_) noise_.emplace(*stochastic_, width_, KernelMembers{first, count});
   }
 
   /// Member m's start state; the tangent vectors become the first k unit vectors.
   void load(int m, const double* state) {
-    for (int i = 0; i < n_; ++i) x_[static_cast<long>(i) * kWidth + m] = state[i];
+    for (int i = 0; i < n_; ++i) x_[static_cast<long>(i) * width_ + m] = state[i];
     for (int j = 0; j < k_; ++j) {
       double* v = tangents_.data() + j * size_;
-      for (int i = 0; i < n_; ++i) v[static_cast<long>(i) * kWidth + m] = i == j ? 1.0 : 0.0;
+      for (int i = 0; i < n_; ++i) v[static_cast<long>(i) * width_ + m] = i == j ? 1.0 : 0.0;
     }
     dead_[m] = false;
   }
@@ -83,16 +89,16 @@ class Batch {
   /// sums[m * k + i] when sums is not null. A member whose state or vectors are non-finite
   /// is marked dead and left alone from then on.
   void renormalise(double* sums) {
-    for (int m = 0; m < kWidth; ++m) {
+    for (int m = 0; m < width_; ++m) {
       if (dead_[m]) continue;
       bool finite = true;
       for (int i = 0; i < n_; ++i) {
-        finite = finite && std::isfinite(x_[static_cast<long>(i) * kWidth + m]);
+        finite = finite && std::isfinite(x_[static_cast<long>(i) * width_ + m]);
       }
       for (int j = 0; j < k_ && finite; ++j) {
         const double* v = tangents_.data() + j * size_;
         for (int i = 0; i < n_; ++i) {
-          const double value = v[static_cast<long>(i) * kWidth + m];
+          const double value = v[static_cast<long>(i) * width_ + m];
           column_[static_cast<long>(j) * n_ + i] = value;
           finite = finite && std::isfinite(value);
         }
@@ -105,7 +111,7 @@ class Batch {
       for (int j = 0; j < k_; ++j) {
         double* v = tangents_.data() + j * size_;
         for (int i = 0; i < n_; ++i) {
-          v[static_cast<long>(i) * kWidth + m] = column_[static_cast<long>(j) * n_ + i];
+          v[static_cast<long>(i) * width_ + m] = column_[static_cast<long>(j) * n_ + i];
         }
         if (sums != nullptr) sums[m * k_ + j] += logs_[j];
       }
@@ -115,7 +121,7 @@ class Batch {
   bool dead(int m) const { return dead_[m]; }
 
  private:
-  int n_, k_;
+  int n_, k_, width_;
   long size_;
   double dt_;
   std::vector<double> x_, tangents_, column_, logs_;
@@ -157,12 +163,13 @@ std::vector<double> lyapunov_exponents(const models::Model& model,
   std::vector<double> result(static_cast<std::size_t>(count) * k, nan);
   const double time = static_cast<double>(steps) * dt;
 
-  Batch batch(model, k, dt, stochastic);
-  std::vector<double> sums(static_cast<std::size_t>(kWidth) * k);
-  for (int first = 0; first < count; first += kWidth) {
-    const int live = std::min(kWidth, count - first);
+  const int width = batch_width(count);
+  Batch batch(model, width, k, dt, stochastic);
+  std::vector<double> sums(static_cast<std::size_t>(width) * k);
+  for (int first = 0; first < count; first += width) {
+    const int live = std::min(width, count - first);
     batch.begin(first_member + first, live);
-    for (int m = 0; m < kWidth; ++m) {
+    for (int m = 0; m < width; ++m) {
       const int member = first + std::min(m, live - 1);  // padding: copies of the last member
       batch.load(m, initial.data() + static_cast<std::size_t>(member) * n);
     }

@@ -52,7 +52,8 @@ struct Setup;
 /// so they are the exact derivative of the discrete map that moves the state.
 /// A member whose state or tangent vectors turn non-finite gets NaN exponents. Deterministic:
 /// bitwise the same result for the same inputs, and a member's exponents do not depend on the
-/// other members (members are integrated in padded batches of fixed width).
+/// other members (members are integrated in padded batches of up to 64, and a member's
+/// operations do not depend on its column or the batch width).
 std::vector<double> lyapunov_exponents(const models::Model& model,
                                        const std::vector<double>& initial, int count, double dt,
                                        std::int64_t spinup_steps, std::int64_t steps,
