@@ -52,9 +52,9 @@ class Archive:
             self.mean_ci = f["ensemble/time_mean_ci95"][()]
             self.slope = _get(f, "response/slope")
             self.slope_stderr = _get(f, "response/slope_stderr")
-            self.slope_p_value = _get(f, "response/slope_p_value")            # observable
-            self.slope_chi2 = _get(f, "response/slope_chi2")                  # observable
-            self.slope_dof = _get(f, "response/slope_dof")                    # observable
+            self.fit_pvalue = _get(f, "response/linear_fit_pvalue")   # axis, observable
+            self.fit_chi2 = _get(f, "response/linear_fit_chi2")       # axis, observable
+            self.fit_dof = _get(f, "response/linear_fit_dof")         # axis, observable
             self.local_slope = _get(f, "response/local_slope")  # axis, case, observable
             self.local_slope_stderr = _get(f, "response/local_slope_stderr")  # axis, case, observable
             self.predicted = _get(f, "response/predicted_slope")  # forcing_parameter, case, observable

@@ -263,9 +263,9 @@ def fig_local_slope(arch, outdir):
                     ax.axhline(s, color="black", linestyle="--", linewidth=1.2)
                     ax.axhspan(s - 1.96 * se, s + 1.96 * se, color="black", alpha=0.08)
                 fit = ""
-                if arch.slope_p_value is not None and np.isfinite(arch.slope_p_value[o]):
-                    fit = (f"\nlinear fit: chi2/dof {arch.slope_chi2[o]:.3g}/"
-                           f"{int(arch.slope_dof[o])}, p {arch.slope_p_value[o]:.2g}")
+                if arch.fit_pvalue is not None and np.isfinite(arch.fit_pvalue[a, o]):
+                    fit = (f"\nlinear fit: chi2/dof {arch.fit_chi2[a, o]:.3g}/"
+                           f"{int(arch.fit_dof[a, o])}, p {arch.fit_pvalue[a, o]:.2g}")
                 ax.set_title(f"d<{name}>/d{axis}{fit}")
                 ax.set_xlabel(f"{arch.axis_name(axis)} (model units)")
                 ax.set_ylabel(f"local slope of <{name}> (per unit {axis})")

@@ -39,12 +39,14 @@ int agree(const parallel::Communicator& comm, const std::function<void()>& step)
 
 void warn_about_estimates(const spec::Spec& spec, const plan::Plan& plan,
                           const parallel::EnsembleResults& e) {
-  for (std::size_t o = 0; o < e.slope_p_value.size(); ++o) {
-    if (!(e.slope_p_value[o] < 0.01)) continue;
-    spdlog::warn("the response of {} to the sweep is not linear within the errors (chi-square "
+  const std::size_t n_obs = plan.observables.size();
+  for (std::size_t i = 0; i < e.linear_fit_pvalue.size() && n_obs > 0; ++i) {
+    if (!(e.linear_fit_pvalue[i] < 0.01)) continue;
+    spdlog::warn("the response of {} along {} is not linear within the errors (chi-square "
                  "{:.3g} for {} degrees of freedom, p {:.2g}): one slope does not describe it; "
                  "see /response/local_slope",
-                 plan.observables[o], e.slope_chi2[o], e.slope_dof[o], e.slope_p_value[o]);
+                 plan.observables[i % n_obs], spec.sweep[i / n_obs].parameter,
+                 e.linear_fit_chi2[i], e.linear_fit_dof[i], e.linear_fit_pvalue[i]);
   }
   for (std::size_t c = 0; c < e.non_chaotic.size(); ++c) {
     if (e.non_chaotic[c] == 0) continue;

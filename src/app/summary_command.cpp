@@ -282,9 +282,9 @@ void print_json(const ArchiveSummary& s) {
       const std::size_t i = idx(a, n_obs, o);
       Json entry{{"axis", s.axes[a]}, {"observable", s.observables[o]},
                  {"slope", s.slope[i]}, {"stderr", s.slope_stderr[i]}};
-      if (s.slope_chi2.size() == n_obs) {  // archives of earlier versions lack the fit test
-        entry["linear_fit"] = Json{{"chi2", s.slope_chi2[o]}, {"dof", s.slope_dof[o]},
-                                   {"p_value", s.slope_p_value[o]}};
+      if (s.linear_fit_pvalue.size() == s.axes.size() * n_obs) {  // absent from older archives
+        entry["linear_fit"] = Json{{"chi2", s.linear_fit_chi2[i]}, {"dof", s.linear_fit_dof[i]},
+                                   {"p_value", s.linear_fit_pvalue[i]}};
       }
       const std::size_t cases = static_cast<std::size_t>(s.cases);
       if (s.local_slope.size() == s.axes.size() * cases * n_obs) {
@@ -645,11 +645,11 @@ void print_non_chaotic(const ArchiveSummary& s) {
 /// The response slopes with the test of one linear fit, then the local slopes per case.
 void print_response(const ArchiveSummary& s) {
   const std::size_t n_obs = s.observables.size(), cases = static_cast<std::size_t>(s.cases);
-  const bool tested = s.slope_chi2.size() == n_obs;
+  const bool tested = s.linear_fit_pvalue.size() == s.axes.size() * n_obs;
   std::printf("\nresponse slope of the ensemble time mean, model units per unit of the "
               "parameter (least squares over the cases)%s\n",
-              tested ? "; chi2/dof and p of the best weighted linear fit: a small p says one "
-                       "slope does not describe the response"
+              tested ? "; chi2/dof and p of weighted straight lines along the parameter (the "
+                       "others fixed): a small p says one slope does not describe the response"
                      : "");
   std::vector<std::vector<std::string>> rows{{"observable", "parameter", "slope", "std error"}};
   if (tested) {
@@ -663,10 +663,12 @@ void print_response(const ArchiveSummary& s) {
       rows.push_back({s.observables[o], s.axes[a], number_text("%.4g", s.slope[i]),
                       number_text("%.2g", s.slope_stderr[i])});
       if (!tested) continue;
-      rows.back().push_back(number_text("%.3g", s.slope_chi2[o]) + "/" +
-                            std::to_string(s.slope_dof[o]));
-      rows.back().push_back(number_text("%.2g", s.slope_p_value[o]));
-      if (a == 0 && s.slope_p_value[o] < 0.01) not_linear.push_back(s.observables[o]);
+      rows.back().push_back(number_text("%.3g", s.linear_fit_chi2[i]) + "/" +
+                            std::to_string(s.linear_fit_dof[i]));
+      rows.back().push_back(number_text("%.2g", s.linear_fit_pvalue[i]));
+      if (s.linear_fit_pvalue[i] < 0.01) {
+        not_linear.push_back(s.observables[o] + " along " + s.axes[a]);
+      }
     }
   }
   print_aligned(rows);

@@ -33,15 +33,18 @@ void store(const stats::EnsembleEstimate& est, const std::string& source, std::s
   }
 }
 
-/// Response slopes of every observable's ensemble time mean against the sweep axes, and how
-/// well one linear fit describes the time means.
-void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) {
+std::vector<std::size_t> line_through(const spec::Spec& spec, std::size_t c, std::size_t a);
+
+/// Response slopes of every observable's ensemble time mean against the sweep axes, and along
+/// each axis how well straight lines describe the time means (linear_fit_along).
+void fit_slopes(const spec::Spec& spec, const plan::Plan& plan, std::size_t n_axes,
+                EnsembleResults& r) {
   const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
   r.slope.assign(n_axes * n_obs, NAN);
   r.slope_stderr.assign(n_axes * n_obs, NAN);
-  r.slope_chi2.assign(n_obs, NAN);
-  r.slope_dof.assign(n_obs, 0);
-  r.slope_p_value.assign(n_obs, NAN);
+  r.linear_fit_chi2.assign(n_axes * n_obs, NAN);
+  r.linear_fit_dof.assign(n_axes * n_obs, 0);
+  r.linear_fit_pvalue.assign(n_axes * n_obs, NAN);
   if (n_axes == 0) return;
   std::vector<std::vector<double>> x(n_cases);
   for (std::size_t c = 0; c < n_cases; ++c) x[c] = plan.cases[c].axis_values;
@@ -56,10 +59,25 @@ void fit_slopes(const plan::Plan& plan, std::size_t n_axes, EnsembleResults& r) 
       r.slope[a * n_obs + o] = fits[a].slope;
       r.slope_stderr[a * n_obs + o] = fits[a].stderr_;
     }
-    const stats::FitQuality q = stats::linear_fit_quality(x, y, se);
-    r.slope_chi2[o] = q.chi2;
-    r.slope_dof[o] = q.dof;
-    r.slope_p_value[o] = q.p_value;
+    for (std::size_t a = 0; a < n_axes; ++a) {  // a straight line on every line along axis a
+      std::vector<stats::FitQuality> lines;
+      for (std::size_t c = 0; c < n_cases; ++c) {
+        const std::vector<std::size_t> line = line_through(spec, c, a);
+        if (line.front() != c) continue;  // each line once, from its first case
+        std::vector<std::vector<double>> lx;
+        std::vector<double> ly, lse;
+        for (std::size_t k = 0; k < line.size(); ++k) {
+          lx.push_back({spec.sweep[a].values[k]});
+          ly.push_back(y[line[k]]);
+          lse.push_back(se[line[k]]);
+        }
+        lines.push_back(stats::linear_fit_quality(lx, ly, lse));
+      }
+      const stats::FitQuality q = stats::combined_fit_quality(lines);
+      r.linear_fit_chi2[a * n_obs + o] = q.chi2;
+      r.linear_fit_dof[a * n_obs + o] = q.dof;
+      r.linear_fit_pvalue[a * n_obs + o] = q.p_value;
+    }
   }
 }
 
@@ -119,8 +137,8 @@ void local_response(const spec::Spec& spec, const plan::Plan& plan, EnsembleResu
       regime_se[c * n_regimes + k] = r.regime_fraction_std[c * n_regimes + k] / std::sqrt(n);
     }
   }
-  local_slopes(spec, n_cases, n_regimes, r.regime_fraction, regime_se, r.local_regime_slope,
-               r.local_regime_slope_stderr);
+  local_slopes(spec, n_cases, n_regimes, r.regime_fraction, regime_se, r.local_slope_regime,
+               r.local_slope_regime_stderr);
 }
 
 /// Flags the cases that do not behave chaotically (stats/dynamics_check.hpp); needs the
@@ -217,7 +235,7 @@ EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const Mer
     r.effective_members[c] = static_cast<double>(valid);
   }
   reduce_time_mean_errors(plan, merged, r);
-  fit_slopes(plan, spec.sweep.size(), r);
+  fit_slopes(spec, plan, spec.sweep.size(), r);
   local_response(spec, plan, r);
   reduce_twins(spec, plan, merged, r);
   reduce_snapshots(spec, plan, merged, r);

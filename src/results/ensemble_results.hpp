@@ -53,13 +53,13 @@ struct EnsembleResults {
   // response to the sweep, histogram, snapshots
   std::vector<double> slope;
   std::vector<double> slope_stderr;
-  std::vector<double> slope_chi2;
-  std::vector<std::int64_t> slope_dof;
-  std::vector<double> slope_p_value;
+  std::vector<double> linear_fit_chi2;           // [axis][observable]
+  std::vector<std::int64_t> linear_fit_dof;      // [axis][observable]
+  std::vector<double> linear_fit_pvalue;         // [axis][observable]
   std::vector<double> local_slope;
   std::vector<double> local_slope_stderr;
-  std::vector<double> local_regime_slope;
-  std::vector<double> local_regime_slope_stderr;
+  std::vector<double> local_slope_regime;
+  std::vector<double> local_slope_regime_stderr;
   std::vector<std::int64_t> histogram;
   std::vector<double> snapshot_time;
   std::vector<double> snapshot_mean;

@@ -311,18 +311,22 @@ std::vector<Quantity> make_table() {
                "standard error of the slope, propagated from each case's "
                "/ensemble/time_mean_stderr",
                S::sweep, derived("stats::response_slopes of the cases' time means")),
-      ensemble(&E::slope_chi2, "/response/slope_chi2", {"observable"}, "1",
-               "chi-square of the best weighted linear fit of the cases' ensemble time means on "
-               "the swept parameters (weights: 1 / /ensemble/time_mean_stderr^2): large when the "
-               "response is not linear",
-               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
-      ensemble(&E::slope_dof, "/response/slope_dof", {"observable"}, "1",
-               "degrees of freedom of that chi-square: cases used - varying parameters - 1",
-               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
-      ensemble(&E::slope_p_value, "/response/slope_p_value", {"observable"}, "1",
-               "probability of a chi-square at least as large if the response were linear (a "
-               "small value, below 0.01 say, flags a non-linear response: read the local slopes)",
-               S::sweep, derived("stats::linear_fit_quality of the cases' time means")),
+      ensemble(&E::linear_fit_chi2, "/response/linear_fit_chi2", {"axis", "observable"}, "1",
+               "test of a linear response along the swept parameter: on every line of the case "
+               "grid along it (the other parameters fixed) the weighted least-squares line of "
+               "the cases' ensemble time means (weights 1 / /ensemble/time_mean_stderr^2), the "
+               "chi-squares of its residuals summed over the lines: large when the response "
+               "along the parameter is not linear",
+               S::sweep, derived("stats::linear_fit_quality per line, stats::combined_fit_quality")),
+      ensemble(&E::linear_fit_dof, "/response/linear_fit_dof", {"axis", "observable"}, "1",
+               "degrees of freedom of that chi-square: the cases used on each line minus 2, "
+               "summed over the lines with 3 or more",
+               S::sweep, derived("stats::linear_fit_quality per line, stats::combined_fit_quality")),
+      ensemble(&E::linear_fit_pvalue, "/response/linear_fit_pvalue", {"axis", "observable"}, "1",
+               "probability of a chi-square at least as large if the response along the "
+               "parameter were linear (a small value, below 0.01 say, flags a non-linear "
+               "response: read the local slopes); NaN with no degrees of freedom",
+               S::sweep, derived("stats::linear_fit_quality per line, stats::combined_fit_quality")),
       ensemble(&E::local_slope, "/response/local_slope", {"axis", "case", "observable"}, "1",
                "derivative of the ensemble time mean along the swept parameter at the case, the "
                "other parameters fixed: second-order central differences (non-uniform spacing "
@@ -333,13 +337,13 @@ std::vector<Quantity> make_table() {
                "standard error of the local slope, propagated from the cases' "
                "/ensemble/time_mean_stderr (independent cases)",
                S::sweep, derived("stats::gradient_along each axis of the cases' time means")),
-      ensemble(&E::local_regime_slope, "/response/local_regime_slope", {"axis", "case", "regime"},
+      ensemble(&E::local_slope_regime, "/response/local_slope_regime", {"axis", "case", "regime"},
                "1",
                "derivative of the ensemble regime fraction along the swept parameter at the "
                "case, the other parameters fixed (as /response/local_slope)",
                S::sweep_regimes,
                derived("stats::gradient_along each axis of the cases' regime fractions")),
-      ensemble(&E::local_regime_slope_stderr, "/response/local_regime_slope_stderr",
+      ensemble(&E::local_slope_regime_stderr, "/response/local_slope_regime_stderr",
                {"axis", "case", "regime"}, "1",
                "standard error of the local regime slope, propagated from the cases' standard "
                "errors of the regime fraction (/ensemble/regime_fraction_std / sqrt(valid "

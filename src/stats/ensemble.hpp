@@ -73,6 +73,11 @@ struct FitQuality {
 FitQuality linear_fit_quality(const std::vector<std::vector<double>>& x,
                               const std::vector<double>& y, const std::vector<double>& y_se);
 
+/// Independent fits taken together: the sum of the chi-squares and of the degrees of freedom
+/// of the fits that have any (dof > 0), and the p-value of that sum; NaN chi-square and
+/// p-value, 0 degrees of freedom, when none has.
+FitQuality combined_fit_quality(const std::vector<FitQuality>& fits);
+
 /// The derivative dy/dx at every point of one line of the grid, as numpy.gradient(y, x)
 /// defines it (edge_order 1): at interior points the second-order central difference for
 /// non-uniform spacing, f'_i = a f_{i-1} + b f_i + c f_{i+1} with h1 = x_i - x_{i-1},

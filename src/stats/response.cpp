@@ -124,6 +124,20 @@ FitQuality linear_fit_quality(const std::vector<std::vector<double>>& x,
   return q;
 }
 
+FitQuality combined_fit_quality(const std::vector<FitQuality>& fits) {
+  FitQuality q{kNaN, 0, kNaN};
+  double chi2 = 0.0;
+  for (const FitQuality& f : fits) {
+    if (f.dof <= 0) continue;
+    chi2 += f.chi2;
+    q.dof += f.dof;
+  }
+  if (q.dof == 0) return q;
+  q.chi2 = chi2;
+  q.p_value = gsl_cdf_chisq_Q(q.chi2, static_cast<double>(q.dof));
+  return q;
+}
+
 std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vector<double>& y,
                                   const std::vector<double>& y_se) {
   const std::size_t n = x.size();

@@ -987,9 +987,10 @@ def check_local_response(path):
     edge_order=1) on the sweep grid (numpy's own second-order central differences for
     non-uniform spacing, one-sided at the ends), and its standard error against the same
     gradient applied to each case's unit vector (the coefficients of the linear map) with the
-    cases' errors; likewise the regime fractions. /response/slope_chi2 against the residual sum
-    of squares of numpy.linalg.lstsq on the weighted design (intercept and the axes), its p-value
-    against scipy.stats.chi2.sf. Tolerance 1e-12 relative (rounding order only)."""
+    cases' errors; likewise the regime fractions. /response/linear_fit_chi2 along each axis
+    against the residual sums of squares of numpy.polyfit (degree 1, weights 1 / se) on every line
+    of the grid along that axis, summed, its degrees of freedom the points minus 2 summed, its
+    p-value against scipy.stats.chi2.sf. Tolerance 1e-12 relative (rounding order only)."""
     from scipy import stats
     with h5py.File(path, "r") as f:
         axes = [a.decode() if isinstance(a, bytes) else a for a in f["response/axis"][()]]
@@ -1000,11 +1001,11 @@ def check_local_response(path):
         shape = tuple(len(v) for v in values)
         sources = [("time_mean", f["ensemble/time_mean"][()], f["ensemble/time_mean_stderr"][()],
                     "response/local_slope")]
-        if "response/local_regime_slope" in f:
+        if "response/local_slope_regime" in f:
             valid = f["ensemble/valid_members"][()].astype(float)
             sources.append(("regime_fraction", f["ensemble/regime_fraction"][()],
                             f["ensemble/regime_fraction_std"][()] / np.sqrt(valid)[:, None],
-                            "response/local_regime_slope"))
+                            "response/local_slope_regime"))
         for name, y, se, out in sources:
             slope, slope_se = f[out][()], f[out + "_stderr"][()]
             width = y.shape[1]
@@ -1025,20 +1026,31 @@ def check_local_response(path):
             print(f"ok: {out} = numpy.gradient of /ensemble/{name} along {axes} "
                   f"({len(axes)} axes, grid {shape})")
         tm, tse = f["ensemble/time_mean"][()], f["ensemble/time_mean_stderr"][()]
-        chi2, dof, p = (f["response/slope_" + k][()] for k in ("chi2", "dof", "p_value"))
-        X = np.column_stack([np.ones(len(tm))] + [c for c in coords])
-        for o in range(tm.shape[1]):
-            w = 1.0 / tse[:, o]
-            _, rss, _, _ = np.linalg.lstsq(X * w[:, None], tm[:, o] * w, rcond=None)
-            want_dof = len(tm) - X.shape[1]
-            if dof[o] != want_dof:
-                fail(f"{path}: slope_dof[{o}] = {dof[o]}, expected {want_dof}")
-            if not math.isclose(chi2[o], rss[0], rel_tol=1e-9):
-                fail(f"{path}: slope_chi2[{o}] = {chi2[o]}, lstsq gives {rss[0]}")
-            if not math.isclose(p[o], stats.chi2.sf(rss[0], want_dof), rel_tol=1e-9, abs_tol=1e-300):
-                fail(f"{path}: slope_p_value[{o}] = {p[o]}, scipy gives {stats.chi2.sf(rss[0], want_dof)}")
-        print(f"ok: chi-square of the linear fit = lstsq residual, p-value = scipy.stats.chi2.sf "
-              f"({tm.shape[1]} observables; p = {', '.join(f'{v:.3g}' for v in p)})")
+        chi2, dof, p = (f["response/linear_fit_" + k][()] for k in ("chi2", "dof", "pvalue"))
+        n_obs = tm.shape[1]
+        for a, x in enumerate(values):
+            lines = np.moveaxis(np.arange(len(tm)).reshape(shape), a, -1).reshape(-1, len(x))
+            for o in range(n_obs):
+                want_chi2, want_dof = 0.0, 0
+                for line in lines:  # the cases of one line along the axis, in axis order
+                    if len(line) < 3:
+                        continue
+                    y, w = tm[line, o], 1.0 / tse[line, o]
+                    coef = np.polyfit(x, y, 1, w=w)
+                    want_chi2 += float(np.sum((w * (y - np.polyval(coef, x))) ** 2))
+                    want_dof += len(line) - 2
+                if dof[a, o] != want_dof:
+                    fail(f"{path}: linear_fit_dof[{a}, {o}] = {dof[a, o]}, expected {want_dof}")
+                if want_dof == 0:
+                    continue
+                if not math.isclose(chi2[a, o], want_chi2, rel_tol=1e-9):
+                    fail(f"{path}: linear_fit_chi2[{a}, {o}] = {chi2[a, o]}, numpy gives {want_chi2}")
+                want_p = stats.chi2.sf(want_chi2, want_dof)
+                if not math.isclose(p[a, o], want_p, rel_tol=1e-9, abs_tol=1e-300):
+                    fail(f"{path}: linear_fit_pvalue[{a}, {o}] = {p[a, o]}, scipy gives {want_p}")
+        print(f"ok: chi-square of straight lines along each axis = numpy.polyfit residuals, "
+              f"p-value = scipy.stats.chi2.sf ({len(axes)} axes x {n_obs} observables; p = "
+              f"{', '.join(f'{v:.3g}' for v in p.reshape(-1))})")
 
 
 def check_linear(path, matrix, direction):

@@ -78,10 +78,10 @@ class ArchiveData:
                                  else None)
             self.slope = f["response/slope"][()] if self.axes else None
             self.slope_stderr = f["response/slope_stderr"][()] if self.axes else None
-            fit = self.axes and "response/slope_chi2" in f
-            self.slope_chi2 = f["response/slope_chi2"][()] if fit else None
-            self.slope_dof = f["response/slope_dof"][()] if fit else None
-            self.slope_p = f["response/slope_p_value"][()] if fit else None
+            fit = self.axes and "response/linear_fit_chi2" in f
+            self.fit_chi2 = f["response/linear_fit_chi2"][()] if fit else None  # axis, observable
+            self.fit_dof = f["response/linear_fit_dof"][()] if fit else None
+            self.fit_p = f["response/linear_fit_pvalue"][()] if fit else None
             self.local_slope = f["response/local_slope"][()] if fit else None
             self.local_slope_stderr = f["response/local_slope_stderr"][()] if fit else None
             self.snap_time = f["snapshot/time"][()] if "snapshot" in f else None
@@ -635,11 +635,11 @@ def check_summary_table(archive, program):
             if not (printed_sig_close(cells[2], arch.slope[a, o], 4)
                     and printed_sig_close(cells[3], arch.slope_stderr[a, o], 2)):
                 fail(f"table slope {cells} differs from the archive")
-            if arch.slope_chi2 is not None:  # the test of one linear fit beside the slope
+            if arch.fit_chi2 is not None:  # the test of a linear response along the parameter
                 chi2, dof = cells[4].split("/") if len(cells) == 6 else ("", "")
-                if not (printed_sig_close(chi2, arch.slope_chi2[o], 3)
-                        and int(dof) == arch.slope_dof[o]
-                        and printed_sig_close(cells[5], arch.slope_p[o], 2)):
+                if not (printed_sig_close(chi2, arch.fit_chi2[a, o], 3)
+                        and int(dof) == arch.fit_dof[a, o]
+                        and printed_sig_close(cells[5], arch.fit_p[a, o], 2)):
                     fail(f"table slope {cells}: chi2/dof or p differs from the archive")
             seen.add(("slope", a, o))
         elif block == "local" and columns and cells[0].isdigit():

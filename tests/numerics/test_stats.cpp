@@ -413,5 +413,20 @@ TEST(LinearFitQuality, ChiSquareOfTheWeightedFitAndItsUpperTail) {
   EXPECT_NEAR(q.p_value, std::exp(-chi2 / 2.0), 1e-12);
 }
 
+// Exact: independent fits taken together add their chi-squares and degrees of freedom; the
+// p-value of the sum is the chi-square upper tail, exp(-chi2 / 2) (1 + chi2 / 2) for 4 degrees
+// of freedom (closed form). Fits without degrees of freedom (too few points) are left out, and
+// none at all gives NaN.
+TEST(LinearFitQuality, IndependentLinesAddTheirChiSquares) {
+  const FitQuality a{1.25, 2, 0.0}, b{3.5, 2, 0.0}, none{std::nan(""), 0, std::nan("")};
+  const FitQuality q = combined_fit_quality({a, none, b});
+  EXPECT_EQ(q.dof, 4);
+  EXPECT_DOUBLE_EQ(q.chi2, 4.75);
+  EXPECT_NEAR(q.p_value, std::exp(-4.75 / 2.0) * (1.0 + 4.75 / 2.0), 1e-14);
+  const FitQuality empty = combined_fit_quality({none});
+  EXPECT_EQ(empty.dof, 0);
+  EXPECT_TRUE(std::isnan(empty.chi2) && std::isnan(empty.p_value));
+}
+
 }  // namespace
 }  // namespace chaosweep::stats
