@@ -413,6 +413,20 @@ TEST(LinearFitQuality, ChiSquareOfTheWeightedFitAndItsUpperTail) {
   EXPECT_NEAR(q.p_value, std::exp(-chi2 / 2.0), 1e-12);
 }
 
+// Exact, by hand: y = x^2 at x = 0..4 with errors 0.5. The least-squares line is 4 x - 2
+// (slope Sxy / Sxx = 40 / 10, through the means (2, 6)), its residuals 2, -1, -2, -1, 2, so
+// the chi-square is 14 / 0.25 = 56 on 5 - 2 = 3 degrees of freedom, and the upper tail for 3
+// degrees of freedom is erfc(sqrt(chi2 / 2)) + sqrt(2 chi2 / pi) exp(-chi2 / 2).
+TEST(LinearFitQuality, AParabolaAgainstItsLineByHand) {
+  const std::vector<std::vector<double>> x = {{0.0}, {1.0}, {2.0}, {3.0}, {4.0}};
+  const std::vector<double> y = {0.0, 1.0, 4.0, 9.0, 16.0}, se(5, 0.5);
+  const FitQuality q = linear_fit_quality(x, y, se);
+  EXPECT_EQ(q.dof, 3);
+  EXPECT_NEAR(q.chi2, 56.0, 1e-11);
+  const double tail = std::erfc(std::sqrt(28.0)) + std::sqrt(112.0 / M_PI) * std::exp(-28.0);
+  EXPECT_NEAR(q.p_value, tail, 1e-9 * tail);
+}
+
 // Exact: independent fits taken together add their chi-squares and degrees of freedom; the
 // p-value of the sum is the chi-square upper tail, exp(-chi2 / 2) (1 + chi2 / 2) for 4 degrees
 // of freedom (closed form). Fits without degrees of freedom (too few points) are left out, and
