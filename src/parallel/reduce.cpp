@@ -33,10 +33,21 @@ void store(const stats::EnsembleEstimate& est, const std::string& source, std::s
   }
 }
 
-std::vector<std::size_t> line_through(const spec::Spec& spec, std::size_t c, std::size_t a);
+/// The cases along axis `a` through case `c`: the sweep grid's other coordinates fixed (cases
+/// are the cartesian product of the axes, the last varying fastest).
+std::vector<std::size_t> line_through(const spec::Spec& spec, std::size_t c, std::size_t a) {
+  std::size_t stride = 1;
+  for (std::size_t b = a + 1; b < spec.sweep.size(); ++b) stride *= spec.sweep[b].values.size();
+  const std::size_t n = spec.sweep[a].values.size();
+  const std::size_t first = c - (c / stride % n) * stride;
+  std::vector<std::size_t> line(n);
+  for (std::size_t k = 0; k < n; ++k) line[k] = first + k * stride;
+  return line;
+}
 
 /// Response slopes of every observable's ensemble time mean against the sweep axes, and along
-/// each axis how well straight lines describe the time means (linear_fit_along).
+/// each axis how well straight lines describe the time means (on every line of the grid along
+/// it, summed).
 void fit_slopes(const spec::Spec& spec, const plan::Plan& plan, std::size_t n_axes,
                 EnsembleResults& r) {
   const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
@@ -79,18 +90,6 @@ void fit_slopes(const spec::Spec& spec, const plan::Plan& plan, std::size_t n_ax
       r.linear_fit_pvalue[a * n_obs + o] = q.p_value;
     }
   }
-}
-
-/// The cases along axis `a` through case `c`: the sweep grid's other coordinates fixed (cases
-/// are the cartesian product of the axes, the last varying fastest).
-std::vector<std::size_t> line_through(const spec::Spec& spec, std::size_t c, std::size_t a) {
-  std::size_t stride = 1;
-  for (std::size_t b = a + 1; b < spec.sweep.size(); ++b) stride *= spec.sweep[b].values.size();
-  const std::size_t n = spec.sweep[a].values.size();
-  const std::size_t first = c - (c / stride % n) * stride;
-  std::vector<std::size_t> line(n);
-  for (std::size_t k = 0; k < n; ++k) line[k] = first + k * stride;
-  return line;
 }
 
 /// Local slopes of `values` [case][width] (errors `errors`) along every axis into
