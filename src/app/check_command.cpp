@@ -347,6 +347,10 @@ int check_command(const CheckOptions& options) {
                 "(its state%s), so the cases differ only by their parameters\n",
                 static_cast<long long>(spec.ensemble.pair_with_case),
                 spec.noise.kind == spec::NoiseKind::none ? "" : " and its noise");
+    if (plan.pair_groups > 0) {
+      std::printf("  pair groups    the paired cases' correlation behind the local-slope errors "
+                  "is estimated over %d groups of members\n", plan.pair_groups);
+    }
   }
   std::printf("  steps          %lld spin-up + %lld accumulated per member (dt %g)\n",
               static_cast<long long>(plan.spinup_steps),

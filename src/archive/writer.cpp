@@ -273,6 +273,9 @@ void write_root(h5::File& file, const spec::Spec& spec, const plan::Plan& plan,
   if (spec.ensemble.pair_with_case >= 0) {
     root.set_attribute("paired_with_case", spec.ensemble.pair_with_case);
   }
+  if (plan.pair_groups > 0) {
+    root.set_attribute("pair_groups", static_cast<std::int64_t>(plan.pair_groups));
+  }
   root.set_attribute("dt", spec.integration.dt);
   root.set_attribute("spinup", spec.integration.spinup);
   root.set_attribute("duration", spec.integration.duration);

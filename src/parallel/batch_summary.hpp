@@ -34,13 +34,16 @@ std::vector<Estimated> estimated_quantities(const plan::Plan& plan);
 ///            with paired cases [time][observable] moments of the paired differences |
 ///            time-mean errors: [observable] the 4 sums of stats::MemberErrorSums |
 ///            twins: [leads] separations first seen at the lead, the pairs never separated |
-///            response: [group] the response sums (stats::LagSumsLayout)]
+///            response: [group] the response sums (stats::LagSumsLayout) |
+///            paired cases: [pair group] valid members, then the sums of their time means
+///            [observable] and regime fractions [regime]]
 ///   counts:  [non-finite members | histogram bins | [time][regime] snapshot regime counts]
 struct SummaryParts {
   stats::SummaryLayout layout;
   std::size_t columns = 0, leads = 0;  // estimated columns; twin leads (0: no twins)
   std::size_t estimated = 0, twin_moments = 0, snapshots = 0, errors = 0, twin_sums = 0;
   std::size_t response = 0, response_width = 0;  // offset and size of the response sums
+  std::size_t pair = 0, pair_width = 0;          // offset and size of the pair-group sums
   std::size_t histogram = 1, regimes = 1, count_width = 1;
 };
 SummaryParts summary_parts(const spec::Spec& spec, const plan::Plan& plan);
@@ -62,6 +65,9 @@ class Summariser {
   std::vector<double> lead_;  // twin lead times (none without twins)
   double threshold_;
   std::size_t observables_;
+  std::int64_t members_;  // per case
+  int pair_groups_;
+  std::size_t regimes_;
 };
 
 /// Fills b.summary and b.summary_counts (a Summariser made for one batch).

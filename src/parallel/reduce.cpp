@@ -2,6 +2,7 @@
 #include "parallel/reduce.hpp"
 
 #include <cmath>
+#include <functional>
 
 #include "parallel/batch_summary.hpp"
 #include "parallel/merge_batches.hpp"
@@ -92,10 +93,41 @@ void fit_slopes(const spec::Spec& spec, const plan::Plan& plan, std::size_t n_ax
   }
 }
 
+/// How the ensemble means of two paired cases correlate (every case's member m starts from
+/// the same state and draws the same noise), per pair-group column: 1 + observables + regimes
+/// columns, the first the valid members (Plan::pair_groups).
+using PairedCorrelation = std::function<double(std::size_t, std::size_t, std::size_t)>;
+
+PairedCorrelation paired_correlation(const plan::Plan& plan, const MergedCases& merged) {
+  if (plan.pair_groups < 2 || merged.parts.pair_width == 0) return {};
+  const std::size_t groups = static_cast<std::size_t>(plan.pair_groups);
+  const std::size_t width = merged.parts.pair_width / groups;
+  // column `column` of case c: counts and group means
+  auto means = [&merged, groups, width](std::size_t c, std::size_t column,
+                                        std::vector<double>& n, std::vector<double>& mean) {
+    n.assign(groups, 0.0);
+    mean.assign(groups, 0.0);
+    const double* sums = merged.at(c, merged.parts.pair);
+    for (std::size_t g = 0; g < groups; ++g) {
+      n[g] = sums[g * width];
+      mean[g] = n[g] > 0.0 ? sums[g * width + 1 + column] / n[g] : 0.0;
+    }
+  };
+  return [means](std::size_t a, std::size_t b, std::size_t column) {
+    if (a == b) return 1.0;
+    std::vector<double> n_a, mean_a, n_b, mean_b;
+    means(a, column, n_a, mean_a);
+    means(b, column, n_b, mean_b);
+    return stats::group_correlation(n_a, mean_a, n_b, mean_b);
+  };
+}
+
 /// Local slopes of `values` [case][width] (errors `errors`) along every axis into
-/// `slope`, `slope_se` [axis][case][width].
+/// `slope`, `slope_se` [axis][case][width]; with paired cases `rho` gives the correlation of
+/// two cases' values in a column (`first_column` + the column of `values`).
 void local_slopes(const spec::Spec& spec, std::size_t n_cases, std::size_t width,
                   const std::vector<double>& values, const std::vector<double>& errors,
+                  const PairedCorrelation& rho, std::size_t first_column,
                   std::vector<double>& slope, std::vector<double>& slope_se) {
   const std::size_t axes = spec.sweep.size();
   slope.assign(axes * n_cases * width, NAN);
@@ -111,7 +143,13 @@ void local_slopes(const spec::Spec& spec, std::size_t n_cases, std::size_t width
           y.push_back(values[at * width + k]);
           se.push_back(errors[at * width + k]);
         }
-        const std::vector<stats::Slope> d = stats::gradient_along(x, y, se);
+        std::function<double(std::size_t, std::size_t)> correlation;
+        if (rho) {
+          correlation = [&rho, &line, first_column, k](std::size_t i, std::size_t j) {
+            return rho(line[i], line[j], first_column + k);
+          };
+        }
+        const std::vector<stats::Slope> d = stats::gradient_along(x, y, se, correlation);
         for (std::size_t i = 0; i < line.size(); ++i) {
           slope[(a * n_cases + line[i]) * width + k] = d[i].slope;
           slope_se[(a * n_cases + line[i]) * width + k] = d[i].stderr_;
@@ -122,11 +160,13 @@ void local_slopes(const spec::Spec& spec, std::size_t n_cases, std::size_t width
 }
 
 /// The local response along each axis: time means, and regime fractions.
-void local_response(const spec::Spec& spec, const plan::Plan& plan, EnsembleResults& r) {
+void local_response(const spec::Spec& spec, const plan::Plan& plan, const MergedCases& merged,
+                    EnsembleResults& r) {
   const std::size_t n_cases = plan.cases.size(), n_obs = plan.observables.size();
   const std::size_t n_regimes = plan.regime_labels.size();
   if (spec.sweep.empty()) return;
-  local_slopes(spec, n_cases, n_obs, r.time_mean, r.time_mean_stderr, r.local_slope,
+  const PairedCorrelation rho = paired_correlation(plan, merged);
+  local_slopes(spec, n_cases, n_obs, r.time_mean, r.time_mean_stderr, rho, 0, r.local_slope,
                r.local_slope_stderr);
   if (n_regimes == 0) return;
   std::vector<double> regime_se(n_cases * n_regimes, NAN);
@@ -136,8 +176,8 @@ void local_response(const spec::Spec& spec, const plan::Plan& plan, EnsembleResu
       regime_se[c * n_regimes + k] = r.regime_fraction_std[c * n_regimes + k] / std::sqrt(n);
     }
   }
-  local_slopes(spec, n_cases, n_regimes, r.regime_fraction, regime_se, r.local_slope_regime,
-               r.local_slope_regime_stderr);
+  local_slopes(spec, n_cases, n_regimes, r.regime_fraction, regime_se, rho, n_obs,
+               r.local_slope_regime, r.local_slope_regime_stderr);
 }
 
 /// Flags the cases that do not behave chaotically (stats/dynamics_check.hpp); needs the
@@ -235,7 +275,7 @@ EnsembleResults reduce(const spec::Spec& spec, const plan::Plan& plan, const Mer
   }
   reduce_time_mean_errors(plan, merged, r);
   fit_slopes(spec, plan, spec.sweep.size(), r);
-  local_response(spec, plan, r);
+  local_response(spec, plan, merged, r);
   reduce_twins(spec, plan, merged, r);
   reduce_snapshots(spec, plan, merged, r);
   reduce_transient(spec, plan, merged, r);

@@ -129,6 +129,9 @@ Plan make_plan(const spec::Spec& spec) {
       plan.forcings.push_back(f.parameter);
     }
   }
+  if (spec.ensemble.pair_with_case >= 0 && !spec.sweep.empty()) {
+    plan.pair_groups = static_cast<int>(std::min<std::int64_t>(kPairGroups, plan.members));
+  }
   const spec::Lyapunov& lyapunov = spec.statistics.lyapunov;
   if (lyapunov.enabled) {
     plan.lyapunov_every_steps =

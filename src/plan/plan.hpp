@@ -38,6 +38,9 @@ struct TwinTimes {
   std::int64_t last_step() const { return start_step + (leads - 1) * every_steps; }
 };
 
+/// Groups of members of paired cases (Plan::pair_groups), at most the members.
+constexpr int kPairGroups = 64;
+
 /// Everything resolved from the spec once: the model, the cases and batches, and every time
 /// span as a whole number of steps of dt (rounded to the nearest), so that no other part of
 /// the program rounds times or looks the model up again.
@@ -70,6 +73,14 @@ struct Plan {
   /// The group of member m of a case (statistics.response).
   int response_group(std::int64_t member) const {
     return static_cast<int>(member * response_groups / members);
+  }
+  /// Paired cases with a sweep (ensemble.pair_with_case): the members' time means and regime
+  /// fractions are also summed per group of members (member m in group m * pair_groups /
+  /// members), the same groups in every case, so that the reduction can estimate how the
+  /// paired cases' ensemble means correlate; 0 otherwise.
+  int pair_groups = 0;
+  int pair_group(std::int64_t member) const {
+    return static_cast<int>(member * pair_groups / members);
   }
   std::int64_t lyapunov_every_steps = 0;     // re-orthonormalisation period, 0 without
   std::int64_t attractor_spinup_steps = 0;   // initial_state: {from: attractor}, 0 otherwise

@@ -335,8 +335,12 @@ std::vector<Quantity> make_table() {
       ensemble(&E::local_slope_stderr, "/response/local_slope_stderr",
                {"axis", "case", "observable"}, "1",
                "standard error of the local slope, propagated from the cases' "
-               "/ensemble/time_mean_stderr (independent cases)",
-               S::sweep, derived("stats::gradient_along each axis of the cases' time means")),
+               "/ensemble/time_mean_stderr, with paired cases (ensemble.pair_with_case) and "
+               "their correlation, estimated from up to 64 groups of members (independent cases "
+               "otherwise)",
+               S::sweep,
+               derived("stats::gradient_along each axis of the cases' time means; with paired "
+                       "cases stats::group_correlation of the pair groups' sums")),
       ensemble(&E::local_slope_regime, "/response/local_slope_regime", {"axis", "case", "regime"},
                "1",
                "derivative of the ensemble regime fraction along the swept parameter at the "
@@ -347,7 +351,8 @@ std::vector<Quantity> make_table() {
                {"axis", "case", "regime"}, "1",
                "standard error of the local regime slope, propagated from the cases' standard "
                "errors of the regime fraction (/ensemble/regime_fraction_std / sqrt(valid "
-               "members))",
+               "members)), with paired cases and their correlation (as "
+               "/response/local_slope_stderr)",
                S::sweep_regimes,
                derived("stats::gradient_along each axis of the cases' regime fractions")),
       ensemble(&E::predicted_slope, "/response/predicted_slope", {"forcing_parameter", "case", "observable"},

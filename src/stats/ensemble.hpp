@@ -6,6 +6,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <vector>
 
 namespace chaosweep::stats {
@@ -83,9 +84,21 @@ FitQuality combined_fit_quality(const std::vector<FitQuality>& fits);
 /// non-uniform spacing, f'_i = a f_{i-1} + b f_i + c f_{i+1} with h1 = x_i - x_{i-1},
 /// h2 = x_{i+1} - x_i, a = -h2 / (h1 (h1 + h2)), b = (h2 - h1) / (h1 h2), c = h1 / (h2 (h1 + h2))
 /// ((f_{i+1} - f_{i-1}) / (2h) when the spacing is uniform); at the two ends the one-sided
-/// first difference. The standard error treats the points' errors as independent:
-/// sqrt(sum of coefficient^2 se^2). Fewer than two points: NaN.
+/// first difference. The standard error propagates the points' errors through these
+/// coefficients, sqrt(sum over i, j of c_i c_j rho_ij se_i se_j), with the correlation rho_ij
+/// of points i and j given by `rho` (i != j only), or 0 when `rho` is empty (independent
+/// points: sqrt(sum of c_i^2 se_i^2)); a negative sum from an estimated rho counts as 0.
+/// Fewer than two points: NaN.
 std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vector<double>& y,
-                                  const std::vector<double>& y_se);
+                                  const std::vector<double>& y_se,
+                                  const std::function<double(std::size_t, std::size_t)>& rho = {});
+
+/// The correlation of two paired quantities estimated from their means over the same groups
+/// of members: the weighted sample correlation of the group means a_g and b_g, each group
+/// weighted by the mean of its member counts in the two (n_a_g + n_b_g) / 2 (the means of
+/// groups of n members correlate as the members do). Groups empty in either are skipped; 0
+/// when fewer than 3 groups remain or either group mean does not vary.
+double group_correlation(const std::vector<double>& n_a, const std::vector<double>& a,
+                         const std::vector<double>& n_b, const std::vector<double>& b);
 
 }  // namespace chaosweep::stats

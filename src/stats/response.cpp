@@ -139,7 +139,8 @@ FitQuality combined_fit_quality(const std::vector<FitQuality>& fits) {
 }
 
 std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vector<double>& y,
-                                  const std::vector<double>& y_se) {
+                                  const std::vector<double>& y_se,
+                                  const std::function<double(std::size_t, std::size_t)>& rho) {
   const std::size_t n = x.size();
   if (y.size() != n || y_se.size() != n) {
     throw std::invalid_argument("gradient_along needs one value and error per point.");
@@ -151,6 +152,14 @@ std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vecto
     for (int j = 0; j < k; ++j) {
       value += coef[j] * y[at[j]];
       var += coef[j] * coef[j] * y_se[at[j]] * y_se[at[j]];
+    }
+    if (rho) {
+      for (int j = 0; j < k; ++j) {
+        for (int l = j + 1; l < k; ++l) {
+          var += 2.0 * coef[j] * coef[l] * rho(at[j], at[l]) * y_se[at[j]] * y_se[at[l]];
+        }
+      }
+      var = std::max(var, 0.0);
     }
     out[i] = Slope{value, std::sqrt(var)};
   };
@@ -180,6 +189,38 @@ std::vector<Slope> gradient_along(const std::vector<double>& x, const std::vecto
   combine(n - 1, last, last_at, 2);
   out[n - 1].slope = (y[n - 1] - y[n - 2]) / (x[n - 1] - x[n - 2]);
   return out;
+}
+
+double group_correlation(const std::vector<double>& n_a, const std::vector<double>& a,
+                         const std::vector<double>& n_b, const std::vector<double>& b) {
+  const std::size_t groups = n_a.size();
+  if (a.size() != groups || n_b.size() != groups || b.size() != groups) {
+    throw std::invalid_argument("group_correlation needs one count and mean per group in each.");
+  }
+  double w_sum = 0.0, mean_a = 0.0, mean_b = 0.0;
+  int used = 0;
+  for (std::size_t g = 0; g < groups; ++g) {
+    if (!(n_a[g] > 0.0 && n_b[g] > 0.0)) continue;
+    const double w = 0.5 * (n_a[g] + n_b[g]);
+    w_sum += w;
+    mean_a += w * a[g];
+    mean_b += w * b[g];
+    ++used;
+  }
+  if (used < 3) return 0.0;
+  mean_a /= w_sum;
+  mean_b /= w_sum;
+  double saa = 0.0, sbb = 0.0, sab = 0.0;
+  for (std::size_t g = 0; g < groups; ++g) {
+    if (!(n_a[g] > 0.0 && n_b[g] > 0.0)) continue;
+    const double w = 0.5 * (n_a[g] + n_b[g]);
+    const double da = a[g] - mean_a, db = b[g] - mean_b;
+    saa += w * da * da;
+    sbb += w * db * db;
+    sab += w * da * db;
+  }
+  if (!(saa > 0.0 && sbb > 0.0)) return 0.0;
+  return std::clamp(sab / std::sqrt(saa * sbb), -1.0, 1.0);
 }
 
 }  // namespace chaosweep::stats

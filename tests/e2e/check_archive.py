@@ -1713,6 +1713,64 @@ def check_ring_response(path):
           f"(ratio {predicted[c] / local[c]:.1f})")
 
 
+def check_paired_slopes(path):
+    """Local-slope errors of paired cases (one swept axis) against their definition computed
+    with numpy from every member's stored time means: each member's own numpy.gradient along
+    the axis (edge_order 1), the standard deviation of those across members over sqrt(members)
+    (the exact paired error). With at most 64 members the archive's groups are single members
+    and the error must equal it to 1e-9 relative wherever the cases' errors are the spread
+    across members (the within-member floor not in play); with more members the correlation is
+    estimated from 64 groups, and the error must lie within 0.6 to 1.6 of it: the estimate of
+    1 - rho from 64 groups has a relative error of about (1 + rho) / 8, up to a quarter, and
+    the tolerance is about three of those on the error (common practice); independent cases'
+    errors are 2 to 3 times the exact ones here.
+    The same for the regime fractions when the archive has them. The errors of independent
+    cases, numpy's propagation of /ensemble/time_mean_stderr, are printed beside."""
+    with h5py.File(path, "r") as f:
+        axes = [a.decode() if isinstance(a, bytes) else str(a) for a in f["response/axis"][()]]
+        if len(axes) != 1:
+            fail(f"{path}: paired-slopes needs one swept axis, the archive has {axes}")
+        x = f["case/" + axes[0]][()]
+        groups = int(f.attrs["pair_groups"])
+        members = int(f.attrs["members_per_case"])
+        status = f["member/status"][()]
+        if (status != 0).any():
+            fail(f"{path}: paired-slopes needs every member valid")
+        series = [("time mean", f["member/time_mean"][()], f["ensemble/time_mean_stderr"][()],
+                   f["ensemble/time_mean_std"][()], f["response/local_slope"][0],
+                   f["response/local_slope_stderr"][0])]
+        if "member/regime_fraction" in f:
+            series.append(("regime fraction", f["member/regime_fraction"][()],
+                           f["ensemble/regime_fraction_std"][()] / np.sqrt(members),
+                           f["ensemble/regime_fraction_std"][()], f["response/local_slope_regime"][0],
+                           f["response/local_slope_regime_stderr"][0]))
+    if groups != min(64, members):
+        fail(f"{path}: pair_groups {groups}, expected min(64, {members})")
+    exact = members <= 64
+    for name, values, se, across_std, slope, slope_se in series:
+        own = np.gradient(values, x, axis=0, edge_order=1)  # [case][member][column]
+        want = own.std(axis=1, ddof=1) / np.sqrt(members)
+        if not np.allclose(slope, own.mean(axis=1), rtol=1e-12, atol=1e-12):
+            fail(f"{path}: {name}: local slopes are not the mean of the members' own differences")
+        weights = np.gradient(np.eye(len(x)), x, axis=0, edge_order=1)  # [case][point]
+        independent = np.sqrt(weights ** 2 @ se ** 2)
+        spread_sets = np.isclose(se, across_std / np.sqrt(members), rtol=1e-12, atol=0)
+        usable = (np.abs(weights) > 0).astype(int) @ (~spread_sets).astype(int) == 0
+        usable &= want > 0
+        if usable.sum() < usable.size // 2:
+            fail(f"{path}: {name}: too few errors set by the spread across members to compare")
+        ratio = slope_se[usable] / want[usable]
+        if exact and np.abs(ratio - 1).max() > 1e-9:
+            fail(f"{path}: {name}: paired errors {slope_se[usable]} are not the members' own "
+                 f"differences' {want[usable]}")
+        if not exact and (ratio.min() < 0.6 or ratio.max() > 1.6):
+            fail(f"{path}: {name}: paired errors over the members' own ({ratio.min():.2f} .. "
+                 f"{ratio.max():.2f}) outside 0.6 .. 1.6")
+        print(f"ok: {path}: {name}: {usable.sum()} local-slope errors, paired over exact "
+              f"{ratio.min():.3f} .. {ratio.max():.3f} ({groups} groups of {members} members); "
+              f"independent cases would give {np.median(independent[usable] / want[usable]):.2f}x")
+
+
 CHECKS = {
     "ring-response": check_ring_response,
     "fdt-definitions": check_fdt_definitions,
@@ -1720,6 +1778,7 @@ CHECKS = {
     "transient": check_transient,
     "paired-identical": check_paired_identical,
     "paired-linear": check_paired_linear,
+    "paired-slopes": check_paired_slopes,
     "zero-noise": check_zero_noise,
     "residence-estimates": check_residence_estimates,
     "gbm-lyapunov": check_gbm_lyapunov,

@@ -1,5 +1,6 @@
 // Statistics tests: one-pass and merged moments, the blocked time-moment accumulator, regime
 // accounting, histograms, Student-t quantiles, ensemble estimates and response slopes.
+#include <gsl/gsl_statistics_double.h>
 #include <gtest/gtest.h>
 
 #include <algorithm>
@@ -377,6 +378,82 @@ TEST(GradientAlong, ExactForQuadraticsInsideAndLinesAtTheEnds) {
   EXPECT_EQ(de[1].slope, (9.0 - 1.0) / 2.0);
   EXPECT_EQ(de[2].slope, (16.0 - 4.0) / 2.0);
   EXPECT_TRUE(std::isnan(gradient_along({1.0}, {2.0}, {0.1})[0].slope));
+}
+
+// Exact identity of sample moments: with paired points (every member has a value at every
+// point, as in paired cases), se_i = s_i / sqrt(M) and rho_ij the sample correlation of the
+// members' values at i and j (from GSL's gsl_stats_correlation, the reference), the propagated
+// error equals the standard deviation across members of each member's own differences over
+// sqrt(M). Without rho the points count as independent.
+TEST(GradientAlong, PairedErrorIsTheSpreadOfTheMembersOwnDifferences) {
+  const std::vector<double> x = {0.0, 0.5, 1.5, 2.0, 3.5};
+  const std::size_t points = x.size(), members = 40;
+  std::mt19937_64 rng(7);
+  std::normal_distribution<double> normal;
+  std::vector<std::vector<double>> values(points, std::vector<double>(members));  // [point][member]
+  for (std::size_t m = 0; m < members; ++m) {
+    const double shared = normal(rng);  // what pairing shares: strongly correlated points
+    for (std::size_t i = 0; i < points; ++i) {
+      values[i][m] = x[i] * x[i] + shared * (1.0 + 0.2 * i) + 0.3 * normal(rng);
+    }
+  }
+  std::vector<double> mean(points), se(points);
+  for (std::size_t i = 0; i < points; ++i) {
+    mean[i] = gsl_stats_mean(values[i].data(), 1, members);
+    se[i] = gsl_stats_sd(values[i].data(), 1, members) / std::sqrt(static_cast<double>(members));
+  }
+  const auto rho = [&values, members](std::size_t i, std::size_t j) {
+    return gsl_stats_correlation(values[i].data(), 1, values[j].data(), 1, members);
+  };
+  const std::vector<Slope> paired = gradient_along(x, mean, se, rho);
+  // each member's own differences, then their spread
+  std::vector<std::vector<double>> own(points, std::vector<double>(members));
+  for (std::size_t m = 0; m < members; ++m) {
+    std::vector<double> y(points);
+    for (std::size_t i = 0; i < points; ++i) y[i] = values[i][m];
+    const std::vector<Slope> d = gradient_along(x, y, std::vector<double>(points, 1.0));
+    for (std::size_t i = 0; i < points; ++i) own[i][m] = d[i].slope;
+  }
+  const std::vector<Slope> independent = gradient_along(x, mean, se);
+  for (std::size_t i = 0; i < points; ++i) {
+    const double expected =
+        gsl_stats_sd(own[i].data(), 1, members) / std::sqrt(static_cast<double>(members));
+    EXPECT_NEAR(paired[i].stderr_, expected, 1e-12 * expected) << "point " << i;
+    EXPECT_NEAR(paired[i].slope, gsl_stats_mean(own[i].data(), 1, members), 1e-12) << "point " << i;
+    EXPECT_GT(independent[i].stderr_, 2.0 * paired[i].stderr_) << "point " << i;
+  }
+  const auto zero = [](std::size_t, std::size_t) { return 0.0; };
+  const std::vector<Slope> with_zero = gradient_along(x, mean, se, zero);
+  for (std::size_t i = 0; i < points; ++i) EXPECT_EQ(with_zero[i].stderr_, independent[i].stderr_);
+  // perfectly correlated equal errors (exact in binary): a difference has no error
+  const std::vector<Slope> one =
+      gradient_along({0.0, 1.0}, {1.0, 2.0}, {0.25, 0.25}, [](std::size_t, std::size_t) { return 1.0; });
+  EXPECT_EQ(one[0].stderr_, 0.0);
+}
+
+// Equal member counts: the Pearson correlation of the group means (GSL's
+// gsl_stats_correlation, the reference). A group of 2 members weighs as two groups of one with
+// the same means (exact). Groups empty in either are skipped; too few groups, or a constant,
+// give 0.
+TEST(GroupCorrelation, WeightedCorrelationOfTheGroupMeans) {
+  const std::vector<double> a = {1.0, 2.5, 0.5, 3.0, 2.0, 4.5}, b = {0.8, 2.0, 1.1, 2.4, 2.9, 3.7};
+  const std::vector<double> ones(a.size(), 1.0);
+  EXPECT_NEAR(group_correlation(ones, a, ones, b), gsl_stats_correlation(a.data(), 1, b.data(), 1, a.size()),
+              1e-14);
+  const std::vector<double> twice_a = {1.0, 1.0, 2.5, 0.5, 3.0, 2.0, 4.5};
+  const std::vector<double> twice_b = {0.8, 0.8, 2.0, 1.1, 2.4, 2.9, 3.7};
+  const std::vector<double> ones7(7, 1.0);
+  const std::vector<double> counts = {2.0, 1.0, 1.0, 1.0, 1.0, 1.0};
+  EXPECT_NEAR(group_correlation(counts, a, counts, b), group_correlation(ones7, twice_a, ones7, twice_b),
+              1e-14);
+  std::vector<double> gap = ones;
+  gap[1] = 0.0;  // group 1 empty in a: skipped
+  const std::vector<double> a5 = {1.0, 0.5, 3.0, 2.0, 4.5}, b5 = {0.8, 1.1, 2.4, 2.9, 3.7};
+  EXPECT_NEAR(group_correlation(gap, a, ones, b), gsl_stats_correlation(a5.data(), 1, b5.data(), 1, 5),
+              1e-14);
+  const std::vector<double> two(2, 1.0);
+  EXPECT_EQ(group_correlation(two, {1.0, 2.0}, two, {3.0, 5.0}), 0.0);
+  EXPECT_EQ(group_correlation(ones, std::vector<double>(a.size(), 2.0), ones, b), 0.0);
 }
 
 // Exact: data on a plane have chi-square 0 (rounding) and p-value 1. A line with +d and -d
