@@ -1,8 +1,9 @@
 // chaosweep-bench: member-steps per second per core of the production batch kernel and of the
 // scalar reference integrator, measured side by side in one run, for forced Lorenz-63 and
 // Lorenz-96 (n 40) with time moments and sign regimes on (and with a histogram on as well),
-// the rate at several batch widths, the cost of twin experiments, and the core's FMA
-// throughput for scale.
+// the rate at several batch widths, the cost of twins, the response sums, schedules, noise and
+// Lyapunov exponents, every model against every feature with its counted flops (the matrix),
+// and the core's FMA throughput for scale.
 //
 //   chaosweep-bench [--model lorenz63|lorenz84|lorenz96|lorenz96-two-scale|all] [--members N] [--steps S]
 //                   [--widths 16,32,64,...] [--repeats R] [--sections main,noise,...] [--json]
@@ -37,8 +38,8 @@ struct Options {
   int width = 64;
   int repeats = 5;
   long scalar_members = 64;
-  std::vector<std::string> sections = {"main",     "widths", "twins",   "response",
-                                       "schedule", "noise",  "lyapunov"};
+  std::vector<std::string> sections = {"main",  "widths",   "twins",  "response",
+                                       "schedule", "noise", "lyapunov", "matrix"};
   bool json = false;
   bool runs(const std::string& section) const {
     return std::find(sections.begin(), sections.end(), section) != sections.end();
@@ -126,52 +127,107 @@ Row measure_response(const Options& o, const std::string& model, bool on) {
   return row;
 }
 
+/// `s` with its model's forcing on a ramp over the run, from its constant value up by 2.
+void add_ramp(spec::Spec& s, const std::string& model, long steps) {
+  s.schedule.kind = spec::ScheduleKind::ramp;
+  s.schedule.parameter = model == "lorenz63" ? "forcing" : "F";
+  s.schedule.from = s.parameters.at(s.schedule.parameter)[0];
+  s.schedule.to = s.schedule.from + 2.0;
+  s.schedule.start = 0.0;
+  s.schedule.end = static_cast<double>(steps) * s.integration.dt;
+}
+
+/// `s` under stochastic forcing of `kind` (additive, multiplicative or red with correlation
+/// time 0.1, one realisation per member or shared) on every state variable, or with
+/// `first_only` on the first one alone, integrated by `method`; returns the row's label.
+std::string add_noise(spec::Spec& s, const std::string& model, const std::string& method,
+                      spec::NoiseKind kind, bool shared, bool first_only) {
+  s.integration.method = method;
+  std::string label = method;
+  if (kind == spec::NoiseKind::none) return label;
+  const bool l63 = model == "lorenz63";
+  s.noise.kind = kind;
+  s.noise.amplitude = kind == spec::NoiseKind::multiplicative ? 0.1 : (l63 ? 1.0 : 0.5);
+  if (kind == spec::NoiseKind::red) s.noise.correlation_time = 0.1;
+  s.noise.shared = shared;
+  const auto info = models::Registry::instance().find(model);
+  const auto names = info->make(s.parameters)->observables();
+  const int dim = first_only ? 1 : info->make(s.parameters)->state_dim();
+  for (int i = 0; i < dim; ++i) {
+    s.noise.variables.push_back(i);
+    s.noise.variable_names.push_back(names[static_cast<std::size_t>(i)].name);
+  }
+  label += std::string(" ") + spec::noise_kind_name(kind) + (shared ? " shared" : " per-member");
+  if (first_only) label += " (" + s.noise.variable_names.front() + " only)";
+  return label;
+}
+
 /// The production kernel (moments+regimes) with the model's forcing on a ramp (schedule), or
 /// constant (`on` false): their ratio is the cost of the time-dependent forcing.
 Row measure_schedule(const Options& o, const std::string& model, bool on) {
   spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
-  if (on) {
-    s.schedule.kind = spec::ScheduleKind::ramp;
-    s.schedule.parameter = model == "lorenz63" ? "forcing" : "F";
-    s.schedule.from = model == "lorenz63" ? 2.0 : 8.0;
-    s.schedule.to = s.schedule.from + 2.0;
-    s.schedule.start = 0.0;
-    s.schedule.end = static_cast<double>(o.steps) * s.integration.dt;
-  }
+  if (on) add_ramp(s, model, o.steps);
   Row row{model, on ? "ramp schedule" : "constant forcing", o.width, 0.0, {}, {}};
   row.production = repeat(o.repeats, [&] { return production_rate(s); });
   return row;
 }
 
-/// The production kernel (moments+regimes) under stochastic forcing (noise on every state
-/// variable, with `first_only` on the first one alone; integration.method `method`, `kind`
-/// additive, multiplicative or red with correlation time 0.1, one realisation per member or
-/// shared), or the deterministic RK4 run (`method` "rk4", kind none) that the noisy rates are
-/// compared with.
+/// The production kernel (moments+regimes) under stochastic forcing (add_noise), or the
+/// deterministic RK4 run (`method` "rk4", kind none) that the noisy rates are compared with.
 Row measure_noise(const Options& o, const std::string& model, const std::string& method,
                   spec::NoiseKind kind, bool shared, bool first_only = false) {
   spec::Spec s = bench_campaign(model, o.members, o.width, 0, o.steps, false);
-  s.integration.method = method;
-  std::string label = method;
-  if (kind != spec::NoiseKind::none) {
-    const bool l63 = model == "lorenz63";
-    s.noise.kind = kind;
-    s.noise.amplitude = kind == spec::NoiseKind::multiplicative ? 0.1 : (l63 ? 1.0 : 0.5);
-    if (kind == spec::NoiseKind::red) s.noise.correlation_time = 0.1;
-    s.noise.shared = shared;
-    const auto info = models::Registry::instance().find(model);
-    const auto names = info->make(s.parameters)->observables();
-    const int dim = first_only ? 1 : info->make(s.parameters)->state_dim();
-    for (int i = 0; i < dim; ++i) {
-      s.noise.variables.push_back(i);
-      s.noise.variable_names.push_back(names[static_cast<std::size_t>(i)].name);
-    }
-    label += std::string(" ") + spec::noise_kind_name(kind) + (shared ? " shared" : " per-member");
-    if (first_only) label += " (" + s.noise.variable_names.front() + " only)";
-  }
+  const std::string label = add_noise(s, model, method, kind, shared, first_only);
   Row row{model, label, o.width, 0.0, {}, {}};
   row.production = repeat(o.repeats, [&] { return production_rate(s); });
   return row;
+}
+
+/// The matrix of every model and feature: the production path with moments+regimes (plain),
+/// with the histogram, under a ramp schedule, under additive noise (Heun, one realisation per
+/// member), with twins every 10 steps, and with 1 and min(dim, 3) Lyapunov exponents
+/// (renormalised every 0.5); each row's flops per member-step counted (campaigns.cpp).
+std::vector<Row> measure_matrix(const Options& o, const std::string& model) {
+  const long members = members_of(o, model);
+  const spec::Spec plain = bench_campaign(model, members, o.width, 0, o.steps, false);
+  const int dim = models::Registry::instance().find(model)->make(plain.parameters)->state_dim();
+  std::vector<std::pair<std::string, spec::Spec>> features;
+  features.emplace_back("plain", plain);
+  features.emplace_back("histogram", bench_campaign(model, members, o.width, 0, o.steps, true));
+  features.emplace_back("schedule", plain);
+  add_ramp(features.back().second, model, o.steps);
+  features.emplace_back("noise", plain);
+  features.back().first = "noise: " + add_noise(features.back().second, model, "heun",
+                                                spec::NoiseKind::additive, false, false);
+  features.emplace_back("twins every 10 steps", plain);
+  features.back().second.statistics.twins = {true, 1e-8, 10 * plain.integration.dt, 0.5};
+  for (int k : {1, std::min(dim, 3)}) {
+    features.emplace_back("lyapunov " + std::to_string(k), plain);
+    features.back().second.statistics.lyapunov = {true, k, 0.5};
+  }
+  std::vector<Row> rows;
+  for (const auto& [label, s] : features) {
+    Row row{model, label, o.width, flops_per_member_step(s), {}, {}};
+    row.production = repeat(o.repeats, [&s = s] { return production_rate(s); });
+    rows.push_back(row);
+  }
+  return rows;
+}
+
+void print_matrix(const std::vector<Row>& rows, const Summary& peak) {
+  if (rows.empty()) return;
+  std::printf("\nevery model x feature (production path, moments+regimes, width %d): members' "
+              "steps per CPU second, flops per member-step counted, GFLOP/s and its share of the "
+              "FMA loop, and the rate against the model's plain row\n", rows.front().width);
+  double plain = 0.0;
+  for (const Row& r : rows) {
+    if (r.statistics == "plain") plain = r.production.median;
+    const double gflops = r.production.median * r.flops / 1e9;
+    std::printf("%-18s %-32s %9.3g (%8.3g-%8.3g) %8.0f flops %6.1f GFLOP/s (%2.0f%%)  %4.2f of plain\n",
+                r.model.c_str(), r.statistics.c_str(), r.production.median, r.production.min,
+                r.production.max, r.flops, gflops, 100.0 * gflops / peak.median,
+                r.production.median / plain);
+  }
 }
 
 void print_noise(const std::vector<Row>& rows) {
@@ -299,7 +355,8 @@ nlohmann::ordered_json json_summary(const Summary& s) {
 void print_json(const Options& o, const std::vector<Row>& main, const std::vector<Row>& widths,
                 const std::vector<Row>& twins, const std::vector<Row>& response,
                 const std::vector<Row>& schedule, const std::vector<Row>& noise,
-                const std::vector<Row>& lyapunov, const Summary& peak) {
+                const std::vector<Row>& lyapunov, const std::vector<Row>& matrix,
+                const Summary& peak) {
   using Json = nlohmann::ordered_json;
   Json doc{{"cpu", first_line_of("/proc/cpuinfo", "model name")},
            {"load_average", first_line_of("/proc/loadavg", "")},
@@ -352,6 +409,18 @@ void print_json(const Options& o, const std::vector<Row>& main, const std::vecto
                                  {"width", r.width}, {"production", json_summary(r.production)}});
   }
   doc["lyapunov"] = lyapunov_rows;
+  Json matrix_rows = Json::array();
+  double plain = 0.0;
+  for (const Row& r : matrix) {
+    if (r.statistics == "plain") plain = r.production.median;
+    const double gflops = r.production.median * r.flops / 1e9;
+    matrix_rows.push_back(Json{{"model", r.model}, {"feature", r.statistics}, {"width", r.width},
+                               {"production", json_summary(r.production)},
+                               {"flops_per_member_step", r.flops}, {"gflops", gflops},
+                               {"fma_fraction", gflops / peak.median},
+                               {"of_plain", r.production.median / plain}});
+  }
+  doc["matrix"] = matrix_rows;
   std::cout << doc.dump(2) << "\n";
 }
 
@@ -362,7 +431,7 @@ int run(const Options& o) {
   if (o.model != "all") models = main_models = {o.model};
   if (o.model == kTwoScale) models.clear();
   const Summary peak = repeat(o.repeats, [] { return fma_peak_gflops(0.1); });
-  std::vector<Row> main, widths, twins, response, schedule, noise, lyapunov;
+  std::vector<Row> main, widths, twins, response, schedule, noise, lyapunov, matrix;
   for (const std::string& m : main_models) {
     if (o.runs("main")) {
       for (bool histogram : {false, true}) main.push_back(measure(o, m, histogram, o.width, true));
@@ -407,8 +476,13 @@ int run(const Options& o) {
       lyapunov.push_back(measure_lyapunov(o, m, k));
     }
   }
+  for (const std::string& m : main_models) {
+    if (!o.runs("matrix")) break;
+    const std::vector<Row> rows = measure_matrix(o, m);
+    matrix.insert(matrix.end(), rows.begin(), rows.end());
+  }
   if (o.json) {
-    print_json(o, main, widths, twins, response, schedule, noise, lyapunov, peak);
+    print_json(o, main, widths, twins, response, schedule, noise, lyapunov, matrix, peak);
   } else {
     print_text(o, main, widths, peak);
     print_twins(twins);
@@ -416,6 +490,7 @@ int run(const Options& o) {
     print_schedule(schedule);
     print_noise(noise);
     print_lyapunov(lyapunov);
+    print_matrix(matrix, peak);
   }
   return 0;
 }
@@ -438,10 +513,11 @@ int main(int argc, char** argv) {
   app.add_option("--scalar-members", o.scalar_members, "members run by the scalar reference")
       ->check(CLI::PositiveNumber);
   app.add_option("--sections", o.sections,
-                 "parts to measure: main, widths, twins, response, schedule, noise, lyapunov")
+                 "parts to measure: main, widths, twins, response, schedule, noise, lyapunov, "
+                 "matrix (every model x feature)")
       ->delimiter(',')
       ->check(CLI::IsMember(
-          {"main", "widths", "twins", "response", "schedule", "noise", "lyapunov"}));
+          {"main", "widths", "twins", "response", "schedule", "noise", "lyapunov", "matrix"}));
   app.add_flag("--json", o.json, "print JSON instead of a table");
   CLI11_PARSE(app, argc, argv);
   try {

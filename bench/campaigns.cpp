@@ -51,35 +51,80 @@ spec::Spec bench_campaign(const std::string& model, long members, int width, lon
   return s;
 }
 
-// Counted from the kernels (an FMA is 2 flops; compares and integer regime counts are 0):
-//  lorenz63 RK4: 4 right-hand sides of 11 (sigma (y - x) + f0: 3; x (rho - z) - y + f1: 4;
-//    x y - beta z + f2: 4), 3 stage inputs x + c k of 2 per variable (18), the update
-//    ((k1 + 2 k2) + 2 k3 + k4) dt/6 + x of 7 per variable (21): 83.
-//  lorenz84 RK4: 4 right-hand sides of 17 (-y y - z z - a x + aF: 6; x y - b x z - y + G: 6;
-//    b x y + x z - z: 5), the stage inputs (18) and the update (21): 107.
-//  lorenz96 RK4 per site: 4 tendencies (x_{k+1} - x_{k-2}) x_{k-1} - x_k + F of 4, 3 stage
-//    inputs of 2, the update of 7: 29 per site; mean and energy: 3 per site and 2 at the end.
-//  lorenz96-two-scale RK4: 4 right-hand sides of K (4 + 2 J) (a slow tendency of 4 and J
-//    multiply-subtracts of the coupling) and K J 7 (-c b y_{l+1} (y_{l+2} - y_{l-1}): 3,
-//    - c y_l + h c / b x_k: 4), 3 stage inputs of 2 and the update of 7 per variable.
+namespace {
+
+/// One model's counted costs (an FMA is 2 flops): one right-hand side, one tangent product
+/// J v as the equations need it, the state dimension, and the statistics of bench_campaign.
+struct ModelCost {
+  double rhs = 0.0, tangent = 0.0, dim = 0.0, statistics = 0.0;
+};
+
+// Counted from the equations (an FMA is 2 flops; compares and integer regime counts are 0):
+//  lorenz63: rhs 11 (sigma (y - x) + f0: 3; x (rho - z) - y + f1: 4; x y - beta z + f2: 4);
+//    J v 12 (sigma (v_y - v_x): 2; (rho - z) v_x - x v_z - v_y: 5; y v_x + x v_y - beta v_z: 5).
+//  lorenz84: rhs 17 (-y y - z z - a x + aF: 6; x y - b x z - y + G: 6; b x y + x z - z: 5);
+//    J v 25 (-a v_x - 2 y v_y - 2 z v_z: 7; (y - b z) v_x + (x - 1) v_y - b x v_z: 9;
+//    (b y + z) v_x + b x v_y + (x - 1) v_z: 9).
+//  lorenz96 per site: rhs 4 ((x_{k+1} - x_{k-2}) x_{k-1} - x_k + F); J v 6
+//    ((v_{k+1} - v_{k-2}) x_{k-1} + (x_{k+1} - x_{k-2}) v_{k-1} - v_k).
+//  lorenz96-two-scale: rhs K (4 + 2 J) (a slow tendency of 4 and J multiply-subtracts of the
+//    coupling) and K J 7 (-c b y_{l+1} (y_{l+2} - y_{l-1}): 3, - c y_l + h c / b x_k: 4);
+//    J v K (7 + J) and K J 10 (the product rule on the advection: 6, - c v_l + h c / b v_x: 4).
+//  RK4: 4 right-hand sides, 3 stage inputs x + c k of 2 and the update
+//    ((k1 + 2 k2) + 2 k3 + k4) dt/6 + x of 7 per variable: 4 rhs + 13 dim.
 //  time moments: d = v - shift, s1 += d, s2 += d d: 4 per observable.
 //  extremes: a min and a max per observable, comparisons: 0.
 //  histogram: (v - low) scale and two edges low + b width: 6.
-double flops_per_member_step(const spec::Spec& s) {
-  double flops = 0.0;
-  const bool l63 = s.model == "lorenz63", l84 = s.model == "lorenz84";
+ModelCost model_cost(const spec::Spec& s) {
+  ModelCost c;
   if (s.model == kTwoScale) {
-    const double K = s.parameters.at("K")[0], J = s.parameters.at("J")[0], D = K + K * J;
-    flops += 4.0 * (K * (4.0 + 2.0 * J) + K * J * 7.0) + 3.0 * 2.0 * D + 7.0 * D;
-    flops += 3.0 * K + 2.0 + 4.0 * (K + 2.0);  // site mean and energy; the moments
-    if (s.statistics.histogram.enabled) flops += 6.0;
-    return flops;
+    const double K = s.parameters.at("K")[0], J = s.parameters.at("J")[0];
+    c.dim = K + K * J;
+    c.rhs = K * (4.0 + 2.0 * J) + K * J * 7.0;
+    c.tangent = K * (7.0 + J) + K * J * 10.0;
+    c.statistics = 3.0 * K + 2.0 + 4.0 * (K + 2.0);  // site mean and energy; the moments
+  } else if (s.model == "lorenz63" || s.model == "lorenz84") {
+    const bool l63 = s.model == "lorenz63";
+    c.dim = 3.0;
+    c.rhs = l63 ? 11.0 : 17.0;
+    c.tangent = l63 ? 12.0 : 25.0;
+    c.statistics = 4.0 * 3.0;
+  } else {
+    const double n = s.parameters.at("n")[0];
+    c.dim = n;
+    c.rhs = 4.0 * n;
+    c.tangent = 6.0 * n;
+    c.statistics = 3.0 * n + 2.0 + 4.0 * (n + 2.0);  // mean and energy; every observable's moments
   }
-  const double n = l63 || l84 ? 3.0 : s.parameters.at("n")[0];
-  const double observables = l63 || l84 ? 3.0 : n + 2.0;  // every observable (bench_campaign)
-  flops += l63 ? 83.0 : l84 ? 107.0 : 29.0 * n + 3.0 * n + 2.0;
-  flops += 4.0 * observables;
-  if (s.statistics.histogram.enabled) flops += 6.0;
+  if (s.statistics.histogram.enabled) c.statistics += 6.0;
+  return c;
+}
+
+}  // namespace
+
+// The integration of the members (RK4; under noise the stochastic scheme: Euler-Maruyama
+// rhs + 5 dim, x + dt f + sqrt(dt) A N; Heun 2 rhs + 10 dim, the predictor, the average and the
+// noise; the Gaussian draws' own work, mostly integer, is not counted), the statistics, then
+// what the extra integrations add: a twin is a second member (its integration, and its
+// separation, 3 dim, at every lead); Lyapunov exponents integrate the member again with k
+// tangent vectors (the tangent of the RK4 map: 4 J v + 13 dim each) and re-orthonormalise them
+// by modified Gram-Schmidt (2 dim k^2 + 3 dim k) at every renormalisation.
+double flops_per_member_step(const spec::Spec& s) {
+  const ModelCost c = model_cost(s);
+  double step = 4.0 * c.rhs + 13.0 * c.dim;
+  if (s.noise.kind != spec::NoiseKind::none) {
+    step = s.integration.method == "heun" ? 2.0 * c.rhs + 10.0 * c.dim : c.rhs + 5.0 * c.dim;
+  }
+  double flops = step + c.statistics;
+  const double dt = s.integration.dt;
+  if (s.statistics.twins.enabled) {
+    flops += step + 3.0 * c.dim * dt / s.statistics.twins.every;
+  }
+  if (s.statistics.lyapunov.enabled) {
+    const double k = s.statistics.lyapunov.exponents;
+    flops += step + k * (4.0 * c.tangent + 13.0 * c.dim) +
+             (2.0 * c.dim * k * k + 3.0 * c.dim * k) * dt / s.statistics.lyapunov.renormalise_every;
+  }
   return flops;
 }
 

@@ -30,7 +30,8 @@ class Rk4Batch {
 
   /// One step from time t0 to t1 (= t0 + dt, given by the caller so that times come from
   /// step counts, never from accumulated sums), with the same arithmetic as step(). The
-  /// clock is set to t0 before k1, t0 + dt/2 before k2 (k3 shares it), t1 before k4.
+  /// clock is set to t0 before k1, t0 + dt/2 before k2 (k3 shares it), t1 before k4 (by the
+  /// model's fused step when it has one for this width: Model::fused_rk4_step_at).
   void step_at(double* x, double dt, double t0, double t1, StageClock& clock);
 
   /// The time step_at gives the clock before stage 1 (t0), 2 (t0 + dt/2, shared by k3) or

@@ -142,15 +142,47 @@ class Lorenz96TwoScale final : public Model {
   // member, in its order: x + (dt/2) k1, x + (dt/2) k2, x + dt k3 and
   // x + (dt/6) (((k1 + 2 k2) + 2 k3) + k4).
   bool fused_rk4_step(double* x, double dt, int width, double* scratch) const override {
+    if (!fused_applies(width)) return false;
+    const StageConstants p = constants();
+    const StageConstants stages[4] = {p, p, p, p};
+    fused_step(x, dt, width, scratch, stages);
+    return true;
+  }
+
+  // The same with the parameters of each stage's time: read once per stage for the batch.
+  bool fused_rk4_step_at(double* x, double dt, int width, double* scratch,
+                         StageHook& hook) const override {
+    if (!fused_applies(width)) return false;
+    StageConstants stages[4];
+    hook.before_stage(1);
+    stages[0] = constants();
+    hook.before_stage(2);
+    stages[1] = stages[2] = constants();
+    hook.before_stage(4);
+    stages[3] = constants();
+    fused_step(x, dt, width, scratch, stages);
+    return true;
+  }
+
+ private:
+  /// The parameters one stage's right-hand side uses, computed as rhs() computes them.
+  struct StageConstants {
+    double coupling, cb, c, F;
+  };
+  StageConstants constants() const { return {h_ * c_ / b_, c_ * b_, c_, F_}; }
+  bool fused_applies(int width) const {
+    return width % integrators::kLanes == 0 && K_ >= 3 && K_ * J_ >= 3;
+  }
+
+  void fused_step(double* x, double dt, int width, double* scratch,
+                  const StageConstants (&stages)[4]) const {
     using integrators::Lanes;
     using integrators::load_lanes;
     using integrators::store_lanes;
     constexpr int kL = integrators::kLanes;
     const int K = K_, J = J_, NL = K_ * J_, D = K + NL;
-    if (width % kL != 0 || K < 3 || NL < 3) return false;
     const long w = width;
     const double half = 0.5 * dt, sixth = dt / 6.0;
-    const double coupling = h_ * c_ / b_, cb = c_ * b_, c = c_, F = F_;
     double* const A = scratch;               // [D][kL] stage input
     double* const B = scratch + D * kL;      // [D][kL] stage input
     double* const T = scratch + 2 * D * kL;  // [D][kL] k1 + 2 k2 (+ 2 k3)
@@ -158,8 +190,10 @@ class Lorenz96TwoScale final : public Model {
     for (long m0 = 0; m0 < w; m0 += kL) {
       double* const xm = x + m0;
       auto state = [xm, w](int v) { return load_lanes(xm + v * w); };
-      // the tendencies of input `in` at every variable, handed to out(v, tendency)
-      auto sweep = [&](auto in, auto out) {
+      // the tendencies of input `in` at every variable with stage `p`'s parameters, handed to
+      // out(v, tendency)
+      auto sweep = [&](const StageConstants& p, auto in, auto out) {
+        const double coupling = p.coupling, cb = p.cb, c = p.c, F = p.F;
         for (int k = 0; k < K; ++k) {
           const int kp1 = k + 1 < K ? k + 1 : k + 1 - K;
           const int km1 = k >= 1 ? k - 1 : k - 1 + K;
@@ -184,25 +218,25 @@ class Lorenz96TwoScale final : public Model {
         }
       };
       auto from = [&](double* p) { return [p, &row](int v) { return load_lanes(row(p, v)); }; };
-      sweep(state, [&](int v, Lanes k1) {
+      sweep(stages[0], state, [&](int v, Lanes k1) {
         store_lanes(row(T, v), k1);
         store_lanes(row(A, v), state(v) + half * k1);
       });
-      sweep(from(A), [&](int v, Lanes k2) {
+      sweep(stages[1], from(A), [&](int v, Lanes k2) {
         store_lanes(row(T, v), load_lanes(row(T, v)) + 2.0 * k2);
         store_lanes(row(B, v), state(v) + half * k2);
       });
-      sweep(from(B), [&](int v, Lanes k3) {
+      sweep(stages[2], from(B), [&](int v, Lanes k3) {
         store_lanes(row(T, v), load_lanes(row(T, v)) + 2.0 * k3);
         store_lanes(row(A, v), state(v) + dt * k3);
       });
-      sweep(from(A), [&](int v, Lanes k4) {
+      sweep(stages[3], from(A), [&](int v, Lanes k4) {
         store_lanes(xm + v * w, state(v) + sixth * (load_lanes(row(T, v)) + k4));
       });
     }
-    return true;
   }
 
+ public:
   bool has_tangent() const override { return true; }
 
   // out = J(s) v, the equations above linearised; (u, w) are the slow and fast parts of v:

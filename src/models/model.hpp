@@ -74,6 +74,26 @@ class Model {
     return false;
   }
 
+  /// Told before the right-hand sides of RK4 stage 1, 2 (k3 shares its time) and 4 of a
+  /// scheduled step, so that a time-dependent parameter can be set (set_parameter).
+  class StageHook {
+   public:
+    virtual void before_stage(int stage) = 0;
+
+   protected:
+    ~StageHook() = default;
+  };
+
+  /// fused_rk4_step with time-dependent parameters: calls hook.before_stage(1), (2) and (4)
+  /// and takes each stage's parameters as they are after its call, so that x gets bitwise
+  /// what Rk4Batch::step_at gives it under the same hook (the parameters are left as stage 4
+  /// set them). False (x untouched, hook not called) when the model has no such step.
+  virtual bool fused_rk4_step_at(double* x, double dt, int width, double* scratch,
+                                 StageHook& hook) const {
+    (void)x; (void)dt; (void)width; (void)scratch; (void)hook;
+    return false;
+  }
+
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
   /// They depend on the state and structural parameters only (snapshots of a run with a
   /// time-dependent parameter evaluate them with the parameter's value at t = 0).
