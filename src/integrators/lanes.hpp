@@ -22,6 +22,21 @@ constexpr int kLanes = 2;
 using Lanes = double __attribute__((vector_size(kLanes * sizeof(double))));
 using LaneInts = std::int64_t __attribute__((vector_size(kLanes * sizeof(std::int64_t))));
 
+/// v unchanged, as a value the compiler cannot see into. A product that ends one expression
+/// is then not contracted into the next expression's addition (a fused multiply-add), as it
+/// cannot be when the value comes from memory that another function wrote: a fused kernel
+/// passes such a value through opaque() to keep bitwise the generic path that stores it.
+inline Lanes opaque(Lanes v) {
+#if defined(__AVX512F__)
+  asm("" : "+v"(v));
+#elif defined(__x86_64__) || defined(__i386__)
+  asm("" : "+x"(v));
+#else
+  asm("" : "+m"(v));
+#endif
+  return v;
+}
+
 /// kLanes consecutive doubles from p (no alignment needed).
 inline Lanes load_lanes(const double* p) {
   Lanes v;

@@ -80,6 +80,7 @@ void TangentRk4Batch::advance(double* x, double* tangents, double dt, Before bef
 }
 
 void TangentRk4Batch::step(double* x, double* tangents, double dt) {
+  if (model_.fused_tangent_rk4_step(x, tangents, vectors_, dt, width_)) return;
   advance(x, tangents, dt, [](int) {});
 }
 

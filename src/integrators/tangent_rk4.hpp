@@ -25,7 +25,9 @@ class TangentRk4Batch {
   /// D Phi(x) v, Phi the RK4 map and x the state at the start of the step:
   ///   dk1 = J(x) v, dk2 = J(x + dt/2 k1)(v + dt/2 dk1), dk3 = J(x + dt/2 k2)(v + dt/2 dk2),
   ///   dk4 = J(x + dt k3)(v + dt dk3), v <- v + dt/6 (dk1 + 2 dk2 + 2 dk3 + dk4),
-  /// with J the model's tangent() and k1 .. k4 the state's stages.
+  /// with J the model's tangent() and k1 .. k4 the state's stages (by the model's fused
+  /// step when it has one for this width: the same operations per member,
+  /// Model::fused_tangent_rk4_step).
   void step(double* x, double* tangents, double dt);
 
   /// One step from time t0 to t1 (= t0 + dt, given by the caller), with the same arithmetic as

@@ -20,6 +20,7 @@
 #include <memory>
 #include <vector>
 
+#include "models/fused_tangent.hpp"
 #include "models/lorenz63_equations.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
@@ -83,12 +84,9 @@ class Lorenz63 final : public Model {
 
   bool has_tangent() const override { return true; }
 
-  // out = J(x) v with the Jacobian of the equations above (the constant forcing drops out):
-  //   [ -sigma     sigma   0    ]
-  //   [ rho - z    -1      -x   ]
-  //   [ y          x       -beta]
+  // out = J(x) v, Lorenz63Equations::tangent (the Jacobian of the equations above).
   void tangent(const double* x, const double* v, double* out, int width) const override {
-    const double sigma = sigma_, rho = rho_, beta = beta_;
+    const Lorenz63Equations e = equations_;
     const double* x0 = x;
     const double* x1 = x + width;
     const double* x2 = x + 2 * width;
@@ -97,10 +95,19 @@ class Lorenz63 final : public Model {
     const double* v2 = v + 2 * width;
 #pragma GCC ivdep
     for (int m = 0; m < width; ++m) {
-      out[m] = sigma * (v1[m] - v0[m]);
-      out[width + m] = (rho - x2[m]) * v0[m] - v1[m] - x0[m] * v2[m];
-      out[2 * width + m] = x1[m] * v0[m] + x0[m] * v1[m] - beta * v2[m];
+      const double s[3] = {x0[m], x1[m], x2[m]};
+      const double d[3] = {v0[m], v1[m], v2[m]};
+      double o[3];
+      e.tangent(s, d, o);
+      out[m] = o[0];
+      out[width + m] = o[1];
+      out[2 * width + m] = o[2];
     }
+  }
+
+  bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt,
+                              int width) const override {
+    return fused_tangent_rk4_step_3(equations_, x, tangents, vectors, dt, width);
   }
 
   // Estimate: RK4 is stable while dt |lambda| <= 2.785 for the Jacobian's eigenvalues lambda

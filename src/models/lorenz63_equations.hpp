@@ -67,6 +67,17 @@ struct Lorenz63Equations {
     ds[1] = s[0] * (rho - s[2]) - s[1] + tendency[1];
     ds[2] = s[0] * s[1] - beta * s[2] + tendency[2];
   }
+
+  /// out = J(s) v, the Jacobian of rhs() at s (the constant forcing drops out):
+  ///   [ -sigma     sigma   0    ]
+  ///   [ rho - z    -1      -x   ]
+  ///   [ y          x       -beta]
+  template <typename T>
+  void tangent(const T (&s)[3], const T (&v)[3], T (&out)[3]) const {
+    out[0] = sigma * (v[1] - v[0]);
+    out[1] = (rho - s[2]) * v[0] - v[1] - s[0] * v[2];
+    out[2] = s[1] * v[0] + s[0] * v[1] - beta * v[2];
+  }
 };
 
 }  // namespace chaosweep::models

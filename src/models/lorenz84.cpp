@@ -23,6 +23,7 @@
 #include <memory>
 #include <vector>
 
+#include "models/fused_tangent.hpp"
 #include "models/lorenz84_equations.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
@@ -79,12 +80,9 @@ class Lorenz84 final : public Model {
 
   bool has_tangent() const override { return true; }
 
-  // out = J(x) v with the Jacobian
-  //   [ -a          -2y       -2z    ]
-  //   [ y - b z     x - 1     -b x   ]
-  //   [ b y + z     b x       x - 1  ]
+  // out = J(x) v, Lorenz84Equations::tangent.
   void tangent(const double* s, const double* v, double* out, int width) const override {
-    const double a = a_, b = b_;
+    const Lorenz84Equations e = equations();
     const double* x = s;
     const double* y = s + width;
     const double* z = s + 2 * width;
@@ -93,10 +91,19 @@ class Lorenz84 final : public Model {
     const double* v2 = v + 2 * width;
 #pragma GCC ivdep
     for (int m = 0; m < width; ++m) {
-      out[m] = -a * v0[m] - 2.0 * y[m] * v1[m] - 2.0 * z[m] * v2[m];
-      out[width + m] = (y[m] - b * z[m]) * v0[m] + (x[m] - 1.0) * v1[m] - b * x[m] * v2[m];
-      out[2 * width + m] = (b * y[m] + z[m]) * v0[m] + b * x[m] * v1[m] + (x[m] - 1.0) * v2[m];
+      const double at[3] = {x[m], y[m], z[m]};
+      const double by[3] = {v0[m], v1[m], v2[m]};
+      double o[3];
+      e.tangent(at, by, o);
+      out[m] = o[0];
+      out[width + m] = o[1];
+      out[2 * width + m] = o[2];
     }
+  }
+
+  bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt,
+                              int width) const override {
+    return fused_tangent_rk4_step_3(equations(), x, tangents, vectors, dt, width);
   }
 
   // A rigorous (hence cautious) bound, not a sampled one. With E = |s|^2 / 2,

@@ -60,6 +60,17 @@ struct Lorenz84Equations {
     ds[1] = s[0] * s[1] - b * s[0] * s[2] - s[1] + G;
     ds[2] = b * s[0] * s[1] + s[0] * s[2] - s[2];
   }
+
+  /// out = J(s) v, the Jacobian of rhs() at s:
+  ///   [ -a          -2y       -2z    ]
+  ///   [ y - b z     x - 1     -b x   ]
+  ///   [ b y + z     b x       x - 1  ]
+  template <typename T>
+  void tangent(const T (&s)[3], const T (&v)[3], T (&out)[3]) const {
+    out[0] = -a * v[0] - 2.0 * s[1] * v[1] - 2.0 * s[2] * v[2];
+    out[1] = (s[1] - b * s[2]) * v[0] + (s[0] - 1.0) * v[1] - b * s[0] * v[2];
+    out[2] = (b * s[1] + s[2]) * v[0] + b * s[0] * v[1] + (s[0] - 1.0) * v[2];
+  }
 };
 
 }  // namespace chaosweep::models

@@ -94,6 +94,17 @@ class Model {
     return false;
   }
 
+  /// One step of integrators::TangentRk4Batch::step in place: x ([state_dim][width]) by RK4
+  /// and each of the `vectors` tangent vectors (tangents: [vectors][state_dim][width]) by the
+  /// tangent of the RK4 map, with the same operations per member (so bitwise its result), in
+  /// an order that suits the model; false (nothing touched) when it does not apply to this
+  /// width, and the stepper takes its generic stages.
+  virtual bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt,
+                                      int width) const {
+    (void)x; (void)tangents; (void)vectors; (void)dt; (void)width;
+    return false;
+  }
+
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].
   /// They depend on the state and structural parameters only (snapshots of a run with a
   /// time-dependent parameter evaluate them with the parameter's value at t = 0).

@@ -333,6 +333,64 @@ TEST(TangentRk4, IsTheDerivativeOfTheRk4StepByCentralDifferences) {
   }
 }
 
+// Bitwise, by design: a model's fused tangent step (Model::fused_tangent_rk4_step) does the
+// generic stepper's operations per member. Members are independent columns, so the first
+// members of a batch one wider than a multiple of the SIMD register (which the fused step
+// refuses) are the generic stages' reference; state and every vector, after every step.
+TEST(TangentRk4, FusedStepEqualsGenericBitwise) {
+  int compared = 0;
+  for (const std::string& name : models::Registry::instance().names()) {
+    const auto model = make_model(name);
+    if (!model->has_tangent()) continue;
+    const int d = model->state_dim(), w = 2 * integrators::kLanes, vectors = std::min(d, 3);
+    std::vector<double> probe_x(static_cast<std::size_t>(d) * w, 0.0);
+    std::vector<double> probe_v(static_cast<std::size_t>(vectors) * d * w, 0.0);
+    if (!model->fused_tangent_rk4_step(probe_x.data(), probe_v.data(), vectors, 0.0, w)) continue;
+    const double dt = std::min(0.01, 0.5 * model->max_stable_dt());
+    const std::vector<double> x0 =
+        random_batch(model->default_initial_state(), d > 100 ? 0.1 : 3.0, w + 1, 41);
+    std::vector<double> fused(static_cast<std::size_t>(d) * w), generic = x0;
+    std::vector<double> fused_v(static_cast<std::size_t>(vectors) * d * w);
+    std::vector<double> generic_v(static_cast<std::size_t>(vectors) * d * (w + 1));
+    std::mt19937_64 rng(43);
+    std::normal_distribution<double> normal;
+    for (int j = 0; j < vectors; ++j) {
+      for (int i = 0; i < d; ++i) {
+        for (int m = 0; m <= w; ++m) {
+          const double v = normal(rng);
+          generic_v[(static_cast<std::size_t>(j) * d + i) * (w + 1) + m] = v;
+          if (m < w) fused_v[(static_cast<std::size_t>(j) * d + i) * w + m] = v;
+        }
+      }
+    }
+    for (int i = 0; i < d; ++i) {
+      for (int m = 0; m < w; ++m) fused[i * w + m] = x0[i * (w + 1) + m];
+    }
+    integrators::TangentRk4Batch a(*model, w, vectors), b(*model, w + 1, vectors);
+    for (int k = 0; k < 300; ++k) {
+      a.step(fused.data(), fused_v.data(), dt);
+      b.step(generic.data(), generic_v.data(), dt);
+      for (int i = 0; i < d; ++i) {
+        for (int m = 0; m < w; ++m) {
+          ASSERT_TRUE(same_bits(fused[i * w + m], generic[i * (w + 1) + m]))
+              << name << " step " << k << " member " << m << " component " << i;
+        }
+      }
+      for (int j = 0; j < vectors; ++j) {
+        for (int i = 0; i < d; ++i) {
+          for (int m = 0; m < w; ++m) {
+            ASSERT_TRUE(same_bits(fused_v[(static_cast<std::size_t>(j) * d + i) * w + m],
+                                  generic_v[(static_cast<std::size_t>(j) * d + i) * (w + 1) + m]))
+                << name << " step " << k << " vector " << j << " member " << m << " component " << i;
+          }
+        }
+      }
+    }
+    ++compared;
+  }
+  EXPECT_GT(compared, 0) << "no model's fused tangent step was compared";
+}
+
 // Bitwise, by design: the tangent stepper moves the state with Rk4Batch::step's operations in
 // the same order, so Lyapunov exponents are those of the members' own trajectories; with a
 // stage clock (step_at) the state is that of Rk4Batch::step_at under the same clock.
