@@ -38,8 +38,9 @@ class Batch {
   /// forcing begin() keys by the batch's members.
   Batch(const models::Model& model, int width, int k, double dt, const Setup* stochastic)
       : n_(model.state_dim()), k_(k), width_(width), size_(static_cast<long>(n_) * width), dt_(dt),
-        x_(size_), tangents_(static_cast<long>(k) * size_), column_(static_cast<long>(n_) * k),
-        logs_(k), dead_(static_cast<std::size_t>(width), false), stochastic_(stochastic) {
+        x_(size_), tangents_(static_cast<long>(k) * size_), logs_(static_cast<long>(k) * width),
+        scratch_(2 * static_cast<long>(width)), dead_(static_cast<std::size_t>(width), false),
+        stochastic_(stochastic) {
     if (stochastic) {
       sde_.emplace(model, width, sde_method(*stochastic), sde_noise_form(*stochastic),
                    ForcingNoise(*stochastic, width, {}).variables());
@@ -85,9 +86,10 @@ class Batch {
     rk4_->step_at(x_.data(), tangents_.data(), dt_, t.t0, t.t1, *clock);
   }
 
-  /// QR re-orthonormalisation of every live member's tangent vectors; adds log|R_ii| to
-  /// sums[m * k + i] when sums is not null. A member whose state or vectors are non-finite
-  /// is marked dead and left alone from then on.
+  /// QR re-orthonormalisation of every member's tangent vectors at once
+  /// (stats::gram_schmidt_batch); adds log R_ii to sums[m * k + i] for the live members when
+  /// sums is not null. A member whose state or vectors are non-finite is marked dead; its
+  /// vectors are still carried along with the batch, but nothing of it is used from then on.
   void renormalise(double* sums) {
     for (int m = 0; m < width_; ++m) {
       if (dead_[m]) continue;
@@ -98,23 +100,16 @@ class Batch {
       for (int j = 0; j < k_ && finite; ++j) {
         const double* v = tangents_.data() + j * size_;
         for (int i = 0; i < n_; ++i) {
-          const double value = v[static_cast<long>(i) * width_ + m];
-          column_[static_cast<long>(j) * n_ + i] = value;
-          finite = finite && std::isfinite(value);
+          finite = finite && std::isfinite(v[static_cast<long>(i) * width_ + m]);
         }
       }
-      if (!finite) {
-        dead_[m] = true;
-        continue;
-      }
-      stats::qr_renormalise(column_.data(), n_, k_, logs_.data());
-      for (int j = 0; j < k_; ++j) {
-        double* v = tangents_.data() + j * size_;
-        for (int i = 0; i < n_; ++i) {
-          v[static_cast<long>(i) * width_ + m] = column_[static_cast<long>(j) * n_ + i];
-        }
-        if (sums != nullptr) sums[m * k_ + j] += logs_[j];
-      }
+      if (!finite) dead_[m] = true;
+    }
+    stats::gram_schmidt_batch(tangents_.data(), n_, k_, width_, logs_.data(), scratch_.data());
+    if (sums == nullptr) return;
+    for (int m = 0; m < width_; ++m) {
+      if (dead_[m]) continue;
+      for (int j = 0; j < k_; ++j) sums[m * k_ + j] += logs_[static_cast<long>(j) * width_ + m];
     }
   }
 
@@ -124,7 +119,7 @@ class Batch {
   int n_, k_, width_;
   long size_;
   double dt_;
-  std::vector<double> x_, tangents_, column_, logs_;
+  std::vector<double> x_, tangents_, logs_, scratch_;  // logs_: [k][width]
   std::vector<bool> dead_;
   const Setup* stochastic_;
   std::optional<integrators::TangentRk4Batch> rk4_;

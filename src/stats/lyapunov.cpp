@@ -24,6 +24,45 @@ void qr_renormalise(double* columns, int n, int k, double* log_abs_r) {
   }
 }
 
+void gram_schmidt_batch(double* vectors, int n, int k, int width, double* log_r, double* scratch) {
+  if (k < 1 || n < 1 || k > n || width < 1) {
+    throw std::invalid_argument("gram_schmidt_batch needs 1 <= k <= n and width >= 1");
+  }
+  const long w = width;
+  double* __restrict r = scratch;  // [width]: a projection, then a squared norm
+  for (int j = 0; j < k; ++j) {
+    double* v = vectors + static_cast<long>(j) * n * w;
+    for (int pass = 0; pass < 2; ++pass) {
+      for (int i = 0; i < j; ++i) {
+        const double* q = vectors + static_cast<long>(i) * n * w;
+        for (long m = 0; m < w; ++m) r[m] = q[m] * v[m];
+        for (int c = 1; c < n; ++c) {
+          const double* qc = q + c * w;
+          const double* vc = v + c * w;
+          for (long m = 0; m < w; ++m) r[m] += qc[m] * vc[m];
+        }
+        for (int c = 0; c < n; ++c) {
+          const double* qc = q + c * w;
+          double* vc = v + c * w;
+          for (long m = 0; m < w; ++m) vc[m] -= r[m] * qc[m];
+        }
+      }
+    }
+    for (long m = 0; m < w; ++m) r[m] = v[m] * v[m];
+    for (int c = 1; c < n; ++c) {
+      const double* vc = v + c * w;
+      for (long m = 0; m < w; ++m) r[m] += vc[m] * vc[m];
+    }
+    double* __restrict norm = scratch + w;
+    for (long m = 0; m < w; ++m) norm[m] = std::sqrt(r[m]);
+    for (long m = 0; m < w; ++m) log_r[j * w + m] = std::log(norm[m]);
+    for (int c = 0; c < n; ++c) {
+      double* vc = v + c * w;
+      for (long m = 0; m < w; ++m) vc[m] /= norm[m];
+    }
+  }
+}
+
 double kaplan_yorke_dimension(const std::vector<double>& sorted_exponents) {
   const double nan = std::numeric_limits<double>::quiet_NaN();
   for (const double e : sorted_exponents) {

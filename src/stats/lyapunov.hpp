@@ -20,6 +20,17 @@ namespace chaosweep::stats {
 /// unless 1 <= k <= n.
 void qr_renormalise(double* columns, int n, int k, double* log_abs_r);
 
+/// The same for a batch of `width` members side by side, by modified Gram-Schmidt with one
+/// re-orthogonalisation (each vector's projections on the earlier ones removed twice, then
+/// normalised: orthonormal to rounding while the vectors are far from dependent, kappa well
+/// below 1 / epsilon, as between the renormalisations of a run). `vectors` is SoA [k][n][width]
+/// (component c of vector j of member m at vectors[(j * n + c) * width + m]); each member's k
+/// vectors are replaced by their orthonormal factor Q (R_jj > 0) and log R_jj goes to
+/// log_r[j * width + m] (-inf for a vanishing vector). The loops run over the members
+/// innermost, so a member's result does not depend on its column or the width. `scratch`
+/// holds 2 * width doubles. Throws std::invalid_argument unless 1 <= k <= n and width >= 1.
+void gram_schmidt_batch(double* vectors, int n, int k, int width, double* log_r, double* scratch);
+
 /// Kaplan-Yorke (Lyapunov) dimension of a spectrum sorted in descending order:
 /// D = j + (lambda_1 + ... + lambda_j) / |lambda_{j+1}|, with j the largest index whose partial
 /// sum is >= 0 (Kaplan & Yorke (1979), Lecture Notes in Mathematics 730). 0 when lambda_1 < 0.

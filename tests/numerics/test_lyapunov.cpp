@@ -1,6 +1,7 @@
 // Tangent-linear products of every model, the equations of lorenz84 and lorenz96-two-scale,
 // QR re-orthonormalisation, the Kaplan-Yorke dimension and Lyapunov exponents by the QR method.
 // Every check against an outside source names it beside the assertion.
+#include <gsl/gsl_linalg.h>
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
@@ -9,6 +10,8 @@
 #include <complex>
 #include <limits>
 #include <memory>
+#include <random>
+#include <utility>
 #include <stdexcept>
 #include <string>
 #include <vector>
@@ -221,6 +224,91 @@ TEST(QrRenormalise, LogDiagonalAndOrthonormalColumns) {
   EXPECT_NEAR((q.transpose() * q - Eigen::Matrix2d::Identity()).norm(), 0.0, 1e-15);
   EXPECT_GT(q(1, 1), 0.0);  // sign chosen so that R_22 > 0: follows (1, 2, 0)
   EXPECT_THROW(stats::qr_renormalise(v.data(), 2, 3, logs), std::invalid_argument);
+}
+
+// The batched Gram-Schmidt against GSL's Householder QR (gsl_linalg_QR_decomp, the
+// reference): for random members of dimension n with k vectors, some nearly dependent
+// (condition number about 1e6, far beyond what a run's renormalisation period lets build up),
+// log R_jj equals log|R_jj| of GSL's factor to 1e-11 (1e-8 for the nearly dependent member:
+// a small R_jj comes from a cancellation, its relative error about epsilon kappa = 1e-10 in
+// either factorisation) and Q equals GSL's Q with each column's sign set so that R_jj > 0, to
+// 1e-9; Q^T Q = I to 1e-14 (one re-orthogonalisation keeps it at rounding level). A
+// member's result is bitwise the same in a batch of another width and column.
+TEST(GramSchmidtBatch, EqualsHouseholderQrOfGsl) {
+  std::mt19937_64 rng(11);
+  std::normal_distribution<double> normal;
+  for (const auto& [n, k] : std::vector<std::pair<int, int>>{{3, 1}, {3, 3}, {40, 3}, {396, 2}}) {
+    const int width = 9;
+    std::vector<double> batch(static_cast<std::size_t>(k) * n * width);
+    for (int m = 0; m < width; ++m) {
+      for (int c = 0; c < n; ++c) {
+        const double shared = normal(rng);
+        for (int j = 0; j < k; ++j) {
+          // member 4's vectors are nearly parallel
+          const double value = m == 4 ? shared + 1e-6 * normal(rng) : normal(rng);
+          batch[(static_cast<std::size_t>(j) * n + c) * width + m] = value;
+        }
+      }
+    }
+    const std::vector<double> original = batch;
+    std::vector<double> logs(static_cast<std::size_t>(k) * width), scratch(2 * width);
+    stats::gram_schmidt_batch(batch.data(), n, k, width, logs.data(), scratch.data());
+    for (int m = 0; m < width; ++m) {
+      gsl_matrix* a = gsl_matrix_alloc(n, k);
+      gsl_vector* tau = gsl_vector_alloc(k);
+      for (int c = 0; c < n; ++c) {
+        for (int j = 0; j < k; ++j) {
+          gsl_matrix_set(a, c, j, original[(static_cast<std::size_t>(j) * n + c) * width + m]);
+        }
+      }
+      gsl_linalg_QR_decomp(a, tau);
+      gsl_matrix* q = gsl_matrix_alloc(n, n);
+      gsl_matrix* r = gsl_matrix_alloc(n, k);
+      gsl_linalg_QR_unpack(a, tau, q, r);
+      for (int j = 0; j < k; ++j) {
+        const double rjj = gsl_matrix_get(r, j, j);
+        EXPECT_NEAR(logs[static_cast<std::size_t>(j) * width + m], std::log(std::abs(rjj)),
+                    m == 4 ? 1e-8 : 1e-11)
+            << "n " << n << " member " << m << " vector " << j;
+        const double sign = rjj < 0.0 ? -1.0 : 1.0;
+        for (int c = 0; c < n; ++c) {
+          EXPECT_NEAR(batch[(static_cast<std::size_t>(j) * n + c) * width + m],
+                      sign * gsl_matrix_get(q, c, j), 1e-9)
+              << "n " << n << " member " << m << " vector " << j << " component " << c;
+        }
+        for (int i = 0; i <= j; ++i) {
+          double dot = 0.0;
+          for (int c = 0; c < n; ++c) {
+            dot += batch[(static_cast<std::size_t>(i) * n + c) * width + m] *
+                   batch[(static_cast<std::size_t>(j) * n + c) * width + m];
+          }
+          EXPECT_NEAR(dot, i == j ? 1.0 : 0.0, 1e-14) << "n " << n << " member " << m;
+        }
+      }
+      gsl_matrix_free(a);
+      gsl_matrix_free(q);
+      gsl_matrix_free(r);
+      gsl_vector_free(tau);
+    }
+    // member 4 alone, in a batch of width 1: the same bits
+    std::vector<double> one(static_cast<std::size_t>(k) * n), one_logs(k), one_scratch(2);
+    for (int j = 0; j < k; ++j) {
+      for (int c = 0; c < n; ++c) {
+        one[static_cast<std::size_t>(j) * n + c] = original[(static_cast<std::size_t>(j) * n + c) * width + 4];
+      }
+    }
+    stats::gram_schmidt_batch(one.data(), n, k, 1, one_logs.data(), one_scratch.data());
+    for (int j = 0; j < k; ++j) {
+      EXPECT_TRUE(same_bits(one_logs[j], logs[static_cast<std::size_t>(j) * width + 4]));
+      for (int c = 0; c < n; ++c) {
+        EXPECT_TRUE(same_bits(one[static_cast<std::size_t>(j) * n + c],
+                              batch[(static_cast<std::size_t>(j) * n + c) * width + 4]));
+      }
+    }
+  }
+  std::vector<double> v(6), logs(2), scratch(2);
+  EXPECT_THROW(stats::gram_schmidt_batch(v.data(), 2, 3, 1, logs.data(), scratch.data()),
+               std::invalid_argument);
 }
 
 // Published: Sprott (2003) Chaos and Time-Series Analysis, App. A: Lorenz-63 exponents
