@@ -33,8 +33,9 @@ mpirun 1 run "$many" --part 1/4 --archive many-1.h5 --progress none > many-1.log
   fail "part 1/4 on 1 rank"
 mpirun 2 run "$many" --part 2/4 --archive many-2.h5 --progress none > many-2.log 2>&1 ||
   fail "part 2/4 on 2 ranks"
-# part 3 stopped (SIGTERM on rank 1 after its first round), resumed on 3 ranks
-CHAOSWEEP_TEST_ROUND_SECONDS=0.001 CHAOSWEEP_TEST_STOP=1:1 \
+# part 3 stopped (SIGTERM on rank 1 after its first round, one chunk of steps with
+# ROUND_SECONDS 0 whatever the machine's speed), resumed on 3 ranks
+CHAOSWEEP_TEST_ROUND_SECONDS=0 CHAOSWEEP_TEST_STOP=1:1 \
   mpirun 2 run "$many" --part 3/4 --archive many-3.h5 --progress none > many-3.log 2>&1
 expect_status 3 $? "part 3/4 stopped" many-3.log
 grep -q -- "--part 3/4 --archive many-3.h5 --resume" many-3.log ||
@@ -96,11 +97,12 @@ for noisy in ou-heun:3 ou-twins:2; do
 done
 
 # With checkpoint.directory set, each part keeps its checkpoints in its own subdirectory:
-# both parts stopped, then resumed, each from its own.
+# both parts stopped after 6 rounds of one chunk each (ROUND_SECONDS 0; the chunks double from
+# 64 steps, so a batch of 800 steps has finished by then), then resumed, each from its own.
 sed 's/^run: {batch_size: 8}/run: {batch_size: 8}\ncheckpoint: {directory: shared-ckpt}/' "$many" \
   > shared.yaml
 for i in 1 2; do
-  CHAOSWEEP_TEST_ROUND_SECONDS=0.001 CHAOSWEEP_TEST_STOP=0:1 \
+  CHAOSWEEP_TEST_ROUND_SECONDS=0 CHAOSWEEP_TEST_STOP=0:6 \
     mpirun 1 run shared.yaml --part $i/2 --archive shared-$i.h5 --progress none > shared-$i.log 2>&1
   expect_status 3 $? "part $i/2 with checkpoint.directory stopped" shared-$i.log
 done
