@@ -30,6 +30,7 @@ TangentRk4Batch::TangentRk4Batch(const models::Model& model, int width, int vect
   if (vectors < 0) throw std::invalid_argument("tangent RK4: vectors must be >= 0");
   for (auto* buffer : {&stage_, &slope_, &dk_}) buffer->assign(4 * size_, 0.0);
   w_.assign(size_, 0.0);
+  fused_.assign(model.fused_tangent_rk4_scratch(width), 0.0);
 }
 
 template <class Before>
@@ -80,7 +81,7 @@ void TangentRk4Batch::advance(double* x, double* tangents, double dt, Before bef
 }
 
 void TangentRk4Batch::step(double* x, double* tangents, double dt) {
-  if (model_.fused_tangent_rk4_step(x, tangents, vectors_, dt, width_)) return;
+  if (model_.fused_tangent_rk4_step(x, tangents, vectors_, dt, width_, fused_.data())) return;
   advance(x, tangents, dt, [](int) {});
 }
 

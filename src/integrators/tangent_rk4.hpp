@@ -51,6 +51,7 @@ class TangentRk4Batch {
   // stage_: the stage states s1 .. s4, slope_: k1 .. k4, dk_: dk1 .. dk4, each 4 x
   // [state_dim][width]; w_: a tangent stage's input, [state_dim][width].
   std::vector<double> stage_, slope_, dk_, w_;
+  std::vector<double> fused_;  // the model's fused tangent step's scratch
 };
 
 }  // namespace chaosweep::integrators

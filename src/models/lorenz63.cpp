@@ -105,8 +105,9 @@ class Lorenz63 final : public Model {
     }
   }
 
-  bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt,
-                              int width) const override {
+  bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,
+                              double* scratch) const override {
+    (void)scratch;
     return fused_tangent_rk4_step_3(equations_, x, tangents, vectors, dt, width);
   }
 

@@ -31,6 +31,13 @@ struct Lorenz96Equations {
     return (xp1 - xm2) * xm1 - x0 + F;
   }
 
+  /// Site k of J(x) v, the linearised tendency, from the neighbours of x and v:
+  /// (v_{k+1} - v_{k-2}) x_{k-1} + (x_{k+1} - x_{k-2}) v_{k-1} - v_k.
+  template <typename T>
+  static T site_tangent(T xm2, T xm1, T xp1, T vm2, T vm1, T v0, T vp1) {
+    return (vp1 - vm2) * xm1 + (xp1 - xm2) * vm1 - v0;
+  }
+
   /// The derived observables site_mean = (1/n) sum_k x_k and energy = sum_k x_k^2 / 2: sums over
   /// the sites in order 0..n-1 from 0.0 with add_site(), then mean() and energy().
   template <typename T>

@@ -99,10 +99,16 @@ class Model {
   /// tangent of the RK4 map, with the same operations per member (so bitwise its result), in
   /// an order that suits the model; false (nothing touched) when it does not apply to this
   /// width, and the stepper takes its generic stages.
+  /// `scratch` holds fused_tangent_rk4_scratch(width) doubles.
   virtual bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt,
-                                      int width) const {
-    (void)x; (void)tangents; (void)vectors; (void)dt; (void)width;
+                                      int width, double* scratch) const {
+    (void)x; (void)tangents; (void)vectors; (void)dt; (void)width; (void)scratch;
     return false;
+  }
+  /// Doubles of scratch space fused_tangent_rk4_step() needs for a batch of `width` (0: none).
+  virtual std::size_t fused_tangent_rk4_scratch(int width) const {
+    (void)width;
+    return 0;
   }
 
   /// Derived observables over a batch: out is [observables().size() - state_dim()][width].

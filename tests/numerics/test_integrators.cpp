@@ -345,7 +345,11 @@ TEST(TangentRk4, FusedStepEqualsGenericBitwise) {
     const int d = model->state_dim(), w = 2 * integrators::kLanes, vectors = std::min(d, 3);
     std::vector<double> probe_x(static_cast<std::size_t>(d) * w, 0.0);
     std::vector<double> probe_v(static_cast<std::size_t>(vectors) * d * w, 0.0);
-    if (!model->fused_tangent_rk4_step(probe_x.data(), probe_v.data(), vectors, 0.0, w)) continue;
+    std::vector<double> probe_scratch(model->fused_tangent_rk4_scratch(w));
+    if (!model->fused_tangent_rk4_step(probe_x.data(), probe_v.data(), vectors, 0.0, w,
+                                       probe_scratch.data())) {
+      continue;
+    }
     const double dt = std::min(0.01, 0.5 * model->max_stable_dt());
     const std::vector<double> x0 =
         random_batch(model->default_initial_state(), d > 100 ? 0.1 : 3.0, w + 1, 41);
