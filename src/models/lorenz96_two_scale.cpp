@@ -174,6 +174,64 @@ class Lorenz96TwoScale final : public Model {
     return width % integrators::kLanes == 0 && K_ >= 3 && K_ * J_ >= 3;
   }
 
+  /// The tendencies of input `in` (in(v): variable v's Lanes) at every variable with stage
+  /// `p`'s parameters, handed to out(v, tendency), with rhs()'s expressions: the slow sites
+  /// with their sector's sum in a register, then the fast ring with y_{l-1}, y_l, y_{l+1}
+  /// carried from site to site.
+  template <class In, class Out>
+  void tendencies(const StageConstants& p, In in, Out out) const {
+    using integrators::Lanes;
+    const int K = K_, J = J_, NL = K_ * J_;
+    const double coupling = p.coupling, cb = p.cb, c = p.c, F = p.F;
+    for (int k = 0; k < K; ++k) {
+      const int kp1 = k + 1 < K ? k + 1 : k + 1 - K;
+      const int km1 = k >= 1 ? k - 1 : k - 1 + K;
+      const int km2 = k >= 2 ? k - 2 : k - 2 + K;
+      Lanes acc = (in(kp1) - in(km2)) * in(km1) - in(k) + F;
+      for (int j = 0; j < J; ++j) acc -= coupling * in(K + k * J + j);
+      out(k, acc);
+    }
+    Lanes ym1 = in(K + NL - 1), yl = in(K), yp1 = in(K + 1);
+    int lp2 = 2, sector = 0, j = 0;
+    for (int l = 0; l < NL; ++l) {
+      const Lanes yp2 = in(K + lp2);
+      out(K + l, -cb * yp1 * (yp2 - ym1) - c * yl + coupling * in(sector));
+      ym1 = yl;
+      yl = yp1;
+      yp1 = yp2;
+      lp2 = lp2 + 1 < NL ? lp2 + 1 : 0;
+      if (++j == J) {
+        j = 0;
+        ++sector;
+      }
+    }
+  }
+
+  /// J(s) v at every variable (s(v), u(v): the state's and the vector's Lanes), handed to
+  /// out(v, product), with tangent()'s expressions in its order of operations.
+  template <class S, class V, class Out>
+  void products(const StageConstants& p, S s, V u, Out out) const {
+    using integrators::Lanes;
+    const int K = K_, J = J_, NL = K_ * J_;
+    const double coupling = p.coupling, cb = p.cb, c = p.c;
+    for (int k = 0; k < K; ++k) {
+      const int kp1 = k + 1 < K ? k + 1 : k + 1 - K;
+      const int km1 = k >= 1 ? k - 1 : k - 1 + K;
+      const int km2 = k >= 2 ? k - 2 : k - 2 + K;
+      Lanes acc = (u(kp1) - u(km2)) * s(km1) + (s(kp1) - s(km2)) * u(km1) - u(k);
+      for (int j = 0; j < J; ++j) acc -= coupling * u(K + k * J + j);
+      out(k, acc);
+    }
+    for (int l = 0; l < NL; ++l) {
+      const int lp1 = l + 1 < NL ? l + 1 : l + 1 - NL;
+      const int lp2 = l + 2 < NL ? l + 2 : l + 2 - NL;
+      const int lm1 = l >= 1 ? l - 1 : l - 1 + NL;
+      out(K + l, -cb * (u(K + lp1) * (s(K + lp2) - s(K + lm1)) +
+                        s(K + lp1) * (u(K + lp2) - u(K + lm1))) -
+                     c * u(K + l) + coupling * u(l / J));
+    }
+  }
+
   void fused_step(double* x, double dt, int width, double* scratch,
                   const StageConstants (&stages)[4]) const {
     using integrators::Lanes;
@@ -190,33 +248,7 @@ class Lorenz96TwoScale final : public Model {
     for (long m0 = 0; m0 < w; m0 += kL) {
       double* const xm = x + m0;
       auto state = [xm, w](int v) { return load_lanes(xm + v * w); };
-      // the tendencies of input `in` at every variable with stage `p`'s parameters, handed to
-      // out(v, tendency)
-      auto sweep = [&](const StageConstants& p, auto in, auto out) {
-        const double coupling = p.coupling, cb = p.cb, c = p.c, F = p.F;
-        for (int k = 0; k < K; ++k) {
-          const int kp1 = k + 1 < K ? k + 1 : k + 1 - K;
-          const int km1 = k >= 1 ? k - 1 : k - 1 + K;
-          const int km2 = k >= 2 ? k - 2 : k - 2 + K;
-          Lanes acc = (in(kp1) - in(km2)) * in(km1) - in(k) + F;
-          for (int j = 0; j < J; ++j) acc -= coupling * in(K + k * J + j);
-          out(k, acc);
-        }
-        Lanes ym1 = in(K + NL - 1), yl = in(K), yp1 = in(K + 1);
-        int lp2 = 2, sector = 0, j = 0;
-        for (int l = 0; l < NL; ++l) {
-          const Lanes yp2 = in(K + lp2);
-          out(K + l, -cb * yp1 * (yp2 - ym1) - c * yl + coupling * in(sector));
-          ym1 = yl;
-          yl = yp1;
-          yp1 = yp2;
-          lp2 = lp2 + 1 < NL ? lp2 + 1 : 0;
-          if (++j == J) {
-            j = 0;
-            ++sector;
-          }
-        }
-      };
+      auto sweep = [this](const StageConstants& p, auto in, auto out) { tendencies(p, in, out); };
       auto from = [&](double* p) { return [p, &row](int v) { return load_lanes(row(p, v)); }; };
       sweep(stages[0], state, [&](int v, Lanes k1) {
         store_lanes(row(T, v), k1);
@@ -237,6 +269,93 @@ class Lorenz96TwoScale final : public Model {
   }
 
  public:
+  std::size_t fused_tangent_rk4_scratch(int width) const override {
+    (void)width;
+    return 9 * static_cast<std::size_t>(state_dim()) * integrators::kLanes;
+  }
+
+  // The state and its tangent vectors one register of members at a time, each stage one
+  // sweep over the sites (tendencies(), products()) over rows of a register per variable
+  // (scratch: the start X, stage inputs S2 .. S4, the state's running sum T; a vector V, its
+  // stage inputs A and B, its running sum D), with TangentRk4Batch's operations per member in
+  // its order; the products pass through integrators::opaque, as the generic stepper stores
+  // them.
+  bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,
+                              double* scratch) const override {
+    using integrators::Lanes;
+    using integrators::load_lanes;
+    using integrators::store_lanes;
+    constexpr int kL = integrators::kLanes;
+    if (!fused_applies(width)) return false;
+    const StageConstants p = constants();
+    const int D = state_dim();
+    const long w = width, size = static_cast<long>(D) * w, rows = static_cast<long>(D) * kL;
+    const double half = 0.5 * dt, sixth = dt / 6.0;
+    double* const X = scratch;
+    double* const S2 = X + rows;
+    double* const S3 = S2 + rows;
+    double* const S4 = S3 + rows;
+    double* const T = S4 + rows;
+    double* const V = T + rows;
+    double* const A = V + rows;
+    double* const B = A + rows;
+    double* const Dsum = B + rows;
+    auto at = [](const double* q, int v) { return load_lanes(q + static_cast<long>(v) * kL); };
+    auto put = [](double* q, int v, Lanes value) {
+      store_lanes(q + static_cast<long>(v) * kL, value);
+    };
+    auto from = [&at](const double* q) { return [q, &at](int v) { return at(q, v); }; };
+    auto product = [this, &p](const double* s, const double* in, auto out) {
+      auto row_of = [](const double* q) {
+        return [q](int v) { return load_lanes(q + static_cast<long>(v) * kL); };
+      };
+      products(p, row_of(s), row_of(in),
+               [&out](int v, Lanes d) { out(v, integrators::opaque(d)); });
+    };
+    for (long m0 = 0; m0 < w; m0 += kL) {
+      for (int v = 0; v < D; ++v) put(X, v, load_lanes(x + v * w + m0));
+      tendencies(p, from(X), [&](int v, Lanes k1) {
+        put(T, v, k1);
+        put(S2, v, at(X, v) + half * k1);
+      });
+      tendencies(p, from(S2), [&](int v, Lanes k2) {
+        put(T, v, at(T, v) + 2.0 * k2);
+        put(S3, v, at(X, v) + half * k2);
+      });
+      tendencies(p, from(S3), [&](int v, Lanes k3) {
+        put(T, v, at(T, v) + 2.0 * k3);
+        put(S4, v, at(X, v) + dt * k3);
+      });
+      tendencies(p, from(S4), [&](int v, Lanes k4) {
+        Lanes next = at(X, v);
+        next += sixth * (at(T, v) + k4);
+        store_lanes(x + v * w + m0, next);
+      });
+      for (int j = 0; j < vectors; ++j) {
+        double* const vm = tangents + j * size + m0;
+        for (int v = 0; v < D; ++v) put(V, v, load_lanes(vm + v * w));
+        product(X, V, [&](int v, Lanes d1) {
+          put(Dsum, v, d1);
+          put(A, v, at(V, v) + half * d1);
+        });
+        product(S2, A, [&](int v, Lanes d2) {
+          put(Dsum, v, at(Dsum, v) + 2.0 * d2);
+          put(B, v, at(V, v) + half * d2);
+        });
+        product(S3, B, [&](int v, Lanes d3) {
+          put(Dsum, v, at(Dsum, v) + 2.0 * d3);
+          put(A, v, at(V, v) + dt * d3);
+        });
+        product(S4, A, [&](int v, Lanes d4) {
+          Lanes next = at(V, v);
+          next += sixth * (at(Dsum, v) + d4);
+          store_lanes(vm + v * w, next);
+        });
+      }
+    }
+    return true;
+  }
+
   bool has_tangent() const override { return true; }
 
   // out = J(s) v, the equations above linearised; (u, w) are the slow and fast parts of v:
