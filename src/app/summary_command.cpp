@@ -682,6 +682,10 @@ void print_response(const ArchiveSummary& s) {
   std::printf("\nlocal slope of the ensemble time mean at each case, along each parameter with "
               "the others fixed (central differences, one-sided at the ends of the axis): "
               "slope +- std error\n");
+  if (s.pair_groups > 0) {
+    std::printf("(paired cases: the errors include the correlation of the cases' means, "
+                "estimated over %lld groups of members)\n", static_cast<long long>(s.pair_groups));
+  }
   std::vector<std::vector<std::string>> local{{"case"}};
   for (const std::string& a : s.axes) local[0].push_back(a);
   for (const std::string& a : s.axes) {

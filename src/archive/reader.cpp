@@ -46,6 +46,7 @@ void read_identity(const h5::Group& root, ArchiveSummary& s) {
   s.spec_sha256 = root.string_attribute("spec_sha256");
   s.ranks = root.int64_attribute("ranks");
   s.members = root.int64_attribute("members_per_case");
+  if (root.has_attribute("pair_groups")) s.pair_groups = root.int64_attribute("pair_groups");
 }
 
 /// The number of values a dataset of `q`'s dimensions holds in this archive: the product of

@@ -25,6 +25,7 @@ struct ArchiveSummary : results::EnsembleResults {
   std::int64_t ranks = 0;
   std::int64_t cases = 0;
   std::int64_t members = 0;                      // per case
+  std::int64_t pair_groups = 0;  // groups behind paired cases' local-slope errors (0: unpaired)
   std::vector<std::string> axes;                 // swept parameters
   std::vector<std::vector<double>> axis_values;  // [axis][case]
   std::vector<std::string> forcings;  // additive forcings of /response/predicted_slope
