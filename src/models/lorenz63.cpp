@@ -86,23 +86,7 @@ class Lorenz63 final : public Model {
 
   // out = J(x) v, Lorenz63Equations::tangent (the Jacobian of the equations above).
   void tangent(const double* x, const double* v, double* out, int width) const override {
-    const Lorenz63Equations e = equations_;
-    const double* x0 = x;
-    const double* x1 = x + width;
-    const double* x2 = x + 2 * width;
-    const double* v0 = v;
-    const double* v1 = v + width;
-    const double* v2 = v + 2 * width;
-#pragma GCC ivdep
-    for (int m = 0; m < width; ++m) {
-      const double s[3] = {x0[m], x1[m], x2[m]};
-      const double d[3] = {v0[m], v1[m], v2[m]};
-      double o[3];
-      e.tangent(s, d, o);
-      out[m] = o[0];
-      out[width + m] = o[1];
-      out[2 * width + m] = o[2];
-    }
+    tangent_3(equations_, x, v, out, width);
   }
 
   bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,

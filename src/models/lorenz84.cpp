@@ -81,24 +81,8 @@ class Lorenz84 final : public Model {
   bool has_tangent() const override { return true; }
 
   // out = J(x) v, Lorenz84Equations::tangent.
-  void tangent(const double* s, const double* v, double* out, int width) const override {
-    const Lorenz84Equations e = equations();
-    const double* x = s;
-    const double* y = s + width;
-    const double* z = s + 2 * width;
-    const double* v0 = v;
-    const double* v1 = v + width;
-    const double* v2 = v + 2 * width;
-#pragma GCC ivdep
-    for (int m = 0; m < width; ++m) {
-      const double at[3] = {x[m], y[m], z[m]};
-      const double by[3] = {v0[m], v1[m], v2[m]};
-      double o[3];
-      e.tangent(at, by, o);
-      out[m] = o[0];
-      out[width + m] = o[1];
-      out[2 * width + m] = o[2];
-    }
+  void tangent(const double* x, const double* v, double* out, int width) const override {
+    tangent_3(equations(), x, v, out, width);
   }
 
   bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,

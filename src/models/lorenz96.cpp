@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "integrators/lanes.hpp"
+#include "models/fused_tangent.hpp"
 #include "models/lorenz96_equations.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
@@ -98,99 +99,38 @@ class Lorenz96 final : public Model {
 
   std::size_t fused_tangent_rk4_scratch(int width) const override {
     (void)width;
-    return 9 * static_cast<std::size_t>(n_) * integrators::kLanes;
+    return fused_tangent_rows_scratch(n_);
   }
 
-  // The state and its tangent vectors one register of members (integrators::Lanes) at a
-  // time, each stage one sweep around the ring over rows of kLanes doubles per site that stay
-  // in cache (scratch: the start X, stage inputs S2 .. S4, the running sum T of the state's
-  // k1 + 2 k2 + 2 k3; a vector V, its stage inputs A and B, its running sum D), with
-  // TangentRk4Batch's operations per member in its order. The tangent products pass through
-  // integrators::opaque, as the generic stepper stores them.
+  // The state and its tangent vectors one register of members at a time, each stage one sweep
+  // around the ring (models/fused_tangent.hpp, fused_tangent_rows).
   bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,
                               double* scratch) const override {
-    using integrators::Lanes;
     using integrators::load_lanes;
-    using integrators::store_lanes;
     constexpr int kL = integrators::kLanes;
     const int n = n_;
     if (width % kL != 0 || n < 4) return false;
     const Lorenz96Equations e = equations_;
-    const long w = width, size = static_cast<long>(n) * w;
-    const double half = 0.5 * dt, sixth = dt / 6.0;
-    const long rows = static_cast<long>(n) * kL;
-    double* const X = scratch;
-    double* const S2 = X + rows;
-    double* const S3 = S2 + rows;
-    double* const S4 = S3 + rows;
-    double* const T = S4 + rows;
-    double* const V = T + rows;
-    double* const A = V + rows;
-    double* const B = A + rows;
-    double* const D = B + rows;
     auto at = [](const double* p, int k) { return load_lanes(p + static_cast<long>(k) * kL); };
-    auto put = [](double* p, int k, Lanes v) { store_lanes(p + static_cast<long>(k) * kL, v); };
-    // the state's tendencies at `in`, handed to out(k, tendency)
+    auto neighbours = [n](int k, int& km2, int& km1, int& kp1) {
+      kp1 = k + 1 < n ? k + 1 : k + 1 - n;
+      km1 = k >= 1 ? k - 1 : k - 1 + n;
+      km2 = k >= 2 ? k - 2 : k - 2 + n;
+    };
     auto tendencies = [&](const double* in, auto out) {
-      for (int k = 0; k < n; ++k) {
-        const int kp1 = k + 1 < n ? k + 1 : k + 1 - n;
-        const int km1 = k >= 1 ? k - 1 : k - 1 + n;
-        const int km2 = k >= 2 ? k - 2 : k - 2 + n;
+      for (int k = 0, km2, km1, kp1; k < n; ++k) {
+        neighbours(k, km2, km1, kp1);
         out(k, e.site(at(in, km2), at(in, km1), at(in, k), at(in, kp1)));
       }
     };
-    // the tangent products at state `s` of vector `in`, handed to out(k, product)
     auto products = [&](const double* s, const double* in, auto out) {
-      for (int k = 0; k < n; ++k) {
-        const int kp1 = k + 1 < n ? k + 1 : k + 1 - n;
-        const int km1 = k >= 1 ? k - 1 : k - 1 + n;
-        const int km2 = k >= 2 ? k - 2 : k - 2 + n;
-        out(k, integrators::opaque(Lorenz96Equations::site_tangent(
-                   at(s, km2), at(s, km1), at(s, kp1), at(in, km2), at(in, km1), at(in, k),
-                   at(in, kp1))));
+      for (int k = 0, km2, km1, kp1; k < n; ++k) {
+        neighbours(k, km2, km1, kp1);
+        out(k, Lorenz96Equations::site_tangent(at(s, km2), at(s, km1), at(s, kp1), at(in, km2),
+                                               at(in, km1), at(in, k), at(in, kp1)));
       }
     };
-    for (long m0 = 0; m0 < w; m0 += kL) {
-      for (int k = 0; k < n; ++k) put(X, k, load_lanes(x + k * w + m0));
-      tendencies(X, [&](int k, Lanes k1) {
-        put(T, k, k1);
-        put(S2, k, at(X, k) + half * k1);
-      });
-      tendencies(S2, [&](int k, Lanes k2) {
-        put(T, k, at(T, k) + 2.0 * k2);
-        put(S3, k, at(X, k) + half * k2);
-      });
-      tendencies(S3, [&](int k, Lanes k3) {
-        put(T, k, at(T, k) + 2.0 * k3);
-        put(S4, k, at(X, k) + dt * k3);
-      });
-      tendencies(S4, [&](int k, Lanes k4) {
-        Lanes next = at(X, k);
-        next += sixth * (at(T, k) + k4);
-        store_lanes(x + k * w + m0, next);
-      });
-      for (int j = 0; j < vectors; ++j) {
-        double* const vm = tangents + j * size + m0;
-        for (int k = 0; k < n; ++k) put(V, k, load_lanes(vm + k * w));
-        products(X, V, [&](int k, Lanes d1) {
-          put(D, k, d1);
-          put(A, k, at(V, k) + half * d1);
-        });
-        products(S2, A, [&](int k, Lanes d2) {
-          put(D, k, at(D, k) + 2.0 * d2);
-          put(B, k, at(V, k) + half * d2);
-        });
-        products(S3, B, [&](int k, Lanes d3) {
-          put(D, k, at(D, k) + 2.0 * d3);
-          put(A, k, at(V, k) + dt * d3);
-        });
-        products(S4, A, [&](int k, Lanes d4) {
-          Lanes next = at(V, k);
-          next += sixth * (at(D, k) + d4);
-          store_lanes(vm + k * w, next);
-        });
-      }
-    }
+    fused_tangent_rows(n, x, tangents, vectors, dt, width, scratch, tendencies, products);
     return true;
   }
 

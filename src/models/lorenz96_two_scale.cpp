@@ -27,6 +27,7 @@
 #include <vector>
 
 #include "integrators/lanes.hpp"
+#include "models/fused_tangent.hpp"
 #include "models/model.hpp"
 #include "models/parameter_access.hpp"
 
@@ -238,7 +239,7 @@ class Lorenz96TwoScale final : public Model {
     using integrators::load_lanes;
     using integrators::store_lanes;
     constexpr int kL = integrators::kLanes;
-    const int K = K_, J = J_, NL = K_ * J_, D = K + NL;
+    const int K = K_, NL = K_ * J_, D = K + NL;
     const long w = width;
     const double half = 0.5 * dt, sixth = dt / 6.0;
     double* const A = scratch;               // [D][kL] stage input
@@ -271,88 +272,23 @@ class Lorenz96TwoScale final : public Model {
  public:
   std::size_t fused_tangent_rk4_scratch(int width) const override {
     (void)width;
-    return 9 * static_cast<std::size_t>(state_dim()) * integrators::kLanes;
+    return fused_tangent_rows_scratch(state_dim());
   }
 
   // The state and its tangent vectors one register of members at a time, each stage one
-  // sweep over the sites (tendencies(), products()) over rows of a register per variable
-  // (scratch: the start X, stage inputs S2 .. S4, the state's running sum T; a vector V, its
-  // stage inputs A and B, its running sum D), with TangentRk4Batch's operations per member in
-  // its order; the products pass through integrators::opaque, as the generic stepper stores
-  // them.
+  // sweep over the sites (tendencies(), products(); models/fused_tangent.hpp).
   bool fused_tangent_rk4_step(double* x, double* tangents, int vectors, double dt, int width,
                               double* scratch) const override {
-    using integrators::Lanes;
-    using integrators::load_lanes;
-    using integrators::store_lanes;
     constexpr int kL = integrators::kLanes;
     if (!fused_applies(width)) return false;
     const StageConstants p = constants();
-    const int D = state_dim();
-    const long w = width, size = static_cast<long>(D) * w, rows = static_cast<long>(D) * kL;
-    const double half = 0.5 * dt, sixth = dt / 6.0;
-    double* const X = scratch;
-    double* const S2 = X + rows;
-    double* const S3 = S2 + rows;
-    double* const S4 = S3 + rows;
-    double* const T = S4 + rows;
-    double* const V = T + rows;
-    double* const A = V + rows;
-    double* const B = A + rows;
-    double* const Dsum = B + rows;
-    auto at = [](const double* q, int v) { return load_lanes(q + static_cast<long>(v) * kL); };
-    auto put = [](double* q, int v, Lanes value) {
-      store_lanes(q + static_cast<long>(v) * kL, value);
+    auto row = [](const double* q) {
+      return [q](int v) { return integrators::load_lanes(q + static_cast<long>(v) * kL); };
     };
-    auto from = [&at](const double* q) { return [q, &at](int v) { return at(q, v); }; };
-    auto product = [this, &p](const double* s, const double* in, auto out) {
-      auto row_of = [](const double* q) {
-        return [q](int v) { return load_lanes(q + static_cast<long>(v) * kL); };
-      };
-      products(p, row_of(s), row_of(in),
-               [&out](int v, Lanes d) { out(v, integrators::opaque(d)); });
-    };
-    for (long m0 = 0; m0 < w; m0 += kL) {
-      for (int v = 0; v < D; ++v) put(X, v, load_lanes(x + v * w + m0));
-      tendencies(p, from(X), [&](int v, Lanes k1) {
-        put(T, v, k1);
-        put(S2, v, at(X, v) + half * k1);
-      });
-      tendencies(p, from(S2), [&](int v, Lanes k2) {
-        put(T, v, at(T, v) + 2.0 * k2);
-        put(S3, v, at(X, v) + half * k2);
-      });
-      tendencies(p, from(S3), [&](int v, Lanes k3) {
-        put(T, v, at(T, v) + 2.0 * k3);
-        put(S4, v, at(X, v) + dt * k3);
-      });
-      tendencies(p, from(S4), [&](int v, Lanes k4) {
-        Lanes next = at(X, v);
-        next += sixth * (at(T, v) + k4);
-        store_lanes(x + v * w + m0, next);
-      });
-      for (int j = 0; j < vectors; ++j) {
-        double* const vm = tangents + j * size + m0;
-        for (int v = 0; v < D; ++v) put(V, v, load_lanes(vm + v * w));
-        product(X, V, [&](int v, Lanes d1) {
-          put(Dsum, v, d1);
-          put(A, v, at(V, v) + half * d1);
-        });
-        product(S2, A, [&](int v, Lanes d2) {
-          put(Dsum, v, at(Dsum, v) + 2.0 * d2);
-          put(B, v, at(V, v) + half * d2);
-        });
-        product(S3, B, [&](int v, Lanes d3) {
-          put(Dsum, v, at(Dsum, v) + 2.0 * d3);
-          put(A, v, at(V, v) + dt * d3);
-        });
-        product(S4, A, [&](int v, Lanes d4) {
-          Lanes next = at(V, v);
-          next += sixth * (at(Dsum, v) + d4);
-          store_lanes(vm + v * w, next);
-        });
-      }
-    }
+    fused_tangent_rows(
+        state_dim(), x, tangents, vectors, dt, width, scratch,
+        [&](const double* in, auto out) { tendencies(p, row(in), out); },
+        [&](const double* s, const double* in, auto out) { products(p, row(s), row(in), out); });
     return true;
   }
 
