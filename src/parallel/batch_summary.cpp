@@ -85,16 +85,15 @@ void add_twins(const std::vector<double>& lead, double threshold, const run::Bat
 
 /// Per group of members (paired cases), the valid members and the sums of their time means
 /// and regime fractions, [group][1 + observables + regimes], added in member order.
-void add_pair_groups(int groups, std::int64_t members, std::size_t n_obs, std::size_t n_regimes,
-                     const run::BatchResult& b, std::vector<double>& out) {
+void add_pair_groups(const plan::Plan& plan, const run::BatchResult& b, std::vector<double>& out) {
+  const std::size_t n_obs = plan.observables.size(), n_regimes = plan.regime_labels.size();
   const std::size_t width = 1 + n_obs + n_regimes;
   const std::size_t at = out.size();
-  out.resize(at + static_cast<std::size_t>(groups) * width, 0.0);
+  out.resize(at + static_cast<std::size_t>(plan.pair_groups) * width, 0.0);
   for (int i = 0; i < b.count; ++i) {
     if (b.status[i] != run::kValid) continue;
     const std::size_t row = static_cast<std::size_t>(i);
-    const std::int64_t member = b.first_member + i;
-    double* g = out.data() + at + static_cast<std::size_t>(member * groups / members) * width;
+    double* g = out.data() + at + static_cast<std::size_t>(plan.pair_group(b.first_member + i)) * width;
     g[0] += 1.0;
     for (std::size_t o = 0; o < n_obs; ++o) g[1 + o] += b.time_mean[row * n_obs + o];
     for (std::size_t k = 0; k < n_regimes; ++k) {
@@ -152,9 +151,7 @@ Summariser::Summariser(const spec::Spec& spec, const plan::Plan& plan)
       lead_(parts_.leads > 0 ? run::twin_leads(plan.twins, spec.integration.dt) : std::vector<double>{}),
       threshold_(spec.statistics.twins.threshold),
       observables_(plan.observables.size()),
-      members_(plan.members),
-      pair_groups_(plan.pair_groups),
-      regimes_(plan.regime_labels.size()) {}
+      plan_(plan) {}
 
 void Summariser::append(const run::BatchResult& b, std::vector<double>& summary,
                         std::vector<std::int64_t>& counts) const {
@@ -172,7 +169,7 @@ void Summariser::append(const run::BatchResult& b, std::vector<double>& summary,
     }
     summary.insert(summary.end(), b.response_sums.begin(), b.response_sums.end());
   }
-  if (parts_.pair_width > 0) add_pair_groups(pair_groups_, members_, observables_, regimes_, b, summary);
+  if (parts_.pair_width > 0) add_pair_groups(plan_, b, summary);
   std::int64_t non_finite = 0;
   for (int i = 0; i < b.count; ++i) non_finite += b.status[i] != run::kValid ? 1 : 0;
   counts.push_back(non_finite);

@@ -65,9 +65,7 @@ class Summariser {
   std::vector<double> lead_;  // twin lead times (none without twins)
   double threshold_;
   std::size_t observables_;
-  std::int64_t members_;  // per case
-  int pair_groups_;
-  std::size_t regimes_;
+  const plan::Plan& plan_;  // outlives the summariser, as for LocalPartial
 };
 
 /// Fills b.summary and b.summary_counts (a Summariser made for one batch).
