@@ -17,19 +17,29 @@ constexpr std::size_t kMomentWidth = stats::Moments::kPacked;
 
 /// Per estimated column, the moments across the batch's valid members whose value is finite
 /// (a regime's mean residence is NaN for a member that never visited it).
+/// Every column's values are added in member order; the columns of a member go side by side
+/// (their updates are independent, so they overlap instead of waiting on one another).
 void add_estimated(const std::vector<Estimated>& estimated, const run::BatchResult& b,
                    std::vector<double>& out) {
+  std::vector<const double*> values;
+  std::size_t columns = 0;
   for (const Estimated& e : estimated) {
-    const std::vector<double>& values = results::array_of<double>(b, *e.quantity);
-    for (std::size_t column = 0; column < e.width; ++column) {
-      stats::Moments m;
-      for (int i = 0; i < b.count; ++i) {
-        const double v = values[static_cast<std::size_t>(i) * e.width + column];
-        if (b.status[i] == run::kValid && std::isfinite(v)) m.add(v);
+    values.push_back(results::array_of<double>(b, *e.quantity).data());
+    columns += e.width;
+  }
+  std::vector<stats::Moments> m(columns);
+  for (int i = 0; i < b.count; ++i) {
+    if (b.status[i] != run::kValid) continue;
+    stats::Moments* column = m.data();
+    for (std::size_t q = 0; q < estimated.size(); ++q) {
+      const std::size_t width = estimated[q].width;
+      const double* row = values[q] + static_cast<std::size_t>(i) * width;
+      for (std::size_t k = 0; k < width; ++k, ++column) {
+        if (std::isfinite(row[k])) column->add(row[k]);
       }
-      m.append_to(out);
     }
   }
+  for (const stats::Moments& column : m) column.append_to(out);
 }
 
 /// Per observable, the sums behind the time mean's standard error over the valid members.

@@ -399,6 +399,7 @@ void BatchWork::collect_moments() {
   result_.time_mean_stderr.assign(static_cast<std::size_t>(count_) * n, kNaN);
   result_.time_mean_tau.assign(static_cast<std::size_t>(count_) * n, kNaN);
   result_.time_mean_samples.assign(static_cast<std::size_t>(count_) * n, kNaN);
+  std::vector<stats::BlockLevel> levels;
   for (int j = 0; j < count_; ++j) {
     if (non_finite_[j]) continue;
     for (int o = 0; o < n; ++o) {
@@ -407,7 +408,7 @@ void BatchWork::collect_moments() {
       result_.time_mean[i] = m.n > 0.0 ? m.mean : kNaN;
       result_.time_variance[i] = m.variance();
       // one sample per step: tau_int in steps times dt is tau_int in model time units
-      const stats::BlockingEstimate e = moments_.standard_error(moment_series_[o], j);
+      const stats::BlockingEstimate e = moments_.standard_error(moment_series_[o], j, m, levels);
       result_.time_mean_stderr[i] = e.stderr_;
       result_.time_mean_tau[i] = e.tau_int * setup_.dt;
       result_.time_mean_samples[i] = e.n_eff;

@@ -122,7 +122,13 @@ void BlockedMeans::push(std::size_t level, const double* values) {
 }
 
 std::vector<BlockLevel> BlockedMeans::levels(int cell) const {
-  std::vector<BlockLevel> out(counts_.size());
+  std::vector<BlockLevel> out;
+  levels(cell, out);
+  return out;
+}
+
+void BlockedMeans::levels(int cell, std::vector<BlockLevel>& out) const {
+  out.resize(counts_.size());
   const std::size_t c = static_cast<std::size_t>(cells_);
   for (std::size_t k = 0; k < counts_.size(); ++k) {
     out[k].block_length = std::ldexp(static_cast<double>(base_length_), static_cast<int>(k));
@@ -130,7 +136,6 @@ std::vector<BlockLevel> BlockedMeans::levels(int cell) const {
                                  mean_[k * c + static_cast<std::size_t>(cell)],
                                  m2_[k * c + static_cast<std::size_t>(cell)]};
   }
-  return out;
 }
 
 void BlockedMeans::save(const std::string& prefix, SavedState& out) const {

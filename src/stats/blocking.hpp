@@ -94,6 +94,8 @@ class BlockedMeans {
 
   /// The levels of cell i (level k: blocks of base_length * 2^k samples).
   std::vector<BlockLevel> levels(int cell) const;
+  /// The same into `out` (resized), which a caller reuses from cell to cell.
+  void levels(int cell, std::vector<BlockLevel>& out) const;
   std::int64_t base_blocks() const { return counts_.empty() ? 0 : counts_.front(); }
   std::int64_t base_length() const { return base_length_; }
 

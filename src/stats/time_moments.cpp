@@ -80,8 +80,14 @@ void TimeMoments::flush() {
 }
 
 BlockingEstimate TimeMoments::standard_error(int series, int member) const {
-  const Moments m = moments(series, member);
-  return blocking_estimate(blocks_.levels(series * width_ + member), m.n, m.variance());
+  std::vector<BlockLevel> levels;
+  return standard_error(series, member, moments(series, member), levels);
+}
+
+BlockingEstimate TimeMoments::standard_error(int series, int member, const Moments& moments,
+                                             std::vector<BlockLevel>& levels) const {
+  blocks_.levels(series * width_ + member, levels);
+  return blocking_estimate(levels, moments.n, moments.variance());
 }
 
 Moments TimeMoments::moments(int series, int member) const {

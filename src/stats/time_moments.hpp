@@ -69,6 +69,10 @@ class TimeMoments {
   /// time in samples (blocking_estimate over the full blocks so far; NaN while fewer than
   /// kMinBlocks blocks are complete).
   BlockingEstimate standard_error(int series, int member) const;
+  /// The same given the series' moments(series, member) and a scratch for its levels, reused
+  /// from member to member.
+  BlockingEstimate standard_error(int series, int member, const Moments& moments,
+                                  std::vector<BlockLevel>& levels) const;
 
   /// The complete state as arrays `<prefix>origin`, `shift`, `s1`, `s2`, `n`, `mean`, `m2`
   /// ([series][width] each), `<prefix>counts` {samples in the block, samples merged} and the
