@@ -26,6 +26,7 @@
 #include "core/error.hpp"
 #include "integrators/rk4.hpp"
 #include "run/batch_work.hpp"
+#include "run/gaussian_lanes.hpp"
 #include "run/member_noise.hpp"
 #include "run/schedule.hpp"
 
@@ -95,15 +96,32 @@ std::vector<double> attractor_state(const models::Model& model, int width, std::
   return base;
 }
 
-std::vector<double> perturbed_state(const spec::Ensemble& ensemble,
-                                    const std::vector<double>& base, std::int64_t case_index,
-                                    std::int64_t member) {
-  const MemberNoise noise(ensemble.seed, case_index, member);
+/// The initial states of members first .. first + count - 1 of the case keyed `case_index`,
+/// [count][dim]: component i of member m is base_i + scale noise_m(i), the member's own draw i
+/// (MemberNoise). Gaussian draws are computed for all the members side by side, component by
+/// component (gaussian_row: bitwise MemberNoise::gaussian, a vector register of members at a
+/// time), so that a short member's set-up costs little beside its steps.
+std::vector<double> perturbed_states(const spec::Ensemble& ensemble,
+                                     const std::vector<double>& base, std::int64_t case_index,
+                                     std::int64_t first, int count) {
+  const std::size_t d = base.size(), n = static_cast<std::size_t>(count);
   const double scale = ensemble.perturbation.scale;
-  const bool gaussian = ensemble.perturbation.distribution == spec::Distribution::gaussian;
-  std::vector<double> x(base.size());
-  for (std::size_t i = 0; i < base.size(); ++i) {
-    x[i] = base[i] + scale * (gaussian ? noise.gaussian(i) : noise.uniform(i));
+  std::vector<double> x(n * d);
+  if (ensemble.perturbation.distribution != spec::Distribution::gaussian) {
+    for (std::size_t m = 0; m < n; ++m) {
+      const MemberNoise noise(ensemble.seed, case_index, first + static_cast<std::int64_t>(m));
+      for (std::size_t i = 0; i < d; ++i) x[m * d + i] = base[i] + scale * noise.uniform(i);
+    }
+    return x;
+  }
+  std::vector<std::uint64_t> keys(n);
+  for (std::size_t m = 0; m < n; ++m) {
+    keys[m] = MemberNoise(ensemble.seed, case_index, first + static_cast<std::int64_t>(m)).key();
+  }
+  std::vector<double> draws(n);
+  for (std::size_t i = 0; i < d; ++i) {
+    gaussian_row(keys.data(), count, i, 1.0, draws.data(), nullptr);
+    for (std::size_t m = 0; m < n; ++m) x[m * d + i] = base[i] + scale * draws[m];
   }
   return x;
 }
@@ -171,7 +189,8 @@ Setup make_setup(const spec::Spec& spec, const plan::Plan& plan, const plan::Cas
 
 std::vector<double> member_initial_state(const spec::Spec& spec, const std::vector<double>& base,
                                          std::int64_t case_index, std::int64_t member) {
-  return perturbed_state(spec.ensemble, base, spec::key_case(spec.ensemble, case_index), member);
+  return perturbed_states(spec.ensemble, base, spec::key_case(spec.ensemble, case_index), member,
+                          1);
 }
 
 struct CaseRunner::Impl {
@@ -263,13 +282,8 @@ BatchResult CaseRunner::run(const plan::Batch& batch) const {
 std::unique_ptr<BatchProgress> CaseRunner::start(const plan::Batch& batch) const {
   const Impl& p = *impl_;
   check_batch(batch, p.case_index, p.setup);
-  std::vector<double> initial;
-  initial.reserve(static_cast<std::size_t>(batch.count) * p.setup.state_dim);
-  for (int j = 0; j < batch.count; ++j) {
-    const std::vector<double> x =
-        perturbed_state(p.ensemble, p.base, p.setup.key_case, batch.first_member + j);
-    initial.insert(initial.end(), x.begin(), x.end());
-  }
+  std::vector<double> initial =
+      perturbed_states(p.ensemble, p.base, p.setup.key_case, batch.first_member, batch.count);
   return std::make_unique<BatchWork>(p.setup, *p.model, p.base, batch, std::move(initial));
 }
 

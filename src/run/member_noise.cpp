@@ -1,15 +1,12 @@
 // SplitMix64 stream per member and the two noise distributions; see member_noise.hpp.
 #include "run/member_noise.hpp"
 
-#include <cmath>
-
 #include "run/gaussian_lanes.hpp"
 
 namespace chaosweep::run {
 namespace {
 
 constexpr std::uint64_t kGolden = 0x9e3779b97f4a7c15ULL;  // 2^64 / golden ratio, odd
-constexpr double kTwoPi = 6.283185307179586476925286766559;
 constexpr double kTwoPow53 = 9007199254740992.0;
 
 /// SplitMix64 output mixing function (a bijection of 64-bit integers).
@@ -40,11 +37,13 @@ std::uint64_t MemberNoise::bits(std::uint64_t j) const { return mix64(key_ + (j 
 
 double MemberNoise::uniform(std::uint64_t i) const { return 2.0 * unit(bits(i)) - 1.0; }
 
-// Box-Muller: z = sqrt(-2 ln u1) cos(2 pi u2) with u1 in (0, 1] and u2 in [0, 1).
+// Box-Muller: z = sqrt(-2 ln u1) cos(2 pi u2) with u1 in (0, 1] and u2 in [0, 1), the cosine
+// branch of pair i computed as gaussian_lanes.hpp does (its own logarithm and cosine, not the C
+// library's), so that gaussian_row gives the same values for many members at once.
 double MemberNoise::gaussian(std::uint64_t i) const {
-  const double u1 = 1.0 - unit(bits(2 * i));
-  const double u2 = unit(bits(2 * i + 1));
-  return std::sqrt(-2.0 * std::log(u1)) * std::cos(kTwoPi * u2);
+  double c = 0.0, s = 0.0;
+  gaussian_pair(key_, i, 1.0, c, s);
+  return c;
 }
 
 WienerDraw wiener_draw(std::int64_t step, int noisy, int r) {

@@ -29,7 +29,9 @@ class MemberNoise {
   /// Noise for state component i, uniform on [-1, 1) (from draw i).
   double uniform(std::uint64_t i) const;
 
-  /// Noise for state component i, standard normal (Box-Muller from draws 2i and 2i + 1).
+  /// Noise for state component i, standard normal (Box-Muller from draws 2i and 2i + 1): the
+  /// cosine branch of the stream's pair i (run/gaussian_lanes.hpp, bitwise gaussian_pair's c
+  /// at scale 1, and so gaussian_row's for many members at once).
   double gaussian(std::uint64_t i) const;
 
   /// The stream's key (the SplitMix64 start): the Wiener increments' draws are computed from

@@ -12,6 +12,7 @@
 #include "numerics_fixtures.hpp"
 #include "plan/plan.hpp"
 #include "run/batch_runner.hpp"
+#include "run/member_noise.hpp"
 #include "spec/spec.hpp"
 #include "stats/histogram.hpp"
 
@@ -269,6 +270,36 @@ TEST(BatchRunner, InitialStateDependsOnSeedCaseMemberOnly) {
   for (int j = 0; j < 8; ++j) {
     EXPECT_TRUE(bitwise_equal(row(res.initial_state, j, 3),
                          run::member_initial_state(spec, runner.base_state(), 0, 8 + j)));
+  }
+}
+
+// A batch draws its members' perturbations side by side (a vector register of members at a
+// time); each must be the member's own Box-Muller draw, wherever it sits in the batch: bitwise
+// MemberNoise::gaussian (the cosine branch of the member's pair i), and within 3 ulp of
+// sqrt(-2 ln u1) cos(2 pi u2) from the member's uniforms in long double (Box and Muller (1958),
+// Ann. Math. Statist. 29, 610).
+TEST(BatchRunner, BatchPerturbationsAreEachMembersOwnBoxMullerDraw) {
+  spec::Spec spec = l63_spec();
+  spec.ensemble.members = 40;
+  spec.run.batch_size = 19;  // two whole registers and a short one
+  spec.ensemble.perturbation = {spec::Distribution::gaussian, 0.5};
+  const plan::Plan plan = plan::make_plan(spec);
+  const run::CaseRunner runner(spec, plan, plan.cases[0]);
+  const std::vector<double>& base = runner.base_state();
+  const run::BatchResult res = runner.run(batch(0, 21, 19));
+  for (int j = 0; j < 19; ++j) {
+    const std::int64_t member = 21 + j;
+    const std::vector<double> alone = run::member_initial_state(spec, base, 0, member);
+    EXPECT_TRUE(bitwise_equal(row(res.initial_state, j, 3), alone)) << "member " << member;
+    const run::MemberNoise noise(spec.ensemble.seed, 0, member);
+    for (std::uint64_t i = 0; i < 3; ++i) {
+      EXPECT_EQ(alone[i], base[i] + 0.5 * noise.gaussian(i)) << "member " << member;
+      const long double u1 = 1.0L - static_cast<long double>(noise.bits(2 * i) >> 11) * 0x1p-53L;
+      const long double u2 = static_cast<long double>(noise.bits(2 * i + 1) >> 11) * 0x1p-53L;
+      const long double r = std::sqrt(-2.0L * std::log(u1));
+      const long double z = r * std::cos(6.283185307179586476925286766559L * u2);
+      EXPECT_NEAR(noise.gaussian(i), static_cast<double>(z), 6.7e-16 * (static_cast<double>(r) + 1.0));
+    }
   }
 }
 
