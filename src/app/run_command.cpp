@@ -526,6 +526,7 @@ int run_command(const RunOptions& options) {
       return kExitStopped;
     }
 
+    store->flush_done();  // every finished batch on disk before the archive is written
     log_checkpoint_cost(comm, *store, seconds_since(start));
     const std::vector<run::BatchResult> local = work.take_results();
     if (!part.whole()) return finish_part(comm, options, spec, plan, range, local, work, *store,

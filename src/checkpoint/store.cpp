@@ -128,6 +128,10 @@ double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
+double clock_seconds(std::chrono::steady_clock::time_point t) {
+  return std::chrono::duration<double>(t.time_since_epoch()).count();
+}
+
 }  // namespace
 
 Store::Store(std::string directory, std::string spec_sha256, int rank)
@@ -217,13 +221,33 @@ void Store::save_done(const run::BatchResult& result) const {
   record_.assign(kSegmentHeaderSize, '\0');  // room for the header, then the payload
   encode_body(to_record(result, spec_sha256_), &record_);
   seal_segment_record(&record_, result.batch_index, spec_sha256_);
-  segment_->append(record_);
-  segment_unsynced_ = true;
+  if (pending_.empty()) pending_since_ = clock_seconds(start);
+  pending_ += record_;
   stats_.bytes += static_cast<double>(record_.size());
+  stats_.seconds += seconds_since(start);
+  if (pending_.size() >= kFlushBytes || clock_seconds(start) - pending_since_ >= kFlushSeconds) {
+    flush_done();
+  }
+}
+
+Store::~Store() {
+  try {
+    flush_done();
+  } catch (...) {  // NOLINT(bugprone-empty-catch): a resume redoes the batches not written
+  }
+}
+
+void Store::flush_done() const {
+  if (pending_.empty()) return;
+  const auto start = std::chrono::steady_clock::now();
+  segment_->append(pending_);  // all or nothing: on failure the segment is cut back
+  pending_.clear();
+  segment_unsynced_ = true;
   stats_.seconds += seconds_since(start);
 }
 
 void Store::sync_done() const {
+  flush_done();
   if (!segment_unsynced_ && !directory_unsynced_) return;
   const auto start = std::chrono::steady_clock::now();
   if (segment_unsynced_) segment_->sync();
@@ -383,6 +407,7 @@ std::optional<run::BatchState> Store::load_state(std::int64_t generation, std::i
 }
 
 void Store::remove_all() const {
+  pending_.clear();
   segment_.reset();
   manifests_.clear();
   segment_unsynced_ = directory_unsynced_ = false;
@@ -395,6 +420,7 @@ void Store::remove_all() const {
 }
 
 bool Store::remove_if_nothing_saved() const {
+  flush_done();  // finished batches gathered in memory count as saved
   for (const auto& [rank, path] : segments()) {
     try {
       if (!scan_segment(path, spec_sha256_).entries.empty()) return false;

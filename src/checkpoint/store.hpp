@@ -50,6 +50,8 @@ class Store {
  public:
   /// `rank` names the segment this process appends finished batches to.
   Store(std::string directory, std::string spec_sha256, int rank);
+  /// Writes the records still gathered (best effort: what fails is redone by a resume).
+  ~Store();
 
   const std::string& directory() const { return directory_; }
 
@@ -66,12 +68,20 @@ class Store {
   /// Removes leftovers of an interrupted write (temporary files, partial generations).
   void remove_leftovers() const;
 
-  /// Appends a finished batch to this rank's segment at once. The record survives the death of
-  /// the process immediately and a crash of the machine after the next sync_done() (called
-  /// with every generation). The first append to an existing segment cuts it back to its last
-  /// sound record.
+  /// Appends a finished batch to this rank's segment. Records are gathered in memory and
+  /// written together (one write() instead of one per batch: short batches finish thousands of
+  /// times a second) when they reach kFlushBytes or the first of them is kFlushSeconds old, and
+  /// at every flush_done() and sync_done(). A written record survives the death of the process,
+  /// and a crash of the machine after the next sync_done() (called with every generation); a
+  /// kill loses at most the last kFlushSeconds of finished batches, which a resume redoes. The
+  /// first write to an existing segment cuts it back to its last sound record.
   void save_done(const run::BatchResult& result) const;
+  /// Writes the records gathered so far (no sync).
+  void flush_done() const;
+  /// flush_done(), then fsync of the segment (and of done/ when the segment is new).
   void sync_done() const;
+  static constexpr std::size_t kFlushBytes = std::size_t{1} << 20;
+  static constexpr double kFlushSeconds = 0.25;
   /// Reads the record headers of every segment (seeking past the payloads) and indexes the
   /// records of batches in [first, last).
   DoneIndex index_done(std::int64_t first, std::int64_t last) const;
@@ -104,8 +114,9 @@ class Store {
   /// Deletes the directory's checkpoint files (after the archive is complete, or to discard
   /// an earlier run's), and the directory itself when nothing else is in it.
   void remove_all() const;
-  /// remove_all() when the directory holds no finished batch and no complete generation
-  /// (a run that failed before it saved anything); returns whether it did.
+  /// remove_all() when the directory holds no finished batch (written or gathered: it writes
+  /// them first) and no complete generation (a run that failed before it saved anything);
+  /// returns whether it did.
   bool remove_if_nothing_saved() const;
 
   /// What this process has written so far (for the cost report in the log): files created,
@@ -134,6 +145,8 @@ class Store {
   };
   mutable std::map<std::int64_t, Manifest> manifests_;  // generations load_state() read
   mutable std::string record_;                      // the record being appended (reused)
+  mutable std::string pending_;                     // sealed records not yet written
+  mutable double pending_since_ = 0.0;              // steady-clock seconds of the first of them
   mutable bool segment_unsynced_ = false;           // records appended since the last sync
   mutable bool directory_unsynced_ = false;         // the segment was created since then
 };

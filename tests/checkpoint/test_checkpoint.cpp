@@ -103,6 +103,7 @@ TEST_F(StoreTest, FinishedBatchRoundTripIsBitwise) {
   store.initialise("campaign: {name: x}\n");
   const run::BatchResult in = sample_result(7);
   store.save_done(in);
+  store.flush_done();  // records are gathered, then written together
   std::string problem;
   const auto out = load(store, 7, &problem);
   ASSERT_TRUE(out.has_value()) << problem;
@@ -159,6 +160,7 @@ TEST_F(StoreTest, FlippedBitInAPayloadCostsOnlyItsBatch) {
   const Store store(dir_.string(), "abc", 0);
   store.initialise("spec");
   for (std::int64_t b : {3, 4, 5}) store.save_done(sample_result(b));
+  store.flush_done();
   const std::vector<std::uint64_t> at = record_offsets(segment(dir_, 0));
   ASSERT_EQ(at.size(), 3u);
   flip_bit(segment(dir_, 0), (at[1] + kSegmentHeaderSize + at[2]) / 2);  // inside batch 4's payload
@@ -174,6 +176,7 @@ TEST_F(StoreTest, DamagedHeaderResynchronisesAtTheNextRecord) {
   const Store store(dir_.string(), "abc", 0);
   store.initialise("spec");
   for (std::int64_t b : {0, 1, 2, 3}) store.save_done(sample_result(b));
+  store.flush_done();
   const std::vector<std::uint64_t> at = record_offsets(segment(dir_, 0));
   flip_bit(segment(dir_, 0), at[1] + 20);  // batch 1's index field
   const DoneIndex index = store.index_done(0, 10);
@@ -213,6 +216,7 @@ TEST_F(StoreTest, RecordCutShortIsIgnoredAndCutBackBeforeTheNextAppend) {
     EXPECT_FALSE(resumed.load_done(index, 1, nullptr).has_value());
 
     resumed.save_done(sample_result(1));  // recomputed after the resume
+    resumed.flush_done();
     EXPECT_EQ(resumed.write_stats().files, 0);  // appended to, not created
     EXPECT_EQ(record_offsets(file), (std::vector<std::uint64_t>{0, second}));
     index = resumed.index_done(0, 10);
@@ -220,6 +224,36 @@ TEST_F(StoreTest, RecordCutShortIsIgnoredAndCutBackBeforeTheNextAppend) {
     EXPECT_TRUE(index.problems.empty());
     EXPECT_TRUE(resumed.load_done(index, 1, nullptr).has_value());
   }
+}
+
+// Finished batches are gathered and written together: nothing reaches the segment until
+// flush_done(), 1 MiB of records, or the store's end; then every record is there, in order.
+TEST_F(StoreTest, GatheredRecordsAreWrittenTogether) {
+  const fs::path file = segment(dir_, 0);
+  {
+    const Store store(dir_.string(), "abc", 0);
+    store.initialise("spec");
+    for (std::int64_t b : {0, 1, 2}) store.save_done(sample_result(b));
+    EXPECT_EQ(fs::file_size(file), 0u);  // created with the first batch, still empty
+    store.flush_done();
+    EXPECT_EQ(record_offsets(file).size(), 3u);
+    run::BatchResult big = sample_result(3);
+    big.trajectory.assign((std::size_t{1} << 20) / 8 / 3, 0.25);  // a third of a MiB
+    for (std::int64_t b : {3, 4}) {
+      big.batch_index = b;
+      store.save_done(big);
+    }
+    EXPECT_EQ(record_offsets(file).size(), 3u);
+    big.batch_index = 5;
+    store.save_done(big);  // past 1 MiB gathered
+    EXPECT_EQ(record_offsets(file).size(), 6u);
+    store.save_done(sample_result(6));
+    EXPECT_EQ(record_offsets(file).size(), 6u);
+  }  // the store's end writes batch 6
+  const Store reader(dir_.string(), "abc", 1);
+  const DoneIndex index = reader.index_done(0, 10);
+  EXPECT_EQ(index.batches.size(), 7u);
+  EXPECT_TRUE(index.problems.empty());
 }
 
 // A batch recomputed after damage has several records: the first sound one is used.
@@ -231,6 +265,8 @@ TEST_F(StoreTest, FirstSoundRecordOfABatchIsUsed) {
   rank1.save_done(first);
   rank0.save_done(second);
   rank0.save_done(first);
+  rank0.flush_done();
+  rank1.flush_done();
   std::string problem;
   EXPECT_EQ(load(rank0, 6, &problem)->histogram, second.histogram);  // segment 0 comes first
   flip_bit(segment(dir_, 0), kSegmentHeaderSize + 100);
@@ -255,6 +291,7 @@ TEST_F(StoreTest, LargeSegmentIsReadExactlyAcrossReadAheadWindows) {
   };
   const std::int64_t n = 1500;
   for (std::int64_t b = 0; b < n; ++b) store.save_done(result(b));
+  store.flush_done();
   const fs::path file = segment(dir_, 0);
   const std::vector<std::uint64_t> at = record_offsets(file);
   ASSERT_EQ(at.size(), static_cast<std::size_t>(n));
@@ -287,6 +324,7 @@ TEST_F(StoreTest, RandomDamageNeverGivesAWrongBatch) {
   const Store store(dir_.string(), "abc", 0);
   store.initialise("spec");
   for (std::int64_t b = 0; b < 6; ++b) store.save_done(sample_result(b));
+  store.flush_done();
   const std::string pristine = read_file(segment(dir_, 0).string());
   std::mt19937_64 random(12345);
   int found = 0;
