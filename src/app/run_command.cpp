@@ -233,6 +233,7 @@ bool run_rounds(const parallel::Communicator& comm, const spec::Spec& spec,
   bool done = work.done();
   for (long round = 1;; ++round) {
     if (!done) done = work.work(round_seconds);
+    store.flush_done();  // the round's finished batches, written together
     test_hooks::maybe_stop(comm.rank(), round);
     test_hooks::maybe_throw(comm.rank(), round);
     test_hooks::round_delay();

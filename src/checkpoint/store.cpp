@@ -128,10 +128,6 @@ double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
-double clock_seconds(std::chrono::steady_clock::time_point t) {
-  return std::chrono::duration<double>(t.time_since_epoch()).count();
-}
-
 }  // namespace
 
 Store::Store(std::string directory, std::string spec_sha256, int rank)
@@ -221,13 +217,10 @@ void Store::save_done(const run::BatchResult& result) const {
   record_.assign(kSegmentHeaderSize, '\0');  // room for the header, then the payload
   encode_body(to_record(result, spec_sha256_), &record_);
   seal_segment_record(&record_, result.batch_index, spec_sha256_);
-  if (pending_.empty()) pending_since_ = clock_seconds(start);
   pending_ += record_;
   stats_.bytes += static_cast<double>(record_.size());
   stats_.seconds += seconds_since(start);
-  if (pending_.size() >= kFlushBytes || clock_seconds(start) - pending_since_ >= kFlushSeconds) {
-    flush_done();
-  }
+  if (pending_.size() >= kFlushBytes) flush_done();
 }
 
 Store::~Store() {

@@ -70,18 +70,18 @@ class Store {
 
   /// Appends a finished batch to this rank's segment. Records are gathered in memory and
   /// written together (one write() instead of one per batch: short batches finish thousands of
-  /// times a second) when they reach kFlushBytes or the first of them is kFlushSeconds old, and
-  /// at every flush_done() and sync_done(). A written record survives the death of the process,
-  /// and a crash of the machine after the next sync_done() (called with every generation); a
-  /// kill loses at most the last kFlushSeconds of finished batches, which a resume redoes. The
-  /// first write to an existing segment cuts it back to its last sound record.
+  /// times a second) when they reach kFlushBytes, and at every flush_done() (the run calls it
+  /// after each round of work, about half a second) and sync_done(). A written record survives
+  /// the death of the process, and a crash of the machine after the next sync_done() (called
+  /// with every generation); a kill loses at most the batches finished in the current round,
+  /// which a resume redoes. The first write to an existing segment cuts it back to its last
+  /// sound record.
   void save_done(const run::BatchResult& result) const;
   /// Writes the records gathered so far (no sync).
   void flush_done() const;
   /// flush_done(), then fsync of the segment (and of done/ when the segment is new).
   void sync_done() const;
   static constexpr std::size_t kFlushBytes = std::size_t{1} << 20;
-  static constexpr double kFlushSeconds = 0.25;
   /// Reads the record headers of every segment (seeking past the payloads) and indexes the
   /// records of batches in [first, last).
   DoneIndex index_done(std::int64_t first, std::int64_t last) const;
@@ -146,7 +146,6 @@ class Store {
   mutable std::map<std::int64_t, Manifest> manifests_;  // generations load_state() read
   mutable std::string record_;                      // the record being appended (reused)
   mutable std::string pending_;                     // sealed records not yet written
-  mutable double pending_since_ = 0.0;              // steady-clock seconds of the first of them
   mutable bool segment_unsynced_ = false;           // records appended since the last sync
   mutable bool directory_unsynced_ = false;         // the segment was created since then
 };
