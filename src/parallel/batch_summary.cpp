@@ -16,9 +16,9 @@ namespace {
 constexpr std::size_t kMomentWidth = stats::Moments::kPacked;
 
 /// Per estimated column, the moments across the batch's valid members whose value is finite
-/// (a regime's mean residence is NaN for a member that never visited it).
-/// Every column's values are added in member order; the columns of a member go side by side
-/// (their updates are independent, so they overlap instead of waiting on one another).
+/// (a regime's mean residence is NaN for a member that never visited it), added in member
+/// order; a member's columns go side by side (independent updates overlap instead of waiting
+/// on one another).
 void add_estimated(const std::vector<Estimated>& estimated, const run::BatchResult& b,
                    std::vector<double>& out) {
   std::vector<const double*> values;
