@@ -29,7 +29,6 @@ struct Pack {
 };
 template <int G> using Doubles = Pack<Lanes, G>;
 template <int G> using Keys = Pack<KeyLanes, G>;
-template <int G> using Ints = Pack<LaneInts, G>;
 
 /// a b + c rounded once where the build has fused multiply-add (explicitly, not left to the
 /// compiler), a b then + c otherwise.
@@ -68,16 +67,13 @@ inline std::uint64_t offset(std::uint64_t j, int) { return (j + 1) * kGolden; }
 template <int G>
 inline KeyLanes offset(const Keys<G>& j, int g) { return (j.v[g] + 1) * kGolden; }
 
-/// The top 53 bits of draw j of each lane's stream, mix64(key + (j + 1) golden) >> 11: the
-/// uniform (bits) 2^-53 in [0, 1). J: one counter for every lane, or Keys<G> of counters.
+/// Draw j of each lane's stream, mix64(key + (j + 1) golden): 64 random bits. J: one counter
+/// for every lane, or Keys<G> of counters.
 template <int G, typename J>
-inline Ints<G> top_bits(const Keys<G>& key, const J& j) {
+inline Keys<G> words(const Keys<G>& key, const J& j) {
   Keys<G> bits;
   for (int g = 0; g < G; ++g) bits.v[g] = key.v[g] + offset(j, g);
-  bits = mix64(bits);
-  Ints<G> k;
-  for (int g = 0; g < G; ++g) k.v[g] = __builtin_convertvector(bits.v[g] >> 11, LaneInts);
-  return k;
+  return mix64(bits);
 }
 
 /// Correctly rounded square root of every lane (the IEEE-754 operation; the translation unit
@@ -88,21 +84,23 @@ inline Lanes sqrt_lanes(Lanes v) {
   return r;
 }
 
-/// scale sqrt(-2 ln u) for u = 1 - k 2^-53 in [2^-53, 1] (k < 2^53; exact). u = 2^e m with m
-/// in (sqrt(1/2), sqrt(2)], f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s
-/// = 2 s + 2 s z p(z) with z = s^2 <= (3 - 2 sqrt(2))^2 < 0.0295 and p the degree-6 Chebyshev
+/// scale sqrt(-2 ln u) for u = 1 - (w >> 12) 2^-52 in [2^-52, 1] from the word w: v = 1 + (w >> 12)
+/// 2^-52 in [1, 2) by setting the exponent bits, u = 2 - v (exact). u = 2^e m with m in
+/// (sqrt(1/2), sqrt(2)], f = m - 1 (exact), s = f / (2 + f), and ln m = 2 atanh s
+/// = 2 s (1 + z p(z)) with z = s^2 <= (3 - 2 sqrt(2))^2 < 0.0295 and p the degree-6 Chebyshev
 /// interpolant of (atanh(s)/s - 1)/z on [0, 0.0295] (coefficients computed for this file in
-/// 40-digit arithmetic; interpolation error 1.6e-16 of p, so ln m is within about an ulp).
-/// -2 ln u = e (-2 ln2_hi) + (e (-2 ln2_lo) + (-2) ln m), with ln 2 split so that the first
-/// product is exact for |e| < 2^11 (ln2_hi has 32 significant bits; times -2 stays exact).
+/// 40-digit arithmetic; interpolation error 1.6e-16 of p). -2 ln m = s P(z) with P = -4 - 4 z p
+/// by Horner's rule (the coefficients times -4, exact), and -2 ln u = e (-2 ln 2) + s P(z),
+/// the product e (-2 ln 2) exact inside the fused multiply-add; ln 2's rounding (1e-17 relative)
+/// and the three roundings keep -2 ln u within about an ulp.
 template <int G>
-inline Doubles<G> box_muller_radius(const Ints<G>& k, double scale) {
-  constexpr double kLn2Hi = 6.93147180369123816490e-01;
-  constexpr double kLn2Lo = 1.90821492927058770002e-10;
+inline Doubles<G> box_muller_radius(const Keys<G>& w, double scale) {
+  constexpr double kLn2 = 6.93147180559945309417e-01;
   constexpr std::int64_t kAboveHalfSqrt2 = 0x3fe6a09e667f3bce;  // bits of the double after sqrt(1/2)
+  constexpr std::uint64_t kOne = 0x3ff0000000000000;              // bits of 1.0
   Doubles<G> s, z, ed;
   for (int g = 0; g < G; ++g) {
-    const Lanes u = 1.0 - __builtin_convertvector(k.v[g], Lanes) * 0x1p-53;
+    const Lanes u = 2.0 - reinterpret_cast<Lanes>((w.v[g] >> 12) | kOne);
     // the exponent e counted from the double just above sqrt(1/2): m = u 2^-e lands in
     // (sqrt(1/2), sqrt(2)] (bounds the nearest doubles) by integer operations alone
     const LaneInts b = reinterpret_cast<LaneInts>(u);
@@ -114,42 +112,40 @@ inline Doubles<G> box_muller_radius(const Ints<G>& k, double scale) {
     ed.v[g] = __builtin_convertvector(e, Lanes);
   }
   Doubles<G> p;
-  for (int g = 0; g < G; ++g) p.v[g] = Lanes{} + 0.07308224842521703;
-  horner(p, z, 0.07665860800278021);
-  horner(p, z, 0.09091444562630861);
-  horner(p, z, 0.1111110556739754);
-  horner(p, z, 0.14285714312987743);
-  horner(p, z, 0.19999999999949752);
-  horner(p, z, 0.3333333333333335);
+  for (int g = 0; g < G; ++g) p.v[g] = Lanes{} + -4.0 * 0.07308224842521703;
+  horner(p, z, -4.0 * 0.07665860800278021);
+  horner(p, z, -4.0 * 0.09091444562630861);
+  horner(p, z, -4.0 * 0.1111110556739754);
+  horner(p, z, -4.0 * 0.14285714312987743);
+  horner(p, z, -4.0 * 0.19999999999949752);
+  horner(p, z, -4.0 * 0.3333333333333335);
+  horner(p, z, -4.0);
   Doubles<G> r;
   for (int g = 0; g < G; ++g) {
-    const Lanes minus_four_s = -4.0 * s.v[g];
-    const Lanes ln_m = fmadd(minus_four_s, z.v[g] * p.v[g], minus_four_s);  // -2 ln m
-    const Lanes minus_two_ln_u = fmadd(ed.v[g], Lanes{} - 2.0 * kLn2Hi,
-                                       fmadd(ed.v[g], Lanes{} - 2.0 * kLn2Lo, ln_m));
+    const Lanes minus_two_ln_u = fmadd(ed.v[g], Lanes{} - 2.0 * kLn2, s.v[g] * p.v[g]);
     r.v[g] = scale * sqrt_lanes(minus_two_ln_u);
   }
   return r;
 }
 
-/// cos(2 pi u) and sin(2 pi u) for u = k 2^-53 in [0, 1) (k < 2^53). q = round(4u)
-/// = (k + 2^50) >> 51 and y = u - q/4 = (k - q 2^51) 2^-53 in [-1/8, 1/8] (both exact),
-/// theta = 2 pi y in [-pi/4, pi/4] (2 pi 2^-53 times an integer: one rounding); there
-/// sin theta = theta + theta z q_s(z) and cos theta = 1 + z q_c(z), z = theta^2, with q_s and
-/// q_c the degree-5 and degree-6 Chebyshev interpolants of (sin(t)/t - 1)/z and
-/// (cos(t) - 1)/z on [0, (pi/4)^2] (computed for this file in 40-digit arithmetic;
-/// interpolation errors 2e-17 and 2e-19); then the quadrant q mod 4 swaps and negates them
-/// (cos(q pi/2 + theta), sin(q pi/2 + theta)).
+/// A uniform point (c, s) on the unit circle from the word w: theta = 2 pi y 2^-53 with y the
+/// low 51 bits of w as a signed integer in [-2^50, 2^50) (exact; one rounding of the product),
+/// so theta is uniform in [-pi/4, pi/4), and (cos theta, sin theta) then carried by one of the
+/// square's eight symmetries, chosen by w's top three bits: bit 61 swaps the two, bit 63 negates
+/// c, bit 62 negates s. The eight images of [-pi/4, pi/4) tile the circle, so the angle is
+/// uniform on [0, 2 pi). On [-pi/4, pi/4], sin theta = theta + theta z q_s(z) and
+/// cos theta = 1 + z q_c(z), z = theta^2, with q_s and q_c the degree-5 and degree-6 Chebyshev
+/// interpolants of (sin(t)/t - 1)/z and (cos(t) - 1)/z on [0, (pi/4)^2] (computed for this file
+/// in 40-digit arithmetic; interpolation errors 2e-17 and 2e-19).
 template <int G>
-inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
+inline void unit_circle(const Keys<G>& w, Doubles<G>& c, Doubles<G>& s) {
   constexpr double kTwoPiUlp = 6.283185307179586476925286766559 * 0x1p-53;  // exact scaling
+  constexpr std::uint64_t kSign = std::uint64_t{1} << 63;
   Doubles<G> t, z;
-  Ints<G> quadrant;
   for (int g = 0; g < G; ++g) {
-    const LaneInts q = (k.v[g] + (std::int64_t{1} << 50)) >> 51;
-    t.v[g] = __builtin_convertvector(k.v[g] - (q << 51), Lanes) * kTwoPiUlp;
+    const LaneInts y = reinterpret_cast<LaneInts>(w.v[g] << 13) >> 13;
+    t.v[g] = __builtin_convertvector(y, Lanes) * kTwoPiUlp;
     z.v[g] = t.v[g] * t.v[g];
-    quadrant.v[g] = q & 3;
   }
   Doubles<G> pc, ps;
   for (int g = 0; g < G; ++g) pc.v[g] = Lanes{} - 1.1367998654022494e-11;
@@ -167,10 +163,9 @@ inline void sincos_turn(const Ints<G>& k, Doubles<G>& c, Doubles<G>& s) {
   horner(ps, z, 0.008333333333330948);
   horner(ps, z, -0.16666666666666666);
   for (int g = 0; g < G; ++g) ps.v[g] = fmadd(t.v[g], z.v[g] * ps.v[g], t.v[g]);
-  for (int g = 0; g < G; ++g) {  // signs flipped by xor: cosine negative in quadrants 1 and 2
-    const KeyLanes q = reinterpret_cast<KeyLanes>(quadrant.v[g]);
-    const KeyLanes c_sign = (q ^ (q >> 1)) << 63, s_sign = (q >> 1) << 63;
-    const LaneInts swap = (quadrant.v[g] & 1) != 0;
+  for (int g = 0; g < G; ++g) {  // signs flipped by xor
+    const KeyLanes c_sign = w.v[g] & kSign, s_sign = (w.v[g] << 1) & kSign;
+    const LaneInts swap = (w.v[g] & (kSign >> 2)) != 0;
     const Lanes cs = swap ? ps.v[g] : pc.v[g], sn = swap ? pc.v[g] : ps.v[g];
     c.v[g] = reinterpret_cast<Lanes>(reinterpret_cast<KeyLanes>(cs) ^ c_sign);
     s.v[g] = reinterpret_cast<Lanes>(reinterpret_cast<KeyLanes>(sn) ^ s_sign);
@@ -196,9 +191,9 @@ template <int G, typename P>
 inline void pairs(const Keys<G>& key, const P& pair, double scale, Doubles<G>& c,
                   Doubles<G>& s) {
   const P j = first_draw(pair);
-  const Doubles<G> r = box_muller_radius(top_bits(key, j), scale);
+  const Doubles<G> r = box_muller_radius(words(key, j), scale);
   Doubles<G> cos_u, sin_u;
-  sincos_turn(top_bits(key, second_draw(j)), cos_u, sin_u);
+  unit_circle(words(key, second_draw(j)), cos_u, sin_u);
   for (int g = 0; g < G; ++g) {
     c.v[g] = r.v[g] * cos_u.v[g];
     s.v[g] = r.v[g] * sin_u.v[g];
@@ -260,10 +255,10 @@ void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, dou
   }
 }
 
-void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s) {
-  const Doubles<1> r = box_muller_radius(Ints<1>{{LaneInts{} + k1}}, 1.0);
+void gaussian_from_words(std::uint64_t w1, std::uint64_t w2, double& c, double& s) {
+  const Doubles<1> r = box_muller_radius(Keys<1>{{KeyLanes{} + w1}}, 1.0);
   Doubles<1> cos_u, sin_u;
-  sincos_turn(Ints<1>{{LaneInts{} + k2}}, cos_u, sin_u);
+  unit_circle(Keys<1>{{KeyLanes{} + w2}}, cos_u, sin_u);
   c = (r.v[0] * cos_u.v[0])[0];
   s = (r.v[0] * sin_u.v[0])[0];
 }

@@ -2,10 +2,12 @@
 // register: integrators/lanes.hpp). Pure numerics: no state, no allocation.
 //
 // Lane l of a call computes the Box-Muller pair `pair[l]` of the SplitMix64 stream whose key
-// is `key[l]` (run/member_noise.hpp): with bits(j) = mix64(key + (j + 1) golden) and
-// unit(b) = (b >> 11) 2^-53,
-//   u1 = 1 - unit(bits(2 pair)) in (0, 1],   u2 = unit(bits(2 pair + 1)) in [0, 1),
-//   r = sqrt(-2 ln u1),   c = r cos(2 pi u2),   s = r sin(2 pi u2)
+// is `key[l]` (run/member_noise.hpp), from the two 64-bit words w1 = bits(2 pair) and
+// w2 = bits(2 pair + 1), bits(j) = mix64(key + (j + 1) golden):
+//   u1 = 1 - (w1 >> 12) 2^-52 in (0, 1],   r = sqrt(-2 ln u1),
+//   (cos phi, sin phi) a uniform point on the unit circle from w2 (gaussian_lanes.cpp: an angle
+//   in [-pi/4, pi/4) from 51 bits, carried by one of the square's eight symmetries chosen by
+//   three more),   c = r cos phi,   s = r sin phi
 // (G. E. P. Box and M. E. Muller (1958), Ann. Math. Statist. 29, 610). The logarithm, sine
 // and cosine are the project's own polynomial evaluations (gaussian_lanes.cpp), with every
 // operation element-wise, fused multiply-adds written out and the translation unit compiled
@@ -35,10 +37,10 @@ void gaussian_pair(std::uint64_t key, std::uint64_t pair, double scale, double& 
 void gaussian_stream(std::uint64_t key, std::uint64_t first_pair, int count, double scale,
                      double* c, double* s);
 
-/// The pair from the uniforms' 53-bit integers directly (u1 = 1 - k1 2^-53, u2 = k2 2^-53,
-/// 0 <= k < 2^53), as every lane computes it after the stream's bits: for checks at chosen
-/// uniforms (the ends of the ranges, the quadrant boundaries).
-void gaussian_from_bits(std::int64_t k1, std::int64_t k2, double& c, double& s);
+/// The pair from the two words directly (w1 = bits(2 pair), w2 = bits(2 pair + 1)), as every
+/// lane computes it after the stream's mixing: for checks at chosen words (the ends of the
+/// radius's range, the angle's ends and each of the eight symmetries).
+void gaussian_from_words(std::uint64_t w1, std::uint64_t w2, double& c, double& s);
 
 /// The pair `pair` of n streams (keys[0 .. n-1]) times `scale` into c[m] and s[m] (either
 /// output may be null: not wanted), kLanes streams at a time.

@@ -37,7 +37,7 @@ std::uint64_t MemberNoise::bits(std::uint64_t j) const { return mix64(key_ + (j 
 
 double MemberNoise::uniform(std::uint64_t i) const { return 2.0 * unit(bits(i)) - 1.0; }
 
-// Box-Muller: z = sqrt(-2 ln u1) cos(2 pi u2) with u1 in (0, 1] and u2 in [0, 1), the cosine
+// Box-Muller: z = sqrt(-2 ln u1) cos phi from the words of draws 2i and 2i + 1, the cosine
 // branch of pair i computed as gaussian_lanes.hpp does (its own logarithm and cosine, not the C
 // library's), so that gaussian_row gives the same values for many members at once.
 double MemberNoise::gaussian(std::uint64_t i) const {

@@ -45,7 +45,7 @@ class MemberNoise {
 /// Where the Wiener increment of noisy variable r (of `noisy` noisy variables, in the noise's
 /// order) at step k is drawn: draw index i = k * noisy + r of the stream, the cosine branch
 /// (i even) or the sine branch (i odd) of its Gaussian pair i / 2 (run/gaussian_lanes.hpp:
-/// Box-Muller from uniforms 2 pair and 2 pair + 1). Every value of every pair is used, also
+/// Box-Muller from words 2 pair and 2 pair + 1). Every value of every pair is used, also
 /// across steps when `noisy` is odd.
 struct WienerDraw {
   std::uint64_t pair;

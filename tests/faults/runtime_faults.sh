@@ -113,7 +113,7 @@ ensemble:
   members: 2
   initial_state: {from: attractor, spinup: 10}
   perturbation: {distribution: gaussian, scale: 60.0}
-  seed: 3
+  seed: 5
 integration: {dt: 0.09, spinup: 10, duration: 20}
 output: {archive: empty-case.h5}
 YAML

@@ -1,6 +1,8 @@
-// Shared helpers of the numerics tests: building models, random test states, bitwise compare.
+// Shared helpers of the numerics tests: building models, random test states, bitwise compare,
+// the long double Box-Muller reference.
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <cstring>
 #include <memory>
@@ -8,12 +10,35 @@
 #include <stdexcept>
 #include <string>
 #include <type_traits>
+#include <utility>
 #include <vector>
 
 #include "models/model.hpp"
 #include "spec/spec.hpp"
 
 namespace chaosweep::testing {
+
+/// The Box-Muller pair from its two words (run/gaussian_lanes.hpp), evaluated in long double
+/// (x87, 64-bit significand) with the C library's logl, cosl and sinl: u1 = 1 - (w1 >> 12) 2^-52,
+/// r = sqrt(-2 ln u1); theta = 2 pi y 2^-53 with y the low 51 bits of w2 as a signed integer;
+/// (cos theta, sin theta) swapped if bit 61 of w2 is set, then c negated by bit 63 and s by
+/// bit 62 (Box and Muller 1958 on those uniforms). The reference is exact to about 2^-63
+/// relative, so a difference is the vectorised pair's own error.
+struct ReferencePair {
+  long double r, c, s;
+};
+inline ReferencePair reference_pair(std::uint64_t w1, std::uint64_t w2) {
+  const long double u1 = 1.0L - static_cast<long double>(w1 >> 12) / 4503599627370496.0L;
+  const long double r = std::sqrt(-2.0L * std::log(u1));
+  const std::int64_t y = static_cast<std::int64_t>(w2 << 13) / (std::int64_t{1} << 13);
+  const long double theta =
+      6.283185307179586476925286766559L * static_cast<long double>(y) / 9007199254740992.0L;
+  long double c = std::cos(theta), s = std::sin(theta);
+  if ((w2 >> 61) & 1) std::swap(c, s);
+  if ((w2 >> 63) & 1) c = -c;
+  if ((w2 >> 62) & 1) s = -s;
+  return {r, r * c, r * s};
+}
 
 /// The registry entry of `name` (throws when the model is not registered).
 inline const models::ModelInfo& model_info(const std::string& name) {

@@ -275,9 +275,9 @@ TEST(BatchRunner, InitialStateDependsOnSeedCaseMemberOnly) {
 
 // A batch draws its members' perturbations side by side (a vector register of members at a
 // time); each must be the member's own Box-Muller draw, wherever it sits in the batch: bitwise
-// MemberNoise::gaussian (the cosine branch of the member's pair i), and within 3 ulp of
-// sqrt(-2 ln u1) cos(2 pi u2) from the member's uniforms in long double (Box and Muller (1958),
-// Ann. Math. Statist. 29, 610).
+// MemberNoise::gaussian (the cosine branch of the member's pair i), and within 3 ulp of the
+// pair's cosine branch from the member's words in long double (reference_pair,
+// numerics_fixtures.hpp; Box and Muller (1958), Ann. Math. Statist. 29, 610).
 TEST(BatchRunner, BatchPerturbationsAreEachMembersOwnBoxMullerDraw) {
   spec::Spec spec = l63_spec();
   spec.ensemble.members = 40;
@@ -294,11 +294,9 @@ TEST(BatchRunner, BatchPerturbationsAreEachMembersOwnBoxMullerDraw) {
     const run::MemberNoise noise(spec.ensemble.seed, 0, member);
     for (std::uint64_t i = 0; i < 3; ++i) {
       EXPECT_EQ(alone[i], base[i] + 0.5 * noise.gaussian(i)) << "member " << member;
-      const long double u1 = 1.0L - static_cast<long double>(noise.bits(2 * i) >> 11) * 0x1p-53L;
-      const long double u2 = static_cast<long double>(noise.bits(2 * i + 1) >> 11) * 0x1p-53L;
-      const long double r = std::sqrt(-2.0L * std::log(u1));
-      const long double z = r * std::cos(6.283185307179586476925286766559L * u2);
-      EXPECT_NEAR(noise.gaussian(i), static_cast<double>(z), 6.7e-16 * (static_cast<double>(r) + 1.0));
+      const ReferencePair ref = reference_pair(noise.bits(2 * i), noise.bits(2 * i + 1));
+      EXPECT_NEAR(noise.gaussian(i), static_cast<double>(ref.c),
+                  6.7e-16 * (static_cast<double>(ref.r) + 1.0));
     }
   }
 }

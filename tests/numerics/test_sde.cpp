@@ -6,8 +6,10 @@
 // increment is the sum of its fine ones. The difference of the means at successive steps then
 // cancels most of the sampling error, and the ratio of successive differences measures the
 // order p (it tends to 2^p).
+#include <gsl/gsl_cdf.h>
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <vector>
@@ -284,53 +286,74 @@ TEST(Sde, ForcingNoiseGivesTheKeyedIncrementsInAnyOrder) {
   }
 }
 
-// The vectorised Box-Muller pair (run/gaussian_lanes.hpp) against the same formula evaluated
-// in long double (x87, 64-bit significand) with the C library's logl, cosl and sinl on the same
-// uniforms, u1 = 1 - (bits(2j) >> 11) 2^-53 and u2 = (bits(2j + 1) >> 11) 2^-53 (Box and
-// Muller 1958): the reference is exact to about 2^-63 relative, so the difference is the
-// vectorised pair's own error. Tolerance: a few ulp (2^-52 = 2.2e-16) of r (up to 8.6) for the
-// log's and square root's rounding, plus a few ulp of 1 for the sine and cosine.
+// Every lane's pair against the long double reference on its stream's words. Tolerance: a few
+// ulp (2^-52 = 2.2e-16) of r (up to 8.5) for the log's and square root's rounding, plus a few
+// ulp of 1 for the sine and cosine.
 TEST(Sde, BoxMullerPairsAgreeWithTheCLibrary) {
   for (std::uint64_t k = 0; k < 4000; ++k) {
     const run::MemberNoise stream(11, static_cast<std::int64_t>(k % 7), static_cast<std::int64_t>(k), 2);
     for (std::uint64_t j = 0; j < 25; ++j) {
-      const double u1 = 1.0 - static_cast<double>(stream.bits(2 * j) >> 11) / 9007199254740992.0;
-      const double u2 = static_cast<double>(stream.bits(2 * j + 1) >> 11) / 9007199254740992.0;
-      const long double r_ref = std::sqrt(-2.0L * std::log(static_cast<long double>(u1)));
-      const long double phase = 6.283185307179586476925286766559L * static_cast<long double>(u2);
-      const double c_ref = static_cast<double>(r_ref * std::cos(phase));
-      const double s_ref = static_cast<double>(r_ref * std::sin(phase));
-      const double r = static_cast<double>(r_ref);
+      const ReferencePair ref = reference_pair(stream.bits(2 * j), stream.bits(2 * j + 1));
       double c = 0.0, s = 0.0;
       run::gaussian_pair(stream.key(), j, 1.0, c, s);
-      const double tol = 6.7e-16 * (r + 1.0);  // 3 ulp
-      ASSERT_NEAR(c, c_ref, tol) << "key " << k << " pair " << j;
-      ASSERT_NEAR(s, s_ref, tol) << "key " << k << " pair " << j;
+      const double tol = 6.7e-16 * (static_cast<double>(ref.r) + 1.0);  // 3 ulp
+      ASSERT_NEAR(c, static_cast<double>(ref.c), tol) << "key " << k << " pair " << j;
+      ASSERT_NEAR(s, static_cast<double>(ref.s), tol) << "key " << k << " pair " << j;
     }
   }
 }
 
-// The same comparison at chosen uniforms: u1 at both ends of (0, 1] (2^-53: the largest
-// radius, 8.57; 1: radius 0) and near 1/2, u2 at and beside every quadrant boundary and at
-// the ends of [0, 1) (against long double logl/cosl/sinl; 3 ulp of r + 1 as above).
-TEST(Sde, BoxMullerPairsAtTheEndsOfTheUniformRanges) {
-  const std::int64_t top = (std::int64_t{1} << 53) - 1;
-  const std::int64_t quarter = std::int64_t{1} << 51;
-  for (std::int64_t k1 : {std::int64_t{0}, std::int64_t{1}, std::int64_t{1} << 52, top - 1, top}) {
-    for (std::int64_t k2 : {std::int64_t{0}, std::int64_t{1}, quarter / 2, quarter / 2 + 1,
-                            quarter - 1, quarter, quarter + 1, 2 * quarter - 1, 2 * quarter,
-                            3 * quarter, 3 * quarter + 1, 4 * quarter - 1}) {
-      const long double u1 = 1.0L - static_cast<long double>(k1) / 9007199254740992.0L;
-      const long double u2 = static_cast<long double>(k2) / 9007199254740992.0L;
-      const long double r = std::sqrt(-2.0L * std::log(u1));
-      const long double phase = 6.283185307179586476925286766559L * u2;
-      double c = 0.0, s = 0.0;
-      run::gaussian_from_bits(k1, k2, c, s);
-      const double tol = 6.7e-16 * (static_cast<double>(r) + 1.0);
-      EXPECT_NEAR(c, static_cast<double>(r * std::cos(phase)), tol) << k1 << " " << k2;
-      EXPECT_NEAR(s, static_cast<double>(r * std::sin(phase)), tol) << k1 << " " << k2;
+// The same comparison at chosen words: u1 at both ends of (0, 1] (2^-52: the largest radius,
+// 8.49; 1: radius 0) and near 1/2, the angle at both ends of [-pi/4, pi/4) and at 0, under
+// each of the eight symmetries (against long double logl/cosl/sinl; 3 ulp of r + 1 as above).
+TEST(Sde, BoxMullerPairsAtTheEndsOfTheRanges) {
+  const std::uint64_t top = ~std::uint64_t{0};
+  const std::uint64_t half = std::uint64_t{1} << 63;
+  const std::uint64_t low51 = (std::uint64_t{1} << 51) - 1, sign51 = std::uint64_t{1} << 50;
+  for (std::uint64_t w1 : {std::uint64_t{0}, std::uint64_t{1} << 12, half, half - 1, top - (std::uint64_t{1} << 12), top}) {
+    for (std::uint64_t angle : {std::uint64_t{0}, std::uint64_t{1}, sign51 - 1, sign51, sign51 + 1, low51}) {
+      for (std::uint64_t symmetry = 0; symmetry < 8; ++symmetry) {
+        const std::uint64_t w2 = (symmetry << 61) | (std::uint64_t{0x155} << 51) | angle;
+        const ReferencePair ref = reference_pair(w1, w2);
+        double c = 0.0, s = 0.0;
+        run::gaussian_from_words(w1, w2, c, s);
+        const double tol = 6.7e-16 * (static_cast<double>(ref.r) + 1.0);
+        EXPECT_NEAR(c, static_cast<double>(ref.c), tol) << w1 << " " << w2;
+        EXPECT_NEAR(s, static_cast<double>(ref.s), tol) << w1 << " " << w2;
+      }
     }
   }
+}
+
+// The draws' distribution: the cosine and sine branches of 2e5 pairs (one per member stream)
+// each pass the Kolmogorov-Smirnov test against GSL's standard normal CDF, and the pair's
+// angle atan2(s, c) against the uniform distribution on (-pi, pi], at the 1 percent level
+// (critical value 1.628 / sqrt(n), the asymptotic Kolmogorov distribution; common practice).
+// An angle that covered part of the circle twice, or a radius off by a factor, fails.
+TEST(Sde, BoxMullerDrawsPassKolmogorovSmirnov) {
+  const int n = 200000;
+  std::vector<double> c(n), s(n), angle(n);
+  for (int m = 0; m < n; ++m) {
+    run::gaussian_pair(run::MemberNoise(5, 2, m, 2).key(), 7, 1.0, c[static_cast<std::size_t>(m)],
+                       s[static_cast<std::size_t>(m)]);
+    angle[static_cast<std::size_t>(m)] =
+        std::atan2(s[static_cast<std::size_t>(m)], c[static_cast<std::size_t>(m)]);
+  }
+  const auto ks = [n](std::vector<double> x, auto cdf) {
+    std::sort(x.begin(), x.end());
+    double d = 0.0;
+    for (int i = 0; i < n; ++i) {
+      const double f = cdf(x[static_cast<std::size_t>(i)]);
+      d = std::max({d, f - static_cast<double>(i) / n, static_cast<double>(i + 1) / n - f});
+    }
+    return d;
+  };
+  const double critical = 1.628 / std::sqrt(static_cast<double>(n));
+  const auto normal = [](double x) { return gsl_cdf_ugaussian_P(x); };
+  const auto uniform = [](double a) { return (a + M_PI) / (2.0 * M_PI); };
+  EXPECT_LT(ks(c, normal), critical);
+  EXPECT_LT(ks(s, normal), critical);
+  EXPECT_LT(ks(angle, uniform), critical);
 }
 
 // Each lane's pair depends only on its own key and counter (element-wise by design): rows of
