@@ -38,15 +38,11 @@ class MemberHistogram {
   void load(const std::string& prefix, SavedStateReader& in);
 
  private:
-  /// slot[m] = m * (bins + 1) + the bin of values[m], or + bins (a discard slot) when the
-  /// value is not counted. A branch-free loop over members.
-  void slots(const double* values, std::int32_t* slot) const;
-
   int bins_, width_;
   double low_, high_, scale_;   // scale_ = bins / (high - low)
   double bin_width_;            // (high - low) / bins
   std::vector<std::int64_t> counts_;  // [width][bins + 1]: the last entry of a row discards
-  std::vector<std::int32_t> slot_;    // [width], scratch
+  std::vector<std::int32_t> slot_;    // [width], scratch: member m counts at m (bins + 1) + bin
 };
 
 }  // namespace chaosweep::stats

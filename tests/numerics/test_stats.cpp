@@ -247,6 +247,49 @@ TEST(Histogram, EveryEdgeOpensItsBin) {
   for (int i = 0; i < bins; ++i) EXPECT_EQ(h.count(0, i), 2) << "bin " << i;
 }
 
+// Exact by construction, in every lane: 19 members (two SIMD registers and a tail) each see
+// every edge, the double just below and above it, values outside [low, high), infinities and
+// NaN, in a different order per member; each member's counts equal the definition applied
+// value by value (the bin i with edge_i <= v < edge_i+1, found by searching the edges), whether
+// the steps come together (a fused kernel's segment) or one at a time.
+TEST(Histogram, EveryLaneCountsByTheEdges) {
+  const int bins = 30, width = 19;
+  const double low = -1.0, high = 2.0;
+  std::vector<double> values = {low - 1.0, std::nextafter(low, -1e300), high, 7.5, kNaN,
+                                std::numeric_limits<double>::infinity(),
+                                -std::numeric_limits<double>::infinity()};
+  for (int i = 0; i <= bins; ++i) {
+    const double edge = histogram_edge(low, high, bins, i);
+    values.insert(values.end(), {edge, std::nextafter(edge, -1e300), std::nextafter(edge, 1e300)});
+  }
+  const int n = static_cast<int>(values.size());
+  const auto bin_of = [&](double v) {  // the definition, by search; -1 when not counted
+    for (int i = 0; i < bins; ++i) {
+      if (histogram_edge(low, high, bins, i) <= v && v < histogram_edge(low, high, bins, i + 1)) return i;
+    }
+    return -1;
+  };
+  std::vector<double> rows(static_cast<std::size_t>(n) * width);  // [step][member]
+  std::vector<std::int64_t> expected(static_cast<std::size_t>(width) * bins, 0);
+  for (int t = 0; t < n; ++t) {
+    for (int m = 0; m < width; ++m) {
+      const double v = values[static_cast<std::size_t>((t + 5 * m) % n)];
+      rows[static_cast<std::size_t>(t) * width + m] = v;
+      const int b = bin_of(v);
+      if (b >= 0) ++expected[static_cast<std::size_t>(m) * bins + b];
+    }
+  }
+  MemberHistogram steps(bins, low, high, width), one_by_one(bins, low, high, width);
+  steps.add_steps(rows.data(), n);
+  for (int t = 0; t < n; ++t) one_by_one.add(rows.data() + static_cast<std::size_t>(t) * width);
+  for (int m = 0; m < width; ++m) {
+    for (int b = 0; b < bins; ++b) {
+      EXPECT_EQ(steps.count(m, b), expected[static_cast<std::size_t>(m) * bins + b]) << m << " " << b;
+      EXPECT_EQ(one_by_one.count(m, b), expected[static_cast<std::size_t>(m) * bins + b]) << m << " " << b;
+    }
+  }
+}
+
 // ---- Student t and estimates ----------------------------------------------------------------
 
 // Published (standard t tables; the values are those of Abramowitz & Stegun 1964, ch. 26, as
