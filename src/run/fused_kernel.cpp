@@ -15,8 +15,10 @@
 //     (at the first sample of a block shift_i = x_i, at the very first also origin_i = x_i)
 //   sign regimes of state variable r:  regime = 0 if x_r >= 0 else 1 (NaN -> 1), then the
 //     RegimeCounter update (regimes.hpp) in 64-bit integer Lanes
-//   histogram of state variable h:     x_h stored to a [steps][width] buffer, counted after
-//     the segment by MemberHistogram::add_steps
+//   histogram of state variable h:     with AVX-512 x_h binned as the kernel steps
+//     (stats/histogram_lanes.hpp, the histogram's own rule) into a [steps][width] buffer of
+//     slots, counted after the segment by MemberHistogram::add_slots; otherwise x_h stored to
+//     a [steps][width] buffer, binned and counted after the segment by add_steps
 //   extremes, every state variable i:  x_i stored to the group's [steps][G][D] buffer of
 //     Lanes; after the segment Extremes::fold (a min and a max per sample, every series side
 //     by side) and merge_run (the sample index searched only where a running extreme is
@@ -40,6 +42,7 @@
 #include "run/lane_regimes.hpp"
 #include "run/schedule.hpp"
 #include "run/segment_noise.hpp"
+#include "stats/histogram.hpp"
 
 namespace chaosweep::run {
 namespace {
@@ -82,11 +85,19 @@ Lanes* sample_scratch(std::size_t n) {
   return rows.data();
 }
 
+#if defined(__AVX512F__)
+std::int32_t* slot_scratch(std::size_t n) {
+  static thread_local std::vector<std::int32_t> rows;
+  if (rows.size() < n) rows.resize(n);
+  return rows.data();
+}
+#else
 double* value_scratch(std::size_t n) {
   static thread_local std::vector<double> rows;
   if (rows.size() < n) rows.resize(n);
   return rows.data();
 }
+#endif
 
 /// One RK4 step of one Lanes (the segment's step t and the column are not needed). The steps
 /// are inlined into the group loops (left to the compiler, RK4 ran at 0.75 of its rate).
@@ -229,7 +240,14 @@ class FusedKernel final : public Kernel {
       : step_(step), width_(s.width), acc_(acc),
         regime_row_(acc.regimes ? s.regime_coordinates[0] : -1),
         histogram_row_(acc.histogram ? s.histogram_observable : -1) {
+#if defined(__AVX512F__)
+    if (acc.histogram) {
+      slots_ = slot_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
+      bins_.emplace(acc.histogram->lanes());
+    }
+#else
     if (acc.histogram) values_ = value_scratch(static_cast<std::size_t>(kMaxSegment) * s.width);
+#endif
     samples_ = sample_scratch(static_cast<std::size_t>(kMaxSegment) * kAccumulateGroup * D);
     if constexpr (Step::kNoisy) {
       const SegmentNoise& noise = noise_.emplace(s, members);
@@ -283,7 +301,11 @@ class FusedKernel final : public Kernel {
     moments.added(steps);
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
+#if defined(__AVX512F__)
+    if (acc_.histogram) acc_.histogram->add_slots(slots_, steps);
+#else
     if (acc_.histogram) acc_.histogram->add_steps(values_, steps);
+#endif
   }
 
  private:
@@ -332,7 +354,12 @@ class FusedKernel final : public Kernel {
   int width_;
   Accumulators acc_;
   int regime_row_, histogram_row_;  // state rows, -1 when not used
+#if defined(__AVX512F__)
+  std::int32_t* slots_ = nullptr;  // [kMaxSegment][width]: the histogram slot per step
+  std::optional<stats::HistogramLanes> bins_;  // the histogram's bin rule
+#else
   double* values_ = nullptr;  // [kMaxSegment][width]: the histogram observable per step
+#endif
   Lanes* samples_ = nullptr;  // [kMaxSegment][G][D]: the group's state per step (scratch rows)
 };
 
@@ -343,7 +370,21 @@ void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int ste
   // locals, so that stores through the row pointers cannot be taken to change them
   const Step step = step_;
   const int regime_row = regime_row_, histogram_row = histogram_row_;
+#if defined(__AVX512F__)
+  std::int32_t* const slots = slots_;
+  __m512i slot_rows[G];  // (bins + 1) m for each register's members m
+  if (histogram_row >= 0) {
+    const std::int64_t row = acc_.histogram->bins() + 1;
+    for (int g = 0; g < G; ++g) {
+      slot_rows[g] = _mm512_mullo_epi64(
+          _mm512_add_epi64(_mm512_set_epi64(7, 6, 5, 4, 3, 2, 1, 0),
+                           _mm512_set1_epi64(lane + g * L)),
+          _mm512_set1_epi64(row));
+    }
+  }
+#else
   double* const values = values_;
+#endif
   const long w = width_;
   const stats::TimeMoments::Rows m = acc_.moments->rows();
   stats::RegimeCounter::Rows r{};
@@ -377,7 +418,15 @@ void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int ste
         samples[(t * G + g) * D + i] = s[g][i];
       }
       if (regime_row >= 0) regime[g].add(pick(s[g], regime_row));
+#if defined(__AVX512F__)
+      if (histogram_row >= 0) {
+        const __m512i bin = bins_->bins(reinterpret_cast<__m512d>(pick(s[g], histogram_row)));
+        _mm256_storeu_si256(reinterpret_cast<__m256i*>(slots + t * w + lane + g * L),
+                            _mm512_cvtepi64_epi32(_mm512_add_epi64(slot_rows[g], bin)));
+      }
+#else
       if (histogram_row >= 0) store_lanes(values + t * w + lane + g * L, pick(s[g], histogram_row));
+#endif
     }
   }
   store_state(x, lane, s);

@@ -5,6 +5,7 @@
 #include <string>
 #include <vector>
 
+#include "stats/histogram_lanes.hpp"
 #include "stats/saved_state.hpp"
 
 namespace chaosweep::stats {
@@ -25,6 +26,14 @@ class MemberHistogram {
   void add(const double* values);
   /// `steps` time steps: values is [steps][width].
   void add_steps(const double* values, int steps);
+  /// `steps` time steps already binned: slots is [steps][width], member m's entry
+  /// m (bins + 1) + its bin, or + bins when its value is not counted (a fused kernel bins as it
+  /// steps, with lanes()).
+  void add_slots(const std::int32_t* slots, int steps);
+#if defined(__AVX512F__)
+  /// The bin rule on eight values at once: the same bins as add_steps.
+  HistogramLanes lanes() const;
+#endif
 
   std::int64_t count(int member, int bin) const;
   /// total[bin] += this member's count, for every bin (total has `bins` entries).

@@ -364,7 +364,7 @@ TEST(Kernels, ScheduledRingEqualsGenericBitwise) {
   ramp.schedule.to = 10.0;
   ramp.schedule.start = 0.5;
   ramp.schedule.end = 4.0;
-  ramp.sweep = {spec::SweepAxis{"F", {0.5}}};
+  ramp.sweep = {spec::SweepAxis{"F", {0.5}, {}}};
   ramp.schedule.offset_by_sweep = true;
   for (const spec::Spec& s : {periodic, ramp}) {
     const Campaign generic = run_at_width(s, 21);
@@ -397,7 +397,7 @@ TEST(Kernels, ScheduledFusedEqualsGenericBitwise) {
   rho.schedule.to = 32.0;
   rho.schedule.start = 0.3;
   rho.schedule.end = 5.0;
-  rho.sweep = {spec::SweepAxis{"rho", {1.5}}};
+  rho.sweep = {spec::SweepAxis{"rho", {1.5}, {}}};
   rho.schedule.offset_by_sweep = true;
   spec::Spec circulation = l84_spec();
   circulation.schedule.kind = spec::ScheduleKind::ramp;
