@@ -290,14 +290,11 @@ class FusedKernel final : public Kernel {
     stats::TimeMoments& moments = *acc_.moments;
     const bool opens_block = moments.block_starts();
     const bool first = moments.count() == 0;
-    int lane = 0;
-    for (; lane + Step::kGroup * L <= width_; lane += Step::kGroup * L) {
-      accumulate_group<Step::kGroup>(x, lane, steps, opens_block, first);
+    if (acc_.histogram) {
+      accumulate_groups<true>(x, steps, opens_block, first);
+    } else {
+      accumulate_groups<false>(x, steps, opens_block, first);
     }
-    for (; lane + 2 * L <= width_; lane += 2 * L) {
-      accumulate_group<2>(x, lane, steps, opens_block, first);
-    }
-    for (; lane < width_; lane += L) accumulate_group<1>(x, lane, steps, opens_block, first);
     moments.added(steps);
     acc_.extremes->added(steps);
     if (acc_.regimes) acc_.regimes->added(steps);
@@ -342,7 +339,22 @@ class FusedKernel final : public Kernel {
     store_state(x, lane, s);
   }
 
-  template <int G>
+  /// Every group of the batch; Histogram: whether the histogram is fed (its own instances,
+  /// so that a run without one has none of its code in the loop).
+  template <bool Histogram>
+  void accumulate_groups(double* x, int steps, bool opens_block, bool first) {
+    int lane = 0;
+    for (; lane + Step::kGroup * L <= width_; lane += Step::kGroup * L) {
+      accumulate_group<Step::kGroup, Histogram>(x, lane, steps, opens_block, first);
+    }
+    for (; lane + 2 * L <= width_; lane += 2 * L) {
+      accumulate_group<2, Histogram>(x, lane, steps, opens_block, first);
+    }
+    for (; lane < width_; lane += L) {
+      accumulate_group<1, Histogram>(x, lane, steps, opens_block, first);
+    }
+  }
+  template <int G, bool Histogram>
   void accumulate_group(double* x, int lane, int steps, bool opens_block, bool first);
   template <int G>
   void fold_extremes(int lane, int steps) const;
@@ -364,7 +376,7 @@ class FusedKernel final : public Kernel {
 };
 
 template <typename Equations, typename Step>
-template <int G>
+template <int G, bool Histogram>
 void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int steps,
                                                     bool opens_block, bool first) {
   // locals, so that stores through the row pointers cannot be taken to change them
@@ -373,7 +385,7 @@ void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int ste
 #if defined(__AVX512F__)
   std::int32_t* const slots = slots_;
   __m512i slot_rows[G];  // (bins + 1) m for each register's members m
-  if (histogram_row >= 0) {
+  if constexpr (Histogram) {
     const std::int64_t row = acc_.histogram->bins() + 1;
     for (int g = 0; g < G; ++g) {
       slot_rows[g] = _mm512_mullo_epi64(
@@ -419,13 +431,13 @@ void FusedKernel<Equations, Step>::accumulate_group(double* x, int lane, int ste
       }
       if (regime_row >= 0) regime[g].add(pick(s[g], regime_row));
 #if defined(__AVX512F__)
-      if (histogram_row >= 0) {
+      if constexpr (Histogram) {
         const __m512i bin = bins_->bins(reinterpret_cast<__m512d>(pick(s[g], histogram_row)));
         _mm256_storeu_si256(reinterpret_cast<__m256i*>(slots + t * w + lane + g * L),
                             _mm512_cvtepi64_epi32(_mm512_add_epi64(slot_rows[g], bin)));
       }
 #else
-      if (histogram_row >= 0) store_lanes(values + t * w + lane + g * L, pick(s[g], histogram_row));
+      if constexpr (Histogram) store_lanes(values + t * w + lane + g * L, pick(s[g], histogram_row));
 #endif
     }
   }
