@@ -5,7 +5,6 @@
 #include <cmath>
 #include <stdexcept>
 
-
 #include "core/error.hpp"
 
 namespace chaosweep::stats {
